@@ -1,0 +1,308 @@
+"""Checks of a world: tiling, rings, boundaries. Used by ``torque check``.
+
+:func:`check_world` returns a :class:`CheckReport`: a per-plate summary and the list of
+problems, each an error (the world cannot be used) or a warning (it can, with care).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import shapely
+from scipy.spatial import cKDTree
+
+from . import sphere
+from .world import Problem, World
+
+AREA_RTOL = 1e-9            # total area against 4 pi R^2
+BOUNDARY_TOL_KM = 1.0       # how far a boundary vertex may be from its plates' edges
+_CLUSTER_DEG = 5.0          # problem cells closer than this are reported once
+
+
+@dataclass(frozen=True)
+class CheckReport:
+    """What ``torque check`` reports."""
+
+    world: World
+    plates: list
+    problems: list
+
+    @property
+    def ok(self) -> bool:
+        return not any(p.severity == "error" for p in self.problems)
+
+    def as_dict(self) -> dict:
+        w = self.world
+        kinds = {}
+        for b in w.boundaries:
+            kinds.setdefault(b.kind, 0.0)
+            kinds[b.kind] += b.length * w.radius_m
+        return {
+            "world": w.name,
+            "radius_m": w.radius_m,
+            "total_area_m2": float(w.area_m2.sum()),
+            "sphere_area_m2": 4.0 * np.pi * w.radius_m ** 2,
+            "plates": self.plates,
+            "boundaries": {"derived": w.boundaries_derived, "count": len(w.boundaries),
+                           "length_m_by_kind": kinds},
+            "ok": self.ok,
+            "problems": [p.as_dict() for p in self.problems],
+        }
+
+
+def _plate_summary(world: World) -> list:
+    g = world.geometry
+    R = world.radius_m
+    area, first, _ = g.moments
+    lon, lat = sphere.xyz_to_lonlat(first)
+    perim = sphere.ring_perimeter(g.xyz, g.ring_start)
+    nvert = np.diff(g.ring_start)
+    neighbours = {p.name: set() for p in world.plates}
+    for b in world.boundaries:
+        if b.left in neighbours and b.right in neighbours:
+            neighbours[b.left].add(b.right)
+            neighbours[b.right].add(b.left)
+    out = []
+    for p in world.plates:
+        rings = g.ring_plate == p.index
+        out.append({
+            "plate": p.name,
+            "area_m2": float(area[p.index] * R ** 2),
+            "area_fraction": float(area[p.index] / (4 * np.pi)),
+            "perimeter_m": float(perim[rings].sum() * R),
+            "centroid_lon": float(lon[p.index]),
+            "centroid_lat": float(lat[p.index]),
+            "vertices": int(nvert[rings].sum()),
+            "rings": int(rings.sum()),
+            "holes": int((rings & g.ring_is_hole).sum()),
+            "neighbours": sorted(neighbours[p.name]),
+        })
+    return out
+
+
+def _clusters(xyz, radius_deg=_CLUSTER_DEG, most=10):
+    """Indices of representative points, one per cluster of nearby points."""
+    left = np.arange(len(xyz))
+    reps = []
+    cos_r = np.cos(np.radians(radius_deg))
+    while left.size and len(reps) < most:
+        k = left[0]
+        reps.append(k)
+        left = left[sphere.dot(xyz[left], xyz[k]) < cos_r]
+    return reps, left.size
+
+
+def _tiling_problems(world: World) -> list:
+    g = world.geometry
+    probs = []
+    total = g.moments[0].sum()
+    rel = total / (4 * np.pi) - 1.0
+    if abs(rel) > AREA_RTOL:
+        what = "overlap" if rel > 0 else "leave gaps"
+        probs.append(Problem("error", f"the plates' areas sum to {1 + rel:.12f} of the sphere "
+                             f"(relative difference {rel:.2e}): plates {what}; they must tile "
+                             "the sphere"))
+    for k, a in enumerate(g.moments[0]):
+        if a <= 1e-14:
+            probs.append(Problem("error", "the plate has no area (a degenerate ring?)",
+                                 plate=world.plates[k].name))
+    xyz, cov = g.locator.coverage_problems()
+    if len(xyz):
+        reps, rest = _clusters(xyz)
+        left = sphere.points_left_of_rings(xyz[reps], g.xyz, g.ring_start)
+        for j, k in enumerate(reps):
+            inside = (np.bincount(g.ring_plate, weights=left[j], minlength=g.n_plates)
+                      - np.bincount(g.ring_plate, weights=g.ring_is_hole, minlength=g.n_plates))
+            holders = [world.plates[i].name for i in np.nonzero(np.rint(inside) > 0)[0]]
+            lon, lat = sphere.xyz_to_lonlat(xyz[k])
+            if cov[k] < 1:
+                msg = "a gap: this point lies in no plate"
+            else:
+                msg = f"an overlap: this point lies in {cov[k]} plates ({', '.join(holders)})"
+            probs.append(Problem("error", msg, lon=float(lon), lat=float(lat)))
+        if rest:
+            probs.append(Problem("error", f"and {rest} more grid points in gaps or overlaps"))
+    return probs
+
+
+def _arc_boxes(a, b):
+    """Lon/lat boxes (degrees) of arcs, split at the antimeridian; returns boxes and owner."""
+    lon_a, _ = sphere.xyz_to_lonlat(a)
+    lon_b, _ = sphere.xyz_to_lonlat(b)
+    dlon = np.mod(lon_b - lon_a + 180.0, 360.0) - 180.0
+    lo = lon_a + np.minimum(dlon, 0.0)
+    hi = lon_a + np.maximum(dlon, 0.0)
+    la, lb = (np.degrees(t) for t in sphere.arc_lat_range(a, b))
+    owner = np.arange(len(a))
+    # pieces that run past +/-180 get a second box on the other side
+    wrap_lo, wrap_hi = lo < -180.0, hi > 180.0
+    boxes = [shapely.box(np.maximum(lo, -180.0), la, np.minimum(hi, 180.0), lb)]
+    owners = [owner]
+    if wrap_lo.any():
+        boxes.append(shapely.box(lo[wrap_lo] + 360.0, la[wrap_lo], 180.0, lb[wrap_lo]))
+        owners.append(owner[wrap_lo])
+    if wrap_hi.any():
+        boxes.append(shapely.box(-180.0, la[wrap_hi], hi[wrap_hi] - 360.0, lb[wrap_hi]))
+        owners.append(owner[wrap_hi])
+    return np.concatenate(boxes), np.concatenate(owners)
+
+
+def ring_crossings(geometry, frame=None):
+    """Pairs of edges of the same polygon part that cross each other.
+
+    Candidate pairs come from an STR-tree of the edges' exact lon/lat boxes (in a rotated
+    frame that keeps every arc away from the poles); each candidate is then tested exactly
+    with :func:`torque.sphere.arcs_cross`.
+
+    Returns
+    -------
+    pairs : ndarray of int, shape (K, 2)
+        Edge indices (edge ``i`` runs from vertex ``i`` to the next vertex of its ring).
+    """
+    g = geometry
+    if frame is None:
+        frame = g.locator.frame
+    nxt = sphere.ring_next(g.ring_start)
+    a, b = g.xyz @ frame.T, g.xyz[nxt] @ frame.T
+    poly = g.ring_polygon[sphere.ring_index(g.ring_start)]
+    boxes, owner = _arc_boxes(a, b)
+    tree = shapely.STRtree(boxes)
+    qi, ti = tree.query(boxes, predicate="intersects")
+    i, j = owner[qi], owner[ti]
+    keep = (i < j) & (poly[i] == poly[j]) & (nxt[i] != j) & (nxt[j] != i)
+    i, j = i[keep], j[keep]
+    pairs = np.unique(np.stack([i, j], axis=1), axis=0)
+    if len(pairs) == 0:
+        return pairs.reshape(0, 2)
+    hit = sphere.arcs_cross(a[pairs[:, 0]], b[pairs[:, 0]], a[pairs[:, 1]], b[pairs[:, 1]])
+    return pairs[hit]
+
+
+def _crossing_problems(world: World) -> list:
+    g = world.geometry
+    pairs = ring_crossings(g)
+    probs = []
+    seen = set()
+    for i, j in pairs[:50]:
+        r = int(np.searchsorted(g.ring_start, i, side="right") - 1)
+        key = int(g.ring_polygon[r])
+        if key in seen:
+            continue
+        seen.add(key)
+        plate = world.plates[int(g.ring_plate[r])]
+        lon, lat = sphere.xyz_to_lonlat(g.xyz[i])
+        n = int(np.sum(g.ring_polygon[np.searchsorted(g.ring_start, pairs[:, 0], "right") - 1]
+                       == key))
+        probs.append(Problem(
+            "error", f"the polygon crosses itself ({n} pair(s) of crossing edges; the first "
+            f"starts at ring vertex {i - g.ring_start[r]})", world.paths.get("plates"),
+            plate.feature, plate.name, float(lon), float(lat)))
+    return probs
+
+
+def boundary_offsets(world: World):
+    """Distance (radians) of every boundary vertex from the edges of its left and right plates.
+
+    Candidate edge pieces (plate edges split at 0.5 degrees) come from a k-d tree of their
+    midpoints; distances to them are exact point-to-arc distances.
+
+    Returns
+    -------
+    owner : ndarray of int, shape (K,)
+        Boundary (index into ``world.boundaries``) of each vertex.
+    xyz : ndarray, shape (K, 3)
+    dist : ndarray, shape (K,)
+        The larger of the two distances; ``inf`` where no edge of a plate is near.
+    """
+    g = world.geometry
+    idx = world.plate_index
+    tol = BOUNDARY_TOL_KM * 1e3 / world.radius_m
+    a, b, plate = g.edges
+    pa, pb, piece = sphere.densify_arcs(a, b, np.radians(0.5))
+    piece_plate = plate[piece]
+    half = 0.5 * np.linalg.norm(pa - pb, axis=1).max()
+    tree = cKDTree(sphere.normalize(pa + pb))
+
+    usable = [k for k, bd in enumerate(world.boundaries)
+              if bd.left in idx and bd.right in idx]
+    if not usable:
+        return np.zeros(0, int), np.zeros((0, 3)), np.zeros(0)
+    owner = np.concatenate([np.full(len(world.boundaries[k].xyz), k) for k in usable])
+    xyz = np.concatenate([world.boundaries[k].xyz for k in usable])
+    left = np.array([idx[bd.left] for bd in world.boundaries])[owner]
+    right = np.array([idx[bd.right] for bd in world.boundaries])[owner]
+
+    cand = tree.query_ball_point(xyz, r=2 * np.sin(tol / 2) + half + 1e-12)
+    counts = np.fromiter((len(c) for c in cand), dtype=np.int64, count=len(cand))
+    v = np.repeat(np.arange(len(xyz)), counts)
+    e = np.fromiter((j for c in cand for j in c), dtype=np.int64, count=int(counts.sum()))
+    dist = np.full((2, len(xyz)), np.inf)
+    for side, want in enumerate((left, right)):
+        sel = piece_plate[e] == want[v]
+        d = sphere.point_arc_distance(xyz[v[sel]], pa[e[sel]], pb[e[sel]])
+        np.minimum.at(dist[side], v[sel], d)
+    return owner, xyz, dist.max(axis=0)
+
+
+def _boundary_problems(world: World) -> list:
+    if world.boundaries_derived or not world.boundaries:
+        return []
+    R_km = world.radius_m / 1e3
+    tol = BOUNDARY_TOL_KM / R_km
+    idx = world.plate_index
+    path = world.paths.get("boundaries")
+    probs = []
+    owner, xyz, dist = boundary_offsets(world)
+    far = np.zeros(len(world.boundaries), bool)
+    for k in np.unique(owner[dist > tol]):
+        bd = world.boundaries[k]
+        mine = np.nonzero(owner == k)[0]
+        worst = mine[np.argmax(dist[mine])]
+        lon, lat = sphere.xyz_to_lonlat(xyz[worst])
+        d = dist[worst]
+        how = f"{d * R_km:.1f} km" if np.isfinite(d) else "far"
+        probs.append(Problem(
+            "warning", f"the {bd.kind} boundary between {bd.left!r} and {bd.right!r} is {how} "
+            f"from the edge those plates share (vertex {worst - mine[0]}); tolerance "
+            f"{BOUNDARY_TOL_KM:g} km", path, bd.feature, None, float(lon), float(lat)))
+        far[k] = True
+    # Which side is which: step off the longest segment of each line to its left and right.
+    probes, which = [], []
+    for k, bd in enumerate(world.boundaries):
+        if far[k] or bd.left not in idx or bd.right not in idx:
+            continue
+        seg = int(np.argmax(sphere.angle_between(bd.xyz[:-1], bd.xyz[1:])))
+        s0, s1 = bd.xyz[seg], bd.xyz[seg + 1]
+        n, theta = sphere.arc_pole(s0, s1)
+        m = sphere.slerp_points(s0, s1, 0.5)
+        off = min(theta / 4.0, np.radians(0.25))
+        probes += [np.cos(off) * m + np.sin(off) * n, np.cos(off) * m - np.sin(off) * n, m]
+        which.append(k)
+    if which:
+        got = world.locate_xyz(np.array(probes)).reshape(-1, 3)
+        for (on_left, on_right, _), k, mid in zip(got, which, np.array(probes)[2::3]):
+            bd = world.boundaries[k]
+            if on_left == idx[bd.right] and on_right == idx[bd.left]:
+                lon, lat = sphere.xyz_to_lonlat(mid)
+                probs.append(Problem(
+                    "error", f"left and right are swapped: walking the line as written, "
+                    f"{bd.right!r} is on the left and {bd.left!r} on the right", path,
+                    bd.feature, None, float(lon), float(lat)))
+    return probs
+
+
+def check_world(world: World) -> CheckReport:
+    """Run every check on a world.
+
+    Checks: problems found while reading (malformed rings, unknown plates, subduction
+    without a sinking plate); the plates tile the sphere (total area to 1e-9 relative, and
+    no gaps or overlaps at the centres of a 0.25 degree grid); no ring crosses itself;
+    boundaries lie on the shared edge of their two plates (to 1 km) with left and right
+    the right way round.
+    """
+    probs = list(world.problems)
+    probs += _tiling_problems(world)
+    probs += _crossing_problems(world)
+    probs += _boundary_problems(world)
+    return CheckReport(world, _plate_summary(world), probs)
