@@ -1,5 +1,8 @@
+"""``python -m torque``: the same as the ``torque`` command."""
+
 import sys
 
 from .cli import main
 
-sys.exit(main())
+if __name__ == "__main__":
+    sys.exit(main())

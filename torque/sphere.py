@@ -81,6 +81,17 @@ def normalize(v) -> np.ndarray:
     return v / np.linalg.norm(v, axis=-1, keepdims=True)
 
 
+def cross(a, b) -> np.ndarray:
+    """Row-wise cross product of ``(N, 3)`` arrays (faster than ``np.cross`` for long rows)."""
+    a = np.asarray(a, dtype=float)
+    b = np.asarray(b, dtype=float)
+    if a.ndim != 2 or b.ndim != 2 or a.shape != b.shape:
+        return np.cross(a, b)
+    a0, a1, a2 = a[:, 0], a[:, 1], a[:, 2]
+    b0, b1, b2 = b[:, 0], b[:, 1], b[:, 2]
+    return np.stack([a1 * b2 - a2 * b1, a2 * b0 - a0 * b2, a0 * b1 - a1 * b0], axis=1)
+
+
 def dot(a, b) -> np.ndarray:
     """Row-wise dot product of ``(..., 3)`` arrays."""
     return np.einsum("...i,...i->...", a, b)
@@ -267,6 +278,34 @@ def ring_index(ring_start) -> np.ndarray:
     return np.repeat(np.arange(len(ring_start) - 1), np.diff(ring_start))
 
 
+def _ring_edge_terms(xyz, ring_start):
+    """Per-edge quantities shared by the ring integrals (edge i runs from vertex i to next).
+
+    Returns the unit poles ``n`` (E, 3), angles ``theta`` (E,), line moments
+    ``m = int r ds`` (E, 3) and the turning angle at each vertex (E,).
+    """
+    nxt = ring_next(ring_start)
+    a, b = xyz, xyz[nxt]
+    c = cross(a, b)
+    s = np.sqrt(dot(c, c))
+    d = dot(a, b)
+    theta = np.arctan2(s, d)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        n = np.where(s[:, None] > 0, c / s[:, None], 0.0)
+    m = (s / (1.0 + d))[:, None] * (a + b)
+    prev = np.empty_like(nxt)
+    prev[nxt] = np.arange(len(nxt))
+    n_in = n[prev]                          # pole of the edge arriving at each vertex
+    # turning angle: signed angle from the incoming to the outgoing pole, about the vertex
+    turn = np.arctan2(dot(xyz, cross(n_in, n)), dot(n_in, n))
+    return n, theta, m, turn
+
+
+def _left_area_from_turns(turn, ring_start):
+    per_ring = np.add.reduceat(turn, np.asarray(ring_start)[:-1]) if len(turn) else turn
+    return np.mod(2.0 * np.pi - per_ring, FOUR_PI)
+
+
 def ring_left_area(xyz, ring_start) -> np.ndarray:
     """Area (steradians) of the region on the left of each ring, in ``[0, 4 pi)``.
 
@@ -292,14 +331,7 @@ def ring_left_area(xyz, ring_start) -> np.ndarray:
     2.0
     """
     xyz = np.asarray(xyz, dtype=float)
-    nxt = ring_next(ring_start)
-    n_out, _ = arc_pole(xyz, xyz[nxt])          # pole of edge i -> next(i)
-    prev = np.empty_like(nxt)
-    prev[nxt] = np.arange(len(nxt))
-    n_in = n_out[prev]                           # pole of edge prev(i) -> i
-    turn = np.arctan2(dot(xyz, np.cross(n_in, n_out)), dot(n_in, n_out))
-    per_ring = np.add.reduceat(turn, np.asarray(ring_start)[:-1]) if len(turn) else turn
-    return np.mod(2.0 * np.pi - per_ring, FOUR_PI)
+    return _left_area_from_turns(_ring_edge_terms(xyz, ring_start)[3], ring_start)
 
 
 def region_moments(xyz, ring_start, ring_owner, ring_is_hole, n_owner: int):
@@ -332,26 +364,35 @@ def region_moments(xyz, ring_start, ring_owner, ring_is_hole, n_owner: int):
     Notes
     -----
     Cost is linear in the number of vertices, with no grid and no quadrature.
+
+    Examples
+    --------
+    The northern hemisphere: area 2 pi, ``int r dA = (0, 0, pi)``.
+
+    >>> ring = lonlat_to_xyz([0.0, 120.0, 240.0], [0.0, 0.0, 0.0])
+    >>> area, first, second = region_moments(ring, [0, 3], [0], [False], 1)
+    >>> np.round(first / np.pi, 12)
+    array([[0., 0., 1.]])
     """
     xyz = np.asarray(xyz, dtype=float)
     ring_start = np.asarray(ring_start)
     ring_owner = np.asarray(ring_owner)
-    nxt = ring_next(ring_start)
-    a, b = xyz, xyz[nxt]
-    n, theta = arc_pole(a, b)
-    m = arc_first_moment(a, b)
-    edge_owner = ring_owner[ring_index(ring_start)]
-
-    left = ring_left_area(xyz, ring_start)
-    area = (np.bincount(ring_owner, weights=left, minlength=n_owner)
-            - FOUR_PI * np.bincount(ring_owner, weights=np.asarray(ring_is_hole, float),
-                                    minlength=n_owner))
-    first = np.zeros((n_owner, 3))
-    np.add.at(first, edge_owner, 0.5 * theta[:, None] * n)
-    sym = np.einsum("ei,ej->eij", n, m)
-    sym = sym + np.swapaxes(sym, 1, 2)
-    second = np.zeros((n_owner, 3, 3))
-    np.add.at(second, edge_owner, sym / 6.0)
+    n, theta, m, turn = _ring_edge_terms(xyz, ring_start)
+    # One pass over the edges: sum, per ring, the turning angles (area), theta n / 2 (first
+    # moment) and the six distinct entries of n m^T + m n^T (second moment).
+    i, j = np.triu_indices(3)
+    terms = np.concatenate([turn[:, None], 0.5 * theta[:, None] * n,
+                            n[:, i] * m[:, j] + m[:, i] * n[:, j]], axis=1)
+    per_ring = np.add.reduceat(terms, ring_start[:-1], axis=0)
+    left = np.mod(2.0 * np.pi - per_ring[:, 0], FOUR_PI)
+    per_ring[:, 0] = left - FOUR_PI * np.asarray(ring_is_hole, dtype=float)
+    per_owner = np.zeros((n_owner, terms.shape[1]))
+    np.add.at(per_owner, ring_owner, per_ring)
+    area = per_owner[:, 0]
+    first = per_owner[:, 1:4]
+    second = np.empty((n_owner, 3, 3))
+    second[:, i, j] = per_owner[:, 4:] / 6.0
+    second[:, j, i] = per_owner[:, 4:] / 6.0
     second += area[:, None, None] / 3.0 * np.eye(3)
     return area, first, second
 

@@ -18,6 +18,7 @@ from .world import Problem, World
 AREA_RTOL = 1e-9            # total area against 4 pi R^2
 BOUNDARY_TOL_KM = 1.0       # how far a boundary vertex may be from its plates' edges
 _CLUSTER_DEG = 5.0          # problem cells closer than this are reported once
+_OFFSET_SEARCH_KM = 200.0   # boundary offsets up to this are measured, beyond it "far"
 
 
 @dataclass(frozen=True)
@@ -233,7 +234,9 @@ def boundary_offsets(world: World):
     left = np.array([idx[bd.left] for bd in world.boundaries])[owner]
     right = np.array([idx[bd.right] for bd in world.boundaries])[owner]
 
-    cand = tree.query_ball_point(xyz, r=2 * np.sin(tol / 2) + half + 1e-12)
+    # Search far enough to measure (not just flag) offsets up to _OFFSET_SEARCH_KM.
+    reach = max(_OFFSET_SEARCH_KM * 1e3 / world.radius_m, tol)
+    cand = tree.query_ball_point(xyz, r=2 * np.sin(reach / 2) + half + 1e-12)
     counts = np.fromiter((len(c) for c in cand), dtype=np.int64, count=len(cand))
     v = np.repeat(np.arange(len(xyz)), counts)
     e = np.fromiter((j for c in cand for j in c), dtype=np.int64, count=int(counts.sum()))
@@ -261,7 +264,8 @@ def _boundary_problems(world: World) -> list:
         worst = mine[np.argmax(dist[mine])]
         lon, lat = sphere.xyz_to_lonlat(xyz[worst])
         d = dist[worst]
-        how = f"{d * R_km:.1f} km" if np.isfinite(d) else "far"
+        how = (f"{d * R_km:.1f} km" if np.isfinite(d)
+               else f"more than {_OFFSET_SEARCH_KM:g} km")
         probs.append(Problem(
             "warning", f"the {bd.kind} boundary between {bd.left!r} and {bd.right!r} is {how} "
             f"from the edge those plates share (vertex {worst - mine[0]}); tolerance "

@@ -393,7 +393,9 @@ def plates_from_features(feats, path, winding: str = "auto"):
             n_poly += 1
 
     if not rings:
-        raise InputError("no usable plate polygon in the file", file=path)
+        detail = "; ".join(str(p) for p in problems[:3])
+        raise InputError("no usable plate polygon in the file" + (f": {detail}" if detail
+                                                                   else ""), file=path)
     rings = _orient(rings, np.array(ring_hole), winding)
     xyz = np.concatenate(rings)
     ring_start = np.r_[0, np.cumsum([len(r) for r in rings])].astype(np.int64)

@@ -1,0 +1,90 @@
+"""Shared helpers for the tests: small worlds written to temporary folders."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy.spatial import SphericalVoronoi
+
+from torque import sphere
+
+
+def voronoi_rings(n, seed=0):
+    """Generators and rings (lon/lat, closed, counter-clockwise) of a random Voronoi tiling."""
+    rng = np.random.default_rng(seed)
+    gen = sphere.normalize(rng.normal(size=(n, 3)))
+    sv = SphericalVoronoi(gen)
+    sv.sort_vertices_of_regions()
+    rings = []
+    for region in sv.regions:
+        v = sv.vertices[region]
+        if sphere.ring_left_area(v, [0, len(v)])[0] > 2 * np.pi:
+            v = v[::-1]
+        lon, lat = sphere.xyz_to_lonlat(v)
+        ring = np.c_[lon, lat].tolist()
+        rings.append(ring + [ring[0]])
+    return gen, sv, rings
+
+
+def feature_collection(features):
+    return {"type": "FeatureCollection", "features": features}
+
+
+def plate_feature(name, rings, multi=False):
+    return {"type": "Feature", "properties": {"plate": name},
+            "geometry": {"type": "MultiPolygon" if multi else "Polygon", "coordinates": rings}}
+
+
+def line_feature(coords, **props):
+    return {"type": "Feature", "properties": props,
+            "geometry": {"type": "LineString", "coordinates": coords}}
+
+
+@pytest.fixture
+def write_world(tmp_path):
+    """Write a world folder; returns the path of world.toml."""
+
+    def _write(plates, boundaries=None, extra="", name="world.toml", raw_plates=None):
+        d = tmp_path
+        (d / "plates.geojson").write_text(
+            raw_plates if raw_plates is not None else json.dumps(feature_collection(plates)))
+        text = 'plates = "plates.geojson"\n'
+        if boundaries is not None:
+            (d / "boundaries.geojson").write_text(json.dumps(feature_collection(boundaries)))
+            text += 'boundaries = "boundaries.geojson"\n'
+        (d / name).write_text(text + extra)
+        return d / name
+
+    return _write
+
+
+@pytest.fixture
+def voronoi_world(write_world):
+    """A 12-plate Voronoi world (plates P0..P11) and its generators."""
+    gen, sv, rings = voronoi_rings(12, seed=3)
+    path = write_world([plate_feature(f"P{i}", [r]) for i, r in enumerate(rings)])
+    return path, gen
+
+
+def run_cli(argv, capsys):
+    """Run the command line in-process; returns (status, stdout, stderr)."""
+    from torque.cli import main
+
+    try:
+        status = main([str(a) for a in argv])
+    except SystemExit as exc:  # argparse usage errors
+        status = exc.code
+    out = capsys.readouterr()
+    return status, out.out, out.err
+
+
+@pytest.fixture
+def cli(capsys):
+    return lambda *argv: run_cli(argv, capsys)
+
+
+def here() -> Path:
+    return Path(__file__).resolve().parent

@@ -1,0 +1,276 @@
+"""World files and ``torque check``: contract keys, derived boundaries, and every bad input.
+
+Each bad input must end with exit status 2 and one message on stderr naming the file, the
+feature or plate and what is wrong; never a traceback.
+"""
+
+import json
+
+import numpy as np
+import pytest
+
+from torque import sphere
+from torque.world import load_world
+
+from .conftest import line_feature, plate_feature, voronoi_rings
+
+NORTH = [[0, 0], [120, 0], [240, 0], [0, 0]]
+SOUTH = [[0, 0], [240, 0], [120, 0], [0, 0]]
+
+
+def hemispheres(write_world, boundaries=None, **kw):
+    return write_world([plate_feature("Upper", [NORTH]), plate_feature("Lower", [SOUTH])],
+                       boundaries, extra='winding = "strict"\n' + kw.get("extra", ""))
+
+
+def test_check_json_has_the_contract_keys(voronoi_world, cli):
+    # Contract (shared/interface.md): radius_m, total_area_m2, plates[{plate, area_m2}],
+    # problems. A Voronoi tiling covers 4 pi R^2 exactly (definition of a tiling).
+    path, _ = voronoi_world
+    status, out, err = cli("check", path, "--json")
+    assert status == 0, err
+    d = json.loads(out)
+    assert d["radius_m"] == 6371e3
+    assert d["total_area_m2"] == pytest.approx(4 * np.pi * 6371e3**2, rel=1e-9)
+    assert [p["plate"] for p in d["plates"]] == [f"P{i}" for i in range(12)]
+    assert all(p["area_m2"] > 0 for p in d["plates"])
+    assert d["problems"] == []
+    assert d["boundaries"]["derived"] is True
+
+
+def test_derived_boundaries_are_the_shared_edges(voronoi_world):
+    # A Voronoi tiling of n cells has 3n - 6 edges (Euler's formula, V - E + F = 2 with
+    # every vertex of degree 3); each is shared by exactly two cells.
+    path, _ = voronoi_world
+    w = load_world(path)
+    assert len(w.boundaries) == 3 * 12 - 6
+    pairs = {frozenset((b.left, b.right)) for b in w.boundaries}
+    assert len(pairs) == len(w.boundaries)
+    # walking each line as written, its left plate is on the left
+    for b in w.boundaries:
+        n, theta = sphere.arc_pole(b.xyz[0], b.xyz[1])
+        m = sphere.slerp_points(b.xyz[0], b.xyz[1], 0.5)
+        off = 0.01 * theta
+        got = w.locate_xyz(np.stack([np.cos(off) * m + np.sin(off) * n,
+                                     np.cos(off) * m - np.sin(off) * n]))
+        assert [w.plates[i].name for i in got] == [b.left, b.right]
+
+
+def test_human_summary(voronoi_world, cli):
+    path, _ = voronoi_world
+    status, out, _ = cli("check", path)
+    assert status == 0
+    assert "12 plates" in out and "no problems found" in out
+
+
+def test_boundaries_file_on_shared_edges(write_world, cli):
+    path = hemispheres(write_world, [
+        line_feature([[0, 0], [120, 0], [240, 0], [360, 0]], kind="ridge", left="Upper",
+                     right="Lower")])
+    status, out, err = cli("check", path, "--json")
+    assert status == 0, err
+    d = json.loads(out)
+    assert d["problems"] == []
+    # length of the equator, 2 pi R (closed form)
+    assert d["boundaries"]["length_m_by_kind"]["ridge"] == pytest.approx(2 * np.pi * 6371e3)
+
+
+def test_boundary_off_the_shared_edge_is_a_warning_with_distance(write_world, cli):
+    # 0.1 degree of latitude on a 6371 km sphere is 11.1 km (arc length R * angle).
+    path = hemispheres(write_world, [
+        line_feature([[0, 0.1], [60, 0.1]], kind="transform", left="Upper", right="Lower")])
+    status, out, _ = cli("check", path, "--json")
+    assert status == 0
+    (p,) = json.loads(out)["problems"]
+    assert p["severity"] == "warning" and "11.1 km" in p["message"]
+
+
+def test_swapped_left_and_right_is_an_error(write_world, cli):
+    path = hemispheres(write_world, [
+        line_feature([[0, 0], [60, 0]], kind="ridge", left="Lower", right="Upper")])
+    status, out, err = cli("check", path)
+    assert status == 2
+    assert "left and right are swapped" in out and "boundaries.geojson" in out
+    assert "error" in err
+
+
+# ---- bad input: files and keys ----------------------------------------------------------
+def assert_bad(result, *words):
+    status, out, err = result
+    assert status == 2
+    assert "Traceback" not in err
+    for w in words:
+        assert w in err, err
+    return err
+
+
+def test_missing_world_file(cli, tmp_path):
+    assert_bad(cli("check", tmp_path / "nope.toml"), "nope.toml", "not found")
+
+
+def test_malformed_toml(write_world, cli):
+    path = hemispheres(write_world, extra="radius_km = = 3\n")
+    assert_bad(cli("check", path), "world.toml", "not valid TOML")
+
+
+def test_unknown_world_key(write_world, cli):
+    path = hemispheres(write_world, extra="radious_km = 6000\n")
+    assert_bad(cli("check", path), "world.toml", "'radious_km'", "valid keys")
+
+
+def test_missing_data_file(write_world, cli):
+    path = hemispheres(write_world, extra='ages = "ages.nc"\n')
+    assert_bad(cli("check", path), "world.toml", "'ages'", "does not exist")
+
+
+def test_plates_key_required(tmp_path, cli):
+    (tmp_path / "w.toml").write_text("radius_km = 6000.0\n")
+    assert_bad(cli("check", tmp_path / "w.toml"), "w.toml", "'plates' is required")
+
+
+def test_bad_radius(write_world, cli):
+    path = hemispheres(write_world, extra="radius_km = -5\n")
+    assert_bad(cli("check", path), "radius_km must be a positive number")
+
+
+def test_malformed_json(write_world, cli):
+    path = write_world(None, raw_plates='{"type": "FeatureCollection", "features": [')
+    assert_bad(cli("check", path), "plates.geojson", "not valid JSON", "line 1")
+
+
+def test_feature_without_plate_name(write_world, cli):
+    f = plate_feature("x", [NORTH])
+    del f["properties"]["plate"]
+    path = write_world([f, plate_feature("Lower", [SOUTH])])
+    assert_bad(cli("check", path), "plates.geojson", "feature 0", "properties.plate")
+
+
+def test_wrong_geometry_type(write_world, cli):
+    f = {"type": "Feature", "properties": {"plate": "Dot"},
+         "geometry": {"type": "Point", "coordinates": [0, 0]}}
+    path = write_world([f])
+    assert_bad(cli("check", path), "feature 0", "'Dot'", "Polygon or MultiPolygon")
+
+
+def test_unknown_boundary_kind(write_world, cli):
+    path = hemispheres(write_world, [line_feature([[0, 0], [60, 0]], kind="rift",
+                                                  left="Upper", right="Lower")])
+    assert_bad(cli("check", path), "boundaries.geojson", "feature 0", "'rift'",
+               "ridge, subduction")
+
+
+# ---- bad input: problems that check lists (exit 2, all of them reported) -------------------
+def check_problems(cli, path):
+    status, out, err = cli("check", path, "--json")
+    assert status == 2 and "Traceback" not in err
+    assert "error" in err and str(path) in err
+    return [p for p in json.loads(out)["problems"] if p["severity"] == "error"]
+
+
+def test_duplicate_plate_names(write_world, cli):
+    path = write_world([plate_feature("Twin", [NORTH]), plate_feature("Twin", [SOUTH])])
+    probs = check_problems(cli, path)
+    assert any("'Twin' is used again" in p["message"] and p["feature"] == 1 for p in probs)
+
+
+def test_ring_with_too_few_vertices(write_world, cli):
+    path = write_world([plate_feature("Upper", [NORTH]),
+                        plate_feature("Lower", [[[0, 0], [10, 0], [0, 0]]])])
+    probs = check_problems(cli, path)
+    assert any("2 distinct vertices" in p["message"] and p["plate"] == "Lower" for p in probs)
+
+
+def test_consecutive_antipodal_vertices(write_world, cli):
+    path = write_world([plate_feature("Lower", [SOUTH]),
+                        plate_feature("Upper", [[[0, 0], [180, 0], [90, 45], [0, 0]]])])
+    probs = check_problems(cli, path)
+    assert any("antipodal" in p["message"] and p["plate"] == "Upper" for p in probs)
+
+
+def test_self_intersecting_ring(write_world, cli):
+    bowtie = [[0, 0], [10, 10], [10, 0], [0, 10], [0, 0]]
+    path = write_world([plate_feature("Bow", [bowtie])])
+    probs = check_problems(cli, path)
+    assert any("crosses itself" in p["message"] and p["plate"] == "Bow" for p in probs)
+
+
+def test_file_with_no_usable_ring_says_why(write_world, cli):
+    path = write_world([plate_feature("Upper", [[[0, 0], [180, 0], [90, 45], [0, 0]]])])
+    assert_bad(cli("check", path), "plates.geojson", "no usable plate polygon", "antipodal",
+               "'Upper'")
+
+
+def test_nan_coordinate(write_world, cli):
+    raw = json.dumps({"type": "FeatureCollection", "features": [
+        plate_feature("Upper", [NORTH]),
+        plate_feature("Lower", [[[0, 0], [240, 0], [120, float("nan")], [0, 0]]])]})
+    path = write_world(None, raw_plates=raw)
+    probs = check_problems(cli, path)
+    assert any("not a finite number" in p["message"] and p["plate"] == "Lower"
+               for p in probs)
+
+
+def test_latitude_out_of_range(write_world, cli):
+    path = write_world([plate_feature("Upper", [NORTH]),
+                        plate_feature("Lower", [[[0, 0], [240, -95], [120, 0], [0, 0]]])])
+    probs = check_problems(cli, path)
+    assert any("latitude -95" in p["message"] and "[-90, 90]" in p["message"] for p in probs)
+
+
+def test_swapped_lat_lon(write_world, cli):
+    # written as [lat, lon]: latitudes of 100 with longitudes of at most 90
+    path = write_world([plate_feature("Lower", [SOUTH]),
+                        plate_feature("Upper", [[[10, 20], [30, 100], [50, 60], [10, 20]]])])
+    probs = check_problems(cli, path)
+    assert any("look like [lat, lon]" in p["message"] for p in probs)
+
+
+def test_overlap_is_located_and_named(write_world, cli):
+    # Two northern hemispheres and a southern one: everything north is covered twice.
+    path = write_world([plate_feature("A", [NORTH]), plate_feature("B", [NORTH]),
+                        plate_feature("C", [SOUTH])], extra='winding = "strict"\n')
+    probs = check_problems(cli, path)
+    assert any("sum to 1.5" in p["message"] for p in probs)
+    over = [p for p in probs if "an overlap" in p["message"]]
+    assert over and "A, B" in over[0]["message"] and over[0]["lat"] > 0
+
+
+def test_gap_is_located(write_world, cli):
+    gen, sv, rings = voronoi_rings(12, seed=3)
+    path = write_world([plate_feature(f"P{i}", [r]) for i, r in enumerate(rings) if i != 4])
+    probs = check_problems(cli, path)
+    gaps = [p for p in probs if "a gap" in p["message"]]
+    assert gaps
+    # the gap is where the missing cell was: nearest generator of the reported point is 4
+    p = sphere.lonlat_to_xyz(gaps[0]["lon"], gaps[0]["lat"])
+    assert int(np.argmax(gen @ p)) == 4
+
+
+def test_boundary_names_unknown_plate(write_world, cli):
+    path = hemispheres(write_world, [line_feature([[0, 0], [60, 0]], kind="ridge",
+                                                  left="Upper", right="Nowhere")])
+    probs = check_problems(cli, path)
+    assert any("'Nowhere' is not a plate" in p["message"] and p["feature"] == 0
+               for p in probs)
+
+
+def test_subduction_without_sinking_plate(write_world, cli):
+    path = hemispheres(write_world, [line_feature([[0, 0], [60, 0]], kind="subduction",
+                                                  left="Upper", right="Lower")])
+    probs = check_problems(cli, path)
+    assert any("must name its sinking plate" in p["message"] for p in probs)
+
+
+def test_other_commands_refuse_a_broken_world(write_world):
+    from torque.errors import InputError
+    path = write_world([plate_feature("Twin", [NORTH]), plate_feature("Twin", [SOUTH])])
+    with pytest.raises(InputError, match="'Twin' is used again.*torque check"):
+        load_world(path).require_valid()
+
+
+def test_unclassified_world_without_boundaries_file_has_neighbours(voronoi_world, cli):
+    path, gen = voronoi_world
+    _, out, _ = cli("check", path, "--json")
+    plates = json.loads(out)["plates"]
+    # degree of each Voronoi cell equals the number of its vertices (3-valent tiling)
+    assert all(len(p["neighbours"]) == p["vertices"] for p in plates)

@@ -1,0 +1,125 @@
+"""Which plate holds each point, against references outside the project.
+
+Sources: a point lies in the Voronoi cell of its nearest generator (definition of a Voronoi
+cell; nearest found with scipy.spatial.cKDTree); a gnomonic projection maps great circles to
+straight lines (Snyder 1987, *Map Projections: A Working Manual*, USGS PP 1395, p. 164), so
+shapely's planar point-in-polygon on pyproj's gnomonic coordinates is an exact reference for
+polygons inside a hemisphere.
+"""
+
+import numpy as np
+import pytest
+import shapely
+from pyproj import Proj
+from scipy.spatial import cKDTree
+
+from torque import sphere
+from torque.locate import PlateLocator
+from torque.world import world_from_rings
+
+from .conftest import voronoi_rings
+
+
+def voronoi_locator(n, seed):
+    gen, sv, rings = voronoi_rings(n, seed)
+    xyz = [sphere.lonlat_to_xyz(*np.asarray(r[:-1]).T) for r in rings]
+    start = np.r_[0, np.cumsum([len(x) for x in xyz])]
+    loc = PlateLocator(np.concatenate(xyz), start, np.arange(n), np.zeros(n, bool), n)
+    return gen, sv, loc
+
+
+def test_voronoi_cells_hold_their_nearest_points():
+    # Source: definition of a Voronoi cell; nearest generator by scipy cKDTree.
+    gen, sv, loc = voronoi_locator(60, seed=4)
+    rng = np.random.default_rng(0)
+    pts = [sphere.normalize(rng.normal(size=(200_000, 3)))]
+    # crowd the poles and the antimeridian, where grid methods go wrong
+    lon = rng.uniform(-180, 180, 20_000)
+    pts.append(sphere.lonlat_to_xyz(lon, rng.uniform(89.0, 90.0, 20_000)))
+    pts.append(sphere.lonlat_to_xyz(lon, rng.uniform(-90.0, -89.0, 20_000)))
+    pts.append(sphere.lonlat_to_xyz(rng.uniform(179.0, 181.0, 20_000),
+                                    rng.uniform(-90, 90, 20_000)))
+    pts.append(np.array([[0, 0, 1.0], [0, 0, -1.0]]))
+    # points a hair off the Voronoi edges (1e-7 rad, about 0.6 m on Earth)
+    a = sv.vertices[np.concatenate([r for r in sv.regions])]
+    b = sv.vertices[np.concatenate([np.roll(r, -1) for r in sv.regions])]
+    mid = sphere.slerp_points(a, b, rng.uniform(0.05, 0.95, len(a)))
+    n, _ = sphere.arc_pole(a, b)
+    pts += [sphere.normalize(mid + 1e-7 * n), sphere.normalize(mid - 1e-7 * n)]
+    pts = np.concatenate(pts)
+    _, nearest = cKDTree(gen).query(pts)
+    got = loc.locate(pts)
+    assert np.array_equal(got, nearest)
+
+
+def test_coverage_is_one_everywhere_on_a_tiling():
+    # Definition of a tiling: every point lies in exactly one plate.
+    _, _, loc = voronoi_locator(30, seed=9)
+    xyz, cov = loc.coverage_problems()
+    assert len(xyz) == 0 and len(cov) == 0
+
+
+def gnomonic_contains(ring_lonlat, centre, pts_lonlat):
+    """Exact reference: shapely contains on a gnomonic projection about ``centre``."""
+    proj = Proj(f"+proj=gnom +lat_0={centre[1]} +lon_0={centre[0]} +R=1")
+    x, y = proj(ring_lonlat[:, 0], ring_lonlat[:, 1])
+    poly = shapely.Polygon(np.c_[x, y])
+    px, py = proj(pts_lonlat[:, 0], pts_lonlat[:, 1])
+    return shapely.contains_xy(poly, px, py)
+
+
+@pytest.mark.parametrize("centre", [(179.0, 10.0), (0.0, 89.5), (-45.0, -88.0), (60.0, 0.0)])
+def test_polygon_with_a_hole_in_a_world_of_three_plates(centre):
+    # Reference: gnomonic projection + shapely (see module notes). The world: a cap-like
+    # plate with a hole, the plate that fills the hole, and the rest of the sphere.
+    rng = np.random.default_rng(1)
+    lon0, lat0 = centre
+    geod_ring = lambda r_deg, n, jitter: _ring(lon0, lat0, r_deg, n, rng, jitter)  # noqa
+    outer = geod_ring(25.0, 60, 3.0)
+    inner = geod_ring(8.0, 40, 2.0)
+    world = world_from_rings({
+        "Ring": [outer.tolist(), inner[::-1].tolist()],
+        "Core": [inner.tolist()],
+        "Rest": [outer[::-1].tolist()],
+    }, winding="strict")
+    assert world.area_m2.sum() == pytest.approx(4 * np.pi * world.radius_m**2, rel=1e-12)
+    lon = lon0 + rng.uniform(-40, 40, 50_000) / max(np.cos(np.radians(lat0)), 0.05)
+    lat = np.clip(lat0 + rng.uniform(-40, 40, 50_000), -90, 90)
+    lon = np.mod(lon + 180, 360) - 180
+    pts = np.c_[lon, lat]
+    # keep points well inside the projection's hemisphere
+    c = sphere.lonlat_to_xyz(lon0, lat0)
+    pts = pts[sphere.dot(sphere.lonlat_to_xyz(lon, lat), c) > 0.2]
+    in_outer = gnomonic_contains(outer, centre, pts)
+    in_inner = gnomonic_contains(inner, centre, pts)
+    expected = np.where(in_inner, 1, np.where(in_outer, 0, 2))
+    got = world.locate(pts[:, 0], pts[:, 1])
+    assert np.array_equal(got, expected)
+
+
+def _ring(lon0, lat0, r_deg, n, rng, jitter):
+    from pyproj import Geod
+    g = Geod(a=6371e3, b=6371e3)
+    az = np.linspace(360, 0, n, endpoint=False)
+    d = np.radians(r_deg + rng.uniform(-jitter, jitter, n)) * 6371e3
+    lon, lat, _ = g.fwd(np.full(n, lon0), np.full(n, lat0), az, d)
+    return np.c_[lon, lat]
+
+
+def test_multipolygon_plate():
+    # A plate in two separate parts: each part holds its own points (reference: gnomonic +
+    # shapely about each part's centre).
+    rng = np.random.default_rng(2)
+    a = _ring(20.0, 30.0, 10.0, 30, rng, 1.0)
+    b = _ring(-150.0, -40.0, 12.0, 30, rng, 1.0)
+    world = world_from_rings({
+        "Twin": [[a.tolist()], [b.tolist()]],
+        "Sea": [[a[::-1].tolist(), b[::-1].tolist()]],
+    }, winding="strict")
+    for ring, centre in ((a, (20.0, 30.0)), (b, (-150.0, -40.0))):
+        lon = centre[0] + rng.uniform(-15, 15, 5000)
+        lat = centre[1] + rng.uniform(-15, 15, 5000)
+        inside = gnomonic_contains(ring, centre, np.c_[lon, lat])
+        got = world.locate(lon, lat)
+        assert np.array_equal(got, np.where(inside, 0, 1))
+        assert inside.any() and (~inside).any()
