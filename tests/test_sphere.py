@@ -211,3 +211,17 @@ def test_points_left_of_rings_and_arc_helpers():
     assert 80.0 < np.degrees(hi) < 90.0
     d = sphere.point_arc_distance(np.array([0, 0, 1.0]), eq[0], eq[1])
     assert d == pytest.approx(np.pi / 2)
+
+
+def test_drag_tensor_closed_forms():
+    # Closed forms: for a hemisphere, R^2 int (I - r r^T) dA = R^2 (2 pi - 2 pi/3) I
+    # = (4 pi / 3) R^2 I; summed over any tiling it is R^2 (4 pi - 4 pi/3) I = (8 pi/3) R^2 I.
+    from torque.world import world_from_rings
+    north = [[(0, 0), (120, 0), (240, 0)]]
+    south = [[(0, 0), (240, 0), (120, 0)]]
+    w = world_from_rings({"Upper": north, "Lower": south}, radius_km=1000.0, winding="strict")
+    R = 1e6
+    for D in w.drag_tensor_m2:
+        np.testing.assert_allclose(D, 4 * np.pi / 3 * R**2 * np.eye(3), rtol=1e-13)
+    np.testing.assert_allclose(w.drag_tensor_m2.sum(0), 8 * np.pi / 3 * R**2 * np.eye(3),
+                               rtol=1e-13)
