@@ -222,6 +222,7 @@ def test_drag_tensor_closed_forms():
     w = world_from_rings({"Upper": north, "Lower": south}, radius_km=1000.0, winding="strict")
     R = 1e6
     for D in w.drag_tensor_m2:
-        np.testing.assert_allclose(D, 4 * np.pi / 3 * R**2 * np.eye(3), rtol=1e-13)
+        np.testing.assert_allclose(D, 4 * np.pi / 3 * R**2 * np.eye(3), rtol=1e-13,
+                                   atol=1e-13 * R**2)
     np.testing.assert_allclose(w.drag_tensor_m2.sum(0), 8 * np.pi / 3 * R**2 * np.eye(3),
-                               rtol=1e-13)
+                               rtol=1e-13, atol=1e-13 * R**2)
