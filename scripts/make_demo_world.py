@@ -53,6 +53,19 @@ def plate_rings(gen: np.ndarray):
     return rings
 
 
+def synthetic_motions(n: int, seed: int = SEED + 1) -> np.ndarray:
+    """Invented Euler vectors (lat, lon, rate deg/Myr) for the demo's plates.
+
+    Placeholders until the forward model generates the demo's motions; they are not
+    observations of anything.
+    """
+    rng = np.random.default_rng(seed)
+    lat = np.degrees(np.arcsin(rng.uniform(-1, 1, n)))
+    lon = rng.uniform(-180, 180, n)
+    rate = rng.uniform(0.1, 1.2, n)
+    return np.round(np.c_[lat, lon, rate], 6)
+
+
 def write(outdir: Path) -> None:
     outdir.mkdir(parents=True, exist_ok=True)
     gen = generators(len(PLATE_NAMES))
@@ -62,6 +75,9 @@ def write(outdir: Path) -> None:
              for name, ring in zip(PLATE_NAMES, rings)]
     (outdir / "plates.geojson").write_text(
         json.dumps({"type": "FeatureCollection", "features": feats}, indent=1) + "\n")
+    rows = ["plate,lat,lon,rate"] + [f"{n},{a:.6f},{b:.6f},{c:.6f}" for n, (a, b, c) in
+                                     zip(PLATE_NAMES, synthetic_motions(len(PLATE_NAMES)))]
+    (outdir / "motions.csv").write_text("\n".join(rows) + "\n")
     (outdir / "world.toml").write_text(
         "# Orrery: an invented Earth-sized planet for the torque demo (synthetic data).\n"
         'name = "Orrery"\n'

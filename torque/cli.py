@@ -88,6 +88,170 @@ def format_check(report) -> str:
 
 
 # ----------------------------------------------------------------------------------------
+# kinematics: frame, field, boundaries
+# ----------------------------------------------------------------------------------------
+def _world(path):
+    from .world import load_world
+    return load_world(path).require_valid()
+
+
+def _pole_text(omega) -> str:
+    from .euler import vector_to_pole
+    lat, lon, rate = vector_to_pole(omega)
+    return f"pole {float(lat):.4f} N, {float(lon):.4f} E, rate {float(rate):.6f} deg/Myr"
+
+
+def _cmd_frame(args) -> int:
+    from .euler import net_rotation, read_motions, write_motions
+    from .io import output_suffix
+
+    output_suffix(args.output, (".csv",))
+    world = _world(args.world)
+    motions = read_motions(args.motions)
+    omega = motions.for_world(world)
+    w_net = net_rotation(world, omega)
+    target = args.to
+    if target == "nnr":
+        out = motions.add_rotation(-w_net)
+    elif target.startswith("plate:"):
+        name = target[len("plate:"):]
+        if name not in world.plate_index:
+            raise InputError(f"--to {target}: no plate named {name!r}",
+                             file=args.world, hint=f"plates are {', '.join(world.plate_names)}")
+        out = motions.relative_to(name)
+    else:
+        raise InputError(f"--to {target!r} is not a frame",
+                         hint="use --to nnr or --to plate:NAME")
+    write_motions(args.output, out, world.plate_names)
+    new_net = net_rotation(world, out.for_world(world))
+    print(f"net rotation of {args.motions}: {_pole_text(w_net)}")
+    print(f"net rotation in the new frame: {_pole_text(new_net)}")
+    print(f"wrote {args.output}")
+    return EXIT_OK
+
+
+def _cmd_field(args) -> int:
+    from .euler import grid_lonlat, read_motions, speed_azimuth, velocity_field
+    from .io import (FIELD_SUFFIXES, output_suffix, read_points, write_csv, write_netcdf,
+                     write_points_geojson)
+
+    suffix = output_suffix(args.output, FIELD_SUFFIXES)
+    world = _world(args.world)
+    omega = read_motions(args.motions).for_world(world)
+    if args.points:
+        lon, lat = read_points(args.points)
+        grid = None
+    else:
+        glon, glat = grid_lonlat(args.step)
+        LON, LAT = np.meshgrid(glon, glat)
+        lon, lat = LON.ravel(), LAT.ravel()
+        grid = (glon, glat)
+    plate, ve, vn = velocity_field(world, omega, lon, lat)
+    speed, azimuth = speed_azimuth(ve, vn)
+    names = np.array(world.plate_names, dtype=object)[plate]
+    if suffix == ".csv":
+        write_csv(args.output, {"lon": lon, "lat": lat, "plate": names, "ve_mm_yr": ve,
+                                "vn_mm_yr": vn, "speed_mm_yr": speed, "azimuth_deg": azimuth})
+    elif suffix in (".geojson", ".json"):
+        write_points_geojson(args.output, lon, lat, {
+            "plate": names, "ve_mm_yr": ve, "vn_mm_yr": vn, "speed_mm_yr": speed,
+            "azimuth_deg": azimuth})
+    else:
+        write_netcdf(args.output, field_dataset(world, lon, lat, plate, ve, vn, grid))
+    print(f"velocity at {len(lon):,} points: speed {speed.min():.2f} to {speed.max():.2f} "
+          f"mm/yr, mean {speed.mean():.2f} mm/yr; wrote {args.output}")
+    return EXIT_OK
+
+
+def field_dataset(world, lon, lat, plate, ve, vn, grid=None):
+    """An xarray Dataset of a velocity field, CF-style (on the grid if one is given)."""
+    import xarray as xr
+
+    names = world.plate_names
+    attrs_plate = {"long_name": "plate holding the point (index into plate_names)",
+                   "flag_values": np.arange(len(names), dtype=np.int16),
+                   "plate_names": json.dumps(names)}
+    v_attrs = lambda d: {"units": "mm/yr", "long_name": f"{d} velocity of the plate"}  # noqa
+    if grid is not None:
+        glon, glat = grid
+        shape = (len(glat), len(glon))
+        dims = ("lat", "lon")
+        coords = {"lon": ("lon", glon, {"units": "degrees_east", "standard_name": "longitude"}),
+                  "lat": ("lat", glat, {"units": "degrees_north", "standard_name": "latitude"})}
+    else:
+        shape = (len(lon),)
+        dims = ("point",)
+        coords = {"lon": ("point", lon, {"units": "degrees_east", "standard_name": "longitude"}),
+                  "lat": ("point", lat, {"units": "degrees_north",
+                                         "standard_name": "latitude"})}
+    ds = xr.Dataset(
+        {"ve_mm_yr": (dims, ve.reshape(shape), v_attrs("eastward")),
+         "vn_mm_yr": (dims, vn.reshape(shape), v_attrs("northward")),
+         "plate": (dims, plate.reshape(shape).astype(np.int16), attrs_plate)},
+        coords=coords,
+        attrs={"Conventions": "CF-1.8", "title": f"plate velocity field of {world.name}",
+               "source": "torque", "radius_m": world.radius_m,
+               "caution": "model-dependent research estimate"})
+    return ds
+
+
+def _cmd_boundaries(args) -> int:
+    from .ages import read_ages
+    from .euler import read_motions
+    from .io import output_suffix, write_boundaries_geojson, write_csv
+    from .margins import (TRANSFORM_WITHIN_DEG, boundary_motion, classify, sample_boundaries,
+                          with_kinds)
+    from .sphere import xyz_to_lonlat
+
+    output_suffix(args.output, (".csv",))
+    if args.geojson:
+        output_suffix(args.geojson, (".geojson", ".json"))
+    if not args.spacing_km > 0:
+        raise InputError(f"--spacing-km must be positive, got {args.spacing_km:g}")
+    world = _world(args.world)
+    if not world.boundaries:
+        raise InputError("the world has no boundaries", file=args.world)
+    omega = read_motions(args.motions).for_world(world)
+    samples = sample_boundaries(world.boundaries, args.spacing_km * 1e3 / world.radius_m)
+    motion = boundary_motion(world, omega, samples)
+    boundaries = list(world.boundaries)
+    unresolved = []
+    if args.classify:
+        ages = read_ages(world.paths["ages"]) if "ages" in world.paths else None
+        kinds, sinking = classify(world, motion, ages)
+        boundaries = with_kinds(world, kinds, sinking)
+        unresolved = [k for k, b in enumerate(boundaries)
+                      if b.kind == "subduction" and b.subducting is None]
+    line = samples.line
+    lon, lat = xyz_to_lonlat(samples.xyz)
+    write_csv(args.output, {
+        "lon": lon, "lat": lat, "line": line,
+        "left": np.array([b.left for b in boundaries], dtype=object)[line],
+        "right": np.array([b.right for b in boundaries], dtype=object)[line],
+        "kind": np.array([b.kind for b in boundaries], dtype=object)[line],
+        "subducting": np.array([b.subducting or ("unresolved" if k in unresolved else "")
+                                for k, b in enumerate(boundaries)], dtype=object)[line],
+        "opening_mm_yr": motion.opening_mm_yr, "along_mm_yr": motion.along_mm_yr,
+        "obliquity_deg": motion.obliquity_deg})
+    if args.geojson:
+        write_boundaries_geojson(args.geojson, boundaries)
+    kinds = {}
+    for b in boundaries:
+        kinds[b.kind] = kinds.get(b.kind, 0) + 1
+    print(f"{len(lon):,} samples on {len(boundaries)} lines; kinds: "
+          + ", ".join(f"{k} {n}" for k, n in sorted(kinds.items())))
+    if args.classify:
+        print(f"classified by mean motion: transform within {TRANSFORM_WITHIN_DEG:g} deg of "
+              "pure strike-slip, else ridge (opening) or subduction (closing)")
+        if unresolved:
+            print(f"sinking plate unresolved (no sea-floor ages on either side) for "
+                  f"{len(unresolved)} subduction line(s): {', '.join(map(str, unresolved))}; "
+                  "give the world an age grid, or set 'subducting' by hand")
+    print(f"wrote {args.output}" + (f" and {args.geojson}" if args.geojson else ""))
+    return EXIT_OK
+
+
+# ----------------------------------------------------------------------------------------
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="torque", description=(
         "Plate torques and Euler-pole prediction on a sphere. Results are model-dependent "
@@ -101,6 +265,45 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("world", help="world file (TOML)")
     p.add_argument("--json", action="store_true", help="print the report as JSON")
     p.set_defaults(func=_cmd_check)
+
+    p = sub.add_parser("frame", help="change the reference frame of a set of motions",
+                       description="Express plate motions in the no-net-rotation frame (the "
+                       "frame in which the surface integral of r x v vanishes, computed "
+                       "exactly from the plates' drag tensors) or with one plate fixed. "
+                       "Prints the net rotation before and after.")
+    p.add_argument("motions", help="motions CSV (plate,lat,lon,rate)")
+    p.add_argument("--world", required=True, help="world file (TOML)")
+    p.add_argument("--to", required=True, metavar="FRAME", help="nnr, or plate:NAME")
+    p.add_argument("-o", "--output", required=True, help="output motions CSV")
+    p.set_defaults(func=_cmd_frame)
+
+    p = sub.add_parser("field", help="velocity field on a grid or at points",
+                       description="Velocity of the plate under each point, east and north "
+                       "in mm/yr. Output by suffix: .csv, .geojson (points) or .nc "
+                       "(NetCDF, CF-style; a lat x lon grid for --step).")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("motions", help="motions CSV (plate,lat,lon,rate)")
+    g = p.add_mutually_exclusive_group()
+    g.add_argument("--step", type=float, default=1.0, metavar="DEG",
+                   help="cell-centred lon/lat grid step in degrees (default 1)")
+    g.add_argument("--points", metavar="FILE", help="CSV of points with columns lon,lat")
+    p.add_argument("-o", "--output", required=True, help="output file (.csv, .geojson, .nc)")
+    p.set_defaults(func=_cmd_field)
+
+    p = sub.add_parser("boundaries", help="relative motion along every boundary",
+                       description="Sample every boundary and give the velocity of the right "
+                       "plate relative to the left one: boundary-normal (opening positive), "
+                       "along-strike, and obliquity (0 opening, 90 strike-slip, 180 closing).")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("motions", help="motions CSV (plate,lat,lon,rate)")
+    p.add_argument("--spacing-km", type=float, default=50.0,
+                   help="sample spacing along the lines, km (default 50)")
+    p.add_argument("--classify", action="store_true",
+                   help="give 'unclassified' lines a kind from their motion")
+    p.add_argument("--geojson", metavar="FILE",
+                   help="also write the (classified) boundaries as GeoJSON")
+    p.add_argument("-o", "--output", required=True, help="output CSV")
+    p.set_defaults(func=_cmd_boundaries)
     return parser
 
 

@@ -94,7 +94,8 @@ def _clusters(xyz, radius_deg=_CLUSTER_DEG, most=10):
     return reps, left.size
 
 
-def _tiling_problems(world: World) -> list:
+def tiling_problems(world: World) -> list:
+    """Errors where the plates do not tile the sphere: area sum, gaps and overlaps."""
     g = world.geometry
     probs = []
     total = g.moments[0].sum()
@@ -306,7 +307,7 @@ def check_world(world: World) -> CheckReport:
     the right way round.
     """
     probs = list(world.problems)
-    probs += _tiling_problems(world)
+    probs += tiling_problems(world)
     probs += _crossing_problems(world)
     probs += _boundary_problems(world)
     return CheckReport(world, _plate_summary(world), probs)

@@ -210,8 +210,15 @@ class World:
         return [p for p in self.problems if p.severity == "error"]
 
     def require_valid(self):
-        """Raise :class:`InputError` if reading found errors (``torque check`` lists them)."""
-        errs = self.errors
+        """Raise :class:`InputError` unless the world is usable.
+
+        Usable means: reading found no error, and the plates tile the sphere (exact area sum
+        and grid coverage, see :func:`torque.validate.tiling_problems`). ``torque check``
+        runs these and the slower checks, and lists every problem.
+        """
+        from .validate import tiling_problems
+
+        errs = self.errors or [p for p in tiling_problems(self) if p.severity == "error"]
         if errs:
             shown = "; ".join(str(e) for e in errs[:5])
             more = f" (and {len(errs) - 5} more)" if len(errs) > 5 else ""

@@ -1,0 +1,379 @@
+"""Euler vectors: poles and rates, velocities, relative motion, finite rotations, frames.
+
+Inside the code an angular velocity is a Cartesian vector in **rad/s** (Earth-centred axes,
+see :mod:`torque.sphere`); at the edges it is a pole (lat, lon in degrees) and a rate in
+**deg/Myr**, positive counter-clockwise seen from above the pole (right-hand rule).
+Velocities come out in mm/yr. One Myr is the Julian million years, 3.15576e13 s.
+
+References
+----------
+.. [1] Cox, A. and Hart, R. B. (1986). *Plate Tectonics: How It Works*. Blackwell, ch. 4-5
+   (Euler poles, relative motion on a sphere, finite rotations).
+.. [2] Fowler, C. M. R. (2005). *The Solid Earth*, 2nd ed., Cambridge Univ. Press, sec. 2.4
+   (relative plate motion: ``v = omega R sin(Delta)``).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+from scipy.spatial.transform import Rotation
+
+from . import sphere
+from .errors import InputError, atomic_write
+
+MYR_S = 3.15576e13                               # s in a (Julian) million years
+YR_S = MYR_S / 1e6
+RAD_S_PER_DEG_MYR = np.pi / 180.0 / MYR_S
+M_S_TO_MM_YR = 1e3 * YR_S
+COV_COLUMNS = ("cov_xx", "cov_xy", "cov_xz", "cov_yy", "cov_yz", "cov_zz")
+
+
+# ----------------------------------------------------------------------------------------
+# poles <-> vectors
+# ----------------------------------------------------------------------------------------
+def pole_to_vector(lat_deg, lon_deg, rate_deg_myr) -> np.ndarray:
+    """Angular velocity vectors (rad/s), shape ``(..., 3)``, from poles and rates.
+
+    Examples
+    --------
+    One degree per Myr about the north pole:
+
+    >>> w = pole_to_vector(90.0, 0.0, 1.0)
+    >>> float(w[2] / RAD_S_PER_DEG_MYR)
+    1.0
+    """
+    u = sphere.lonlat_to_xyz(lon_deg, lat_deg)
+    return u * (np.asarray(rate_deg_myr, dtype=float) * RAD_S_PER_DEG_MYR)[..., None]
+
+
+def vector_to_pole(omega):
+    """Pole latitude, longitude (degrees) and rate (deg/Myr, always >= 0) of vectors (rad/s).
+
+    A zero vector gets the pole (90, 0) and rate 0.
+    """
+    omega = np.asarray(omega, dtype=float)
+    rate = np.linalg.norm(omega, axis=-1)
+    lon, lat = sphere.xyz_to_lonlat(omega)
+    zero = rate == 0
+    lat = np.where(zero, 90.0, lat)
+    lon = np.where(zero, 0.0, lon)
+    return lat, lon, rate / RAD_S_PER_DEG_MYR
+
+
+def velocity_xyz(omega, xyz, radius_m: float) -> np.ndarray:
+    """Velocity ``omega x (R r)`` in m/s at unit vectors ``xyz`` (broadcasting)."""
+    return np.cross(omega, xyz) * radius_m
+
+
+def velocity_en(omega, xyz, radius_m: float):
+    """East and north velocity components (mm/yr) of rotations ``omega`` at points ``xyz``.
+
+    Parameters
+    ----------
+    omega : ndarray, shape (N, 3) or (3,)
+        Angular velocity (rad/s) of the plate holding each point.
+    xyz : ndarray, shape (N, 3)
+        Unit vectors. At the poles east is taken along +y (longitude 90).
+    radius_m : float
+
+    Returns
+    -------
+    ve, vn : ndarray, shape (N,)
+    """
+    xyz = np.asarray(xyz, dtype=float)
+    v = velocity_xyz(omega, xyz, radius_m)
+    east = np.cross([0.0, 0.0, 1.0], xyz)
+    en = np.linalg.norm(east, axis=-1, keepdims=True)
+    east = np.where(en > 1e-15, east / np.where(en > 0, en, 1.0), [0.0, 1.0, 0.0])
+    north = np.cross(xyz, east)
+    return sphere.dot(v, east) * M_S_TO_MM_YR, sphere.dot(v, north) * M_S_TO_MM_YR
+
+
+def speed_azimuth(ve, vn):
+    """Speed (same unit as the components) and azimuth (degrees clockwise from north)."""
+    return np.hypot(ve, vn), np.mod(np.degrees(np.arctan2(ve, vn)), 360.0)
+
+
+def relative(omega_a, omega_b) -> np.ndarray:
+    """Angular velocity of plate A relative to plate B: ``omega_A - omega_B``."""
+    return np.asarray(omega_a) - np.asarray(omega_b)
+
+
+# ----------------------------------------------------------------------------------------
+# finite rotations (scipy does the algebra)
+# ----------------------------------------------------------------------------------------
+def finite_rotation(lat_deg, lon_deg, angle_deg) -> Rotation:
+    """The finite rotation by ``angle_deg`` (counter-clockwise) about a pole."""
+    axis = sphere.lonlat_to_xyz(lon_deg, lat_deg)
+    return Rotation.from_rotvec(axis * np.radians(np.asarray(angle_deg, float))[..., None])
+
+
+def rotation_pole(rotation: Rotation):
+    """Pole latitude, longitude and angle (degrees, >= 0) of finite rotations."""
+    rv = rotation.as_rotvec()
+    angle = np.degrees(np.linalg.norm(rv, axis=-1))
+    lon, lat = sphere.xyz_to_lonlat(rv)
+    return np.where(angle == 0, 90.0, lat), np.where(angle == 0, 0.0, lon), angle
+
+
+def compose(first: Rotation, then: Rotation) -> Rotation:
+    """The rotation ``first`` followed by ``then``."""
+    return then * first
+
+
+# ----------------------------------------------------------------------------------------
+# a set of plate motions
+# ----------------------------------------------------------------------------------------
+@dataclass(frozen=True, eq=False)
+class Motions:
+    """Euler vectors of named plates.
+
+    Attributes
+    ----------
+    plates : tuple of str
+    omega : ndarray, shape (P, 3)
+        Angular velocities in rad/s.
+    cov : ndarray, shape (P, 3, 3) or None
+        Covariance of each Euler vector, (rad/s)^2, if known.
+    extra : dict
+        Other columns of the file they came from, ``{name: list of str}``.
+    """
+
+    plates: tuple
+    omega: np.ndarray
+    cov: np.ndarray | None = None
+    extra: dict = field(default_factory=dict)
+    source: str | None = None
+
+    @classmethod
+    def from_poles(cls, plates, lat_deg, lon_deg, rate_deg_myr, **kw):
+        return cls(tuple(plates), pole_to_vector(lat_deg, lon_deg, rate_deg_myr), **kw)
+
+    @property
+    def poles(self):
+        """``(lat_deg, lon_deg, rate_deg_myr)`` arrays, rate >= 0."""
+        return vector_to_pole(self.omega)
+
+    def index(self) -> dict:
+        return {p: i for i, p in enumerate(self.plates)}
+
+    def for_world(self, world) -> np.ndarray:
+        """Angular velocities (rad/s) in the order of ``world.plates``, shape (P, 3).
+
+        Raises InputError naming the plates that are unknown to the world or missing here.
+        """
+        idx = self.index()
+        names = world.plate_names
+        unknown = [p for p in self.plates if p not in world.plate_index]
+        missing = [p for p in names if p not in idx]
+        where = self.source
+        if unknown:
+            raise InputError(f"motions given for plate(s) not in the world: "
+                             f"{', '.join(map(repr, unknown))}", file=where,
+                             hint=f"the world's plates are {', '.join(names)}")
+        if missing:
+            raise InputError(f"no motion for plate(s) {', '.join(map(repr, missing))}",
+                             file=where, hint="give every plate of the world a row")
+        return self.omega[[idx[p] for p in names]]
+
+    def cov_for_world(self, world):
+        if self.cov is None:
+            return None
+        idx = self.index()
+        return self.cov[[idx[p] for p in world.plate_names]]
+
+    def with_omega(self, omega, cov=None) -> "Motions":
+        return Motions(self.plates, np.asarray(omega, float), cov, dict(self.extra),
+                       self.source)
+
+    # -- frames ---------------------------------------------------------------------------
+    def add_rotation(self, omega) -> "Motions":
+        """Every plate's Euler vector plus ``omega`` (rad/s): a change of reference frame."""
+        return self.with_omega(self.omega + np.asarray(omega, float), self.cov)
+
+    def relative_to(self, plate: str) -> "Motions":
+        """Motions in the frame where ``plate`` is fixed."""
+        idx = self.index()
+        if plate not in idx:
+            raise InputError(f"no plate named {plate!r} in the motions",
+                             file=self.source, hint=f"plates are {', '.join(self.plates)}")
+        return self.add_rotation(-self.omega[idx[plate]])
+
+
+def net_rotation(world, omega) -> np.ndarray:
+    """Net rotation (rad/s) of plate motions over the whole surface, shape (3,).
+
+    The net rotation is the single rotation ``w_net`` whose removal makes the surface
+    integral of ``r x v`` vanish. Since ``int_plate r x (w x r) dA = D w`` with ``D`` the
+    plate's drag tensor ``int (I - r r^T) dA``, it solves ``(sum D) w_net = sum D w``,
+    exactly, from the plates' closed-form tensors. On a tiling ``sum D = (8 pi / 3) I``.
+
+    Parameters
+    ----------
+    world : World
+    omega : ndarray, shape (P, 3)
+        Angular velocity of each plate, in world plate order.
+    """
+    area, _, second = world.geometry.moments
+    D = area[:, None, None] * np.eye(3) - second
+    return np.linalg.solve(D.sum(axis=0), np.einsum("pij,pj->i", D, omega))
+
+
+def to_no_net_rotation(world, motions: Motions) -> tuple[Motions, np.ndarray]:
+    """Motions in the no-net-rotation frame, and the net rotation removed (rad/s)."""
+    omega = motions.for_world(world)
+    w_net = net_rotation(world, omega)
+    return motions.add_rotation(-w_net), w_net
+
+
+# ----------------------------------------------------------------------------------------
+# motions CSV
+# ----------------------------------------------------------------------------------------
+def read_motions(path) -> Motions:
+    """Read a motions CSV: header ``plate,lat,lon,rate`` (deg, deg, deg/Myr).
+
+    Extra columns are kept in ``Motions.extra``. If all of ``cov_xx, cov_xy, cov_xz, cov_yy,
+    cov_yz, cov_zz`` are present they are read as the covariance of the Cartesian Euler
+    vector in (deg/Myr)^2.
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except FileNotFoundError:
+        raise InputError("file not found", file=path) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read the file: {exc}", file=path) from None
+    rows = list(csv.reader(io.StringIO(text)))
+    rows = [r for r in rows if r and any(c.strip() for c in r) and not r[0].startswith("#")]
+    if not rows:
+        raise InputError("the file is empty; expected a header plate,lat,lon,rate", file=path)
+    header = [h.strip().lower() for h in rows[0]]
+    for need in ("plate", "lat", "lon", "rate"):
+        if need not in header:
+            raise InputError(f"the header has no column {need!r}", file=path,
+                             hint="the header must name plate,lat,lon,rate")
+    col = {h: i for i, h in enumerate(header)}
+    plates, values = [], []
+    has_cov = all(c in col for c in COV_COLUMNS)
+    covs = []
+    extra = {h: [] for h in header if h not in ("plate", "lat", "lon", "rate")}
+    for n, r in enumerate(rows[1:], start=2):
+        if len(r) < len(header):
+            raise InputError(f"row has {len(r)} fields, the header {len(header)}", file=path,
+                             where=f"line {n}")
+        name = r[col["plate"]].strip()
+        if not name:
+            raise InputError("empty plate name", file=path, where=f"line {n}")
+        vals = []
+        for key in ("lat", "lon", "rate"):
+            try:
+                v = float(r[col[key]])
+            except ValueError:
+                raise InputError(f"{key} is {r[col[key]]!r}, not a number", file=path,
+                                 where=f"line {n} (plate {name!r})") from None
+            if not np.isfinite(v):
+                raise InputError(f"{key} is not finite", file=path,
+                                 where=f"line {n} (plate {name!r})")
+            vals.append(v)
+        lat, lon, _ = vals
+        if not -90.0 <= lat <= 90.0:
+            raise InputError(f"pole latitude {lat:g} is out of [-90, 90]", file=path,
+                             where=f"line {n} (plate {name!r})")
+        if not -360.0 <= lon <= 360.0:
+            raise InputError(f"pole longitude {lon:g} is out of [-360, 360]", file=path,
+                             where=f"line {n} (plate {name!r})")
+        if name in plates:
+            raise InputError(f"plate {name!r} has a second row", file=path, where=f"line {n}")
+        plates.append(name)
+        values.append(vals)
+        for h in extra:
+            extra[h].append(r[col[h]])
+        if has_cov:
+            try:
+                c = [float(r[col[k]]) for k in COV_COLUMNS]
+            except ValueError:
+                raise InputError("covariance columns must be numbers", file=path,
+                                 where=f"line {n} (plate {name!r})") from None
+            covs.append(c)
+    if not plates:
+        raise InputError("no rows after the header", file=path)
+    v = np.array(values)
+    cov = None
+    if has_cov:
+        c = np.array(covs) * RAD_S_PER_DEG_MYR ** 2
+        cov = np.stack([c[:, [0, 1, 2]], c[:, [1, 3, 4]], c[:, [2, 4, 5]]], axis=1)
+        if np.any(np.linalg.eigvalsh(cov) < -1e-12 * np.abs(cov).max()):
+            raise InputError("a covariance matrix is not positive semi-definite", file=path)
+    return Motions.from_poles(plates, v[:, 0], v[:, 1], v[:, 2], cov=cov, extra=extra,
+                              source=str(path))
+
+
+def write_motions(path, motions: Motions, plates=None) -> None:
+    """Write a motions CSV: ``plate,lat,lon,rate`` with rate >= 0 and 15 significant digits.
+
+    ``plates`` orders and selects the rows (default: the order of ``motions``). The
+    covariance, if known, is written in the ``cov_*`` columns, (deg/Myr)^2.
+    """
+    idx = motions.index()
+    names = list(plates) if plates is not None else list(motions.plates)
+    lat, lon, rate = motions.poles
+    header = ["plate", "lat", "lon", "rate"]
+    if motions.cov is not None:
+        header += list(COV_COLUMNS)
+    with atomic_write(path, newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(header)
+        for p in names:
+            i = idx[p]
+            row = [p, f"{lat[i]:.15g}", f"{lon[i]:.15g}", f"{rate[i]:.15g}"]
+            if motions.cov is not None:
+                c = motions.cov[i] / RAD_S_PER_DEG_MYR ** 2
+                row += [f"{c[a, b]:.15g}" for a, b in ((0, 0), (0, 1), (0, 2), (1, 1),
+                                                      (1, 2), (2, 2))]
+            w.writerow(row)
+
+
+# ----------------------------------------------------------------------------------------
+# velocity fields
+# ----------------------------------------------------------------------------------------
+def grid_lonlat(step_deg: float):
+    """Cell-centred regular grid (so no node sits on a pole): 1-D lon and lat, degrees."""
+    if not (np.isfinite(step_deg) and 0 < step_deg <= 90):
+        raise InputError(f"the grid step must be in (0, 90] degrees, got {step_deg:g}")
+    lon = np.arange(-180.0 + step_deg / 2, 180.0, step_deg)
+    lat = np.arange(-90.0 + step_deg / 2, 90.0, step_deg)
+    return lon, lat
+
+
+def velocity_field(world, omega, lon_deg, lat_deg):
+    """Plate and velocity at points.
+
+    Parameters
+    ----------
+    world : World
+    omega : ndarray, shape (P, 3)
+        Angular velocity (rad/s) of each plate, in world plate order.
+    lon_deg, lat_deg : ndarray, shape (N,)
+
+    Returns
+    -------
+    plate : ndarray of int, shape (N,)
+        Index into ``world.plates``.
+    ve, vn : ndarray, shape (N,)
+        East and north velocity, mm/yr.
+    """
+    xyz = sphere.lonlat_to_xyz(np.ravel(lon_deg), np.ravel(lat_deg))
+    plate = world.locate_xyz(xyz)
+    if np.any(plate < 0):
+        k = int(np.nonzero(plate < 0)[0][0])
+        raise InputError(f"{int(np.sum(plate < 0))} point(s) lie in no plate, the first at "
+                         f"lon {np.ravel(lon_deg)[k]:g}, lat {np.ravel(lat_deg)[k]:g}",
+                         file=world.paths.get("world"),
+                         hint="the plates do not tile the sphere; run 'torque check'")
+    ve, vn = velocity_en(omega[plate], xyz, world.radius_m)
+    return plate, ve, vn

@@ -1,0 +1,127 @@
+"""Reading point lists and writing tables, GeoJSON and NetCDF, atomically.
+
+Every writer goes through a temporary file beside the target, renamed into place only when
+complete, so that no output is ever left half-written.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+from pathlib import Path
+
+import numpy as np
+
+from . import sphere
+from .errors import InputError, atomic_path, atomic_write
+
+FIELD_SUFFIXES = (".csv", ".geojson", ".json", ".nc")
+
+
+def output_suffix(path, allowed) -> str:
+    """The lower-case suffix of ``path``, or InputError if it is not one of ``allowed``."""
+    suffix = Path(path).suffix.lower()
+    if suffix not in allowed:
+        raise InputError(f"cannot write {suffix or 'a file without a suffix'}",
+                         file=path, hint=f"use one of {', '.join(allowed)}")
+    return suffix
+
+
+def _csv_text(column) -> np.ndarray:
+    """Text values escaped for CSV, done once per distinct value."""
+    uniq, inverse = np.unique(column.astype(str), return_inverse=True)
+    esc = np.array(['"' + u.replace('"', '""') + '"' if any(ch in u for ch in ',"\n\r')
+                    else u for u in uniq], dtype=object)
+    return esc[inverse.ravel()]
+
+
+def write_csv(path, columns: dict) -> None:
+    """Write equal-length columns ``{name: array}`` as CSV.
+
+    Floats are written to 10 significant digits, integers as integers, anything else as
+    text, quoted as CSV requires.
+    """
+    names = list(columns)
+    cols = [np.asarray(columns[n]) for n in names]
+    fmts = []
+    for c in cols:
+        if c.dtype.kind == "f":
+            fmts.append("%.10g")
+        elif c.dtype.kind in "iu":
+            fmts.append("%d")
+        else:
+            fmts.append("%s")
+    line = ",".join(fmts) + "\n"
+    text_cols = [(_csv_text(c) if f == "%s" else c).tolist() for c, f in zip(cols, fmts)]
+    with atomic_write(path, newline="") as fh:
+        fh.write(",".join(names) + "\n")
+        fh.writelines(line % row for row in zip(*text_cols))
+
+
+def write_points_geojson(path, lon, lat, properties: dict) -> None:
+    """Write points with per-point properties as a GeoJSON FeatureCollection."""
+    names = list(properties)
+    cols = [np.asarray(properties[n]).tolist() for n in names]
+    feats = []
+    for k, (x, y) in enumerate(zip(np.asarray(lon).tolist(), np.asarray(lat).tolist())):
+        props = {n: c[k] for n, c in zip(names, cols)}
+        feats.append({"type": "Feature", "geometry": {"type": "Point", "coordinates": [x, y]},
+                      "properties": props})
+    with atomic_write(path) as fh:
+        json.dump({"type": "FeatureCollection", "features": feats}, fh)
+
+
+def write_boundaries_geojson(path, boundaries) -> None:
+    """Write boundary lines in the contract's format."""
+    feats = []
+    for b in boundaries:
+        lon, lat = sphere.xyz_to_lonlat(b.xyz)
+        props = {"kind": b.kind, "left": b.left, "right": b.right}
+        if b.subducting:
+            props["subducting"] = b.subducting
+        props.update(b.properties)
+        feats.append({"type": "Feature", "properties": props,
+                      "geometry": {"type": "LineString",
+                                   "coordinates": np.round(np.c_[lon, lat], 10).tolist()}})
+    with atomic_write(path) as fh:
+        json.dump({"type": "FeatureCollection", "features": feats}, fh, indent=1)
+
+
+def write_netcdf(path, dataset) -> None:
+    """Write an xarray Dataset to NetCDF-4 (h5netcdf engine) atomically."""
+    with atomic_path(path) as tmp:
+        dataset.to_netcdf(tmp, engine="h5netcdf")
+
+
+def read_points(path):
+    """Read a CSV with columns ``lon,lat`` (degrees); returns two arrays, in file order."""
+    path = Path(path)
+    try:
+        with open(path, newline="", encoding="utf-8-sig") as fh:
+            rows = [r for r in csv.reader(fh) if r and any(c.strip() for c in r)]
+    except FileNotFoundError:
+        raise InputError("file not found", file=path) from None
+    if not rows:
+        raise InputError("the file is empty; expected a header lon,lat", file=path)
+    header = [h.strip().lower() for h in rows[0]]
+    if "lon" not in header or "lat" not in header:
+        raise InputError("the header must name columns 'lon' and 'lat'", file=path)
+    il, ia = header.index("lon"), header.index("lat")
+    vals = np.empty((len(rows) - 1, 2))
+    for n, r in enumerate(rows[1:]):
+        for k, c in enumerate((il, ia)):
+            try:
+                vals[n, k] = float(r[c])
+            except (ValueError, IndexError):
+                raise InputError(f"{header[c]} is {r[c] if c < len(r) else ''!r}, not a "
+                                 "number", file=path, where=f"line {n + 2}") from None
+    if not len(vals):
+        raise InputError("no points after the header", file=path)
+    bad = ~np.isfinite(vals).all(axis=1) | (np.abs(vals[:, 1]) > 90) | (
+        (vals[:, 0] < -180) | (vals[:, 0] > 360))
+    if bad.any():
+        k = int(np.nonzero(bad)[0][0])
+        raise InputError(f"point ({vals[k, 0]:g}, {vals[k, 1]:g}) is out of range "
+                         "(lon in [-180, 360], lat in [-90, 90])", file=path,
+                         where=f"line {k + 2}")
+    return vals[:, 0], vals[:, 1]
