@@ -123,3 +123,24 @@ def test_multipolygon_plate():
         got = world.locate(lon, lat)
         assert np.array_equal(got, np.where(inside, 0, 1))
         assert inside.any() and (~inside).any()
+
+
+@pytest.mark.parametrize("lon0,step,lat_nodes", [(-179.75, 0.5, "centred"),
+                                                 (0.0, 0.7, "poles"), (-30.0, 1.3, "part")])
+def test_locate_grid_agrees_node_for_node(lon0, step, lat_nodes):
+    # The block shortcut must give exactly what locating every node gives.
+    gen, sv, loc = voronoi_locator(40, seed=6)
+    lon = lon0 + step * np.arange(int(360 / step))
+    if lat_nodes == "centred":
+        lat = np.arange(-90 + step / 2, 90, step)
+    elif lat_nodes == "poles":
+        lat = np.linspace(-90, 90, 181)
+    else:
+        lat = np.arange(-60.0, 75.0, step)
+        lon = lon[: len(lon) // 2]
+    grid = loc.locate_grid(lon, lat, block=8)
+    LON, LAT = np.meshgrid(lon, lat)
+    assert np.array_equal(grid, loc.locate_lonlat(LON, LAT))
+    # and equals the nearest generator (definition of a Voronoi cell)
+    _, nearest = cKDTree(gen).query(sphere.lonlat_to_xyz(LON, LAT).reshape(-1, 3))
+    assert np.array_equal(grid.ravel(), nearest)

@@ -196,7 +196,7 @@ def field_dataset(world, lon, lat, plate, ve, vn, grid=None):
 
 
 def _cmd_boundaries(args) -> int:
-    from .ages import read_ages
+    from .grids import read_ages
     from .euler import read_motions
     from .io import output_suffix, write_boundaries_geojson, write_csv
     from .margins import (TRANSFORM_WITHIN_DEG, boundary_motion, classify, sample_boundaries,
@@ -251,6 +251,100 @@ def _cmd_boundaries(args) -> int:
     return EXIT_OK
 
 
+
+# ----------------------------------------------------------------------------------------
+# physics: cooling, torques
+# ----------------------------------------------------------------------------------------
+DEFAULT_COOLING_AGES = (1, 2, 5, 10, 20, 30, 40, 50, 60, 80, 100, 120, 150, 200)
+
+
+def _parse_ages(text):
+    try:
+        ages = [float(a) for a in text.split(",") if a.strip()]
+    except ValueError:
+        raise InputError(f"--ages must be numbers separated by commas, got {text!r}") from None
+    bad = [a for a in ages if not (0 < a <= 300)]
+    if not ages or bad:
+        raise InputError(f"--ages must lie in (0, 300] Myr; got {bad or text!r}")
+    return ages
+
+
+def cooling_rows(hypothesis, ages):
+    """The rows of ``torque cooling`` for a hypothesis (its physics and slab depth)."""
+    from .forces.slab import DEFAULT_DEPTH_KM
+    from .lithosphere import Cooling
+    depth = next((f.options.get("depth_km") for f in hypothesis.forces
+                  if f.kind == "slab" and "depth_km" in f.options), DEFAULT_DEPTH_KM)
+    c = Cooling(hypothesis.physics)
+    t = np.asarray(ages, float)
+    cols = (t, c.depth_m(t), c.heat_flow_mw_m2(t), c.ridge_push_n_m(t),
+            c.slab_pull_n_m(t, depth))
+    keys = ("age_myr", "depth_m", "heat_flow_mw_m2", "ridge_push_n_m", "slab_pull_n_m")
+    return [dict(zip(keys, map(float, row))) for row in zip(*cols)], depth
+
+
+def _cmd_cooling(args) -> int:
+    from .hypothesis import hypothesis_from_dict, load_hypothesis
+    from .io import output_suffix, write_csv
+
+    if args.output:
+        output_suffix(args.output, (".csv",))
+    hyp = (load_hypothesis(args.physics) if args.physics
+           else hypothesis_from_dict({"force": [{"kind": "drag"}]}, name="defaults"))
+    ages = _parse_ages(args.ages) if args.ages else DEFAULT_COOLING_AGES
+    rows, depth = cooling_rows(hyp, ages)
+    p = hyp.physics
+    if args.json:
+        print(dumps({"model": p.model, "physics": p.__dict__, "slab_depth_km": depth,
+                     "rows": rows}))
+    else:
+        print(f"{p.model} cooling model; slab pull for a slab reaching {depth:g} km")
+        print(f"{'age Myr':>8} {'depth m':>9} {'heat flow mW/m2':>16} {'ridge push N/m':>15} "
+              f"{'slab pull N/m':>14}")
+        for r in rows:
+            print(f"{r['age_myr']:8.1f} {r['depth_m']:9.1f} {r['heat_flow_mw_m2']:16.2f} "
+                  f"{r['ridge_push_n_m']:15.4e} {r['slab_pull_n_m']:14.4e}")
+    if args.output:
+        write_csv(args.output, {k: np.array([r[k] for r in rows]) for k in rows[0]})
+    return EXIT_OK
+
+
+def _cmd_torques(args) -> int:
+    from .euler import read_motions
+    from .forces import compute_torques
+    from .hypothesis import load_hypothesis
+    from .io import output_suffix, write_csv
+
+    output_suffix(args.output, (".csv",))
+    world = _world(args.world)
+    hyp = load_hypothesis(args.hypothesis)
+    omega = read_motions(args.motions).for_world(world) if args.motions else None
+    terms = compute_torques(world, hyp, omega)
+    moving = [t.label for t in terms if t.velocity_dependent]
+    if moving and omega is None:
+        raise InputError(f"term(s) {', '.join(moving)} depend on the plates' motion",
+                         file=args.hypothesis, hint="give the motions with --motions M.csv")
+    plates, labels, coefs, tq = [], [], [], []
+    for t in terms:
+        c = 1.0 if t.spec.free else t.spec.coefficient
+        torque = c * t.torque(omega)
+        plates += world.plate_names
+        labels += [t.label] * len(world.plates)
+        coefs += [c] * len(world.plates)
+        tq.append(torque)
+    tq = np.concatenate(tq)
+    write_csv(args.output, {"plate": np.array(plates, dtype=object),
+                            "term": np.array(labels, dtype=object), "coefficient": np.array(coefs),
+                            "tx_nm": tq[:, 0], "ty_nm": tq[:, 1], "tz_nm": tq[:, 2]})
+    for t in terms:
+        mag = np.linalg.norm(t.torque(omega), axis=1)
+        print(f"{t.label:<16} {'free' if t.spec.free else 'fixed':<5} coefficient unit "
+              f"{t.unit:<7} |torque| at coefficient 1: median {np.median(mag):.3e} N m")
+        for note in t.notes:
+            print(f"  note: {note}")
+    print(f"wrote {args.output} ({len(plates)} rows)")
+    return EXIT_OK
+
 # ----------------------------------------------------------------------------------------
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="torque", description=(
@@ -304,6 +398,28 @@ def build_parser() -> argparse.ArgumentParser:
                    help="also write the (classified) boundaries as GeoJSON")
     p.add_argument("-o", "--output", required=True, help="output CSV")
     p.set_defaults(func=_cmd_boundaries)
+
+    p = sub.add_parser("cooling", help="table of the lithosphere cooling model",
+                       description="Sea-floor depth, surface heat flow, ridge push and slab "
+                       "pull (per metre of trench, for the hypothesis' slab depth or 660 km) "
+                       "against age, for the physics of a hypothesis file or the defaults.")
+    p.add_argument("--physics", metavar="HYP.toml", help="hypothesis file whose [physics] "
+                   "table to use")
+    p.add_argument("--ages", metavar="A,B,...", help="ages in Myr (default 1 to 200)")
+    p.add_argument("--json", action="store_true", help="print JSON")
+    p.add_argument("-o", "--output", help="also write the table as CSV")
+    p.set_defaults(func=_cmd_cooling)
+
+    p = sub.add_parser("torques", help="torque of each force term on each plate",
+                       description="Torque about the planet's centre of every force term of "
+                       "a hypothesis on every plate, at the term's fixed coefficient or at 1 "
+                       "for a free one. Velocity-dependent terms (drag, resistance) need "
+                       "--motions.")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("hypothesis", help="hypothesis file (TOML)")
+    p.add_argument("--motions", help="motions CSV (plate,lat,lon,rate)")
+    p.add_argument("-o", "--output", required=True, help="output CSV")
+    p.set_defaults(func=_cmd_torques)
     return parser
 
 

@@ -13,6 +13,7 @@ import shapely
 from scipy.spatial import cKDTree
 
 from . import sphere
+from .locate import arc_boxes
 from .world import Problem, World
 
 AREA_RTOL = 1e-9            # total area against 4 pi R^2
@@ -128,28 +129,6 @@ def tiling_problems(world: World) -> list:
     return probs
 
 
-def _arc_boxes(a, b):
-    """Lon/lat boxes (degrees) of arcs, split at the antimeridian; returns boxes and owner."""
-    lon_a, _ = sphere.xyz_to_lonlat(a)
-    lon_b, _ = sphere.xyz_to_lonlat(b)
-    dlon = np.mod(lon_b - lon_a + 180.0, 360.0) - 180.0
-    lo = lon_a + np.minimum(dlon, 0.0)
-    hi = lon_a + np.maximum(dlon, 0.0)
-    la, lb = (np.degrees(t) for t in sphere.arc_lat_range(a, b))
-    owner = np.arange(len(a))
-    # pieces that run past +/-180 get a second box on the other side
-    wrap_lo, wrap_hi = lo < -180.0, hi > 180.0
-    boxes = [shapely.box(np.maximum(lo, -180.0), la, np.minimum(hi, 180.0), lb)]
-    owners = [owner]
-    if wrap_lo.any():
-        boxes.append(shapely.box(lo[wrap_lo] + 360.0, la[wrap_lo], 180.0, lb[wrap_lo]))
-        owners.append(owner[wrap_lo])
-    if wrap_hi.any():
-        boxes.append(shapely.box(-180.0, la[wrap_hi], hi[wrap_hi] - 360.0, lb[wrap_hi]))
-        owners.append(owner[wrap_hi])
-    return np.concatenate(boxes), np.concatenate(owners)
-
-
 def ring_crossings(geometry, frame=None):
     """Pairs of edges of the same polygon part that cross each other.
 
@@ -168,7 +147,7 @@ def ring_crossings(geometry, frame=None):
     nxt = sphere.ring_next(g.ring_start)
     a, b = g.xyz @ frame.T, g.xyz[nxt] @ frame.T
     poly = g.ring_polygon[sphere.ring_index(g.ring_start)]
-    boxes, owner = _arc_boxes(a, b)
+    boxes, owner = arc_boxes(a, b)
     tree = shapely.STRtree(boxes)
     qi, ti = tree.query(boxes, predicate="intersects")
     i, j = owner[qi], owner[ti]

@@ -1,0 +1,257 @@
+"""Torques of the force terms against closed forms and identities.
+
+Closed forms (vector calculus on the sphere, written out beside each test):
+* a uniform eastward line force F along a meridian from pole to pole has torque
+  R^2 int r x F e_hat ds = 2 F R^2 z_hat;
+* basal drag on a hemisphere: -C R^4 (4 pi/3) omega (drag tensor of a hemisphere);
+* a northward line force F along half the equator (lon 0 to 180): R^2 int r x F n_hat ds =
+  -F R^2 int e_hat ds = (2 F R^2, 0, 0);
+* transform resistance along the equator with the southern plate turning at w about z:
+  2 pi c w R^3 z_hat on the northern plate;
+* Stokes' theorem on the sphere: int_plate r x grad F dA = oint F dr, used to check the
+  distributed ridge push on purely oceanic plates, with convergence in the grid step.
+"""
+
+import numpy as np
+import pytest
+from scipy.spatial.transform import Rotation
+
+from torque import sphere
+from torque.euler import RAD_S_PER_DEG_MYR
+from torque.forces import compute_torques
+from torque.grids import AgeGrid, FlowGrid
+from torque.hypothesis import hypothesis_from_dict
+from torque.lithosphere import Cooling, Physics
+from torque.world import Boundary, world_from_rings
+
+from .conftest import voronoi_rings
+
+R = 6371e3
+
+
+def line(coords, Q=None):
+    lon, lat = np.asarray(coords, float).T
+    xyz = sphere.lonlat_to_xyz(lon, lat)
+    return xyz if Q is None else xyz @ Q.T
+
+
+def hyp(*forces, **physics):
+    cfg = {"force": list(forces)}
+    if physics:
+        cfg["physics"] = physics
+    return hypothesis_from_dict(cfg)
+
+
+def hemispheres(boundaries=(), Q=None):
+    """Upper (north) and Lower (south); optionally everything rotated by Q."""
+    north = np.array([(0, 0), (120, 0), (240, 0)], float)
+    south = north[::-1]
+    if Q is not None:
+        north = np.c_[sphere.xyz_to_lonlat(line(north, Q))]
+        south = np.c_[sphere.xyz_to_lonlat(line(south, Q))]
+    return world_from_rings({"Upper": [north.tolist()], "Lower": [south.tolist()]},
+                            boundaries=boundaries, winding="strict")
+
+
+def east_west(boundaries):
+    east = [(0, 90), (0, 0), (0, -90), (90, 0)]
+    west = [(0, 90), (270, 0), (0, -90), (180, 0)]
+    return world_from_rings({"East": [east], "West": [west]}, boundaries=boundaries)
+
+
+def test_line_force_along_a_meridian():
+    # Walking from the north pole south along lon 0, East is on the left; the edge-form
+    # ridge push pushes +n (eastward) into East: torque 2 F R^2 z_hat, and the opposite on
+    # West.
+    F = 2.5e12
+    b = [Boundary("ridge", "East", "West", line([(0, 90), (0, 45), (0, 0), (0, -45),
+                                                   (0, -90)])),
+         Boundary("transform", "West", "East", line([(180, 90), (180, 0), (180, -90)]))]
+    w = east_west(b)
+    (t,) = compute_torques(w, hyp({"kind": "ridge", "form": "edge", "coefficient": 1.0,
+                                   "force_per_length": F}))
+    np.testing.assert_allclose(t.torque()[0], [0, 0, 2 * F * R**2], atol=1e-9 * F * R**2)
+    np.testing.assert_allclose(t.torque()[1], [0, 0, -2 * F * R**2], atol=1e-9 * F * R**2)
+
+
+def test_drag_on_a_hemisphere():
+    w = hemispheres()
+    omega = np.array([[1e-15, -2e-15, 3e-15], [0, 0, 0]])
+    (t,) = compute_torques(w, hyp({"kind": "drag"}), omega)
+    np.testing.assert_allclose(t.torque(omega)[0], -R**4 * 4 * np.pi / 3 * omega[0],
+                               rtol=1e-12)
+    assert t.velocity_dependent and t.unit == "Pa s/m"
+
+
+def trench_world(Q=None):
+    b = [Boundary("subduction", "Upper", "Lower", line([(0, 0), (60, 0), (120, 0),
+                                                          (180, 0)], Q),
+                  subducting="Lower"),
+         Boundary("transform", "Upper", "Lower", line([(180, 0), (270, 0), (360, 0)], Q))]
+    return hemispheres(b, Q)
+
+
+def test_slab_pull_and_suction_on_half_the_equator():
+    # Lower sinks under Upper along lon 0..180: slab pull on Lower points north (toward
+    # Upper), torque (2 F R^2, 0, 0); suction on Upper points south, (-2 F R^2, 0, 0).
+    F = 3e13
+    w = trench_world()
+    slab, suction = compute_torques(w, hyp(
+        {"kind": "slab", "coefficient": 1.0, "force_per_length": F},
+        {"kind": "suction", "coefficient": 0.1, "force_per_length": F}))
+    scale = F * R**2
+    np.testing.assert_allclose(slab.torque()[1], [2 * scale, 0, 0], atol=1e-9 * scale)
+    np.testing.assert_allclose(slab.torque()[0], 0, atol=1e-9 * scale)
+    np.testing.assert_allclose(suction.torque()[0], [-2 * scale, 0, 0], atol=1e-9 * scale)
+
+
+def test_slab_pull_magnitude_from_the_trench_age():
+    # With a slab age of 80 Myr (entry default) the force per metre is the cooling model's
+    # slab buoyancy for 660 km: the same closed-form geometry scales with it.
+    w = trench_world()
+    (slab,) = compute_torques(w, hyp({"kind": "slab", "age_myr": 80.0}))
+    F = Cooling(Physics()).slab_pull_n_m(80.0, 660.0)
+    np.testing.assert_allclose(slab.torque()[1], [2 * F * R**2, 0, 0], rtol=1e-4,
+                               atol=1e-9 * F * R**2)
+
+
+def test_transform_resistance_closed_form():
+    w = hemispheres([Boundary("transform", "Upper", "Lower",
+                              line([(0, 0), (120, 0), (240, 0), (360, 0)]))])
+    wz = 1.0 * RAD_S_PER_DEG_MYR
+    omega = np.array([[0, 0, 0], [0, 0, wz]])
+    full, strike, normal = compute_torques(w, hyp(
+        {"kind": "transform", "label": "a"},
+        {"kind": "transform", "label": "s", "component": "strike"},
+        {"kind": "transform", "label": "n", "component": "normal"}), omega)
+    expect = 2 * np.pi * wz * R**3
+    np.testing.assert_allclose(full.torque(omega)[0], [0, 0, expect], rtol=1e-12,
+                               atol=1e-12 * expect)
+    np.testing.assert_allclose(full.torque(omega)[1], [0, 0, -expect], rtol=1e-12,
+                               atol=1e-12 * expect)
+    np.testing.assert_allclose(strike.torque(omega), full.torque(omega), atol=1e-9 * expect)
+    np.testing.assert_allclose(normal.torque(omega), 0, atol=1e-9 * expect)
+
+
+def test_rotating_the_world_rotates_every_torque():
+    # Invariance: a rigid rotation Q of the world maps each torque t to Q t.
+    Q = Rotation.from_euler("zyx", [40, -25, 70], degrees=True).as_matrix()
+    forces = ({"kind": "slab", "age_myr": 70.0}, {"kind": "suction", "age_myr": 70.0},
+              {"kind": "drag"}, {"kind": "transform"}, {"kind": "trench"})
+    omega = np.array([[1e-15, 2e-15, -1e-15], [-2e-15, 0.5e-15, 1e-15]])
+    a = compute_torques(trench_world(), hyp(*forces), omega)
+    b = compute_torques(trench_world(Q), hyp(*forces), omega @ Q.T)
+    for ta, tb in zip(a, b):
+        ref = ta.torque(omega)
+        scale = np.abs(ref).max()
+        np.testing.assert_allclose(tb.torque(omega @ Q.T), ref @ Q.T, atol=1e-9 * scale)
+
+
+def voronoi_world(n=12, seed=3):
+    _, _, rings = voronoi_rings(n, seed)
+    return world_from_rings({f"P{i}": [r] for i, r in enumerate(rings)})
+
+
+def smooth_ages(lon, lat):
+    """A smooth invented age field, 5 to 195 Myr."""
+    x = sphere.lonlat_to_xyz(lon, lat)
+    return 100 + 60 * x[..., 0] + 30 * x[..., 1] * x[..., 2] + 5 * np.sin(3 * x[..., 2])
+
+
+def stokes_torques(world, cooling, k=64):
+    """R^2 oint F dr round every plate, by Gauss-Legendre quadrature along each arc."""
+    g = world.geometry
+    a, b, plate = g.edges
+    n, theta = sphere.arc_pole(a, b)
+    u = np.cross(n, a)
+    x, wq = np.polynomial.legendre.leggauss(k)
+    t = 0.5 * (x + 1)[None, :] * theta[:, None]                      # (E, k)
+    r = np.cos(t)[..., None] * a[:, None] + np.sin(t)[..., None] * u[:, None]
+    dr = -np.sin(t)[..., None] * a[:, None] + np.cos(t)[..., None] * u[:, None]
+    lon, lat = sphere.xyz_to_lonlat(r)
+    F = cooling.ridge_push_n_m(smooth_ages(lon, lat))
+    contrib = (F[..., None] * dr * (0.5 * theta[:, None] * wq[None, :])[..., None]).sum(1)
+    out = np.zeros((g.n_plates, 3))
+    np.add.at(out, plate, contrib)
+    return out * world.radius_m ** 2
+
+
+def age_grid(step):
+    lon = np.arange(-180 + step / 2, 180, step)
+    lat = np.arange(-90 + step / 2, 90, step)
+    LON, LAT = np.meshgrid(lon, lat)
+    return AgeGrid(lon, lat, smooth_ages(LON, LAT))
+
+
+def test_distributed_ridge_push_matches_stokes_and_converges():
+    # Reference: R^2 oint F(t) dr round each purely oceanic plate (Stokes' theorem).
+    w = voronoi_world()
+    cooling = Cooling(Physics())
+    ref = stokes_torques(w, cooling)
+    errs = []
+    for step in (1.0, 0.5, 0.25):
+        (t,) = compute_torques(w, hyp({"kind": "ridge"}), ages=age_grid(step))
+        errs.append(np.linalg.norm(t.torque() - ref) / np.linalg.norm(ref))
+    assert errs[-1] < 0.01
+    assert errs[0] > errs[1] > errs[2]
+    assert errs[0] / errs[2] > 3.0          # at least first order in the step
+
+
+def test_distributed_ridge_push_is_zero_for_uniform_age():
+    # grad F = 0 for a uniform age field: no torque at all (plate boundaries make no force).
+    w = voronoi_world()
+    g = age_grid(1.0)
+    flat = AgeGrid(g.lon, g.lat, np.full_like(g.age_myr, 60.0))
+    (t,) = compute_torques(w, hyp({"kind": "ridge"}), ages=flat)
+    assert np.abs(t.torque()).max() == 0.0
+
+
+def test_continents_are_clipped_to_plates_exactly():
+    # A cap centred on the equator is cut in two equal halves by it (mirror symmetry), and
+    # the whole cap's moments are the closed forms of a cap: area 2 pi (1 - cos a).
+    from pyproj import Geod
+
+    from torque.continents import Continents, clip_moments
+    geod = Geod(a=1, b=1)
+    alpha = np.radians(20.0)
+    lon, lat, _ = geod.fwd(np.full(720, 30.0), np.zeros(720), np.linspace(360, 0, 720,
+                                                                          endpoint=False),
+                           np.full(720, alpha))
+    xyz = sphere.lonlat_to_xyz(lon, lat)
+    cont = Continents(xyz, np.array([0, 720]), np.array([False]), np.array([0]))
+    area, first, second, warn = clip_moments(hemispheres(), cont)
+    cap_area, _, _ = sphere.region_moments(xyz, [0, 720], [0], [False], 1)
+    assert area.sum() == pytest.approx(cap_area[0], rel=1e-12)
+    assert area[0] == pytest.approx(area[1], rel=1e-10)
+    assert cap_area[0] == pytest.approx(2 * np.pi * (1 - np.cos(alpha)), rel=1e-4)
+    assert first[0, 2] == pytest.approx(-first[1, 2], rel=1e-10)
+    assert warn == []
+    # drag over the continent and the ocean add up to drag over the whole plate
+    omega = np.array([[1e-15, 2e-15, 3e-15], [0, 0, 1e-15]])
+    tall, toc, tco = compute_torques(hemispheres(), hyp(
+        {"kind": "drag"}, {"kind": "drag", "region": "ocean"},
+        {"kind": "drag", "region": "continent"}), omega, continents=cont)
+    scale = np.abs(tall.torque(omega)).max()
+    np.testing.assert_allclose(toc.torque(omega) + tco.torque(omega), tall.torque(omega),
+                               rtol=1e-12, atol=1e-12 * scale)
+
+
+def test_mantle_flow_of_a_rigid_rotation_converges_to_the_exact_drag():
+    # A mantle turning rigidly with a plate exerts no net drag on it: the grid sum of the
+    # flow term must converge to the exact -R^4 D omega it cancels.
+    w = voronoi_world()
+    wm = np.array([0.3, -0.2, 0.9]) * RAD_S_PER_DEG_MYR
+    errs = []
+    for step in (2.0, 1.0, 0.5):
+        lon = np.arange(-180 + step / 2, 180, step)
+        lat = np.arange(-90 + step / 2, 90, step)
+        LON, LAT = np.meshgrid(lon, lat)
+        from torque.euler import velocity_en
+        ve, vn = velocity_en(np.broadcast_to(wm, (LON.size, 3)),
+                             sphere.lonlat_to_xyz(LON.ravel(), LAT.ravel()), R)
+        flow = FlowGrid(lon, lat, ve.reshape(LON.shape), vn.reshape(LON.shape))
+        omega = np.tile(wm, (12, 1))
+        (t,) = compute_torques(w, hyp({"kind": "mantle"}), omega, flow=flow)
+        ref = np.abs(t.resisting[0, :, 0, :] @ wm).max()
+        errs.append(np.abs(t.torque(omega)).max() / ref)
+    assert errs[-1] < 0.01 and errs[0] > errs[2]

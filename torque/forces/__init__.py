@@ -1,0 +1,297 @@
+"""Torques of the forces on plates: one module per force kind, all of one shape.
+
+Every kind module defines
+
+* ``KIND``: its name in hypothesis files;
+* ``UNIT``: the unit of its coefficient;
+* ``KEYS``: its own keys in a ``[[force]]`` table, ``{key: description}`` (plus optional
+  ``CHOICES`` for keys with a fixed set of values, ``POSITIVE`` for keys that must be > 0,
+  and ``DEFAULTS``);
+* ``default_label(options) -> str``;
+* ``build(ctx, spec) -> ForceTerm``.
+
+A :class:`ForceTerm` holds, for a coefficient of 1, the torque on every plate split into a
+part independent of the plates' motion and a part linear in their angular velocities, so
+that the torque of the term is ``coefficient * (driving + resisting @ omega)`` and the
+torque balance is a linear system. Adding a kind is adding one module and one line in
+:data:`KINDS`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+
+from .. import sphere
+from ..errors import InputError
+from ..lithosphere import Cooling
+
+
+@dataclass(frozen=True, eq=False)
+class ForceTerm:
+    """The torque of one force entry on every plate, per unit coefficient.
+
+    Attributes
+    ----------
+    label, kind : str
+    spec : ForceSpec
+    unit : str
+        Unit of the coefficient.
+    driving : ndarray, shape (P, 3)
+        Torque (N m) independent of the plates' motion.
+    resisting : ndarray, shape (P, 3, P, 3)
+        Torque (N m) per angular velocity (rad/s): ``resisting[p, :, q, :] @ omega[q]`` is
+        the torque on plate p from the motion of plate q.
+    notes : tuple of str
+        How the term was computed where a user should know (e.g. synthesised ages).
+    """
+
+    label: str
+    kind: str
+    spec: object
+    unit: str
+    driving: np.ndarray
+    resisting: np.ndarray
+    notes: tuple = ()
+
+    @property
+    def n_plates(self) -> int:
+        return self.driving.shape[0]
+
+    @property
+    def velocity_dependent(self) -> bool:
+        return bool(np.any(self.resisting != 0))
+
+    def torque(self, omega=None) -> np.ndarray:
+        """Torque (N m, shape (P, 3)) at coefficient 1 for angular velocities ``omega``."""
+        if omega is None:
+            if self.velocity_dependent:
+                raise ValueError(f"term {self.label!r} depends on plate motion")
+            return self.driving.copy()
+        return self.driving + np.einsum("piqj,qj->pi", self.resisting, omega)
+
+
+def empty_term(ctx, spec, unit, notes=()):
+    P = ctx.world.geometry.n_plates
+    return ForceTerm(spec.label, spec.kind, spec, unit, np.zeros((P, 3)),
+                     np.zeros((P, 3, P, 3)), tuple(notes))
+
+
+@dataclass(frozen=True, eq=False)
+class Pieces:
+    """Boundary arcs split into short pieces: geometry and ownership.
+
+    ``line`` indexes ``ctx.world.boundaries``; ``n`` is the left-hand unit normal (pointing
+    into the left plate); ``m`` is ``int r ds`` over the piece; ``theta`` its length
+    (radians); ``mid`` its midpoint.
+    """
+
+    a: np.ndarray
+    b: np.ndarray
+    line: np.ndarray
+    n: np.ndarray
+    m: np.ndarray
+    theta: np.ndarray
+    mid: np.ndarray
+
+
+class Context:
+    """What the force modules share: the world, physics, motions and derived data."""
+
+    #: spacing of the pieces along boundaries where a force varies along them (km)
+    PIECE_KM = 50.0
+    #: resolution of synthesised age grids (degrees)
+    SYNTH_STEP_DEG = 0.5
+    #: distance into the subducting plate at which the trench age is read (km)
+    TRENCH_PROBE_KM = 30.0
+
+    def __init__(self, world, hypothesis, omega=None, ages=None, continents=None,
+                 flow=None):
+        self.world = world
+        self.hypothesis = hypothesis
+        self.physics = hypothesis.physics
+        self.cooling = Cooling(hypothesis.physics)
+        self.omega = omega
+        self._ages = ages
+        self._continents = continents
+        self._flow = flow
+        self.R = world.radius_m
+
+    # -- data files -----------------------------------------------------------------------
+    @cached_property
+    def continents(self):
+        if self._continents is not None:
+            return self._continents
+        if "continents" not in self.world.paths:
+            return None
+        from ..continents import read_continents
+        return read_continents(self.world.paths["continents"])
+
+    @cached_property
+    def continent_moments(self):
+        """Exact (area, first, second) of the continental part of each plate (zeros if none)."""
+        P = self.world.geometry.n_plates
+        if self.continents is None:
+            return np.zeros(P), np.zeros((P, 3)), np.zeros((P, 3, 3))
+        from ..continents import clip_moments
+        area, first, second, warnings = clip_moments(self.world, self.continents)
+        self.clip_warnings = warnings
+        return area, first, second
+
+    def drag_tensor(self, region: str) -> np.ndarray:
+        """``int (I - r r^T) dA`` over the region of each plate (unit sphere), (P, 3, 3)."""
+        area, _, second = self.world.geometry.moments
+        D = area[:, None, None] * np.eye(3) - second
+        if region == "all":
+            return D
+        if self.continents is None:
+            raise InputError(f"region {region!r} needs continents: add a 'continents' file to "
+                             "the world", file=self.world.paths.get("world"))
+        ca, _, cs = self.continent_moments
+        Dc = ca[:, None, None] * np.eye(3) - cs
+        return Dc if region == "continent" else D - Dc
+
+    @cached_property
+    def ages(self):
+        """``(AgeGrid, synthesised)``: the world's grid, else one made from ridges and rates."""
+        self.age_notes = ()
+        if self._ages is not None:
+            return self._ages, False
+        if "ages" in self.world.paths:
+            from ..grids import read_ages
+            grid = read_ages(self.world.paths["ages"])
+            self._check_ages(grid)
+            return grid, False
+        from .ages_synth import synthesise_ages
+        grid, self.age_notes = synthesise_ages(self)
+        return grid, True
+
+    def _check_ages(self, grid):
+        if not grid.covers_sphere():
+            raise InputError("the age grid does not cover the plates (it must span all "
+                             f"longitudes and reach within a grid step of both poles; it spans "
+                             f"lon {grid.lon[0]:g} to {grid.lon[-1]:g}, lat {grid.lat[0]:g} to "
+                             f"{grid.lat[-1]:g})", file=grid.source)
+        if self.continents is None:
+            return
+        plate = self.node_plates(grid)
+        cont = self.node_continental(grid)
+        nan = ~np.isfinite(grid.age_myr) & ~cont
+        if nan.any():
+            j, i = np.argwhere(nan)[0]
+            name = self.world.plates[int(plate[j, i])].name
+            raise InputError(f"{int(nan.sum())} age node(s) are NaN outside the continents, "
+                             f"the first in plate {name!r} at lon {grid.lon[i]:g}, lat "
+                             f"{grid.lat[j]:g}", file=grid.source,
+                             hint="give every oceanic node an age, or extend the continents")
+
+    @cached_property
+    def flow(self):
+        if self._flow is not None:
+            return self._flow
+        if "mantle_flow" not in self.world.paths:
+            raise InputError("a 'mantle' force needs a mantle flow grid: add 'mantle_flow' to "
+                             "the world file", file=self.world.paths.get("world"))
+        from ..grids import read_flow
+        return read_flow(self.world.paths["mantle_flow"])
+
+    def age_grid_if_any(self):
+        """The age field if there is one (a grid, or ages that can be synthesised)."""
+        if (self._ages is not None or "ages" in self.world.paths
+                or (self.omega is not None and self.lines("ridge"))):
+            return self.ages[0]
+        return None
+
+    # -- grids ----------------------------------------------------------------------------
+    def node_xyz(self, grid):
+        LON, LAT = np.meshgrid(grid.lon, grid.lat)
+        return sphere.lonlat_to_xyz(LON, LAT)
+
+    def node_plates(self, grid) -> np.ndarray:
+        """Plate index of every grid node, shape (nlat, nlon) (cached per grid)."""
+        cache = self.__dict__.setdefault("_node_plates", {})
+        if id(grid) not in cache:
+            cache[id(grid)] = self.world.geometry.locator.locate_grid(grid.lon, grid.lat)
+        return cache[id(grid)]
+
+    def node_continental(self, grid) -> np.ndarray:
+        """Whether each grid node lies on a continent (all False without continents)."""
+        if self.continents is None:
+            return np.zeros((len(grid.lat), len(grid.lon)), bool)
+        cache = self.__dict__.setdefault("_node_cont", {})
+        if id(grid) not in cache:
+            cache[id(grid)] = self.continents.locator.locate_grid(grid.lon, grid.lat) == 0
+        return cache[id(grid)]
+
+    # -- boundaries -----------------------------------------------------------------------
+    def lines(self, kind: str) -> list:
+        return [k for k, b in enumerate(self.world.boundaries) if b.kind == kind]
+
+    def pieces(self, kind: str, spacing_km: float | None = None) -> Pieces:
+        """Pieces of the boundaries of a kind, no longer than ``spacing_km``."""
+        lines = self.lines(kind)
+        bnd = self.world.boundaries
+        a = np.concatenate([bnd[k].xyz[:-1] for k in lines])
+        b = np.concatenate([bnd[k].xyz[1:] for k in lines])
+        owner = np.concatenate([np.full(len(bnd[k].xyz) - 1, k) for k in lines])
+        step = (spacing_km or self.PIECE_KM) * 1e3 / self.R
+        pa, pb, piece = sphere.densify_arcs(a, b, step)
+        n, theta = sphere.arc_pole(pa, pb)
+        return Pieces(pa, pb, owner[piece], n, sphere.arc_first_moment(pa, pb), theta,
+                      sphere.slerp_points(pa, pb, 0.5))
+
+    def require_lines(self, kind: str, term: str):
+        if not self.lines(kind):
+            raise InputError(f"the {term!r} term needs {kind} boundaries, and the world has "
+                             "none", file=self.world.paths.get("world"),
+                             hint="classify boundaries (torque boundaries --classify) or drop "
+                             "the term")
+
+    def plate_ids(self, names) -> np.ndarray:
+        idx = self.world.plate_index
+        return np.array([idx[n] for n in names], dtype=np.int64)
+
+    def line_force_torque(self, pieces: Pieces, force_n_m, sign, plate) -> np.ndarray:
+        """Torques (P, 3) of line forces ``force_n_m * sign * n`` on the given plates.
+
+        The torque of a force per unit length ``f`` (constant along a piece) is
+        ``R^2 int r x f ds = R^2 m x f`` on the unit sphere.
+        """
+        P = self.world.geometry.n_plates
+        f = (force_n_m * sign)[:, None] * pieces.n
+        tq = self.R ** 2 * np.cross(pieces.m, f)
+        out = np.zeros((P, 3))
+        np.add.at(out, plate, tq)
+        return out
+
+
+def _registry():
+    from . import collision, drag, mantle, ridge, slab, suction, transform, trench
+    mods = (ridge, slab, suction, drag, mantle, transform, trench, collision)
+    return {m.KIND: m for m in mods}
+
+
+KINDS = _registry()
+
+
+def build_terms(ctx: Context) -> list:
+    """The :class:`ForceTerm` of every force entry of the hypothesis, in order."""
+    return [KINDS[spec.kind].build(ctx, spec) for spec in ctx.hypothesis.forces]
+
+
+def compute_torques(world, hypothesis, omega=None, **data) -> list:
+    """The force terms of a hypothesis on a world (see :class:`ForceTerm`).
+
+    Parameters
+    ----------
+    world : World
+    hypothesis : Hypothesis
+    omega : ndarray, shape (P, 3), optional
+        Angular velocities (rad/s) in world plate order: needed to synthesise ages when the
+        world has none, and to evaluate velocity-dependent terms.
+    **data
+        ``ages``, ``continents``, ``flow`` objects to use instead of the world's files.
+    """
+    return build_terms(Context(world, hypothesis, omega, **data))

@@ -1,0 +1,93 @@
+"""Slab pull: a line force on the subducting plate at the trench, normal to the trench and
+toward the overriding plate.
+
+Its magnitude per metre of trench is the coefficient (the fraction of the slab's negative
+buoyancy passed to the plate) times ``force_per_length`` if given, else the slab's negative
+buoyancy from the cooling model, ``g L int rho_m alpha (T_m - T) dz`` for a slab of the
+trench's age reaching depth ``L`` [1]_ (sec. 6-20). The trench age comes from, in order:
+the line's ``slab_age_myr`` property, the age field 30 km inside the subducting plate, the
+entry's ``age_myr``; the depth from the line's ``slab_depth_km``, the entry's ``depth_km``,
+else 660 km. The force is constant along pieces of at most 50 km.
+
+.. [1] Turcotte, D. L. and Schubert, G. (2002). *Geodynamics*, 2nd ed., sec. 6-20.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .. import sphere
+from ..errors import InputError
+from . import ForceTerm, empty_term
+
+KIND = "slab"
+UNIT = "1"
+KEYS = {
+    "depth_km": "depth reached by the slab, km (default 660)",
+    "age_myr": "slab age at the trench, Myr, where neither the line nor the age field says",
+    "force_per_length": "N/m: overrides the cooling model's slab buoyancy",
+}
+POSITIVE = ("depth_km", "age_myr", "force_per_length")
+DEFAULT_DEPTH_KM = 660.0
+
+
+def default_label(options) -> str:
+    return KIND
+
+
+def trench_geometry(ctx, label):
+    """Pieces of all subduction lines, with the sinking and the overriding plate of each."""
+    ctx.require_lines("subduction", label)
+    pcs = ctx.pieces("subduction")
+    bnd = ctx.world.boundaries
+    sub_left = np.array([b.subducting == b.left for b in bnd])[pcs.line]
+    left = ctx.plate_ids([b.left for b in bnd])[pcs.line]
+    right = ctx.plate_ids([b.right for b in bnd])[pcs.line]
+    sinking = np.where(sub_left, left, right)
+    overriding = np.where(sub_left, right, left)
+    return pcs, sub_left, sinking, overriding
+
+
+def slab_buoyancy(ctx, spec, pcs, sub_left) -> tuple[np.ndarray, list]:
+    """Force per metre of trench (N/m) on every piece, and notes."""
+    if "force_per_length" in spec.options:
+        return np.full(len(pcs.theta), float(spec.options["force_per_length"])), []
+    bnd = ctx.world.boundaries
+    depth = np.array([b.properties.get("slab_depth_km",
+                                       spec.options.get("depth_km", DEFAULT_DEPTH_KM))
+                      for b in bnd], dtype=float)[pcs.line]
+    age = np.array([b.properties.get("slab_age_myr", np.nan) for b in bnd],
+                   dtype=float)[pcs.line]
+    notes = []
+    need = ~np.isfinite(age)
+    grid = ctx.age_grid_if_any()
+    if need.any() and grid is not None:
+        off = ctx.TRENCH_PROBE_KM * 1e3 / ctx.R
+        side = np.where(sub_left, 1.0, -1.0)[:, None]
+        probe = np.cos(off) * pcs.mid + np.sin(off) * side * pcs.n
+        lon, lat = sphere.xyz_to_lonlat(probe)
+        age = np.where(need, grid.sample(lon, lat), age)
+        need = ~np.isfinite(age)
+    if need.any() and "age_myr" in spec.options:
+        age = np.where(need, float(spec.options["age_myr"]), age)
+        notes.append(f"{spec.label}: entry age {spec.options['age_myr']:g} Myr used on "
+                     f"{int(need.sum())} of {len(age)} trench pieces")
+        need = ~np.isfinite(age)
+    if need.any():
+        k = int(pcs.line[np.nonzero(need)[0][0]])
+        raise InputError(f"no slab age for subduction line {k} (feature "
+                         f"{bnd[k].feature}): no 'slab_age_myr' on the line, no age in the "
+                         f"age field there, and no 'age_myr' in the {spec.label!r} entry",
+                         file=ctx.hypothesis.source,
+                         hint="give one of these, or 'force_per_length'")
+    return ctx.cooling.slab_pull_lookup(age, depth), notes
+
+
+def build(ctx, spec) -> ForceTerm:
+    pcs, sub_left, sinking, _ = trench_geometry(ctx, spec.label)
+    F, notes = slab_buoyancy(ctx, spec, pcs, sub_left)
+    # n points into the left plate; toward the overriding plate is -n if the left one sinks
+    sign = np.where(sub_left, -1.0, 1.0)
+    term = empty_term(ctx, spec, UNIT, notes)
+    term.driving[:] = ctx.line_force_torque(pcs, F, sign, sinking)
+    return term
