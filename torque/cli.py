@@ -345,6 +345,216 @@ def _cmd_torques(args) -> int:
     print(f"wrote {args.output} ({len(plates)} rows)")
     return EXIT_OK
 
+
+# ----------------------------------------------------------------------------------------
+# the balance: fit, predict, rank
+# ----------------------------------------------------------------------------------------
+class _Problem:
+    """A world, a hypothesis and (optionally) observed motions, with their force terms."""
+
+    def __init__(self, world_path, hyp_path, motions_path=None):
+        from .balance import assemble
+        from .euler import read_motions
+        from .forces import Context, build_terms
+        from .hypothesis import load_hypothesis
+
+        self.world = _world(world_path)
+        self.hyp = load_hypothesis(hyp_path)
+        self.hyp_path = hyp_path
+        self.motions = read_motions(motions_path) if motions_path else None
+        self.omega = self.motions.for_world(self.world) if self.motions else None
+        self.ctx = Context(self.world, self.hyp, self.omega)
+        self.terms = build_terms(self.ctx)
+        self.system = assemble(self.world, self.hyp, self.terms)
+
+    def rebuild(self, physics):
+        """The system for other physics, reusing ages, continents and flow."""
+        import dataclasses
+
+        from .balance import assemble
+        from .forces import Context, build_terms
+        hyp = dataclasses.replace(self.hyp, physics=physics)
+        data = {"continents": self.ctx.continents}
+        if "ages" in self.ctx.__dict__:
+            data["ages"] = self.ctx.ages[0]
+        if "flow" in self.ctx.__dict__:
+            data["flow"] = self.ctx.flow
+        ctx = Context(self.world, hyp, self.omega, **data)
+        return assemble(self.world, hyp, build_terms(ctx))
+
+    def notes(self):
+        return [n for t in self.terms for n in t.notes]
+
+
+def _cmd_fit(args) -> int:
+    from .balance import analyse
+    from .errors import atomic_write
+    from .io import output_suffix
+    from .resample import bootstrap, monte_carlo_motions, monte_carlo_physics
+
+    output_suffix(args.output, (".json",))
+    for opt in ("bootstrap", "monte_carlo", "physics_samples"):
+        if getattr(args, opt) < 0:
+            raise InputError(f"--{opt.replace('_', '-')} must not be negative")
+    pb = _Problem(args.world, args.hypothesis, args.motions)
+    rep = analyse(pb.system, pb.omega, args.weighting)
+    unc = {}
+    if args.bootstrap:
+        unc["bootstrap"] = bootstrap(pb.system, pb.omega, args.bootstrap, args.seed,
+                                     args.weighting)
+    if args.monte_carlo:
+        unc["monte_carlo_motions"] = monte_carlo_motions(
+            pb.system, pb.omega, pb.motions.cov_for_world(pb.world), args.monte_carlo,
+            args.seed, args.weighting)
+    if args.physics_samples:
+        unc["monte_carlo_physics"] = monte_carlo_physics(
+            pb.rebuild, pb.hyp.physics, pb.hyp.spread, pb.omega, args.physics_samples,
+            args.seed, args.weighting)
+    out = rep.as_dict()
+    out["uncertainty"] = unc
+    out["notes"] = pb.notes()
+    with atomic_write(args.output) as fh:
+        fh.write(dumps(out))
+    _print_fit(out)
+    print(f"wrote {args.output}")
+    return EXIT_OK
+
+
+def _print_fit(d):
+    print(f"hypothesis {d['hypothesis']!r}: velocity-space fit (preferred) and torque-space fit")
+    print(f"{'term':<16} {'value':>12} {'stderr':>10} {'torque-space':>13} {'unit':<8}")
+    for label, c in d["coefficients"].items():
+        if c["free"]:
+            print(f"{label:<16} {c['value']:12.4e} {c['stderr']:10.2e} "
+                  f"{c['torque_space_value']:13.4e} {c['unit']:<8}")
+        else:
+            print(f"{label:<16} {c['value']:12.4e} {'fixed':>10} {'':>13} {c['unit']:<8}")
+    m = d["misfit"]
+    print(f"RMS velocity misfit {m['rms_velocity_mm_yr']:.3f} mm/yr, variance reduction "
+          f"{100 * m['variance_reduction']:.2f} %, AIC {m['aic']:.2f}, BIC {m['bic']:.2f}")
+    if m["active_bounds"]:
+        print(f"at a bound: {', '.join(m['active_bounds'])}")
+    for note in d.get("notes", []):
+        print(f"note: {note}")
+    print("caution: model-dependent research estimates, not for hazard or engineering use")
+
+
+def read_coefficients(path, hypothesis) -> dict:
+    """Coefficient values from a ``torque fit`` JSON, checked against a hypothesis."""
+    from pathlib import Path
+    path = Path(path)
+    try:
+        doc = json.loads(path.read_text())
+    except FileNotFoundError:
+        raise InputError("file not found", file=path) from None
+    except (OSError, json.JSONDecodeError) as exc:
+        raise InputError(f"not a readable JSON file: {exc}", file=path) from None
+    coefs = doc.get("coefficients") if isinstance(doc, dict) else None
+    if not isinstance(coefs, dict):
+        raise InputError("no 'coefficients' object (expected the output of torque fit)",
+                         file=path)
+    labels = set(hypothesis.labels)
+    extra = sorted(set(coefs) - labels)
+    missing = sorted(set(hypothesis.free_labels) - set(coefs))
+    if extra or missing:
+        raise InputError("the coefficients come from another hypothesis: "
+                         + "; ".join(x for x in (
+                             f"not in {hypothesis.name!r}: {', '.join(extra)}" if extra else "",
+                             f"missing: {', '.join(missing)}" if missing else "") if x),
+                         file=path, hint="fit this hypothesis with torque fit first")
+    out = {}
+    for label in hypothesis.free_labels:
+        v = coefs[label].get("value") if isinstance(coefs[label], dict) else None
+        if not isinstance(v, (int, float)) or not np.isfinite(v):
+            raise InputError(f"coefficient {label!r} has no numeric 'value'", file=path)
+        out[label] = float(v)
+    return out
+
+
+def _cmd_predict(args) -> int:
+    from .balance import predict
+    from .euler import Motions, net_rotation, write_motions
+    from .io import output_suffix
+
+    output_suffix(args.output, (".csv",))
+    pb = _Problem(args.world, args.hypothesis, args.motions)
+    s = pb.system
+    c = s.fixed.copy()
+    if s.free.any():
+        if not args.coefficients:
+            raise InputError(f"free coefficient(s) {', '.join(pb.hyp.free_labels)} need values",
+                             file=args.hypothesis,
+                             hint="pass --coefficients FIT.json from torque fit, or fix them "
+                             "in the hypothesis")
+        values = read_coefficients(args.coefficients, pb.hyp)
+        for i, label in enumerate(s.labels):
+            if s.free[i]:
+                c[i] = values[label]
+    omega = predict(s, c)
+    motions = Motions(tuple(pb.world.plate_names), omega)
+    write_motions(args.output, motions)
+    w_net = net_rotation(pb.world, omega)
+    print(f"predicted Euler vectors of {len(omega)} plates (mantle at rest); net rotation "
+          f"{_pole_text(w_net)}")
+    for note in pb.notes():
+        print(f"note: {note}")
+    print(f"wrote {args.output}")
+    return EXIT_OK
+
+
+def _cmd_rank(args) -> int:
+    from .euler import read_motions
+    from .io import output_suffix, write_csv
+    from .rank import rank
+
+    if args.output:
+        output_suffix(args.output, (".csv",))
+    if args.json:
+        output_suffix(args.json, (".json",))
+    world = _world(args.world)
+    motions = read_motions(args.motions)
+    omega = motions.for_world(world)
+    from .balance import assemble
+    from .forces import compute_torques
+    from .hypothesis import load_hypothesis
+    systems = []
+    for h in args.hypotheses:
+        hyp = load_hypothesis(h)
+        systems.append(assemble(world, hyp, compute_torques(world, hyp, omega)))
+    names = [s.name for s in systems]
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        raise InputError(f"hypotheses share the name(s) {', '.join(map(repr, dup))}",
+                         hint="give each a different 'name'")
+    rows, tests = rank(systems, omega, args.weighting)
+    print(f"{'rank':>4}  {'hypothesis':<28} {'rms mm/yr':>9} {'VR %':>7} {'k':>2} "
+          f"{'AIC':>10} {'BIC':>10} {'CV mm/yr':>9}")
+    for i, r in enumerate(rows, 1):
+        print(f"{i:4d}  {r.name:<28} {r.rms_velocity_mm_yr:9.3f} "
+              f"{100 * r.variance_reduction:7.2f} {r.free:2d} {r.aic:10.2f} {r.bic:10.2f} "
+              f"{r.cv_rms_mm_yr:9.3f}")
+    for t in tests:
+        if t["p_value"] is not None:
+            print(f"F-test {t['smaller']!r} within {t['bigger']!r}: F = {t['F']:.3g}, "
+                  f"p = {t['p_value']:.3g}")
+    print("sorted by AIC (lowest first); CV = leave-one-plate-out cross-validation error")
+    if args.output:
+        write_csv(args.output, {
+            "rank": np.arange(1, len(rows) + 1),
+            "hypothesis": np.array([r.name for r in rows], dtype=object),
+            "rms_velocity_mm_yr": np.array([r.rms_velocity_mm_yr for r in rows]),
+            "variance_reduction": np.array([r.variance_reduction for r in rows]),
+            "free_coefficients": np.array([r.free for r in rows]),
+            "aic": np.array([r.aic for r in rows]), "aicc": np.array([r.aicc for r in rows]),
+            "bic": np.array([r.bic for r in rows]),
+            "cv_rms_mm_yr": np.array([r.cv_rms_mm_yr for r in rows])})
+        print(f"wrote {args.output}")
+    if args.json:
+        from .errors import atomic_write
+        with atomic_write(args.json) as fh:
+            fh.write(dumps({"rows": [r.__dict__ for r in rows], "f_tests": tests}))
+    return EXIT_OK
+
 # ----------------------------------------------------------------------------------------
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="torque", description=(
@@ -420,6 +630,54 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--motions", help="motions CSV (plate,lat,lon,rate)")
     p.add_argument("-o", "--output", required=True, help="output CSV")
     p.set_defaults(func=_cmd_torques)
+
+    weighting = dict(choices=("velocity", "area", "none"), default="velocity",
+                     help="weighting of the plates' torque equations in the torque-space fit "
+                     "(default velocity: by the inverse square root of each plate's drag "
+                     "tensor)")
+    p = sub.add_parser("fit", help="estimate the free coefficients from observed motions",
+                       description="Fit the free coefficients of a hypothesis to observed "
+                       "Euler vectors (mantle at rest, e.g. no-net-rotation), in torque space "
+                       "(linear) and in velocity space (preferred), with per-plate "
+                       "diagnostics and optional resampling.")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("hypothesis", help="hypothesis file (TOML)")
+    p.add_argument("motions", help="observed motions CSV")
+    p.add_argument("-o", "--output", required=True, help="output JSON")
+    p.add_argument("--weighting", **weighting)
+    p.add_argument("--bootstrap", type=int, default=0, metavar="N",
+                   help="refit on N resamples of the plates")
+    p.add_argument("--monte-carlo", type=int, default=0, metavar="N",
+                   help="refit on N draws of the motions from their covariance columns")
+    p.add_argument("--physics-samples", type=int, default=0, metavar="N",
+                   help="refit on N draws of the physics from the hypothesis' [spread] table")
+    p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
+    p.set_defaults(func=_cmd_fit)
+
+    p = sub.add_parser("predict", help="Euler vectors that balance the torques",
+                       description="Forward model: the Euler vector of every plate that "
+                       "balances the torques of a hypothesis, in the frame where the mantle "
+                       "is at rest. Free coefficients take their values from --coefficients.")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("hypothesis", help="hypothesis file (TOML)")
+    p.add_argument("--coefficients", metavar="FIT.json", help="output of torque fit")
+    p.add_argument("--motions", help="motions CSV, only to synthesise sea-floor ages when "
+                   "the world has no age grid")
+    p.add_argument("-o", "--output", required=True, help="output motions CSV")
+    p.set_defaults(func=_cmd_predict)
+
+    p = sub.add_parser("rank", help="compare hypotheses",
+                       description="Fit every hypothesis to the same motions and tabulate "
+                       "misfit, free coefficients, AIC, AICc, BIC and leave-one-plate-out "
+                       "cross-validation error, best (lowest AIC) first; F-tests for nested "
+                       "pairs.")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("motions", help="observed motions CSV")
+    p.add_argument("hypotheses", nargs="+", metavar="HYP", help="hypothesis files")
+    p.add_argument("-o", "--output", help="output CSV")
+    p.add_argument("--json", metavar="FILE", help="also write rows and F-tests as JSON")
+    p.add_argument("--weighting", **weighting)
+    p.set_defaults(func=_cmd_rank)
     return parser
 
 

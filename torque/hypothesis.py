@@ -17,7 +17,7 @@ from .errors import InputError
 from .lithosphere import Physics
 from .world import read_toml
 
-TOP_KEYS = ("name", "physics", "force")
+TOP_KEYS = ("name", "physics", "force", "spread")
 COMMON_KEYS = {
     "kind": "the force kind",
     "coefficient": 'a number (fixed) or "free" (estimated by fit); default "free"',
@@ -52,6 +52,7 @@ class Hypothesis:
     physics: Physics
     forces: tuple
     source: str | None = None
+    spread: dict = field(default_factory=dict)
 
     @property
     def labels(self) -> list:
@@ -131,7 +132,8 @@ def hypothesis_from_dict(cfg: dict, name: str = "hypothesis", file=None) -> Hypo
     unknown = sorted(set(cfg) - set(TOP_KEYS))
     if unknown:
         raise InputError(f"unknown key(s) {', '.join(map(repr, unknown))}", file=file,
-                         hint=f"valid keys: {', '.join(TOP_KEYS)} ([physics], [[force]])")
+                         hint=f"valid keys: {', '.join(TOP_KEYS)} ([physics], [[force]], "
+                         "[spread])")
     physics = Physics.from_table(cfg.get("physics", {}), file)
     entries = cfg.get("force", [])
     if not isinstance(entries, list) or not entries:
@@ -144,4 +146,7 @@ def hypothesis_from_dict(cfg: dict, name: str = "hypothesis", file=None) -> Hypo
                              f"and {i + 1}); give one a different label", file=file)
         seen[f.label] = i + 1
     title = cfg.get("name", name)
-    return Hypothesis(str(title), physics, tuple(forces), None if file is None else str(file))
+    from .resample import parse_spread
+    spread = parse_spread(cfg.get("spread", {}), physics, file)
+    return Hypothesis(str(title), physics, tuple(forces), None if file is None else str(file),
+                      spread)

@@ -1,0 +1,390 @@
+"""The torque balance: fit, predict, rank, uncertainty.
+
+Sources: closed-form solution of a two-plate balance (linear algebra, written out below);
+numpy.linalg.lstsq for unbounded least squares; scipy.stats for the F and chi-square
+distributions; Draper and Smith (1998), Applied Regression Analysis, 3rd ed.: for nested
+linear models differing by one coefficient the extra-sum-of-squares F equals the square
+of that coefficient's t statistic; Burnham and Anderson (2002), Model Selection and
+Multimodel Inference, sec. 2.2: AIC = n ln(RSS/n) + 2k for least squares.
+Common practice, no source: an asthenosphere channel 100-200 km thick has a viscosity of
+1e18-1e21 Pa s.
+"""
+
+import dataclasses
+import json
+
+import numpy as np
+import pytest
+from scipy import stats
+from scipy.spatial.transform import Rotation
+
+from torque import balance, sphere
+from torque.errors import InputError
+from torque.euler import RAD_S_PER_DEG_MYR
+from torque.forces import compute_torques
+from torque.hypothesis import hypothesis_from_dict
+from torque.world import Boundary, derive_boundaries, world_from_rings
+
+from .conftest import voronoi_rings
+
+R = 6371e3
+KIND_CYCLE = ("ridge", "subduction", "transform", "subduction", "ridge", "collision")
+
+
+def kinded_world(n=16, seed=2, Q=None):
+    """A Voronoi world whose shared edges get kinds in a fixed cycle (sinking: left)."""
+    _, _, rings = voronoi_rings(n, seed)
+    if Q is not None:
+        rings = [np.c_[sphere.xyz_to_lonlat(sphere.lonlat_to_xyz(*np.asarray(r).T) @ Q.T)]
+                 .tolist() for r in rings]
+    w = world_from_rings({f"P{i}": [r] for i, r in enumerate(rings)})
+    bnd = []
+    for k, b in enumerate(w.boundaries):
+        kind = KIND_CYCLE[k % len(KIND_CYCLE)]
+        bnd.append(Boundary(kind, b.left, b.right, b.xyz, None,
+                            b.left if kind == "subduction" else None, {}))
+    return world_from_rings({f"P{i}": [r] for i, r in enumerate(rings)}, boundaries=bnd)
+
+
+TRUE = {"slab": 0.07, "drag": 4e14, "transform": 3e20, "trench": 8e20}
+
+
+def forces(free=True):
+    f = [{"kind": "ridge", "form": "edge", "coefficient": 1.0},
+         {"kind": "slab", "age_myr": 80.0}, {"kind": "drag", "label": "drag"},
+         {"kind": "transform"}, {"kind": "trench"}]
+    for e in f[1:]:
+        e["coefficient"] = "free" if free else TRUE[e.get("label", e["kind"])]
+    return hypothesis_from_dict({"force": f})
+
+
+def system_for(world, hyp, omega=None):
+    P = world.geometry.n_plates
+    omega = np.zeros((P, 3)) if omega is None else omega
+    return balance.assemble(world, hyp, compute_torques(world, hyp, omega))
+
+
+def test_round_trip_predict_then_fit():
+    # Motions made by predict with known coefficients are fitted back to 1e-6 relative.
+    w = kinded_world()
+    omega = balance.predict(system_for(w, forces(False)), system_for(w, forces(False)).fixed)
+    s = system_for(w, forces(True))
+    tf = balance.fit_torque(s, omega)
+    vf = balance.fit_velocity(s, omega, tf)
+    truth = np.array([1.0] + [TRUE[k] for k in ("slab", "drag", "transform", "trench")])
+    np.testing.assert_allclose(tf.values, truth, rtol=1e-6)
+    np.testing.assert_allclose(vf.values, truth, rtol=1e-6)
+    speeds = np.linalg.norm(omega, axis=1) / RAD_S_PER_DEG_MYR
+    assert 0.05 < np.median(speeds) < 5.0          # deg/Myr: plate-like rates
+
+
+def test_two_plate_closed_form():
+    # Lower sinks under Upper along lon 0..180 (slab torque T x_hat on Lower, T = 2 F R^2);
+    # a transform joins them along lon 180..360, where K = int (I - r r^T) ds =
+    # diag(pi/2, pi/2, pi); both plates drag with D = (4 pi / 3) I. With a = C R^4 4pi/3 and
+    # k = c R^3 pi/2 the x components solve
+    #   T - a wL - k (wL - wU) = 0,   -a wU - k (wU - wL) = 0
+    # so wL = T (a + k) / (a (a + 2k)), wU = T k / (a (a + 2k)); the other components vanish.
+    F, C, c = 3e13, 5e14, 2e20
+    north = [(0, 0), (120, 0), (240, 0)]
+    b = [Boundary("subduction", "Upper", "Lower",
+                  sphere.lonlat_to_xyz([0, 60, 120, 180], [0, 0, 0, 0]), subducting="Lower"),
+         Boundary("transform", "Upper", "Lower",
+                  sphere.lonlat_to_xyz([180, 270, 360], [0, 0, 0]))]
+    w = world_from_rings({"Upper": [north], "Lower": [north[::-1]]}, boundaries=b,
+                         winding="strict")
+    hyp = hypothesis_from_dict({"force": [
+        {"kind": "slab", "coefficient": 1.0, "force_per_length": F},
+        {"kind": "drag", "coefficient": C}, {"kind": "transform", "coefficient": c}]})
+    s = system_for(w, hyp)
+    omega = balance.predict(s, s.fixed)
+    T, a, k = 2 * F * R**2, C * R**4 * 4 * np.pi / 3, c * R**3 * np.pi / 2
+    wl = T * (a + k) / (a * (a + 2 * k))
+    wu = T * k / (a * (a + 2 * k))
+    np.testing.assert_allclose(omega, [[wu, 0, 0], [wl, 0, 0]], rtol=1e-10, atol=1e-12 * wl)
+
+
+def test_rotating_the_world_rotates_predictions_and_keeps_coefficients():
+    Q = Rotation.from_euler("zyx", [20, 35, -50], degrees=True).as_matrix()
+    w0, w1 = kinded_world(), kinded_world(Q=Q)
+    s0, s1 = system_for(w0, forces(False)), system_for(w1, forces(False))
+    o0, o1 = balance.predict(s0, s0.fixed), balance.predict(s1, s1.fixed)
+    np.testing.assert_allclose(o1, o0 @ Q.T, atol=1e-9 * np.abs(o0).max())
+    rng = np.random.default_rng(0)
+    noisy = o0 * (1 + 0.05 * rng.standard_normal(o0.shape))
+    f0 = balance.fit_velocity(system_for(w0, forces()), noisy)
+    f1 = balance.fit_velocity(system_for(w1, forces()), noisy @ Q.T)
+    np.testing.assert_allclose(f1.values, f0.values, rtol=1e-6)
+
+
+def test_unbounded_lsq_linear_agrees_with_numpy_lstsq():
+    # Source: numpy.linalg.lstsq on the same weighted system.
+    w = kinded_world()
+    hyp = hypothesis_from_dict({"force": [
+        {"kind": "ridge", "form": "edge", "coefficient": 1.0},
+        {"kind": "slab", "age_myr": 80.0, "bounds": [-np.inf, np.inf]},
+        {"kind": "drag", "bounds": [-np.inf, np.inf]},
+        {"kind": "transform", "bounds": [-np.inf, np.inf]}]})
+    s0 = system_for(w, forces(False))
+    rng = np.random.default_rng(1)
+    omega = balance.predict(s0, s0.fixed) * (1 + 0.2 * rng.standard_normal((16, 3)))
+    s = system_for(w, hyp, omega)
+    fit = balance.fit_torque(s, omega, "velocity")
+    Wt = balance.plate_weights(s, "velocity")
+    G = Wt @ s.columns(omega)
+    scale = np.linalg.norm(G[:, 1:], axis=0)        # columns differ by ~30 orders
+    x, *_ = np.linalg.lstsq(G[:, 1:] / scale, -G[:, 0], rcond=None)
+    np.testing.assert_allclose(fit.values[1:], x / scale, rtol=1e-8)
+    assert fit.active_bounds == ()
+
+
+def test_f_test_equals_t_squared_and_information_criteria():
+    # Draper and Smith (1998): nested models differing by one coefficient have F = t^2.
+    rng = np.random.default_rng(4)
+    n = 60
+    X = np.c_[np.ones(n), rng.normal(size=n), rng.normal(size=n)]
+    y = X @ [1.0, 0.5, 0.3] + rng.normal(scale=0.8, size=n)
+    rss = []
+    for cols in ([0, 1], [0, 1, 2]):
+        b, *_ = np.linalg.lstsq(X[:, cols], y, rcond=None)
+        rss.append(float(np.sum((y - X[:, cols] @ b) ** 2)))
+    b, *_ = np.linalg.lstsq(X, y, rcond=None)
+    s2 = rss[1] / (n - 3)
+    se = np.sqrt(s2 * np.linalg.inv(X.T @ X)[2, 2])
+    t = b[2] / se
+    res = balance.f_test(rss[0], 2, rss[1], 3, n)
+    assert res["F"] == pytest.approx(t**2, rel=1e-10)
+    assert res["p_value"] == pytest.approx(2 * stats.t.sf(abs(t), n - 3), rel=1e-8)
+    # Burnham and Anderson (2002): AIC = n ln(RSS/n) + 2k; BIC = n ln(RSS/n) + k ln n
+    ic = balance.information_criteria(rss[1], n, 3)
+    assert ic["aic"] == pytest.approx(n * np.log(rss[1] / n) + 6)
+    assert ic["bic"] == pytest.approx(n * np.log(rss[1] / n) + 3 * np.log(n))
+    assert ic["aicc"] == pytest.approx(ic["aic"] + 2 * 3 * 4 / (n - 4))
+
+
+def test_pole_ellipse_against_chi_square():
+    # An isotropic covariance s^2 I of an Euler vector of rate w gives a circular 95 %
+    # region of angular radius sqrt(chi2_2(0.95)) s / w (scipy.stats.chi2).
+    w = np.array([0.0, 0.0, 1.0]) * RAD_S_PER_DEG_MYR
+    s = 0.01 * RAD_S_PER_DEG_MYR
+    e = balance.pole_ellipse(w, s**2 * np.eye(3))
+    r = np.degrees(np.sqrt(stats.chi2.ppf(0.95, 2)) * s / np.linalg.norm(w))
+    assert e["major_deg"] == pytest.approx(r) and e["minor_deg"] == pytest.approx(r)
+    assert e["rate_stderr_deg_myr"] == pytest.approx(0.01)
+
+
+def test_net_rotation_undetermined_without_drag():
+    w = kinded_world()
+    hyp = hypothesis_from_dict({"force": [
+        {"kind": "ridge", "form": "edge", "coefficient": 1.0},
+        {"kind": "transform", "coefficient": 1e20}, {"kind": "trench", "coefficient": 1e20},
+        {"kind": "collision", "coefficient": 1e20}]})
+    s = system_for(w, hyp)
+    with pytest.raises(InputError, match="net rotation is undetermined"):
+        balance.predict(s, s.fixed)
+
+
+def test_nothing_fixed_and_inseparable_coefficients():
+    w = kinded_world()
+    s0 = system_for(w, forces(False))
+    omega = balance.predict(s0, s0.fixed)
+    hyp = hypothesis_from_dict({"force": [{"kind": "slab", "age_myr": 80.0},
+                                          {"kind": "drag"}]})
+    with pytest.raises(InputError, match="homogeneous"):
+        balance.fit_torque(system_for(w, hyp, omega), omega)
+    hyp = hypothesis_from_dict({"force": [
+        {"kind": "ridge", "form": "edge", "coefficient": 1.0},
+        {"kind": "drag", "label": "d1"}, {"kind": "drag", "label": "d2"}]})
+    with pytest.raises(InputError, match="cannot separate.*'d1', 'd2'"):
+        balance.fit_torque(system_for(w, hyp, omega), omega)
+
+
+def test_fitted_drag_implies_a_plausible_asthenosphere_viscosity(tmp_path):
+    # Common practice, no source: eta = C h in 1e18-1e21 Pa s for h = 100-200 km, on the
+    # Earth-sized demo planet with its invented (not forward-modelled) motions.
+    from pathlib import Path
+
+    from torque.euler import read_motions, to_no_net_rotation
+    from torque.world import load_world
+    root = Path(__file__).resolve().parents[1]
+    world = load_world(root / "polygons_demo" / "world.toml")
+    nnr, _ = to_no_net_rotation(world, read_motions(root / "polygons_demo" / "motions.csv"))
+    omega = nnr.for_world(world)
+    bnd = []
+    for k, b in enumerate(world.boundaries):
+        kind = ("ridge", "subduction", "transform")[k % 3]
+        bnd.append(Boundary(kind, b.left, b.right, b.xyz, None,
+                            b.left if kind == "subduction" else None, {}))
+    w = dataclasses.replace(world, boundaries=tuple(bnd), boundaries_derived=False)
+    hyp = hypothesis_from_dict({"force": [
+        {"kind": "ridge", "form": "edge", "coefficient": 1.0},
+        {"kind": "slab", "age_myr": 80.0, "coefficient": 0.1}, {"kind": "drag"}]})
+    fit = balance.fit_velocity(system_for(w, hyp, omega), omega)
+    C = fit.values[2]
+    assert 1e18 <= C * 100e3 and C * 200e3 <= 1e21
+
+
+# ---- command line ----------------------------------------------------------------------
+@pytest.fixture
+def demo_files(tmp_path):
+    """A kinded world on disk, its true motions, and hypothesis files."""
+    w = kinded_world()
+    from torque.euler import Motions, write_motions
+    from torque.io import write_boundaries_geojson
+    feats = []
+    g = w.geometry
+    for p in w.plates:
+        r = g.ring_start
+        xyz = g.xyz[r[p.index]:r[p.index + 1]]
+        lon, lat = sphere.xyz_to_lonlat(xyz)
+        ring = np.c_[lon, lat].tolist()
+        feats.append({"type": "Feature", "properties": {"plate": p.name},
+                      "geometry": {"type": "Polygon", "coordinates": [ring + [ring[0]]]}})
+    (tmp_path / "plates.geojson").write_text(json.dumps({"type": "FeatureCollection",
+                                                         "features": feats}))
+    write_boundaries_geojson(tmp_path / "boundaries.geojson", w.boundaries)
+    (tmp_path / "world.toml").write_text('plates = "plates.geojson"\n'
+                                         'boundaries = "boundaries.geojson"\n')
+    s = system_for(w, forces(False))
+    omega = balance.predict(s, s.fixed)
+    rng = np.random.default_rng(9)
+    noisy = omega + 0.02 * RAD_S_PER_DEG_MYR * rng.standard_normal(omega.shape)
+    cov = np.broadcast_to((0.02 * RAD_S_PER_DEG_MYR) ** 2 * np.eye(3), (16, 3, 3)).copy()
+    write_motions(tmp_path / "obs.csv", Motions(tuple(w.plate_names), noisy, cov))
+    full = ('[[force]]\nkind = "ridge"\nform = "edge"\ncoefficient = 1.0\n'
+            '[[force]]\nkind = "slab"\nage_myr = 80.0\n[[force]]\nkind = "drag"\n'
+            '[[force]]\nkind = "transform"\n[[force]]\nkind = "trench"\n'
+            '[spread]\nexpansivity = {normal = 0.2e-5}\n')
+    (tmp_path / "full.toml").write_text('name = "full"\n' + full)
+    (tmp_path / "small.toml").write_text(
+        'name = "small"\n[[force]]\nkind = "ridge"\nform = "edge"\ncoefficient = 1.0\n'
+        '[[force]]\nkind = "drag"\n')
+    return tmp_path
+
+
+def test_fit_json_contract_and_uncertainty(demo_files, cli):
+    d = demo_files
+    status, out, err = cli("fit", d / "world.toml", d / "full.toml", d / "obs.csv", "-o",
+                           d / "fit.json", "--bootstrap", "20", "--monte-carlo", "200",
+                           "--physics-samples", "3", "--seed", "3")
+    assert status == 0, err
+    fit = json.loads((d / "fit.json").read_text())
+    c = fit["coefficients"]
+    assert set(c) == {"ridge", "slab", "drag_all", "transform", "trench"}
+    assert set(c["slab"]) >= {"value", "stderr", "free", "unit"}
+    assert c["ridge"]["free"] is False and c["drag_all"]["unit"] == "Pa s/m"
+    p = fit["plates"][0]
+    assert set(p) >= {"plate", "observed", "predicted", "pole_distance_deg",
+                      "rms_velocity_mm_yr"}
+    assert set(p["observed"]) == {"lat", "lon", "rate"}
+    assert "rms_velocity_mm_yr" in fit["misfit"]
+    # within the stated noise, the fit recovers the true coefficients (2-sigma, or 10 %)
+    for k, label in (("slab", "slab"), ("drag", "drag_all")):
+        assert abs(c[label]["value"] - TRUE[k]) < max(2.5 * c[label]["stderr"],
+                                                      0.1 * TRUE[k])
+    u = fit["uncertainty"]
+    assert u["bootstrap"]["members"] + u["bootstrap"]["failed"] == 20
+    assert u["monte_carlo_motions"]["members"] == 200
+    assert u["monte_carlo_physics"]["members"] + u["monte_carlo_physics"]["failed"] == 3
+    # reproducible with the seed
+    cli("fit", d / "world.toml", d / "full.toml", d / "obs.csv", "-o", d / "fit2.json",
+        "--monte-carlo", "200", "--seed", "3")
+    again = json.loads((d / "fit2.json").read_text())["uncertainty"]["monte_carlo_motions"]
+    assert again == u["monte_carlo_motions"]
+
+
+def test_predict_with_fitted_coefficients_and_rank(demo_files, cli):
+    d = demo_files
+    cli("fit", d / "world.toml", d / "full.toml", d / "obs.csv", "-o", d / "fit.json")
+    status, out, err = cli("predict", d / "world.toml", d / "full.toml", "--coefficients",
+                           d / "fit.json", "-o", d / "pred.csv")
+    assert status == 0, err
+    from torque.euler import read_motions
+    pred = read_motions(d / "pred.csv")
+    obs = read_motions(d / "obs.csv")
+    assert len(pred.plates) == 16
+    assert np.median(balance.pole_distance_deg(pred.omega, obs.omega)) < 10
+    status, out, err = cli("rank", d / "world.toml", d / "obs.csv", d / "small.toml",
+                           d / "full.toml", "-o", d / "rank.csv", "--json", d / "rank.json")
+    assert status == 0, err
+    rows = (d / "rank.csv").read_text().splitlines()
+    assert rows[0].startswith("rank,hypothesis,rms_velocity_mm_yr")
+    assert rows[1].split(",")[1] == "full"          # the hypothesis that made the data
+    tests = json.loads((d / "rank.json").read_text())["f_tests"]
+    assert tests and tests[0]["smaller"] == "small" and tests[0]["p_value"] < 0.01
+
+
+def assert_bad(result, path, *words):
+    status, out, err = result
+    assert status == 2 and "Traceback" not in err
+    for w in words:
+        assert w in err, err
+    assert not path.exists()
+
+
+def test_fit_refuses_missing_motion(demo_files, cli):
+    d = demo_files
+    lines = (d / "obs.csv").read_text().splitlines()
+    (d / "short.csv").write_text("\n".join(lines[:-1]) + "\n")
+    assert_bad(cli("fit", d / "world.toml", d / "full.toml", d / "short.csv", "-o",
+                   d / "f.json"), d / "f.json", "no motion for plate(s) 'P15'")
+
+
+def test_free_coefficient_without_data(demo_files, cli):
+    # identical motions for every plate: no relative motion, so transform resistance has
+    # no torque anywhere and cannot be constrained
+    d = demo_files
+    rows = ["plate,lat,lon,rate"] + [f"P{i},10,20,0.5" for i in range(16)]
+    (d / "same.csv").write_text("\n".join(rows) + "\n")
+    (d / "h.toml").write_text('[[force]]\nkind = "ridge"\nform = "edge"\ncoefficient = 1.0\n'
+                              '[[force]]\nkind = "drag"\n[[force]]\nkind = "transform"\n')
+    assert_bad(cli("fit", d / "world.toml", d / "h.toml", d / "same.csv", "-o",
+                   d / "f.json"), d / "f.json", "'transform'", "no data to constrain")
+
+
+def test_bounds_low_above_high_in_fit(demo_files, cli):
+    d = demo_files
+    (d / "h.toml").write_text('[[force]]\nkind = "ridge"\nform = "edge"\ncoefficient = 1.0\n'
+                              '[[force]]\nkind = "drag"\nbounds = [1e20, 1e10]\n')
+    assert_bad(cli("fit", d / "world.toml", d / "h.toml", d / "obs.csv", "-o", d / "f.json"),
+               d / "f.json", "low > high")
+
+
+def test_coefficients_from_another_hypothesis(demo_files, cli):
+    d = demo_files
+    cli("fit", d / "world.toml", d / "small.toml", d / "obs.csv", "-o", d / "small.json")
+    assert_bad(cli("predict", d / "world.toml", d / "full.toml", "--coefficients",
+                   d / "small.json", "-o", d / "p.csv"), d / "p.csv",
+               "another hypothesis", "missing: slab, transform, trench")
+
+
+def test_predict_without_coefficients_for_free_terms(demo_files, cli):
+    d = demo_files
+    assert_bad(cli("predict", d / "world.toml", d / "full.toml", "-o", d / "p.csv"),
+               d / "p.csv", "need values", "--coefficients")
+
+
+def test_monte_carlo_spread_matches_linear_propagation():
+    # For small motion errors the Monte Carlo spread of the coefficients equals the linear
+    # propagation of the motions' covariance through the (unbounded) least-squares solution
+    # (first-order error propagation; common practice, no source).
+    from torque.resample import monte_carlo_motions
+    w = kinded_world()
+    s0 = system_for(w, forces(False))
+    omega = balance.predict(s0, s0.fixed)
+    s = system_for(w, forces(True), omega)
+    sigma = 1e-4 * RAD_S_PER_DEG_MYR
+    cov = np.broadcast_to(sigma**2 * np.eye(3), (16, 3, 3)).copy()
+    mc = monte_carlo_motions(s, omega, cov, 4000, seed=2)
+    assert mc["refitted_with_bounds"] == 0
+    # linear propagation by finite differences of the torque-space fit
+    base = balance.fit_torque(s, omega).values[s.free]
+    J = np.zeros((len(base), omega.size))
+    eps = 1e-3 * sigma
+    for j in range(omega.size):
+        d = np.zeros(omega.size)
+        d[j] = eps
+        J[:, j] = (balance.fit_torque(s, omega + d.reshape(-1, 3)).values[s.free] - base) / eps
+    sd_lin = sigma * np.sqrt(np.sum(J**2, axis=1))
+    sd_mc = np.array([v["std"] for v in mc["coefficients"].values()])
+    np.testing.assert_allclose(sd_mc, sd_lin, rtol=0.08)

@@ -1,0 +1,561 @@
+"""The torque balance: fit force coefficients to observed motions, predict Euler vectors.
+
+Plates do not accelerate, so on every plate the torques of all force terms sum to zero:
+``sum_k c_k (b_k + A_k omega) = 0`` (3 equations per plate), with ``b_k`` the
+motion-independent torques and ``A_k`` the torque per angular velocity of term k (see
+:class:`torque.forces.ForceTerm`).
+
+* **Fit in torque space** (:func:`fit_torque`): with the observed ``omega`` the balance is
+  linear in the free coefficients; it is solved by bounded linear least squares
+  (``scipy.optimize.lsq_linear``) over all plates at once, after weighting each plate's
+  three equations (``weighting``):
+
+  - ``"velocity"`` (default): by ``D_p^{-1/2}``, with ``D_p`` the plate's drag tensor, so
+    that where drag dominates the weighted residual is the plate's area-integrated velocity
+    misfit; big plates do not drown small ones merely by their size;
+  - ``"area"``: by ``1 / area``;
+  - ``"none"``: raw torques (N m), dominated by the largest plates.
+
+* **Prediction** (:func:`predict`): with every coefficient known the balance is one linear
+  system ``M omega = -d`` for all plates together (boundary resistances couple
+  neighbours), in the frame where the mantle is at rest.
+
+* **Fit in velocity space** (:func:`fit_velocity`): nonlinear least squares of the
+  area-integrated squared velocity misfit between predicted and observed motions,
+  ``sum_p int |(w_pred - w_obs) x R r|^2 dA = R^4 sum_p dw^T D_p dw``, exact through the drag
+  tensors, started from the torque-space fit and using the exact Jacobian
+  ``d omega / d c_k = -M^{-1} (A_k omega + b_k)``.
+
+Prefer the velocity-space fit: it measures misfit in what is observed (plate velocities),
+and does not depend on a weighting of torques. The torque-space fit is linear, fast and
+always available; it is the starting point and the engine of the bootstrap, Monte Carlo and
+cross-validation.
+
+Observed motions must be in the frame where the mantle is at rest (e.g. the
+no-net-rotation frame: ``torque frame --to nnr``), since drag is taken relative to it.
+
+References
+----------
+.. [1] Forsyth, D. and Uyeda, S. (1975). On the relative importance of the driving forces
+   of plate motion. *Geophys. J. R. Astr. Soc.* 43, 163-200 (the torque balance).
+.. [2] Burnham, K. P. and Anderson, D. R. (2002). *Model Selection and Multimodel
+   Inference*, 2nd ed. Springer, sec. 2.2 (AIC for least squares: n ln(RSS/n) + 2k).
+.. [3] Schwarz, G. (1978). Estimating the dimension of a model. *Ann. Stat.* 6, 461-464.
+.. [4] Draper, N. R. and Smith, H. (1998). *Applied Regression Analysis*, 3rd ed. Wiley
+   (extra sum of squares F-test for nested linear models; covariance of estimates).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import linalg, optimize, stats
+
+from .errors import InputError
+from .euler import M_S_TO_MM_YR, vector_to_pole
+
+WEIGHTINGS = ("velocity", "area", "none")
+CONFIDENCE = 0.95
+
+
+@dataclass(frozen=True, eq=False)
+class System:
+    """The linear pieces of a hypothesis' torque balance on a world.
+
+    Attributes
+    ----------
+    labels, kinds, units : tuple of str
+    free : ndarray of bool, shape (K,)
+    fixed : ndarray, shape (K,)
+        Fixed coefficient values (NaN where free).
+    bounds : ndarray, shape (K, 2)
+    b : ndarray, shape (K, 3P)
+        Motion-independent torques (N m) at coefficient 1.
+    A : ndarray, shape (K, 3P, 3P)
+        Torque (N m) per angular velocity (rad/s) at coefficient 1.
+    D : ndarray, shape (P, 3, 3)
+        Drag tensors ``int (I - r r^T) dA`` of the plates on the unit sphere.
+    area : ndarray, shape (P,)
+        Plate areas on the unit sphere.
+    radius_m : float
+    plates : tuple of str
+    """
+
+    labels: tuple
+    kinds: tuple
+    units: tuple
+    free: np.ndarray
+    fixed: np.ndarray
+    bounds: np.ndarray
+    b: np.ndarray
+    A: np.ndarray
+    D: np.ndarray
+    area: np.ndarray
+    radius_m: float
+    plates: tuple
+    name: str = "hypothesis"
+
+    @property
+    def n_plates(self) -> int:
+        return len(self.plates)
+
+    @property
+    def n_free(self) -> int:
+        return int(self.free.sum())
+
+    def columns(self, omega) -> np.ndarray:
+        """Torque of every term at coefficient 1 for motions ``omega`` (P, 3): (3P, K)."""
+        w = np.asarray(omega, float).reshape(-1)
+        return (self.b + self.A @ w).T
+
+    def full_coefficients(self, free_values) -> np.ndarray:
+        c = self.fixed.copy()
+        c[self.free] = free_values
+        return c
+
+
+def assemble(world, hypothesis, terms) -> System:
+    """Gather the force terms of a hypothesis into a :class:`System`."""
+    P = world.geometry.n_plates
+    area, _, second = world.geometry.moments
+    D = area[:, None, None] * np.eye(3) - second
+    specs = [t.spec for t in terms]
+    return System(
+        labels=tuple(t.label for t in terms), kinds=tuple(t.kind for t in terms),
+        units=tuple(t.unit for t in terms),
+        free=np.array([s.free for s in specs]),
+        fixed=np.array([np.nan if s.free else s.coefficient for s in specs]),
+        bounds=np.array([s.bounds for s in specs], float),
+        b=np.stack([t.driving.reshape(3 * P) for t in terms]),
+        A=np.stack([t.resisting.reshape(3 * P, 3 * P) for t in terms]),
+        D=D, area=area, radius_m=world.radius_m, plates=tuple(world.plate_names),
+        name=hypothesis.name)
+
+
+# ----------------------------------------------------------------------------------------
+# weighting
+# ----------------------------------------------------------------------------------------
+def plate_weights(system: System, weighting: str = "velocity") -> np.ndarray:
+    """Block-diagonal weights of the plates' torque equations, shape (3P, 3P)."""
+    P = system.n_plates
+    W = np.zeros((P, 3, P, 3))
+    if weighting == "velocity":
+        vals, vecs = np.linalg.eigh(system.D)
+        blocks = np.einsum("pij,pj,pkj->pik", vecs, 1.0 / np.sqrt(vals), vecs)
+    elif weighting == "area":
+        blocks = np.eye(3)[None] / system.area[:, None, None]
+    elif weighting == "none":
+        blocks = np.broadcast_to(np.eye(3), (P, 3, 3))
+    else:
+        raise InputError(f"weighting must be one of {', '.join(WEIGHTINGS)}, got "
+                         f"{weighting!r}")
+    W[np.arange(P), :, np.arange(P), :] = blocks
+    return W.reshape(3 * P, 3 * P)
+
+
+# ----------------------------------------------------------------------------------------
+# results
+# ----------------------------------------------------------------------------------------
+@dataclass(frozen=True, eq=False)
+class Fit:
+    """Coefficients estimated by one fit.
+
+    ``values`` and ``stderr`` have one entry per term (fixed ones with stderr 0);
+    ``cov`` is the covariance of the free coefficients, in the order of ``system.free``.
+    """
+
+    system: System
+    method: str
+    values: np.ndarray
+    stderr: np.ndarray
+    cov: np.ndarray
+    rss: float
+    dof: int
+    active_bounds: tuple = ()
+    info: dict = field(default_factory=dict)
+
+
+def _check_fittable(system: System):
+    if not system.free.any():
+        raise InputError("the hypothesis has no free coefficient to fit",
+                         hint='mark at least one coefficient "free"')
+    if system.free.all():
+        raise InputError("every coefficient is free, so the balance is homogeneous and all "
+                         "coefficients = 0 fits it perfectly",
+                         hint="fix one coefficient (for example ridge push at 1.0) to set "
+                         "the scale")
+    lo, hi = system.bounds[system.free].T
+    if np.any(lo > hi):
+        raise InputError("a free coefficient has bounds with low > high")
+
+
+def _identifiability(system: System, G: np.ndarray, omega):
+    """Raise InputError naming coefficients the data cannot constrain or separate.
+
+    A column counts as empty when it is zero to rounding against the size its term could
+    have: ``|b_k| + |A_k| |omega|`` (a resistance between plates that move alike, say).
+    """
+    free_labels = [l for l, f in zip(system.labels, system.free) if f]
+    norms = np.linalg.norm(G, axis=0)
+    raw = np.linalg.norm(system.columns(omega)[:, system.free], axis=0)
+    size = (np.linalg.norm(system.b[system.free], axis=1)
+            + np.linalg.norm(system.A[system.free], axis=(1, 2)) * np.linalg.norm(omega))
+    zero = [free_labels[i] for i in np.nonzero((norms == 0) | (raw <= 1e-10 * size))[0]]
+    if zero:
+        raise InputError(f"free coefficient(s) {', '.join(map(repr, zero))} have no data to "
+                         "constrain them: their torque is zero on every plate",
+                         hint="fix them, or drop the terms")
+    Gn = G / norms
+    _, s, vt = np.linalg.svd(Gn, full_matrices=False)
+    if s[-1] < 1e-10 * s[0]:
+        null = vt[-1]
+        involved = [free_labels[i] for i in np.nonzero(np.abs(null) > 0.1)[0]]
+        raise InputError(f"the data cannot separate the free coefficients "
+                         f"{', '.join(map(repr, involved))}: their torques are (nearly) "
+                         f"proportional on every plate (condition number {s[0] / s[-1]:.1e})",
+                         hint="fix all but one of them")
+
+
+def fit_torque(system: System, omega_obs, weighting: str = "velocity",
+               plates=None) -> Fit:
+    """Free coefficients by bounded linear least squares of the plates' torque balance.
+
+    Parameters
+    ----------
+    system : System
+    omega_obs : ndarray, shape (P, 3)
+        Observed angular velocities (rad/s), mantle at rest.
+    weighting : {"velocity", "area", "none"}
+    plates : array of int, optional
+        Use only these plates' equations (for the bootstrap and cross-validation); a plate
+        may be repeated.
+    """
+    _check_fittable(system)
+    G_all = system.columns(omega_obs)                                # (3P, K)
+    W = plate_weights(system, weighting)
+    Gw = W @ G_all
+    if plates is not None:
+        rows = (3 * np.asarray(plates)[:, None] + np.arange(3)).ravel()
+        Gw = Gw[rows]
+    fixed = ~system.free
+    h = -Gw[:, fixed] @ system.fixed[fixed]
+    G = Gw[:, system.free]
+    _identifiability(system, G, omega_obs)
+    scale = np.linalg.norm(G, axis=0)
+    lo, hi = (system.bounds[system.free] * scale[:, None]).T
+    res = optimize.lsq_linear(G / scale, h, bounds=(lo, hi), method="bvls",
+                              tol=1e-14, lsmr_tol=None)
+    x = res.x / scale
+    r = G @ x - h
+    n, k = G.shape
+    rss = float(r @ r)
+    dof = max(n - k, 1)
+    cov = rss / dof * np.linalg.inv((G / scale).T @ (G / scale)) / np.outer(scale, scale)
+    values = system.full_coefficients(x)
+    stderr = np.zeros(len(values))
+    stderr[system.free] = np.sqrt(np.clip(np.diag(cov), 0, None))
+    free_labels = [l for l, f in zip(system.labels, system.free) if f]
+    active = tuple(free_labels[i] for i in np.nonzero(res.active_mask)[0])
+    return Fit(system, "torque", values, stderr, cov, rss, dof, active,
+               {"weighting": weighting})
+
+
+def predict(system: System, coefficients) -> np.ndarray:
+    """Euler vectors (rad/s, shape (P, 3)) that balance the torques, mantle at rest.
+
+    Raises InputError explaining which motion is undetermined when the system is singular
+    (no basal drag or mantle term: the net rotation is then free).
+    """
+    c = np.asarray(coefficients, float)
+    M = np.tensordot(c, system.A, axes=1)
+    d = c @ system.b
+    _check_determined(system, M)
+    return np.linalg.solve(M, -d).reshape(-1, 3)
+
+
+def _check_determined(system: System, M):
+    # scale by the drag tensors so that plate size does not hide a singular direction
+    s = np.linalg.svd(M, compute_uv=False)
+    if s[-1] > 1e-11 * s[0]:
+        return
+    _, _, vt = np.linalg.svd(M)
+    null = vt[-1].reshape(-1, 3)
+    if np.allclose(null, null[0], atol=1e-6 * np.abs(null).max()):
+        raise InputError(
+            "the net rotation is undetermined: no basal drag or mantle term resists a "
+            "rotation of all plates together, so any such rotation balances as well",
+            hint="add a 'drag' or 'mantle' term with a non-zero coefficient")
+    involved = [system.plates[i] for i in np.nonzero(np.linalg.norm(null, axis=1)
+                                                    > 0.1 * np.abs(null).max())[0]]
+    raise InputError(f"the motion of plate(s) {', '.join(map(repr, involved))} is "
+                     "undetermined: nothing in the hypothesis resists it (no drag over "
+                     "them, and no coupling to plates that have some)",
+                     hint="use drag over 'all', or add a boundary resistance")
+
+
+def _misfit_vector(system: System, omega_pred, omega_obs) -> np.ndarray:
+    """``R^2 L_p^T (w_pred - w_obs)``: its squared norm is ``sum_p int |dv|^2 dA`` (m^4/s^2)."""
+    L = np.linalg.cholesky(system.D)
+    dw = np.asarray(omega_pred) - np.asarray(omega_obs)
+    return (system.radius_m ** 2 * np.einsum("pji,pj->pi", L, dw)).ravel()
+
+
+def fit_velocity(system: System, omega_obs, start: Fit | None = None) -> Fit:
+    """Free coefficients minimising the area-integrated squared velocity misfit."""
+    _check_fittable(system)
+    if start is None:
+        start = fit_torque(system, omega_obs)
+    free = system.free
+    L = np.linalg.cholesky(system.D)
+    R2 = system.radius_m ** 2
+    x0 = start.values[free]
+    # natural size of each free coefficient: its value, else what balances the fixed terms
+    G = system.columns(omega_obs)
+    h = np.linalg.norm(G[:, ~free] @ system.fixed[~free])
+    typical = h / np.linalg.norm(G[:, free], axis=0)
+    scale = np.where(np.abs(x0) > 0, np.abs(x0), typical)
+    fixed_c = system.fixed
+
+    def coeffs(x):
+        c = fixed_c.copy()
+        c[free] = x * scale
+        return c
+
+    def solve(x):
+        c = coeffs(x)
+        M = np.tensordot(c, system.A, axes=1)
+        lu = linalg.lu_factor(M)
+        w = linalg.lu_solve(lu, -(c @ system.b))
+        return c, lu, w
+
+    def residual(x):
+        _, _, w = solve(x)
+        return _misfit_vector(system, w.reshape(-1, 3), omega_obs)
+
+    def jacobian(x):
+        _, lu, w = solve(x)
+        # d w / d c_k = -M^{-1} (A_k w + b_k), for the free k
+        rhs = (system.A[free] @ w + system.b[free]).T                 # (3P, k)
+        dw = -linalg.lu_solve(lu, rhs) * scale                        # (3P, k)
+        dw = dw.reshape(-1, 3, dw.shape[1])
+        return (R2 * np.einsum("pji,pjk->pik", L, dw)).reshape(-1, dw.shape[2])
+
+    M0 = np.tensordot(start.values, system.A, axes=1)
+    _check_determined(system, M0)
+    lo, hi = (system.bounds[free] / scale[:, None]).T
+    x_start = np.clip(x0 / scale, lo, hi)
+    res = optimize.least_squares(residual, x_start, jac=jacobian, bounds=(lo, hi),
+                                 method="trf", x_scale="jac", xtol=1e-15, ftol=1e-15,
+                                 gtol=1e-15, max_nfev=200)
+    x = res.x * scale
+    J = jacobian(res.x) / scale
+    rss = float(res.fun @ res.fun)
+    n, k = J.shape
+    dof = max(n - k, 1)
+    try:
+        cov = rss / dof * np.linalg.inv(J.T @ J)
+    except np.linalg.LinAlgError:
+        cov = np.full((k, k), np.nan)
+    values = system.full_coefficients(x)
+    stderr = np.zeros(len(values))
+    stderr[free] = np.sqrt(np.clip(np.diag(cov), 0, None))
+    free_labels = [l for l, f in zip(system.labels, system.free) if f]
+    active = tuple(free_labels[i] for i in np.nonzero(res.active_mask)[0])
+    return Fit(system, "velocity", values, stderr, cov, rss, dof, active,
+               {"evaluations": int(res.nfev), "status": int(res.status)})
+
+
+# ----------------------------------------------------------------------------------------
+# diagnostics
+# ----------------------------------------------------------------------------------------
+def velocity_misfit(system: System, omega_pred, omega_obs):
+    """Per-plate RMS velocity misfit (mm/yr) and the global misfit numbers (exact)."""
+    dw = np.asarray(omega_pred) - np.asarray(omega_obs)
+    R = system.radius_m
+    per = np.einsum("pi,pij,pj->p", dw, system.D, dw)               # int |dw x r|^2 dA
+    obs = np.einsum("pi,pij,pj->p", omega_obs, system.D, omega_obs)
+    rms = R * np.sqrt(per / system.area) * M_S_TO_MM_YR
+    total_rms = R * np.sqrt(per.sum() / system.area.sum()) * M_S_TO_MM_YR
+    vr = 1.0 - per.sum() / obs.sum() if obs.sum() > 0 else np.nan
+    return rms, {"rms_velocity_mm_yr": float(total_rms),
+                 "variance_reduction": float(vr),
+                 "velocity_rss_m4_s2": float(per.sum() * R ** 4)}
+
+
+def pole_covariance(system: System, coefficients, cov_free, omega_pred) -> np.ndarray:
+    """Covariance (rad/s)^2 of each predicted Euler vector, shape (P, 3, 3), from the
+    covariance of the free coefficients by linear propagation."""
+    c = np.asarray(coefficients, float)
+    M = np.tensordot(c, system.A, axes=1)
+    w = np.asarray(omega_pred).reshape(-1)
+    rhs = (system.A[system.free] @ w + system.b[system.free]).T
+    J = -np.linalg.solve(M, rhs)                                     # (3P, k)
+    full = J @ cov_free @ J.T
+    P = system.n_plates
+    return full.reshape(P, 3, P, 3)[np.arange(P), :, np.arange(P), :]
+
+
+def pole_ellipse(omega, cov, confidence: float = CONFIDENCE) -> dict:
+    """Confidence ellipse of a pole and the rate's standard error from a 3x3 covariance.
+
+    The pole direction ``u = w/|w|`` varies as ``du = (I - u u^T) dw / |w|``; its 2-D
+    covariance in the tangent plane gives the ellipse, scaled by the chi-square quantile
+    with 2 degrees of freedom (``scipy.stats.chi2``).
+    """
+    omega = np.asarray(omega, float)
+    rate = np.linalg.norm(omega)
+    if rate == 0 or not np.all(np.isfinite(cov)):
+        return {"major_deg": None, "minor_deg": None, "azimuth_deg": None,
+                "rate_stderr_deg_myr": None, "confidence": confidence}
+    u = omega / rate
+    east = np.cross([0.0, 0.0, 1.0], u)
+    east = east / np.linalg.norm(east) if np.linalg.norm(east) > 1e-12 else np.array([0, 1.0,
+                                                                                        0])
+    north = np.cross(u, east)
+    T = np.stack([east, north]) / rate                                # (2, 3)
+    c2 = T @ cov @ T.T
+    vals, vecs = np.linalg.eigh(c2)
+    k = np.sqrt(stats.chi2.ppf(confidence, 2))
+    major = np.degrees(k * np.sqrt(max(vals[1], 0)))
+    minor = np.degrees(k * np.sqrt(max(vals[0], 0)))
+    az = np.degrees(np.arctan2(vecs[0, 1], vecs[1, 1])) % 180.0
+    rate_se = np.sqrt(max(u @ cov @ u, 0)) / (np.pi / 180 / 3.15576e13)
+    return {"major_deg": float(major), "minor_deg": float(minor), "azimuth_deg": float(az),
+            "rate_stderr_deg_myr": float(rate_se), "confidence": confidence}
+
+
+def force_budget(system: System, coefficients, omega) -> np.ndarray:
+    """Share of each term in each plate's driving torque, shape (P, K).
+
+    The driving torque of a plate is the sum of the motion-independent torques of all terms
+    (at their coefficients). A term's share is its torque (at the motions ``omega``)
+    projected on the driving torque's direction and divided by its magnitude: driving
+    terms' shares add to 1, resisting terms' come out negative (near -1 in all if the
+    plate is balanced).
+    """
+    c = np.asarray(coefficients, float)
+    P = system.n_plates
+    G = system.columns(omega).reshape(P, 3, -1) * c                   # (P, 3, K)
+    drive = (c[:, None] * system.b).sum(0).reshape(P, 3)
+    mag2 = np.einsum("pi,pi->p", drive, drive)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(mag2[:, None] > 0, np.einsum("pik,pi->pk", G, drive) / mag2[:, None],
+                        np.nan)
+
+
+def residual_torque(system: System, coefficients, omega) -> np.ndarray:
+    """Sum of all terms' torques (N m) at the observed motions, per plate (P, 3)."""
+    return (system.columns(omega) @ np.asarray(coefficients, float)).reshape(-1, 3)
+
+
+def pole_distance_deg(w1, w2) -> np.ndarray:
+    """Angle (degrees) between the poles of two sets of Euler vectors (P, 3)."""
+    n = np.linalg.norm(np.cross(w1, w2), axis=-1)
+    return np.degrees(np.arctan2(n, np.einsum("pi,pi->p", w1, w2)))
+
+
+@dataclass(frozen=True, eq=False)
+class Report:
+    """Everything ``torque fit`` reports: both fits, predictions and diagnostics."""
+
+    system: System
+    torque_fit: Fit
+    velocity_fit: Fit
+    omega_obs: np.ndarray
+    omega_pred: np.ndarray
+    pole_cov: np.ndarray
+    uncertainty: dict = field(default_factory=dict)
+
+    @property
+    def preferred(self) -> Fit:
+        return self.velocity_fit
+
+    def misfit(self):
+        return velocity_misfit(self.system, self.omega_pred, self.omega_obs)
+
+    def as_dict(self) -> dict:
+        s = self.system
+        pref = self.preferred
+        tf = self.torque_fit
+        coefs = {}
+        for i, l in enumerate(s.labels):
+            coefs[l] = {"value": float(pref.values[i]), "stderr": float(pref.stderr[i]),
+                        "free": bool(s.free[i]), "unit": s.units[i],
+                        "torque_space_value": float(tf.values[i]),
+                        "torque_space_stderr": float(tf.stderr[i])}
+        rms, glob = self.misfit()
+        ang = pole_distance_deg(self.omega_obs, self.omega_pred)
+        budget = force_budget(s, pref.values, self.omega_obs)
+        resid = residual_torque(s, pref.values, self.omega_obs)
+        olat, olon, orate = vector_to_pole(self.omega_obs)
+        plat, plon, prate = vector_to_pole(self.omega_pred)
+        plates = []
+        for p, name in enumerate(s.plates):
+            plates.append({
+                "plate": name,
+                "observed": {"lat": float(olat[p]), "lon": float(olon[p]),
+                             "rate": float(orate[p])},
+                "predicted": {"lat": float(plat[p]), "lon": float(plon[p]),
+                              "rate": float(prate[p])},
+                "pole_distance_deg": float(ang[p]),
+                "rate_ratio": float(prate[p] / orate[p]) if orate[p] > 0 else None,
+                "rms_velocity_mm_yr": float(rms[p]),
+                "residual_torque_nm": resid[p].tolist(),
+                "budget": {l: (None if not np.isfinite(budget[p, k]) else float(budget[p, k]))
+                           for k, l in enumerate(s.labels)},
+                "pole_ellipse": pole_ellipse(self.omega_pred[p], self.pole_cov[p]),
+            })
+        n = 3 * s.n_plates
+        k = s.n_free
+        ic = information_criteria(glob["velocity_rss_m4_s2"], n, k)
+        return {
+            "hypothesis": s.name,
+            "caution": "model-dependent research estimate; not for hazard or engineering use",
+            "preferred_fit": "velocity",
+            "why": "the velocity-space fit measures misfit in the observed plate velocities "
+                   "and does not depend on how torques are weighted; the torque-space fit is "
+                   "linear and serves as its start and for resampling",
+            "coefficients": coefs,
+            "plates": plates,
+            "misfit": {**glob, "n": n, "free_coefficients": k, **ic,
+                       "torque_space_rss": tf.rss,
+                       "torque_space_weighting": tf.info.get("weighting"),
+                       "active_bounds": list(pref.active_bounds)},
+            "uncertainty": self.uncertainty,
+        }
+
+
+def information_criteria(rss: float, n: int, k: int) -> dict:
+    """AIC, AICc and BIC for a least-squares fit with Gaussian errors [2]_ [3]_.
+
+    ``AIC = n ln(RSS/n) + 2k``, ``AICc = AIC + 2k(k+1)/(n-k-1)``, ``BIC = n ln(RSS/n) +
+    k ln(n)`` (constants common to all models dropped).
+    """
+    base = n * np.log(max(rss, 1e-300) / n)
+    aic = base + 2 * k
+    aicc = aic + (2 * k * (k + 1) / (n - k - 1) if n - k - 1 > 0 else np.inf)
+    return {"aic": float(aic), "aicc": float(aicc), "bic": float(base + k * np.log(n))}
+
+
+def f_test(rss_small: float, k_small: int, rss_big: float, k_big: int, n: int) -> dict:
+    """Extra-sum-of-squares F-test of a nested model against a bigger one [4]_.
+
+    ``F = ((RSS_s - RSS_b)/(k_b - k_s)) / (RSS_b/(n - k_b))``, p-value from
+    ``scipy.stats.f``.
+    """
+    df1, df2 = k_big - k_small, n - k_big
+    if df1 <= 0 or df2 <= 0 or rss_big <= 0:
+        return {"F": None, "p_value": None, "df": [df1, df2]}
+    F = ((rss_small - rss_big) / df1) / (rss_big / df2)
+    return {"F": float(F), "p_value": float(stats.f.sf(F, df1, df2)), "df": [df1, df2]}
+
+
+def analyse(system: System, omega_obs, weighting: str = "velocity") -> Report:
+    """Both fits, the prediction at the preferred coefficients and its uncertainty."""
+    omega_obs = np.asarray(omega_obs, float)
+    tf = fit_torque(system, omega_obs, weighting)
+    vf = fit_velocity(system, omega_obs, tf)
+    pred = predict(system, vf.values)
+    cov = pole_covariance(system, vf.values, vf.cov, pred)
+    return Report(system, tf, vf, omega_obs, pred, cov)

@@ -1,0 +1,95 @@
+"""Comparing driving-force hypotheses on the same world and motions.
+
+Each hypothesis is fitted (both fits, see :mod:`torque.balance`); the table gives its
+velocity misfit, number of free coefficients, AIC, AICc and BIC (Gaussian errors, from
+the velocity-space residual sum of squares over the 3P balance equations), and the
+leave-one-plate-out cross-validation error: for every plate, the coefficients are refitted
+(torque space) without that plate's equations, all plates are predicted, and the left-out
+plate's RMS velocity misfit is kept; the error is the area-weighted RMS of these. Rows are
+sorted by AIC, best (lowest) first. Nested pairs (one hypothesis' terms a subset of
+another's, with equal settings) get an F-test.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .balance import (System, analyse, f_test, fit_torque, information_criteria, predict,
+                      velocity_misfit)
+from .errors import InputError
+
+
+
+@dataclass(frozen=True)
+class Row:
+    name: str
+    rms_velocity_mm_yr: float
+    variance_reduction: float
+    free: int
+    aic: float
+    aicc: float
+    bic: float
+    cv_rms_mm_yr: float
+    coefficients: dict
+
+
+def cross_validation(system: System, omega_obs, weighting="velocity") -> float:
+    """Leave-one-plate-out RMS velocity misfit (mm/yr), area-weighted over the plates."""
+    P = system.n_plates
+    sq, area = 0.0, 0.0
+    for p in range(P):
+        keep = np.r_[0:p, p + 1:P]
+        try:
+            fit = fit_torque(system, omega_obs, weighting, plates=keep)
+            pred = predict(system, fit.values)
+        except InputError:
+            return float("nan")
+        rms, _ = velocity_misfit(system, pred, omega_obs)
+        sq += rms[p] ** 2 * system.area[p]
+        area += system.area[p]
+    return float(np.sqrt(sq / area))
+
+
+def rank(systems, omega_obs, weighting="velocity"):
+    """Rows (sorted by AIC) and F-tests of nested pairs, for a list of :class:`System`."""
+    rows, rss, specs = [], {}, {}
+    for s in systems:
+        rep = analyse(s, omega_obs, weighting)
+        _, glob = rep.misfit()
+        n = 3 * s.n_plates
+        ic = information_criteria(glob["velocity_rss_m4_s2"], n, s.n_free)
+        coefs = {l: float(v) for l, v, f in zip(s.labels, rep.preferred.values, s.free) if f}
+        rows.append(Row(s.name, glob["rms_velocity_mm_yr"], glob["variance_reduction"],
+                        s.n_free, ic["aic"], ic["aicc"], ic["bic"],
+                        cross_validation(s, omega_obs, weighting), coefs))
+        rss[s.name] = glob["velocity_rss_m4_s2"]
+        specs[s.name] = s
+    rows.sort(key=lambda r: r.aic)
+    tests = []
+    for a in systems:
+        for b in systems:
+            if a is not b and _nested(a, b):
+                t = f_test(rss[a.name], a.n_free, rss[b.name], b.n_free, 3 * a.n_plates)
+                tests.append({"smaller": a.name, "bigger": b.name, **t})
+    return rows, tests
+
+
+def _nested(small: System, big: System) -> bool:
+    """Whether ``small``'s terms are a proper subset of ``big``'s, with the same settings."""
+    if len(small.labels) >= len(big.labels):
+        return False
+    idx = {l: i for i, l in enumerate(big.labels)}
+    for i, l in enumerate(small.labels):
+        j = idx.get(l)
+        if j is None or small.kinds[i] != big.kinds[j] or small.free[i] != big.free[j]:
+            return False
+        if not small.free[i] and small.fixed[i] != big.fixed[j]:
+            return False
+        if not (np.array_equal(small.b[i], big.b[j]) and np.array_equal(small.A[i], big.A[j])):
+            return False
+    return True
+
+
+

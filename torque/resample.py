@@ -1,0 +1,165 @@
+"""Uncertainty of fitted coefficients by resampling: bootstrap over plates, Monte Carlo over
+the observed motions' uncertainties and over physics parameters given as distributions.
+
+All draws come from ``numpy.random.default_rng(seed)``, so a run is reproducible. The
+resampled fits are torque-space fits (:func:`torque.balance.fit_torque`), which are linear
+and cheap; the spread they give is reported beside the preferred fit.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+from scipy import optimize
+
+from .balance import System, fit_torque, plate_weights
+from .errors import InputError
+
+PERCENTILES = (2.5, 50.0, 97.5)
+
+
+def _summary(system: System, samples: np.ndarray, n_failed: int = 0, **extra) -> dict:
+    labels = [l for l, f in zip(system.labels, system.free) if f]
+    out = {"members": int(len(samples)), "failed": int(n_failed), **extra,
+           "coefficients": {}}
+    for i, l in enumerate(labels):
+        col = samples[:, i]
+        pct = np.percentile(col, PERCENTILES) if len(col) else [np.nan] * 3
+        out["coefficients"][l] = {"mean": float(np.mean(col)) if len(col) else None,
+                                  "std": float(np.std(col, ddof=1)) if len(col) > 1 else None,
+                                  "p2_5": float(pct[0]), "median": float(pct[1]),
+                                  "p97_5": float(pct[2])}
+    return out
+
+
+def _progress(n, desc):
+    from tqdm import tqdm
+    # shown on a terminal for long runs only; never in pipes or tests
+    return tqdm(total=n, desc=desc, disable=None if n >= 200 else True, leave=False)
+
+
+def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
+              weighting: str = "velocity") -> dict:
+    """Refit on ``n`` sets of plates drawn with replacement."""
+    rng = np.random.default_rng(seed)
+    P = system.n_plates
+    out, failed = [], 0
+    with _progress(n, "bootstrap") as bar:
+        for _ in range(n):
+            idx = rng.integers(P, size=P)
+            try:
+                out.append(fit_torque(system, omega_obs, weighting, plates=idx).values[
+                    system.free])
+            except InputError:       # a draw that cannot separate the coefficients
+                failed += 1
+            bar.update()
+    return _summary(system, np.array(out).reshape(-1, system.n_free), failed,
+                    method="bootstrap over plates", seed=seed)
+
+
+def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
+                        weighting: str = "velocity") -> dict:
+    """Refit for ``n`` draws of the observed Euler vectors from their covariance.
+
+    Vectorised: the torque columns are linear in the motions, so every member's least
+    squares problem is formed at once and solved by batched normal equations; members whose
+    solution breaks a bound are refitted one by one with bounds.
+    """
+    if cov is None:
+        raise InputError("a Monte Carlo over motions needs their covariance: add the cov_xx "
+                         "... cov_zz columns to the motions file")
+    rng = np.random.default_rng(seed)
+    P = system.n_plates
+    # a jitter relative to each covariance's own size keeps singular ones factorisable
+    tr = np.trace(cov, axis1=1, axis2=2)[:, None, None]
+    L = np.linalg.cholesky(cov + 1e-12 * tr * np.eye(3) + (tr == 0) * np.eye(3) * 1e-300)
+    draws = omega_obs[None] + np.einsum("pij,npj->npi", L, rng.standard_normal((n, P, 3)))
+    W = plate_weights(system, weighting)
+    # columns for every member: G_n = W (b + A w_n)
+    K = len(system.labels)
+    Aw = (system.A.reshape(K * 3 * P, 3 * P) @ draws.reshape(n, 3 * P).T)
+    G = (system.b.reshape(K * 3 * P, 1) + Aw).reshape(K, 3 * P, n)
+    G = np.einsum("ij,kjn->nik", W, G)                               # (n, 3P, K)
+    free = system.free
+    h = -G[:, :, ~free] @ system.fixed[~free]
+    Gf = G[:, :, free]
+    scale = np.linalg.norm(Gf[0], axis=0)
+    Gs = Gf / scale
+    x = np.linalg.solve(np.einsum("nik,nil->nkl", Gs, Gs),
+                        np.einsum("nik,ni->nk", Gs, h)[..., None])[..., 0] / scale
+    lo, hi = system.bounds[free].T
+    broke = np.nonzero(np.any((x < lo) | (x > hi), axis=1))[0]
+    for i in broke:
+        res = optimize.lsq_linear(Gs[i], h[i], bounds=(lo * scale, hi * scale), method="bvls")
+        x[i] = res.x / scale
+    return _summary(system, x, 0, method="Monte Carlo over motion uncertainties", seed=seed,
+                    refitted_with_bounds=int(len(broke)))
+
+
+def parse_spread(table: dict, physics, file=None) -> dict:
+    """Physics parameters given as distributions: ``{key: {"normal": sd}}`` or
+    ``{key: {"uniform": [low, high]}}`` (the hypothesis file's ``[spread]`` table)."""
+    names = {f.name for f in dataclasses.fields(physics)} - {"model"}
+    out = {}
+    for key, spec in table.items():
+        if key not in names:
+            raise InputError(f"[spread] names {key!r}, which is not a [physics] number",
+                             file=file, hint=f"valid: {', '.join(sorted(names))}")
+        if not isinstance(spec, dict) or len(spec) != 1:
+            raise InputError(f"[spread] {key} must be {{normal = SD}} or {{uniform = [LOW, "
+                             "HIGH]}}", file=file)
+        (kind, val), = spec.items()
+        if kind == "normal" and isinstance(val, (int, float)) and val > 0:
+            out[key] = ("normal", float(val))
+        elif (kind == "uniform" and isinstance(val, list) and len(val) == 2
+              and all(isinstance(v, (int, float)) for v in val) and val[0] < val[1]):
+            out[key] = ("uniform", (float(val[0]), float(val[1])))
+        else:
+            raise InputError(f"[spread] {key}: {spec!r} is not {{normal = SD > 0}} or "
+                             "{uniform = [LOW, HIGH]} with LOW < HIGH", file=file)
+    return out
+
+
+def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
+                        seed: int = 0, weighting: str = "velocity") -> dict:
+    """Refit for ``n`` draws of the physics parameters from their distributions.
+
+    ``build_system(physics) -> System`` rebuilds the terms for one draw. Draws that are not
+    physical (say, a negative thickness) are redrawn up to 10 times, then counted failed.
+    """
+    if not spread:
+        raise InputError("a Monte Carlo over physics needs a [spread] table in the hypothesis")
+    rng = np.random.default_rng(seed)
+    out, failed = [], 0
+    system = None
+    with _progress(n, "physics Monte Carlo") as bar:
+        for _ in range(n):
+            for _try in range(10):
+                kw = {}
+                for key, (kind, val) in spread.items():
+                    base = getattr(physics, key)
+                    kw[key] = (base + val * rng.standard_normal() if kind == "normal"
+                               else rng.uniform(*val))
+                draw = dataclasses.replace(physics, **kw)
+                try:
+                    draw.validate()
+                    break
+                except InputError:
+                    draw = None
+            if draw is None:
+                failed += 1
+                bar.update()
+                continue
+            system = build_system(draw)
+            try:
+                out.append(fit_torque(system, omega_obs, weighting).values[system.free])
+            except InputError:
+                failed += 1
+            bar.update()
+    if system is None:
+        raise InputError("no physics draw was physical; check the [spread] table")
+    return _summary(system, np.array(out).reshape(-1, system.n_free), failed,
+                    method="Monte Carlo over physics parameters", seed=seed,
+                    spread={k: list(v) if isinstance(v, tuple) else v
+                            for k, v in spread.items()})
