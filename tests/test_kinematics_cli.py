@@ -228,3 +228,15 @@ def test_bad_points_file(hemi, cli):
     (tmp / "pts.csv").write_text("lon,lat\n10,45\n20,north\n")
     assert_refused(cli("field", world, m, "--points", tmp / "pts.csv", "-o", tmp / "f.csv"),
                    tmp / "f.csv", "pts.csv", "line 3", "'north'")
+
+
+def test_outputs_get_ordinary_permissions(hemi, cli):
+    # Written through a temporary file, but readable like any new file (umask applies).
+    import os
+    import stat
+    world, motions, tmp = hemi
+    m = motions(["Upper,90,0,0", "Lower,0,90,1"])
+    cli("field", world, m, "--step", "30", "-o", tmp / "f.csv")
+    mask = os.umask(0)
+    os.umask(mask)
+    assert stat.S_IMODE(os.stat(tmp / "f.csv").st_mode) == 0o666 & ~mask

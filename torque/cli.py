@@ -527,10 +527,11 @@ def _cmd_rank(args) -> int:
         raise InputError(f"hypotheses share the name(s) {', '.join(map(repr, dup))}",
                          hint="give each a different 'name'")
     rows, tests = rank(systems, omega, args.weighting)
-    print(f"{'rank':>4}  {'hypothesis':<28} {'rms mm/yr':>9} {'VR %':>7} {'k':>2} "
+    wn = max(10, *(len(r.name) for r in rows))
+    print(f"{'rank':>4}  {'hypothesis':<{wn}} {'rms mm/yr':>9} {'VR %':>7} {'k':>2} "
           f"{'AIC':>10} {'BIC':>10} {'CV mm/yr':>9}")
     for i, r in enumerate(rows, 1):
-        print(f"{i:4d}  {r.name:<28} {r.rms_velocity_mm_yr:9.3f} "
+        print(f"{i:4d}  {r.name:<{wn}} {r.rms_velocity_mm_yr:9.3f} "
               f"{100 * r.variance_reduction:7.2f} {r.free:2d} {r.aic:10.2f} {r.bic:10.2f} "
               f"{r.cv_rms_mm_yr:9.3f}")
     for t in tests:
@@ -553,6 +554,87 @@ def _cmd_rank(args) -> int:
         from .errors import atomic_write
         with atomic_write(args.json) as fh:
             fh.write(dumps({"rows": [r.__dict__ for r in rows], "f_tests": tests}))
+    return EXIT_OK
+
+
+# ----------------------------------------------------------------------------------------
+# figures and the demo
+# ----------------------------------------------------------------------------------------
+MAP_KINDS = {
+    "plates": "plates, continents and boundaries by kind",
+    "velocities": "velocity arrows (needs --motions; --predicted adds predicted arrows)",
+    "poles": "observed and predicted poles with 95 % ellipses (needs --fit)",
+    "misfit": "velocity misfit (needs --motions and --predicted)",
+    "budget": "force budget per plate (needs --fit)",
+    "torques": "torque of each term on each plate (needs --hypothesis, --motions, --fit)",
+}
+MAP_NEEDS = {"plates": (), "velocities": ("motions",), "poles": ("fit",),
+             "misfit": ("motions", "predicted"), "budget": ("fit",),
+             "torques": ("hypothesis", "motions", "fit")}
+MAP_ALLOWS = {"plates": (), "velocities": ("motions", "predicted"), "poles": ("fit",),
+              "misfit": ("motions", "predicted"), "budget": ("fit",),
+              "torques": ("hypothesis", "motions", "fit")}
+
+
+def _cmd_map(args) -> int:
+    from . import maps
+    from .euler import read_motions
+    from .io import output_suffix
+
+    output_suffix(args.output, (".png", ".svg", ".pdf"))
+    given = {k for k in ("motions", "predicted", "fit", "hypothesis") if getattr(args, k)}
+    missing = [k for k in MAP_NEEDS[args.kind] if k not in given]
+    if missing:
+        raise InputError(f"a {args.kind} map needs {', '.join('--' + m for m in missing)}")
+    extra = sorted(given - set(MAP_ALLOWS[args.kind]))
+    if extra:
+        raise InputError(f"{', '.join('--' + e for e in extra)} make(s) no sense for a "
+                         f"{args.kind} map", hint=f"a {args.kind} map shows "
+                         f"{MAP_KINDS[args.kind]}")
+    world = _world(args.world)
+    cont = None
+    if "continents" in world.paths:
+        from .continents import read_continents
+        cont = read_continents(world.paths["continents"])
+    obs = read_motions(args.motions).for_world(world) if args.motions else None
+    pred = read_motions(args.predicted).for_world(world) if args.predicted else None
+    fit = None
+    if args.fit:
+        from pathlib import Path
+        try:
+            fit = json.loads(Path(args.fit).read_text())
+            fit["plates"], fit["coefficients"]
+        except (OSError, ValueError, KeyError, TypeError):
+            raise InputError("not the JSON output of torque fit", file=args.fit) from None
+        if [p["plate"] for p in fit["plates"]] != world.plate_names:
+            raise InputError("the fit is for other plates than this world's", file=args.fit)
+    if args.kind == "plates":
+        maps.plates_map(world, args.output, cont)
+    elif args.kind == "velocities":
+        maps.velocity_map(world, args.output, obs, pred, cont)
+    elif args.kind == "poles":
+        maps.poles_map(world, args.output, fit)
+    elif args.kind == "misfit":
+        maps.misfit_map(world, args.output, obs, pred)
+    elif args.kind == "budget":
+        maps.budget_chart(args.output, fit)
+    else:
+        from .forces import compute_torques
+        from .hypothesis import load_hypothesis
+        hyp = load_hypothesis(args.hypothesis)
+        terms = compute_torques(world, hyp, obs)
+        try:
+            coefs = [fit["coefficients"][t.label]["value"] for t in terms]
+        except KeyError:
+            raise InputError("the fit is for another hypothesis", file=args.fit) from None
+        maps.torque_chart(args.output, world, terms, coefs, obs)
+    print(f"wrote {args.output}")
+    return EXIT_OK
+
+
+def _cmd_demo(args) -> int:
+    from .demo import run
+    run(args.outdir, force=args.force)
     return EXIT_OK
 
 # ----------------------------------------------------------------------------------------
@@ -678,6 +760,28 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", metavar="FILE", help="also write rows and F-tests as JSON")
     p.add_argument("--weighting", **weighting)
     p.set_defaults(func=_cmd_rank)
+
+    p = sub.add_parser("map", help="maps and charts",
+                       description="Draw a map or chart (PNG, SVG or PDF). Kinds: "
+                       + "; ".join(f"{k}: {v}" for k, v in MAP_KINDS.items()) + ".")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("--kind", required=True, choices=list(MAP_KINDS))
+    p.add_argument("--motions", help="observed motions CSV")
+    p.add_argument("--predicted", help="predicted motions CSV (from torque predict)")
+    p.add_argument("--fit", help="output of torque fit")
+    p.add_argument("--hypothesis", help="hypothesis file (TOML)")
+    p.add_argument("-o", "--output", required=True, help="output file (.png, .svg, .pdf)")
+    p.set_defaults(func=_cmd_map)
+
+    p = sub.add_parser("demo", help="the whole job on the bundled demo planet",
+                       description="Run check, cooling, torques, fits of every hypothesis, "
+                       "ranking, prediction, velocity field, boundary motion, maps and the "
+                       "report on the bundled invented planet (synthetic data), into OUTDIR.")
+    p.add_argument("outdir", nargs="?", default="torque-demo",
+                   help="output folder (default torque-demo); must be empty")
+    p.add_argument("--force", action="store_true",
+                   help="write into a folder that holds other files (never deletes any)")
+    p.set_defaults(func=_cmd_demo)
     return parser
 
 

@@ -42,6 +42,13 @@ class InputError(Exception):
         return text
 
 
+def _umask_mode() -> int:
+    """Permissions a newly created file gets (mkstemp makes files private, 0600)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 @contextmanager
 def atomic_write(path, mode: str = "w", **kwargs):
     """Open a temporary file beside ``path`` and move it into place only on success.
@@ -54,6 +61,7 @@ def atomic_write(path, mode: str = "w", **kwargs):
     try:
         with os.fdopen(fd, mode, **kwargs) as fh:
             yield fh
+        os.chmod(tmp, _umask_mode())
         os.replace(tmp, path)
     except BaseException:
         try:
@@ -82,6 +90,7 @@ class _AtomicPath:
 
     def __exit__(self, exc_type, exc, tb):
         if exc_type is None:
+            os.chmod(self.tmp, _umask_mode())
             os.replace(self.tmp, self.path)
         else:
             self.tmp.unlink(missing_ok=True)

@@ -1,0 +1,120 @@
+"""The demo: the whole job in one command, its fits, figures and report.
+
+The demo's observations are synthetic, made by the forward model from stated true
+coefficients plus stated noise (polygons_demo/truth.json): the fit must recover the truth
+within that noise, and the hypothesis that made the data must rank first.
+"""
+
+import json
+from html.parser import HTMLParser
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "polygons_demo"
+
+
+@pytest.fixture(scope="module")
+def demo_run(tmp_path_factory):
+    from torque.demo import run
+    out = tmp_path_factory.mktemp("demo") / "out"
+    lines = []
+    info = run(out, echo=lines.append)
+    return out, info, lines
+
+
+def test_fits_recover_the_truth_and_it_ranks_first(demo_run):
+    out, info, _ = demo_run
+    truth = json.loads((DEMO / "truth.json").read_text())
+    rank = json.loads((out / "rank.json").read_text())["rows"]
+    assert rank[0]["name"] == truth["hypothesis"]
+    fit = json.loads((out / "fits" / "continental_drag.json").read_text())
+    for label, value in truth["true_coefficients"].items():
+        c = fit["coefficients"][label]
+        if c["free"]:
+            assert abs(c["value"] - value) <= 3 * c["stderr"], (label, c, value)
+        else:
+            assert c["value"] == value
+    # the resampled spread covers the truth too
+    boot = fit["uncertainty"]["bootstrap"]["coefficients"]
+    assert boot["slab"]["p2_5"] <= truth["true_coefficients"]["slab"] <= boot["slab"]["p97_5"]
+
+
+def test_every_figure_is_written_and_the_report_is_whole(demo_run):
+    out, info, lines = demo_run
+    pngs = sorted((out / "maps").glob("*.png"))
+    assert {p.stem for p in pngs} == {"plates", "velocities", "poles", "misfit", "budget",
+                                      "torques"}
+    for p in pngs:
+        assert p.stat().st_size > 10_000
+        assert p.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+    class Links(HTMLParser):
+        def __init__(self):
+            super().__init__()
+            self.refs, self.tags = [], []
+
+        def handle_starttag(self, tag, attrs):
+            self.tags.append(tag)
+            self.refs += [v for k, v in attrs if k in ("src", "href")]
+
+    parser = Links()
+    parser.feed((out / "report.html").read_text())
+    assert parser.tags.count("img") == 6 and "table" in parser.tags
+    for ref in parser.refs:
+        assert ref.startswith("data:image/png;base64,") or (out / ref).is_file(), ref
+    md = (out / "report.md").read_text()
+    for _, ref in [l.split("](") for l in md.splitlines() if l.startswith("![")]:
+        assert (out / ref.rstrip(")")).is_file()
+    assert "Caution" in md and "not inputs" in md
+    for name in ("check.json", "cooling.csv", "torques.csv", "rank.csv", "predicted.csv",
+                 "field.nc", "boundary_motion.csv"):
+        assert (out / name).stat().st_size > 0
+    assert any("report.html" in l for l in lines)
+    assert info["seconds"] < 60
+
+
+def test_demo_refuses_a_folder_with_other_files(tmp_path, cli):
+    (tmp_path / "notes.txt").write_text("mine")
+    status, out, err = cli("demo", tmp_path)
+    assert status == 2 and "--force" in err and "Traceback" not in err
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["notes.txt"]
+
+
+def test_demo_world_is_what_the_generator_makes(tmp_path):
+    # The bundled data must be exactly what scripts/make_demo_world.py writes.
+    import xarray as xr
+
+    from torque.demo import write
+    write(tmp_path)
+    for name in ("plates.geojson", "continents.geojson", "boundaries.geojson", "motions.csv",
+                 "true_motions.csv", "truth.json", "world.toml"):
+        assert (tmp_path / name).read_text() == (DEMO / name).read_text(), name
+    for h in (DEMO / "hypotheses").glob("*.toml"):
+        assert (tmp_path / "hypotheses" / h.name).read_text() == h.read_text()
+    with xr.open_dataset(tmp_path / "ages.nc") as a, xr.open_dataset(DEMO / "ages.nc") as b:
+        np.testing.assert_array_equal(a["age"].values, b["age"].values)
+
+
+@pytest.mark.parametrize("argv,words", [
+    (["--kind", "poles"], "needs --fit"),
+    (["--kind", "plates", "--predicted", "x.csv"], "--predicted make(s) no sense"),
+    (["--kind", "misfit", "--motions", str(DEMO / "motions.csv")], "needs --predicted"),
+    (["--kind", "plates", "-o", "map.jpg"], "cannot write .jpg"),
+    (["--kind", "sideways"], "invalid choice"),
+])
+def test_map_options_that_make_no_sense(tmp_path, cli, argv, words):
+    if "-o" not in argv:
+        argv = argv + ["-o", str(tmp_path / "m.png")]
+    status, out, err = cli("map", DEMO / "world.toml", *argv)
+    assert status == 2 and words in err and "Traceback" not in err
+    assert not list(tmp_path.iterdir())
+
+
+def test_map_command_writes_a_figure(tmp_path, cli):
+    status, out, err = cli("map", DEMO / "world.toml", "--kind", "velocities", "--motions",
+                           DEMO / "motions.csv", "-o", tmp_path / "v.svg")
+    assert status == 0, err
+    assert (tmp_path / "v.svg").read_text().lstrip().startswith("<?xml")

@@ -1,0 +1,290 @@
+"""Maps and charts of plates, boundaries, motions, poles, misfits and torques.
+
+Drawn with cartopy (Equal Earth projection) and matplotlib, from the world's own geometry:
+no coastlines or other data are loaded, so nothing is downloaded. Plates are filled from a
+0.5 degree raster of plate indices (exact point location), which is right at the poles and
+across the antimeridian; lines are drawn as geodesics.
+
+The palette is this project's own: eight muted colours that stay apart for the common
+forms of colour-vision deficiency (they differ in lightness as well as hue), assigned so
+that neighbouring plates differ. Boundary kinds have their own colours and line styles, and
+subduction zones carry teeth on the overriding plate's side, as geologists draw them.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from . import sphere
+from .errors import atomic_path
+
+PLATE_COLOURS = ["#9DB8D9", "#E8C77D", "#A9CFA3", "#D9A7BE", "#C9C1E3", "#E6B08F",
+                 "#A6D4D1", "#CFCF9C"]
+KIND_STYLE = {
+    "ridge": {"color": "#B3261E", "lw": 1.8, "ls": "-"},
+    "subduction": {"color": "#1B2F6B", "lw": 1.6, "ls": "-"},
+    "transform": {"color": "#2F6B3A", "lw": 1.4, "ls": (0, (5, 2))},
+    "collision": {"color": "#6A2C70", "lw": 2.4, "ls": "-"},
+    "unclassified": {"color": "#555555", "lw": 1.0, "ls": ":"},
+}
+OBSERVED_COLOUR = "#1A1A1A"
+PREDICTED_COLOUR = "#C4501B"
+
+
+def _plt():
+    import matplotlib
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    return plt
+
+
+def _axes(title=None):
+    import cartopy.crs as ccrs
+    plt = _plt()
+    fig = plt.figure(figsize=(11, 6))
+    ax = fig.add_subplot(1, 1, 1, projection=ccrs.EqualEarth())
+    ax.set_global()
+    if title:
+        ax.set_title(title, fontsize=12)
+    return fig, ax
+
+
+def plate_colours(world) -> list:
+    """A colour per plate such that plates sharing a boundary differ (greedy colouring)."""
+    n = len(world.plates)
+    nbr = [set() for _ in range(n)]
+    for b in world.boundaries:
+        i, j = world.plate_index[b.left], world.plate_index[b.right]
+        nbr[i].add(j)
+        nbr[j].add(i)
+    colour = [-1] * n
+    for p in sorted(range(n), key=lambda p: -len(nbr[p])):
+        used = {colour[q] for q in nbr[p]}
+        colour[p] = next(c for c in range(len(PLATE_COLOURS) + n) if c not in used)
+    return [PLATE_COLOURS[c % len(PLATE_COLOURS)] for c in colour]
+
+
+def _raster(world, step=0.5):
+    lon = np.arange(-180 + step / 2, 180, step)
+    lat = np.arange(-90 + step / 2, 90, step)
+    return lon, lat, world.geometry.locator.locate_grid(lon, lat)
+
+
+def draw_plates(ax, world, continents=None, labels=True):
+    """Fill plates, outline continents, draw boundaries by kind, label plates."""
+    import cartopy.crs as ccrs
+    from matplotlib.colors import ListedColormap
+    lon, lat, idx = _raster(world)
+    cols = plate_colours(world)
+    edges_lon = np.r_[lon - 0.25, lon[-1] + 0.25]
+    edges_lat = np.r_[lat - 0.25, lat[-1] + 0.25]
+    ax.pcolormesh(edges_lon, edges_lat, idx, cmap=ListedColormap(cols), vmin=-0.5,
+                  vmax=len(cols) - 0.5, transform=ccrs.PlateCarree(), rasterized=True)
+    if continents is not None:
+        rs = continents.ring_start
+        for r in range(len(rs) - 1):
+            ring = continents.xyz[rs[r]:rs[r + 1]]
+            lo, la = sphere.xyz_to_lonlat(np.r_[ring, ring[:1]])
+            ax.fill(lo, la, transform=ccrs.Geodetic(), facecolor="none", edgecolor="#6B5B45",
+                    hatch="...", lw=0.8)
+    draw_boundaries(ax, world)
+    if labels:
+        _, first, _ = world.geometry.moments
+        clon, clat = sphere.xyz_to_lonlat(first)
+        for p, x, y in zip(world.plates, clon, clat):
+            ax.text(x, y, p.name, transform=ccrs.PlateCarree(), ha="center", va="center",
+                    fontsize=8, color="#222222",
+                    bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.6))
+
+
+def _line_lonlat(xyz, step_rad=np.radians(1.0)):
+    pa, pb, _ = sphere.densify_arcs(xyz[:-1], xyz[1:], step_rad)
+    pts = np.r_[pa, pb[-1:]]
+    return sphere.xyz_to_lonlat(pts)
+
+
+def draw_boundaries(ax, world, teeth_spacing_km=700.0):
+    import cartopy.crs as ccrs
+    seen = set()
+    for b in world.boundaries:
+        st = KIND_STYLE.get(b.kind, KIND_STYLE["unclassified"])
+        lo, la = _line_lonlat(b.xyz)
+        ax.plot(lo, la, transform=ccrs.Geodetic(), color=st["color"], lw=st["lw"],
+                ls=st["ls"], label=None if b.kind in seen else b.kind, zorder=3)
+        seen.add(b.kind)
+        if b.kind == "subduction" and b.subducting:
+            _teeth(ax, world, b, teeth_spacing_km, st["color"])
+
+
+def _teeth(ax, world, b, spacing_km, colour):
+    """Triangles along a subduction line, pointing into the overriding plate."""
+    import cartopy.crs as ccrs
+    R = world.radius_m
+    pa, pb, _ = sphere.densify_arcs(b.xyz[:-1], b.xyz[1:], spacing_km * 1e3 / R)
+    n, _ = sphere.arc_pole(pa, pb)
+    mid = sphere.normalize(pa + pb)
+    t = np.cross(n, mid)
+    side = 1.0 if b.subducting == b.right else -1.0      # overriding plate's side of n
+    h, w = 260e3 / R, 150e3 / R
+    for m, nn, tt in zip(mid, n, t):
+        apex = sphere.normalize(m + side * h * nn)
+        left = sphere.normalize(m - w * tt)
+        right = sphere.normalize(m + w * tt)
+        lo, la = sphere.xyz_to_lonlat(np.stack([left, apex, right]))
+        if np.ptp(lo) > 180:            # straddles the antimeridian: skip this tooth
+            continue
+        ax.fill(lo, la, transform=ccrs.PlateCarree(), color=colour, lw=0, zorder=4)
+
+
+def _legend(ax, extra=()):
+    handles, labels = ax.get_legend_handles_labels()
+    if handles:
+        ax.legend(loc="lower left", fontsize=8, framealpha=0.85)
+
+
+def _save(fig, path):
+    plt = _plt()
+    with atomic_path(path) as tmp:
+        fig.savefig(tmp, dpi=110, bbox_inches="tight", format=str(path).rsplit(".", 1)[-1])
+    plt.close(fig)
+    return path
+
+
+# ----------------------------------------------------------------------------------------
+def plates_map(world, path, continents=None):
+    """Plates, continents and boundaries by kind."""
+    fig, ax = _axes(f"{world.name}: plates and boundaries")
+    draw_plates(ax, world, continents)
+    _legend(ax)
+    return _save(fig, path)
+
+
+def _sample_points(n=400):
+    k = np.arange(n) + 0.5
+    z = 1 - 2 * k / n
+    phi = np.pi * (1 + 5 ** 0.5) * k
+    xyz = np.c_[np.sqrt(1 - z * z) * np.cos(phi), np.sqrt(1 - z * z) * np.sin(phi), z]
+    return xyz
+
+
+def velocity_map(world, path, omega_obs, omega_pred=None, continents=None):
+    """Velocity arrows of observed (black) and predicted (orange) motions."""
+    import cartopy.crs as ccrs
+
+    from .euler import velocity_en
+    fig, ax = _axes(f"{world.name}: plate velocities (mm/yr)")
+    draw_plates(ax, world, continents, labels=False)
+    xyz = _sample_points()
+    lon, lat = sphere.xyz_to_lonlat(xyz)
+    plate = world.locate_xyz(xyz)
+    ve, vn = velocity_en(omega_obs[plate], xyz, world.radius_m)
+    scale = 25 * max(np.percentile(np.hypot(ve, vn), 95), 1e-9)
+    # predicted underneath and wider, observed on top and thin, so both stay visible
+    for om, col, lab, width in ((omega_pred, PREDICTED_COLOUR, "predicted", 0.0045),
+                                (omega_obs, OBSERVED_COLOUR, "observed", 0.0015)):
+        if om is None:
+            continue
+        ve, vn = velocity_en(om[plate], xyz, world.radius_m)
+        q = ax.quiver(lon, lat, ve, vn, transform=ccrs.PlateCarree(), color=col, scale=scale,
+                      width=width, zorder=5, label=lab)
+    ax.quiverkey(q, 0.9, -0.05, 50, "50 mm/yr", labelpos="E")
+    _legend(ax)
+    return _save(fig, path)
+
+
+def _ellipse_lonlat(lat, lon, major_deg, minor_deg, azimuth_deg, n=72):
+    from pyproj import Geod
+    g = Geod(a=1.0, b=1.0)
+    t = np.linspace(0, 2 * np.pi, n)
+    a, b = np.radians(major_deg), np.radians(minor_deg)
+    r = a * b / np.sqrt((b * np.cos(t)) ** 2 + (a * np.sin(t)) ** 2 + 1e-300)
+    az = azimuth_deg + np.degrees(t)
+    lo, la, _ = g.fwd(np.full(n, lon), np.full(n, lat), az, r)
+    return lo, la
+
+
+def poles_map(world, path, fit: dict):
+    """Observed and predicted Euler poles with the predicted poles' 95 % ellipses."""
+    import cartopy.crs as ccrs
+    fig, ax = _axes(f"{world.name}: Euler poles, observed (black) and predicted (orange)")
+    draw_plates(ax, world, labels=False)
+    for p in fit["plates"]:
+        o, q = p["observed"], p["predicted"]
+        ax.plot(o["lon"], o["lat"], "o", ms=6, mfc="white", mec=OBSERVED_COLOUR,
+                transform=ccrs.PlateCarree(), zorder=6)
+        ax.plot(q["lon"], q["lat"], "^", ms=6, color=PREDICTED_COLOUR,
+                transform=ccrs.PlateCarree(), zorder=6)
+        ax.text(q["lon"], q["lat"], " " + p["plate"], fontsize=7,
+                transform=ccrs.PlateCarree(), zorder=6)
+        e = p.get("pole_ellipse") or {}
+        if e.get("major_deg"):
+            lo, la = _ellipse_lonlat(q["lat"], q["lon"], e["major_deg"], e["minor_deg"],
+                                     e["azimuth_deg"])
+            ax.plot(lo, la, transform=ccrs.Geodetic(), color=PREDICTED_COLOUR, lw=1,
+                    zorder=6)
+    return _save(fig, path)
+
+
+def misfit_map(world, path, omega_obs, omega_pred):
+    """Magnitude of the predicted minus observed velocity (mm/yr)."""
+    import cartopy.crs as ccrs
+
+    from .euler import velocity_en
+    fig, ax = _axes(f"{world.name}: velocity misfit |v_pred - v_obs| (mm/yr)")
+    lon, lat, idx = _raster(world, 1.0)
+    LON, LAT = np.meshgrid(lon, lat)
+    xyz = sphere.lonlat_to_xyz(LON, LAT).reshape(-1, 3)
+    dw = (omega_pred - omega_obs)[idx.ravel()]
+    ve, vn = velocity_en(dw, xyz, world.radius_m)
+    mag = np.hypot(ve, vn).reshape(idx.shape)
+    m = ax.pcolormesh(np.r_[lon - 0.5, 180], np.r_[lat - 0.5, 90], mag, cmap="viridis",
+                      transform=ccrs.PlateCarree(), rasterized=True)
+    draw_boundaries(ax, world)
+    fig.colorbar(m, ax=ax, shrink=0.6, label="mm/yr")
+    return _save(fig, path)
+
+
+def budget_chart(path, fit: dict):
+    """Per plate, each term's share of the driving torque (stacked bars)."""
+    plt = _plt()
+    plates = [p["plate"] for p in fit["plates"]]
+    labels = list(fit["coefficients"])
+    fig, ax = plt.subplots(figsize=(9, 0.35 * len(plates) + 1.5))
+    left_pos = np.zeros(len(plates))
+    left_neg = np.zeros(len(plates))
+    cols = PLATE_COLOURS + list(KIND_STYLE[k]["color"] for k in KIND_STYLE)
+    for k, l in enumerate(labels):
+        v = np.array([p["budget"].get(l) or 0.0 for p in fit["plates"]])
+        start = np.where(v >= 0, left_pos, left_neg)
+        ax.barh(plates, v, left=start, color=cols[k % len(cols)], label=l, edgecolor="white")
+        left_pos += np.where(v >= 0, v, 0)
+        left_neg += np.where(v < 0, v, 0)
+    ax.axvline(0, color="k", lw=0.8)
+    ax.set_xlabel("share of the plate's driving torque (driving > 0, resisting < 0)")
+    ax.set_title(f"force budget: {fit['hypothesis']}")
+    ax.legend(fontsize=8, loc="lower right")
+    ax.invert_yaxis()
+    return _save(fig, path)
+
+
+def torque_chart(path, world, terms, coefficients, omega):
+    """Per plate, the magnitude of each term's torque at the given coefficients (log)."""
+    plt = _plt()
+    P = len(world.plates)
+    fig, ax = plt.subplots(figsize=(max(8, 0.6 * P), 4.5))
+    width = 0.8 / len(terms)
+    cols = PLATE_COLOURS + list(KIND_STYLE[k]["color"] for k in KIND_STYLE)
+    mags = [np.linalg.norm(c * t.torque(omega), axis=1) for t, c in zip(terms, coefficients)]
+    top = max(float(np.max(m)) for m in mags) or 1.0
+    for k, (t, mag) in enumerate(zip(terms, mags)):
+        # a term with no torque on a plate gets no bar (not a bar at an arbitrary floor)
+        ax.bar(np.arange(P) + k * width, np.where(mag > 0, mag, np.nan), width,
+               label=t.label, color=cols[k % len(cols)])
+    ax.set_yscale("log")
+    ax.set_ylim(top * 1e-4, top * 3)
+    ax.set_xticks(np.arange(P) + 0.4 - width / 2)
+    ax.set_xticklabels(world.plate_names, rotation=45, ha="right", fontsize=8)
+    ax.set_ylabel("|torque| (N m)")
+    ax.set_title("torque of each term on each plate (at the fitted coefficients)")
+    ax.legend(fontsize=8, loc="upper left", bbox_to_anchor=(1.01, 1.0))
+    return _save(fig, path)
