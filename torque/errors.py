@@ -49,6 +49,17 @@ def _umask_mode() -> int:
     return 0o666 & ~mask
 
 
+def read_text(path, encoding: str = "utf-8") -> str:
+    """The text of a file, or InputError naming it when it is missing or unreadable."""
+    path = Path(path)
+    try:
+        return path.read_text(encoding=encoding)
+    except FileNotFoundError:
+        raise InputError("file not found", file=path) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read the file: {exc}", file=path) from None
+
+
 @contextmanager
 def atomic_write(path, mode: str = "w", **kwargs):
     """Open a temporary file beside ``path`` and move it into place only on success.

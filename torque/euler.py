@@ -24,7 +24,7 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from . import sphere
-from .errors import InputError, atomic_write
+from .errors import InputError, atomic_write, read_text
 
 MYR_S = 3.15576e13                               # s in a (Julian) million years
 YR_S = MYR_S / 1e6
@@ -242,12 +242,7 @@ def read_motions(path) -> Motions:
     vector in (deg/Myr)^2.
     """
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except FileNotFoundError:
-        raise InputError("file not found", file=path) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read the file: {exc}", file=path) from None
+    text = read_text(path, encoding="utf-8-sig")
     rows = list(csv.reader(io.StringIO(text)))
     rows = [r for r in rows if r and any(c.strip() for c in r) and not r[0].startswith("#")]
     if not rows:

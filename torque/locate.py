@@ -99,12 +99,7 @@ class PlateLocator:
         self._pole, _ = sphere.arc_pole(pa, pb)
         self._plate = plate[owner]
 
-        lon_a, lat_a = sphere.xyz_to_lonlat(pa)
-        lon_b, _ = sphere.xyz_to_lonlat(pb)
-        dlon = np.mod(lon_b - lon_a + 180.0, 360.0) - 180.0
-        lo = lon_a + np.minimum(dlon, 0.0)
-        hi = lon_a + np.maximum(dlon, 0.0)
-        lat_lo, lat_hi = (np.degrees(t) for t in sphere.arc_lat_range(pa, pb))
+        lo, hi, dlon, lat_lo, lat_hi = sphere.arc_lonlat_box(pa, pb)
 
         self._build_cells(lo, hi, lat_lo, lat_hi)
         north_count = self._plates_holding_north(rxyz, ring_start, ring_plate, ring_is_hole)
@@ -286,15 +281,14 @@ class PlateLocator:
 
         # edge pieces back in the world frame, with exact lon/lat boxes
         a, b = self._pa @ self.frame, self._pb @ self.frame
-        lon_a, lat_a = sphere.xyz_to_lonlat(a)
-        lon_b, lat_b = sphere.xyz_to_lonlat(b)
-        lat_lo, lat_hi = (np.degrees(t) for t in sphere.arc_lat_range(a, b))
-        dl = np.mod(lon_b - lon_a + 180.0, 360.0) - 180.0
+        lo_a, _, dl, lat_lo, lat_hi = sphere.arc_lonlat_box(a, b)
+        _, lat_a = sphere.xyz_to_lonlat(a)
+        _, lat_b = sphere.xyz_to_lonlat(b)
         # near a pole longitude means little: such pieces touch every column
         polar = (np.abs(lat_a) > 90 - 1e-7) | (np.abs(lat_b) > 90 - 1e-7) | (
             np.maximum(np.abs(lat_lo), np.abs(lat_hi)) > 90 - 1e-7) | (np.abs(dl) > 179.0)
         pad = 1e-7
-        lo = np.where(polar, 0.0, np.mod(lon_a + np.minimum(dl, 0.0) - lon[0] - pad, 360.0))
+        lo = np.where(polar, 0.0, np.mod(lo_a - lon[0] - pad, 360.0))
         width = np.where(polar, 360.0, np.abs(dl) + 2 * pad)
         # block rows: blocks whose node-lat span [lat[jk], lat[jk+k-1]] meets the box
         j0 = np.ceil(((lat_lo - pad - lat[0]) / dlat - (k - 1)) / k).astype(np.int64)
@@ -348,12 +342,7 @@ def arc_boxes(a, b):
     Use in a frame that keeps arcs off the poles (``PlateLocator.frame``). Returns the boxes
     and the arc each belongs to.
     """
-    lon_a, _ = sphere.xyz_to_lonlat(a)
-    lon_b, _ = sphere.xyz_to_lonlat(b)
-    dlon = np.mod(lon_b - lon_a + 180.0, 360.0) - 180.0
-    lo = lon_a + np.minimum(dlon, 0.0)
-    hi = lon_a + np.maximum(dlon, 0.0)
-    la, lb = (np.degrees(t) for t in sphere.arc_lat_range(a, b))
+    lo, hi, _, la, lb = sphere.arc_lonlat_box(a, b)
     owner = np.arange(len(a))
     # pieces that run past +/-180 get a second box on the other side
     wrap_lo, wrap_hi = lo < -180.0, hi > 180.0

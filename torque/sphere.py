@@ -227,6 +227,21 @@ def arc_lat_range(a, b) -> tuple[np.ndarray, np.ndarray]:
     return lo, hi
 
 
+def arc_lonlat_box(a, b):
+    """Longitude span and latitude range (degrees) of arcs ``a -> b``.
+
+    Returns ``lo, hi, dlon, lat_lo, lat_hi``: the arc runs from longitude ``lo`` to ``hi``
+    (``hi - lo = |dlon| < 180``, possibly outside [-180, 180]) and ``dlon`` is the signed
+    change of longitude along it. Longitude is monotone along an arc that passes no pole,
+    so the box is exact there; near a pole the caller must widen it.
+    """
+    lon_a, _ = xyz_to_lonlat(a)
+    lon_b, _ = xyz_to_lonlat(b)
+    dlon = np.mod(lon_b - lon_a + 180.0, 360.0) - 180.0
+    lat_lo, lat_hi = (np.degrees(t) for t in arc_lat_range(a, b))
+    return lon_a + np.minimum(dlon, 0.0), lon_a + np.maximum(dlon, 0.0), dlon, lat_lo, lat_hi
+
+
 def arcs_cross(a1, b1, a2, b2) -> np.ndarray:
     """Whether the arcs ``a1 -> b1`` and ``a2 -> b2`` cross at an interior point.
 

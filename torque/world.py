@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 
 from . import sphere
-from .errors import InputError
+from .errors import InputError, read_text
 
 EARTH_RADIUS_KM = 6371.0
 BOUNDARY_KINDS = ("ridge", "subduction", "transform", "collision", "unclassified")
@@ -232,12 +232,7 @@ class World:
 # reading files
 # ----------------------------------------------------------------------------------------
 def _read_json(path: Path):
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("file not found", file=path) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read the file: {exc}", file=path) from None
+    text = read_text(path)
     try:
         return json.loads(text)
     except json.JSONDecodeError as exc:
@@ -248,12 +243,7 @@ def _read_json(path: Path):
 def read_toml(path) -> dict:
     """Read a TOML file with errors that name the file and the line."""
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("file not found", file=path) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read the file: {exc}", file=path) from None
+    text = read_text(path)
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
