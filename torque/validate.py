@@ -185,8 +185,10 @@ def _crossing_problems(world: World) -> list:
 def boundary_offsets(world: World):
     """Distance (radians) of every boundary vertex from the edges of its left and right plates.
 
-    Candidate edge pieces (plate edges split at 0.5 degrees) come from a k-d tree of their
-    midpoints; distances to them are exact point-to-arc distances.
+    Candidate edge pieces (plate edges split at 0.1 degree) come from a k-d tree of their
+    midpoints; distances to them are exact point-to-arc distances. A tight search settles
+    the vertices that lie on their plates' edges; only the others are searched again, far
+    enough to measure offsets up to ``_OFFSET_SEARCH_KM``.
 
     Returns
     -------
@@ -200,7 +202,7 @@ def boundary_offsets(world: World):
     idx = world.plate_index
     tol = BOUNDARY_TOL_KM * 1e3 / world.radius_m
     a, b, plate = g.edges
-    pa, pb, piece = sphere.densify_arcs(a, b, np.radians(0.5))
+    pa, pb, piece = sphere.densify_arcs(a, b, np.radians(0.1))
     piece_plate = plate[piece]
     half = 0.5 * np.linalg.norm(pa - pb, axis=1).max()
     tree = cKDTree(sphere.normalize(pa + pb))
@@ -214,18 +216,25 @@ def boundary_offsets(world: World):
     left = np.array([idx[bd.left] for bd in world.boundaries])[owner]
     right = np.array([idx[bd.right] for bd in world.boundaries])[owner]
 
-    # Search far enough to measure (not just flag) offsets up to _OFFSET_SEARCH_KM.
-    reach = max(_OFFSET_SEARCH_KM * 1e3 / world.radius_m, tol)
-    cand = tree.query_ball_point(xyz, r=2 * np.sin(reach / 2) + half + 1e-12)
-    counts = np.fromiter((len(c) for c in cand), dtype=np.int64, count=len(cand))
-    v = np.repeat(np.arange(len(xyz)), counts)
-    e = np.fromiter((j for c in cand for j in c), dtype=np.int64, count=int(counts.sum()))
-    dist = np.full((2, len(xyz)), np.inf)
-    for side, want in enumerate((left, right)):
-        sel = piece_plate[e] == want[v]
-        d = sphere.point_arc_distance(xyz[v[sel]], pa[e[sel]], pb[e[sel]])
-        np.minimum.at(dist[side], v[sel], d)
-    return owner, xyz, dist.max(axis=0)
+    def measure(which, reach):
+        cand = tree.query_ball_point(xyz[which], r=2 * np.sin(reach / 2) + half + 1e-12)
+        counts = np.array([len(c) for c in cand], dtype=np.int64)
+        v = np.repeat(which, counts)
+        e = np.concatenate([np.asarray(c, dtype=np.int64) for c in cand]) if len(v) \
+            else np.zeros(0, np.int64)
+        dist = np.full((2, len(xyz)), np.inf)
+        for side, want in enumerate((left, right)):
+            sel = piece_plate[e] == want[v]
+            d = sphere.point_arc_distance(xyz[v[sel]], pa[e[sel]], pb[e[sel]])
+            np.minimum.at(dist[side], v[sel], d)
+        return dist.max(axis=0)
+
+    dist = measure(np.arange(len(xyz)), tol)
+    off = np.nonzero(dist > tol)[0]
+    if off.size:
+        far = measure(off, max(_OFFSET_SEARCH_KM * 1e3 / world.radius_m, tol))
+        dist[off] = far[off]
+    return owner, xyz, dist
 
 
 def _boundary_problems(world: World) -> list:
