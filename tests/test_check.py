@@ -274,3 +274,26 @@ def test_unclassified_world_without_boundaries_file_has_neighbours(voronoi_world
     plates = json.loads(out)["plates"]
     # degree of each Voronoi cell equals the number of its vertices (3-valent tiling)
     assert all(len(p["neighbours"]) == p["vertices"] for p in plates)
+
+
+def test_continents_are_checked(write_world, cli, tmp_path):
+    # Overlapping continents are an error; a continent edge running along a plate edge is a
+    # warning (its clipping depends on rounding there).
+    import json as _json
+    box = [[10, 10], [30, 10], [30, 30], [10, 30], [10, 10]]
+    shifted = [[20, 20], [40, 20], [40, 40], [20, 40], [20, 20]]
+    path = hemispheres(write_world, extra='continents = "c.geojson"\n')
+    fc = {"type": "FeatureCollection", "features": [plate_feature("a", [box]),
+                                                    plate_feature("b", [shifted])]}
+    (tmp_path / "c.geojson").write_text(_json.dumps(fc))
+    status, out, err = cli("check", path, "--json")
+    assert status == 2
+    assert any("continents overlap" in p["message"] for p in json.loads(out)["problems"])
+    on_edge = [[0, 0], [40, 0], [40, 20], [0, 20], [0, 0]]       # runs along the equator
+    fc = {"type": "FeatureCollection", "features": [plate_feature("a", [on_edge])]}
+    (tmp_path / "c.geojson").write_text(_json.dumps(fc))
+    status, out, err = cli("check", path, "--json")
+    probs = json.loads(out)["problems"]
+    assert status == 0
+    assert [p["severity"] for p in probs] == ["warning"]
+    assert "run along plate edges" in probs[0]["message"]

@@ -284,13 +284,13 @@ def cooling_rows(hypothesis, ages):
 
 
 def _cmd_cooling(args) -> int:
-    from .hypothesis import hypothesis_from_dict, load_hypothesis
+    from .hypothesis import Hypothesis, load_hypothesis
     from .io import output_suffix, write_csv
+    from .lithosphere import Physics
 
     if args.output:
         output_suffix(args.output, (".csv",))
-    hyp = (load_hypothesis(args.physics) if args.physics
-           else hypothesis_from_dict({"force": [{"kind": "drag"}]}, name="defaults"))
+    hyp = load_hypothesis(args.physics) if args.physics else Hypothesis("defaults", Physics(), ())
     ages = _parse_ages(args.ages) if args.ages else DEFAULT_COOLING_AGES
     rows, depth = cooling_rows(hyp, ages)
     p = hyp.physics

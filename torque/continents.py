@@ -82,10 +82,15 @@ def read_continents(path) -> Continents:
         raise InputError("; ".join(str(e).replace("plate 'continent", "continent '")
                                    for e in errs[:3]), file=path)
     c = Continents(geom.xyz, geom.ring_start, geom.ring_is_hole, geom.ring_polygon, str(path))
-    _, cov = c.locator.coverage_problems()
-    if len(cov):
-        raise InputError("continents overlap one another; merge the overlapping polygons",
-                         file=path)
+    # continents alone (not a tiling): a cell held by two of them is an overlap
+    n_poly = int(geom.ring_polygon.max()) + 1
+    alone = PlateLocator(geom.xyz, geom.ring_start, geom.ring_polygon, geom.ring_is_hole,
+                         n_poly)
+    where = alone.overlaps()
+    if len(where):
+        lon, lat = sphere.xyz_to_lonlat(where[0])
+        raise InputError(f"continents overlap one another (near lon {float(lon):.2f}, lat "
+                         f"{float(lat):.2f}); merge the overlapping polygons", file=path)
     return c
 
 

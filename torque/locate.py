@@ -321,6 +321,16 @@ class PlateLocator:
         out[jj, ii] = self.locate_lonlat(lon[ii], lat[jj])
         return out
 
+    def overlaps(self) -> np.ndarray:
+        """Cell centres (world frame, shape (K, 3)) held by more than one region.
+
+        Meaningful for any set of rings, tiling or not: the coverage of a cell is the
+        number of regions holding its centre.
+        """
+        bad = np.nonzero(self._cell_coverage > 1)[0]
+        row, col = np.divmod(bad, self.ncol)
+        return self._anchor_xyz(col, row) @ self.frame
+
     def coverage_problems(self):
         """Cell centres held by no plate or by more than one (gaps and overlaps).
 

@@ -187,7 +187,8 @@ def velocity_map(world, path, omega_obs, omega_pred=None, continents=None):
         ve, vn = velocity_en(om[plate], xyz, world.radius_m)
         q = ax.quiver(lon, lat, ve, vn, transform=ccrs.PlateCarree(), color=col, scale=scale,
                       width=width, zorder=5, label=lab)
-    ax.quiverkey(q, 0.9, -0.05, 50, "50 mm/yr", labelpos="E")
+    ax.quiverkey(q, 0.86, 0.06, 50, "50 mm/yr", labelpos="E", coordinates="axes",
+                 fontproperties={"size": 8})
     _legend(ax)
     return _save(fig, path)
 

@@ -285,6 +285,21 @@ def _boundary_problems(world: World) -> list:
     return probs
 
 
+def _continent_problems(world: World) -> list:
+    """The continents file: readable, no overlaps, and how exactly it clips to plates."""
+    if "continents" not in world.paths:
+        return []
+    from .continents import clip_moments, read_continents
+    from .errors import InputError
+    path = world.paths["continents"]
+    try:
+        cont = read_continents(path)
+    except InputError as exc:
+        return [Problem("error", f"continents: {exc.message}", exc.file or path)]
+    *_, warnings = clip_moments(world, cont)
+    return [Problem("warning", w, path) for w in warnings]
+
+
 def check_world(world: World) -> CheckReport:
     """Run every check on a world.
 
@@ -292,10 +307,12 @@ def check_world(world: World) -> CheckReport:
     without a sinking plate); the plates tile the sphere (total area to 1e-9 relative, and
     no gaps or overlaps at the centres of a 0.25 degree grid); no ring crosses itself;
     boundaries lie on the shared edge of their two plates (to 1 km) with left and right
-    the right way round.
+    the right way round; continents (if any) do not overlap, and none of their edges runs
+    along a plate edge (where clipping would depend on rounding).
     """
     probs = list(world.problems)
     probs += tiling_problems(world)
     probs += _crossing_problems(world)
     probs += _boundary_problems(world)
+    probs += _continent_problems(world)
     return CheckReport(world, _plate_summary(world), probs)

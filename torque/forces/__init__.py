@@ -129,6 +129,8 @@ class Context:
         from ..continents import read_continents
         return read_continents(self.world.paths["continents"])
 
+    clip_warnings: tuple = ()
+
     @cached_property
     def continent_moments(self):
         """Exact (area, first, second) of the continental part of each plate (zeros if none)."""
@@ -137,7 +139,7 @@ class Context:
             return np.zeros(P), np.zeros((P, 3)), np.zeros((P, 3, 3))
         from ..continents import clip_moments
         area, first, second, warnings = clip_moments(self.world, self.continents)
-        self.clip_warnings = warnings
+        self.clip_warnings = tuple(warnings)
         return area, first, second
 
     def drag_tensor(self, region: str) -> np.ndarray:

@@ -32,7 +32,15 @@ def resisting_blocks(ctx, region) -> np.ndarray:
     return out
 
 
+def region_notes(ctx, spec) -> list:
+    """What the user should know about the continent clipping behind a regional term."""
+    if spec.options["region"] == "all":
+        return []
+    return [f"{spec.label}: {w}" for w in ctx.clip_warnings]
+
+
 def build(ctx, spec) -> ForceTerm:
-    term = empty_term(ctx, spec, UNIT)
-    term.resisting[:] = resisting_blocks(ctx, spec.options["region"])
+    blocks = resisting_blocks(ctx, spec.options["region"])
+    term = empty_term(ctx, spec, UNIT, region_notes(ctx, spec))
+    term.resisting[:] = blocks
     return term

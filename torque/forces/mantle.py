@@ -12,7 +12,7 @@ import numpy as np
 
 from ..euler import M_S_TO_MM_YR
 from . import ForceTerm, empty_term
-from .drag import CHOICES, DEFAULTS, resisting_blocks  # noqa: F401
+from .drag import CHOICES, DEFAULTS, region_notes, resisting_blocks  # noqa: F401
 
 KIND = "mantle"
 UNIT = "Pa s/m"
@@ -46,8 +46,10 @@ def build(ctx, spec) -> ForceTerm:
     P = ctx.world.geometry.n_plates
     drv = np.stack([np.bincount(plate.ravel(), weights=c.ravel(), minlength=P)
                     for c in comps], axis=1) * ctx.R ** 3
+    blocks = resisting_blocks(ctx, region)
     term = empty_term(ctx, spec, UNIT, [f"{spec.label}: mantle flow from {grid.source}, "
-                                        f"{len(grid.lat)} x {len(grid.lon)} nodes"])
+                                        f"{len(grid.lat)} x {len(grid.lon)} nodes",
+                                        *region_notes(ctx, spec)])
     term.driving[:] = drv
-    term.resisting[:] = resisting_blocks(ctx, region)
+    term.resisting[:] = blocks
     return term
