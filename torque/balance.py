@@ -53,7 +53,7 @@ import numpy as np
 from scipy import linalg, optimize, stats
 
 from .errors import InputError
-from .euler import M_S_TO_MM_YR, vector_to_pole
+from .euler import M_S_TO_MM_YR, RAD_S_PER_DEG_MYR, vector_to_pole
 
 WEIGHTINGS = ("velocity", "area", "none")
 CONFIDENCE = 0.95
@@ -275,7 +275,8 @@ def predict(system: System, coefficients) -> np.ndarray:
 
 
 def _check_determined(system: System, M):
-    # scale by the drag tensors so that plate size does not hide a singular direction
+    # singular values scale with plate area; even a plate 1e-6 of the sphere stays far above
+    # this relative threshold, so only a truly free motion trips it
     s = np.linalg.svd(M, compute_uv=False)
     if s[-1] > 1e-11 * s[0]:
         return
@@ -420,7 +421,7 @@ def pole_ellipse(omega, cov, confidence: float = CONFIDENCE) -> dict:
     major = np.degrees(k * np.sqrt(max(vals[1], 0)))
     minor = np.degrees(k * np.sqrt(max(vals[0], 0)))
     az = np.degrees(np.arctan2(vecs[0, 1], vecs[1, 1])) % 180.0
-    rate_se = np.sqrt(max(u @ cov @ u, 0)) / (np.pi / 180 / 3.15576e13)
+    rate_se = np.sqrt(max(u @ cov @ u, 0)) / RAD_S_PER_DEG_MYR
     return {"major_deg": float(major), "minor_deg": float(minor), "azimuth_deg": float(az),
             "rate_stderr_deg_myr": float(rate_se), "confidence": confidence}
 
