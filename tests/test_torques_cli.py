@@ -168,3 +168,15 @@ def test_synthesised_ages_are_announced(world, tmp_path, cli):
     assert status == 0, err
     assert "ages synthesised from ridges" in out
     assert "Upper: half rate 21.2 mm/yr" in out and "Lower: half rate 21.2 mm/yr" in out
+
+
+@pytest.mark.parametrize("text,words", [
+    ('physics = 3\n[[force]]\nkind = "drag"\n', "'physics' must be a table"),
+    ('force = 3\n', "'force' must be an array of tables"),
+    ('spread = "wide"\n[[force]]\nkind = "drag"\n', "'spread' must be a table"),
+    ('[spread]\nexpansivity = 3\n[[force]]\nkind = "drag"\n', "{uniform = [LOW, HIGH]}"),
+])
+def test_hypothesis_tables_of_the_wrong_type(tmp_path, cli, text, words):
+    h = write_hyp(tmp_path, text)
+    status, out, err = cli("cooling", "--physics", h)
+    assert status == 2 and words in err and "Traceback" not in err

@@ -76,11 +76,11 @@ def read_continents(path) -> Continents:
         g = dict(f)
         g["properties"] = dict(f.get("properties") or {}, plate=f"continent {i}")
         named.append(g)
-    _, geom, problems = plates_from_features(named, path, "auto")
+    _, geom, problems = plates_from_features(named, path, "auto", noun="continent")
     errs = [p for p in problems if p.severity == "error"]
     if errs:
-        raise InputError("; ".join(str(e).replace("plate 'continent", "continent '")
-                                   for e in errs[:3]), file=path)
+        raise InputError("; ".join(f"feature {e.feature}: {e.message}" for e in errs[:3]),
+                         file=path)
     c = Continents(geom.xyz, geom.ring_start, geom.ring_is_hole, geom.ring_polygon, str(path))
     # continents alone (not a tiling): a cell held by two of them is an overlap
     n_poly = int(geom.ring_polygon.max()) + 1

@@ -134,9 +134,16 @@ def hypothesis_from_dict(cfg: dict, name: str = "hypothesis", file=None) -> Hypo
         raise InputError(f"unknown key(s) {', '.join(map(repr, unknown))}", file=file,
                          hint=f"valid keys: {', '.join(TOP_KEYS)} ([physics], [[force]], "
                          "[spread])")
+    for key, kind in (("physics", "a table: [physics]"), ("spread", "a table: [spread]"),
+                      ("force", "an array of tables: [[force]]")):
+        want = list if key == "force" else dict
+        if key in cfg and not isinstance(cfg[key], want):
+            raise InputError(f"{key!r} must be {kind}, got {cfg[key]!r}", file=file)
+    if "name" in cfg and not isinstance(cfg["name"], str):
+        raise InputError(f"name must be a string, got {cfg['name']!r}", file=file)
     physics = Physics.from_table(cfg.get("physics", {}), file)
     entries = cfg.get("force", [])
-    if not isinstance(entries, list) or not entries:
+    if not entries:
         raise InputError("the hypothesis has no [[force]] entries", file=file)
     forces = [parse_force(e, i, file) for i, e in enumerate(entries)]
     seen = {}

@@ -107,8 +107,8 @@ def parse_spread(table: dict, physics, file=None) -> dict:
             raise InputError(f"[spread] names {key!r}, which is not a [physics] number",
                              file=file, hint=f"valid: {', '.join(sorted(names))}")
         if not isinstance(spec, dict) or len(spec) != 1:
-            raise InputError(f"[spread] {key} must be {{normal = SD}} or {{uniform = [LOW, "
-                             "HIGH]}}", file=file)
+            raise InputError(f"[spread] {key} must be {{normal = SD}} or "
+                             "{uniform = [LOW, HIGH]}", file=file)
         (kind, val), = spec.items()
         if kind == "normal" and isinstance(val, (int, float)) and val > 0:
             out[key] = ("normal", float(val))

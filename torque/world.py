@@ -335,8 +335,11 @@ def read_plates(path, winding: str = "auto"):
                                 winding)
 
 
-def plates_from_features(feats, path, winding: str = "auto"):
-    """:func:`read_plates` for GeoJSON features already in memory (``path`` names them)."""
+def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"):
+    """:func:`read_plates` for GeoJSON features already in memory (``path`` names them).
+
+    ``noun`` names what the polygons are in messages ("plate", "continent").
+    """
     problems: list = []
 
     def add(sev, msg, i=None, name=None, lon=None, lat=None):
@@ -391,8 +394,8 @@ def plates_from_features(feats, path, winding: str = "auto"):
 
     if not rings:
         detail = "; ".join(str(p) for p in problems[:3])
-        raise InputError("no usable plate polygon in the file" + (f": {detail}" if detail
-                                                                   else ""), file=path)
+        raise InputError(f"no usable {noun} polygon in the file"
+                         + (f": {detail}" if detail else ""), file=path)
     rings = _orient(rings, np.array(ring_hole), winding)
     xyz = np.concatenate(rings)
     ring_start = np.r_[0, np.cumsum([len(r) for r in rings])].astype(np.int64)
