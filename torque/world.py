@@ -393,7 +393,9 @@ def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"
             n_poly += 1
 
     if not rings:
-        detail = "; ".join(f"feature {p.feature}: {p.message}" for p in problems[:3])
+        detail = "; ".join(
+            f"feature {p.feature}" + (f" (plate {p.plate!r})" if noun == "plate" else "")
+            + f": {p.message}" for p in problems[:3])
         raise InputError(f"no usable {noun} polygon in the file"
                          + (f": {detail}" if detail else ""), file=path)
     rings = _orient(rings, np.array(ring_hole), winding)
