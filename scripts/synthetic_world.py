@@ -7,9 +7,9 @@ Everything here is invented; it is for measuring speed and accuracy only.
 from __future__ import annotations
 
 import numpy as np
-from scipy.spatial import SphericalVoronoi
 
 from torque import sphere
+from torque.demo import voronoi_regions
 from torque.grids import AgeGrid, FlowGrid
 from torque.world import Boundary, PlateGeometry, Plate, World, derive_boundaries
 
@@ -20,14 +20,7 @@ def plates(n_plates=60, n_vertices=100_000, seed=1):
     """Geometry of a Voronoi tiling whose shared edges are split identically on both sides."""
     rng = np.random.default_rng(seed)
     gen = sphere.normalize(rng.normal(size=(n_plates, 3)))
-    sv = SphericalVoronoi(gen)
-    sv.sort_vertices_of_regions()
-    regions = []
-    for g, region in zip(gen, sv.regions):
-        v = sv.vertices[region]
-        if np.dot(np.cross(v[1] - v[0], v[2] - v[0]), g) < 0:
-            region = region[::-1]
-        regions.append(list(region))
+    sv, regions = voronoi_regions(gen)
     # total length of distinct edges decides the split step
     edges = {}
     for region in regions:

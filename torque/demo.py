@@ -79,15 +79,29 @@ def generators(n: int, seed: int = SEED) -> np.ndarray:
     return pts / np.linalg.norm(pts, axis=1, keepdims=True)
 
 
-def plate_rings(gen: np.ndarray):
-    """Counter-clockwise lon/lat rings (closed) of the Voronoi cells of ``gen``."""
+def voronoi_regions(gen: np.ndarray):
+    """Spherical Voronoi cells of ``gen`` with every region's vertex indices counter-clockwise
+    seen from outside (scipy sorts them, but not always in that sense).
+
+    Returns the ``SphericalVoronoi`` and the list of oriented regions.
+    """
     sv = SphericalVoronoi(gen)
     sv.sort_vertices_of_regions()
-    rings = []
+    regions = []
     for g, region in zip(gen, sv.regions):
         v = sv.vertices[region]
-        if np.dot(np.cross(v[1] - v[0], v[2] - v[0]), g) < 0:
-            v = v[::-1]
+        # counter-clockwise iff (v1 - v0) x (v2 - v0) points away from the centre
+        regions.append(list(region) if np.dot(np.cross(v[1] - v[0], v[2] - v[0]), g) >= 0
+                       else list(region)[::-1])
+    return sv, regions
+
+
+def plate_rings(gen: np.ndarray):
+    """Counter-clockwise lon/lat rings (closed) of the Voronoi cells of ``gen``."""
+    sv, regions = voronoi_regions(gen)
+    rings = []
+    for region in regions:
+        v = sv.vertices[region]
         lon = np.degrees(np.arctan2(v[:, 1], v[:, 0]))
         lat = np.degrees(np.arcsin(np.clip(v[:, 2], -1, 1)))
         ring = np.round(np.c_[lon, lat], 10).tolist()
