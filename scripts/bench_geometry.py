@@ -76,8 +76,8 @@ def main():
 
     print(f"machine: {platform.machine()}, {os.cpu_count()} cores, Python "
           f"{platform.python_version()}, numpy {np.__version__}")
-    print(f"| stage | size | median time | throughput | target |")
-    print(f"|---|---|---|---|---|")
+    print("| stage | size | median time | throughput | target |")
+    print("|---|---|---|---|---|")
     print(f"| exact moments | {len(xyz):,} vertices, {n} plates | {t_mom * 1e3:.1f} ms | "
           f"{len(xyz) / t_mom / 1e6:.2f} M vertices/s | >= 2 M vertices/s |")
     print(f"| locator set-up | {len(xyz):,} vertices | {t_build * 1e3:.0f} ms | | |")

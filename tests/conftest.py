@@ -81,6 +81,18 @@ def run_cli(argv, capsys):
     return status, out.out, out.err
 
 
+def assert_refused(result, out_path, *words):
+    """Exit status 2, no traceback, every word in the message, and (if an output path is
+    given) no output file. Returns stderr."""
+    status, out, err = result
+    assert status == 2 and "Traceback" not in err
+    for w in words:
+        assert w in err, err
+    if out_path is not None:
+        assert not out_path.exists()
+    return err
+
+
 @pytest.fixture
 def cli(capsys):
     return lambda *argv: run_cli(argv, capsys)

@@ -23,9 +23,9 @@ from torque.errors import InputError
 from torque.euler import RAD_S_PER_DEG_MYR
 from torque.forces import compute_torques
 from torque.hypothesis import hypothesis_from_dict
-from torque.world import Boundary, derive_boundaries, world_from_rings
+from torque.world import Boundary, world_from_rings
 
-from .conftest import voronoi_rings
+from .conftest import assert_refused as assert_bad, voronoi_rings
 
 R = 6371e3
 KIND_CYCLE = ("ridge", "subduction", "transform", "subduction", "ridge", "collision")
@@ -312,14 +312,6 @@ def test_predict_with_fitted_coefficients_and_rank(demo_files, cli):
     assert rows[1].split(",")[1] == "full"          # the hypothesis that made the data
     tests = json.loads((d / "rank.json").read_text())["f_tests"]
     assert tests and tests[0]["smaller"] == "small" and tests[0]["p_value"] < 0.01
-
-
-def assert_bad(result, path, *words):
-    status, out, err = result
-    assert status == 2 and "Traceback" not in err
-    for w in words:
-        assert w in err, err
-    assert not path.exists()
 
 
 def test_fit_refuses_missing_motion(demo_files, cli):

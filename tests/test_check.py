@@ -12,7 +12,7 @@ import pytest
 from torque import sphere
 from torque.world import load_world
 
-from .conftest import line_feature, plate_feature, voronoi_rings
+from .conftest import assert_refused, line_feature, plate_feature, voronoi_rings
 
 NORTH = [[0, 0], [120, 0], [240, 0], [0, 0]]
 SOUTH = [[0, 0], [240, 0], [120, 0], [0, 0]]
@@ -96,12 +96,7 @@ def test_swapped_left_and_right_is_an_error(write_world, cli):
 
 # ---- bad input: files and keys ----------------------------------------------------------
 def assert_bad(result, *words):
-    status, out, err = result
-    assert status == 2
-    assert "Traceback" not in err
-    for w in words:
-        assert w in err, err
-    return err
+    return assert_refused(result, None, *words)
 
 
 def test_missing_world_file(cli, tmp_path):

@@ -6,7 +6,7 @@ import json
 import numpy as np
 import pytest
 
-from .conftest import line_feature, plate_feature
+from .conftest import assert_refused as assert_bad, line_feature, plate_feature
 
 NORTH = [[0, 0], [120, 0], [240, 0], [0, 0]]
 SOUTH = [[0, 0], [240, 0], [120, 0], [0, 0]]
@@ -45,14 +45,6 @@ def test_torques_csv_contract(world, tmp_path, cli):
     assert float(rows[0]["coefficient"]) == 1.0 and float(rows[2]["coefficient"]) == 2e19
     # slab pull only on the sinking plate
     assert float(rows[0]["tx_nm"]) == 0.0 and float(rows[1]["tx_nm"]) > 0
-
-
-def assert_bad(result, out_path, *words):
-    status, out, err = result
-    assert status == 2 and "Traceback" not in err
-    for w in words:
-        assert w in err, err
-    assert not out_path.exists()
 
 
 def test_velocity_dependent_terms_need_motions(world, tmp_path, cli):

@@ -76,7 +76,7 @@ def write_markdown(path, run: dict) -> None:
         lines += [f"## {title}", "", "| " + " | ".join(header) + " |",
                   "|" + "---|" * len(header)]
         lines += ["| " + " | ".join(r) + " |" for r in rows]
-        lines += ([f"", note] if note else []) + [""]
+        lines += (["", note] if note else []) + [""]
     if run.get("figures"):
         lines += ["## Figures", ""]
         for title, fig in run["figures"]:

@@ -12,7 +12,6 @@ from __future__ import annotations
 import numpy as np
 from scipy.spatial import cKDTree
 
-from .. import sphere
 from ..errors import InputError
 from ..euler import MYR_S
 from ..grids import MAX_AGE_MYR, AgeGrid
