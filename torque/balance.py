@@ -36,8 +36,11 @@ no-net-rotation frame: ``torque frame --to nnr``), since drag is taken relative 
 
 References
 ----------
-.. [1] Forsyth, D. and Uyeda, S. (1975). On the relative importance of the driving forces
-   of plate motion. *Geophys. J. R. Astr. Soc.* 43, 163-200 (the torque balance).
+.. [1] Solomon, S. C., Sleep, N. H. and Richardson, R. M. (1975). On the forces driving
+   plate tectonics: inferences from absolute plate velocities and intraplate stress.
+   *Geophys. J. R. Astr. Soc.* 42, 769-801; Chapple, W. M. and Tullis, T. E. (1977).
+   Evaluation of the forces that drive the plates. *J. Geophys. Res.* 82, 1967-1984
+   (the torque balance; page numbers from memory).
 .. [2] Burnham, K. P. and Anderson, D. R. (2002). *Model Selection and Multimodel
    Inference*, 2nd ed. Springer, sec. 2.2 (AIC for least squares: n ln(RSS/n) + 2k).
 .. [3] Schwarz, G. (1978). Estimating the dimension of a model. *Ann. Stat.* 6, 461-464.

@@ -29,8 +29,8 @@ References
 ----------
 .. [1] Turcotte, D. L. and Schubert, G. (2002). *Geodynamics*, 2nd ed. Cambridge Univ.
    Press: half-space cooling (sec. 4-16, 4-23), ridge push and slab pull (sec. 6-20).
-.. [2] Parsons, B. and Sclater, J. G. (1977). An analysis of the variation of ocean floor
-   bathymetry and heat flow with age. *J. Geophys. Res.* 82, 803-827.
+.. [2] McKenzie, D. P. (1967). Some remarks on heat flow and gravity anomalies.
+   *J. Geophys. Res.* 72, 6261-6273 (the plate cooling model; pages from memory).
 .. [3] Stein, C. A. and Stein, S. (1992). A model for the global variation in oceanic
    depth and heat flow with lithospheric age. *Nature* 359, 123-129 (GDH1 parameters).
 """
