@@ -154,26 +154,52 @@ def baseline(world, polys, step, omega):
 
 
 # ----------------------------------------------------------------------------------------
-def main():
+SIZES = {
+    # name: plates, vertices, age step, field points, MC members, baseline steps,
+    #       scaling vertex counts, scaling age steps, repeats
+    "full": dict(plates=60, vertices=100_000, age_step=0.1, points=1_000_000, mc=10_000,
+                 steps=(1.0, 0.5, 0.25), scale_vertices=(10_000, 30_000, 100_000, 300_000),
+                 scale_steps=(1.0, 0.5, 0.25, 0.1), repeat=5),
+    "quick": dict(plates=60, vertices=30_000, age_step=0.5, points=200_000, mc=2_000,
+                  steps=(1.0,), scale_vertices=(10_000, 30_000), scale_steps=(1.0, 0.5),
+                  repeat=2),
+    # the test suite runs this one, untimed, so that a change that breaks the harness
+    # fails CI
+    "tiny": dict(plates=12, vertices=2_000, age_step=4.0, points=2_000, mc=20,
+                 steps=(6.0,), scale_vertices=(1_000, 2_000), scale_steps=(6.0,),
+                 repeat=1),
+}
+
+
+def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__,
                                  formatter_class=argparse.RawDescriptionHelpFormatter)
     ap.add_argument("--quick", action="store_true", help="short run")
+    ap.add_argument("--size", choices=sorted(SIZES), help="run size (overrides --quick)")
     ap.add_argument("--out", default=str(ROOT / "bench_results"), help="output folder")
-    args = ap.parse_args()
-    quick = args.quick
-    out = Path(args.out)
+    args = ap.parse_args(argv)
+    size = args.size or ("quick" if args.quick else "full")
+    table = run(size, Path(args.out))
+    print(table)
+
+
+def run(size, out):
+    """Run the harness at one of the ``SIZES`` and write its results into ``out``."""
+    cfg = SIZES[size]
+    quick = size != "full"
     out.mkdir(parents=True, exist_ok=True)
-    rep = 2 if quick else 5
-    n_vert = 30_000 if quick else 100_000
-    age_step = 0.5 if quick else 0.1
-    n_points = 200_000 if quick else 1_000_000
-    n_mc = 2_000 if quick else 10_000
-    steps = (1.0,) if quick else (1.0, 0.5, 0.25)
+    rep = cfg["repeat"]
+    n_plates = cfg["plates"]
+    n_vert = cfg["vertices"]
+    age_step = cfg["age_step"]
+    n_points = cfg["points"]
+    n_mc = cfg["mc"]
+    steps = cfg["steps"]
 
     t_build = time.perf_counter()
-    world = sw.world(60, n_vert)
+    world = sw.world(n_plates, n_vert)
     ages, flow, cont = sw.ages(age_step), sw.flow(1.0), sw.continents()
-    omega_true = sw.motions(60)
+    omega_true = sw.motions(n_plates)
     t_build = time.perf_counter() - t_build
     rows, results = [], {}
 
@@ -186,7 +212,9 @@ def main():
         t, w = median_time(lambda: load_world(path), rep)
         row("load world files", f"{len(world.geometry.xyz):,} vertices", t)
         t, rep_check = median_time(lambda: check_world(load_world(path)), max(1, rep // 2))
-        assert rep_check.ok, [str(p) for p in rep_check.problems[:3]]
+        if not rep_check.ok:
+            raise RuntimeError("the synthetic world fails torque check: "
+                               + "; ".join(str(p) for p in rep_check.problems[:3]))
         row("load and check (all checks)", f"{len(world.geometry.xyz):,} vertices", t)
 
     g = world.geometry
@@ -256,15 +284,15 @@ def main():
 
     # scaling
     scale = {"vertices": [], "moments_s": [], "grid_nodes": [], "torques_s": []}
-    for nv in ((10_000, 30_000) if quick else (10_000, 30_000, 100_000, 300_000)):
-        wv = sw.world(60, nv)
+    for nv in cfg["scale_vertices"]:
+        wv = sw.world(n_plates, nv)
         gv = wv.geometry
         tv, _ = median_time(lambda: region_moments(gv.xyz, gv.ring_start, gv.ring_plate,
-                                                   gv.ring_is_hole, 60), 3)
+                                                   gv.ring_is_hole, n_plates), 3)
         scale["vertices"].append(len(gv.xyz))
         scale["moments_s"].append(tv)
     dist = hypothesis_from_dict({"force": [{"kind": "ridge"}]})
-    for st in ((1.0, 0.5) if quick else (1.0, 0.5, 0.25, 0.1)):
+    for st in cfg["scale_steps"]:
         a = sw.ages(st)
         tv, _ = median_time(lambda: compute_torques(fresh(world), dist, omega_true, ages=a), 2)
         scale["grid_nodes"].append(int(a.age_myr.size))
@@ -273,17 +301,17 @@ def main():
 
     machine = (f"{platform.machine()}, {os.cpu_count()} cores (one used), Python "
                f"{platform.python_version()}, numpy {np.__version__}")
-    table = markdown(rows, base, t_exact, machine, peak_mb, quick)
-    print(table)
+    table = markdown(rows, base, t_exact, machine, peak_mb, size)
     (out / "bench.json").write_text(json.dumps({
         "machine": machine, "quick": quick, "world_build_s": t_build,
         "stages": results, "baseline": base, "exact_moments_s": t_exact,
         "peak_memory_mb": peak_mb, "scaling": scale, "table": table}, indent=2) + "\n")
     (out / "bench.md").write_text(table + "\n")
+    return table
 
 
-def markdown(rows, base, t_exact, machine, peak_mb, quick):
-    lines = [f"Machine: {machine}. {'Quick run.' if quick else 'Full run.'}", "",
+def markdown(rows, base, t_exact, machine, peak_mb, size):
+    lines = [f"Machine: {machine}. {size.capitalize()} run.", "",
              "| stage | size | median time | target | where we stand |", "|---|---|---|---|---|"]
     for stage, size, t, target, met in rows:
         stand = ("" if met is None else ("met" if met is True else
