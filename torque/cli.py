@@ -595,7 +595,7 @@ def _cmd_map(args) -> int:
     cont = None
     if "continents" in world.paths:
         from .continents import read_continents
-        cont = read_continents(world.paths["continents"])
+        cont = read_continents(world.paths["continents"], world.winding)
     obs = read_motions(args.motions).for_world(world) if args.motions else None
     pred = read_motions(args.predicted).for_world(world) if args.predicted else None
     fit = None

@@ -63,10 +63,11 @@ class Continents:
         return self.locator.locate(xyz) == 0
 
 
-def read_continents(path) -> Continents:
+def read_continents(path, winding: str = "auto") -> Continents:
     """Read continental regions (GeoJSON Polygon/MultiPolygon features, any properties).
 
-    Continents must not overlap one another.
+    Continents must not overlap one another. ``winding`` is the world's key: ``"auto"``
+    takes the smaller region of each ring, ``"strict"`` the rings as written (RFC 7946).
     """
     path = Path(path)
     feats = _features(_read_json(path), path, "continent polygons")
@@ -76,7 +77,7 @@ def read_continents(path) -> Continents:
         g = dict(f)
         g["properties"] = dict(f.get("properties") or {}, plate=f"continent {i}")
         named.append(g)
-    _, geom, problems = plates_from_features(named, path, "auto", noun="continent")
+    _, geom, problems = plates_from_features(named, path, winding, noun="continent")
     errs = [p for p in problems if p.severity == "error"]
     if errs:
         raise InputError("; ".join(f"feature {e.feature}: {e.message}" for e in errs[:3]),

@@ -432,7 +432,8 @@ def draw_maps(outdir, world_path, motions_path, predicted_path, hyp_path, fit_pa
     from .hypothesis import load_hypothesis
     from .world import load_world
     world = load_world(world_path)
-    cont = read_continents(world.paths["continents"]) if "continents" in world.paths else None
+    cont = (read_continents(world.paths["continents"], world.winding)
+            if "continents" in world.paths else None)
     obs = read_motions(motions_path).for_world(world)
     pred = read_motions(predicted_path).for_world(world)
     fit = json.loads(Path(fit_path).read_text())

@@ -126,7 +126,25 @@ def tiling_problems(world: World) -> list:
             probs.append(Problem("error", msg, lon=float(lon), lat=float(lat)))
         if rest:
             probs.append(Problem("error", f"and {rest} more grid points in gaps or overlaps"))
+    if probs and _written_winding_tiles(g):
+        # first, so that a shortened list of problems still shows it
+        probs.insert(0, Problem(
+            "error", 'winding = "auto" took the smaller region of some rings, and so the '
+            "plates do not tile the sphere; walked as written (RFC 7946) they would: set "
+            'winding = "strict" in the world file (needed for plates larger than a '
+            "hemisphere)"))
     return probs
+
+
+def _written_winding_tiles(g) -> bool:
+    """Whether the rings as written (before ``winding = "auto"``) tile the sphere."""
+    from .world import as_written
+    if g.ring_reversed is None or not g.ring_reversed.any():
+        return False
+    w = as_written(g)
+    if abs(w.moments[0].sum() / (4 * np.pi) - 1.0) > AREA_RTOL or (w.moments[0] <= 0).any():
+        return False
+    return len(w.locator.coverage_problems()[0]) == 0
 
 
 def ring_crossings(geometry, frame=None):
@@ -293,7 +311,7 @@ def _continent_problems(world: World) -> list:
     from .errors import InputError
     path = world.paths["continents"]
     try:
-        cont = read_continents(path)
+        cont = read_continents(path, world.winding)
     except InputError as exc:
         return [Problem("error", f"continents: {exc.message}", exc.file or path)]
     *_, warnings = clip_moments(world, cont)

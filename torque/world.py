@@ -109,6 +109,10 @@ class PlateGeometry:
     ring_is_hole : ndarray of bool, shape (R,)
     ring_polygon : ndarray of int, shape (R,)
         Polygon part of each ring, numbered across the world.
+    ring_reversed : ndarray of bool, shape (R,), optional
+        Rings that ``winding = "auto"`` walks the other way from the file (None: unknown,
+        or none reversed). Kept so that a failed tiling can say whether the rings as
+        written would have tiled.
     """
 
     xyz: np.ndarray
@@ -117,6 +121,7 @@ class PlateGeometry:
     ring_is_hole: np.ndarray
     ring_polygon: np.ndarray
     n_plates: int
+    ring_reversed: np.ndarray | None = None
 
     @cached_property
     def edges(self):
@@ -153,6 +158,7 @@ class World:
     paths: dict = field(default_factory=dict)
     problems: tuple = ()
     name: str = "world"
+    winding: str = "auto"
 
     # -- lookups --------------------------------------------------------------------------
     @cached_property
@@ -398,30 +404,54 @@ def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"
             + f": {p.message}" for p in problems[:3])
         raise InputError(f"no usable {noun} polygon in the file"
                          + (f": {detail}" if detail else ""), file=path)
-    rings = _orient(rings, np.array(ring_hole), winding)
+    rings, flipped = _orient(rings, np.array(ring_hole), winding)
     xyz = np.concatenate(rings)
     ring_start = np.r_[0, np.cumsum([len(r) for r in rings])].astype(np.int64)
     geometry = PlateGeometry(xyz, ring_start, np.array(ring_plate, dtype=np.int64),
                              np.array(ring_hole, dtype=bool), np.array(ring_poly, np.int64),
-                             len(plates))
+                             len(plates), flipped)
     return tuple(plates), geometry, problems
 
 
+# Two regions whose areas differ by less than this (steradians, about 0.5 km^2 on the
+# Earth) are a tie: an exact hemisphere, for which "the smaller region" is rounding noise.
+WINDING_TIE_SR = 1e-8
+
+
 def _orient(rings, is_hole, winding):
-    """Orient rings so that their plate is on the left.
+    """Orient rings so that their plate is on the left; returns ``(rings, reversed)``.
 
     ``"strict"`` keeps RFC 7946's rule as written (exterior counter-clockwise, holes
     clockwise, seen from outside). ``"auto"`` makes each exterior ring bound the smaller of
-    its two regions, and each hole the smaller region it cuts out.
+    its two regions, and each hole the smaller region it cuts out; where the two regions
+    are equal to within ``WINDING_TIE_SR`` (a hemisphere), the ring is kept as written.
     """
+    flipped = np.zeros(len(rings), bool)
     if winding == "strict":
-        return rings
+        return rings, flipped
     out = []
-    for ring, hole in zip(rings, is_hole):
+    for k, (ring, hole) in enumerate(zip(rings, is_hole)):
         left = sphere.ring_left_area(ring, [0, len(ring)])[0]
-        small_on_left = left <= 2.0 * np.pi
-        out.append(ring if small_on_left != bool(hole) else ring[::-1])
-    return out
+        if abs(left - 2.0 * np.pi) <= WINDING_TIE_SR:
+            out.append(ring)
+            continue
+        small_on_left = left < 2.0 * np.pi
+        flipped[k] = small_on_left == bool(hole)
+        out.append(ring[::-1] if flipped[k] else ring)
+    return out, flipped
+
+
+def as_written(geometry: PlateGeometry) -> PlateGeometry:
+    """The same rings walked as the file wrote them (undoing ``winding = "auto"``)."""
+    rev = geometry.ring_reversed
+    if rev is None or not rev.any():
+        return geometry
+    xyz = geometry.xyz.copy()
+    s = geometry.ring_start
+    for r in np.nonzero(rev)[0]:
+        xyz[s[r]:s[r + 1]] = xyz[s[r]:s[r + 1]][::-1]
+    return PlateGeometry(xyz, s, geometry.ring_plate, geometry.ring_is_hole,
+                         geometry.ring_polygon, geometry.n_plates)
 
 
 def read_boundaries(path, plate_names) -> tuple[list, list]:
@@ -616,7 +646,7 @@ def load_world(path) -> World:
         derived = True
     name = cfg.get("name", path.stem)
     return World(tuple(plates), geometry, tuple(boundaries), float(radius_km) * 1e3, derived,
-                 paths, tuple(problems + more), str(name))
+                 paths, tuple(problems + more), str(name), winding)
 
 
 def world_from_rings(plates: dict, boundaries=(), radius_km: float = EARTH_RADIUS_KM,
@@ -659,4 +689,5 @@ def world_from_rings(plates: dict, boundaries=(), radius_km: float = EARTH_RADIU
         bnd, more = derive_boundaries(geometry, names)
         bnd, derived = tuple(bnd), True
         problems = problems + more
-    return World(pl, geometry, bnd, radius_km * 1e3, derived, {}, tuple(problems), name)
+    return World(pl, geometry, bnd, radius_km * 1e3, derived, {}, tuple(problems), name,
+                 winding)

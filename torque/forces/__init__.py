@@ -127,7 +127,7 @@ class Context:
         if "continents" not in self.world.paths:
             return None
         from ..continents import read_continents
-        return read_continents(self.world.paths["continents"])
+        return read_continents(self.world.paths["continents"], self.world.winding)
 
     clip_warnings: tuple = ()
 
