@@ -49,5 +49,5 @@ def test_bad_grids(tmp_path):
     with pytest.raises(InputError, match="'old', not a number"):
         read_ages(tmp_path / "word.csv")
     (tmp_path / "flow.nc").write_text("not netcdf")
-    with pytest.raises(InputError, match="cannot read as NetCDF"):
+    with pytest.raises(InputError, match="is not a NetCDF file"):
         read_flow(tmp_path / "flow.nc")

@@ -13,7 +13,7 @@ import sys
 
 import numpy as np
 
-from .errors import InputError
+from .errors import InputError, read_json
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
 
@@ -441,14 +441,7 @@ def _print_fit(d):
 
 def read_coefficients(path, hypothesis) -> dict:
     """Coefficient values from a ``torque fit`` JSON, checked against a hypothesis."""
-    from pathlib import Path
-    path = Path(path)
-    try:
-        doc = json.loads(path.read_text())
-    except FileNotFoundError:
-        raise InputError("file not found", file=path) from None
-    except (OSError, json.JSONDecodeError) as exc:
-        raise InputError(f"not a readable JSON file: {exc}", file=path) from None
+    doc = read_json(path)
     coefs = doc.get("coefficients") if isinstance(doc, dict) else None
     if not isinstance(coefs, dict):
         raise InputError("no 'coefficients' object (expected the output of torque fit)",
@@ -600,9 +593,8 @@ def _cmd_map(args) -> int:
     pred = read_motions(args.predicted).for_world(world) if args.predicted else None
     fit = None
     if args.fit:
-        from pathlib import Path
+        fit = read_json(args.fit)
         try:
-            fit = json.loads(Path(args.fit).read_text())
             fit["plates"], fit["coefficients"]
         except (OSError, ValueError, KeyError, TypeError):
             raise InputError("not the JSON output of torque fit", file=args.fit) from None
@@ -638,6 +630,28 @@ def _cmd_demo(args) -> int:
     return EXIT_OK
 
 # ----------------------------------------------------------------------------------------
+def _count(text: str) -> int:
+    """argparse type: a whole number >= 0 (samples, seeds)."""
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if n < 0:
+        raise argparse.ArgumentTypeError(f"{text} is negative; give 0 or more")
+    return n
+
+
+def _positive(text: str) -> float:
+    """argparse type: a finite number > 0 (grid steps, spacings)."""
+    try:
+        x = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+    if not np.isfinite(x) or x <= 0:
+        raise argparse.ArgumentTypeError(f"{text} must be a finite number above 0")
+    return x
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="torque", description=(
         "Plate torques and Euler-pole prediction on a sphere. Results are model-dependent "
@@ -670,7 +684,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("world", help="world file (TOML)")
     p.add_argument("motions", help="motions CSV (plate,lat,lon,rate)")
     g = p.add_mutually_exclusive_group()
-    g.add_argument("--step", type=float, default=1.0, metavar="DEG",
+    g.add_argument("--step", type=_positive, default=1.0, metavar="DEG",
                    help="cell-centred lon/lat grid step in degrees (default 1)")
     g.add_argument("--points", metavar="FILE", help="CSV of points with columns lon,lat")
     p.add_argument("-o", "--output", required=True, help="output file (.csv, .geojson, .nc)")
@@ -682,7 +696,7 @@ def build_parser() -> argparse.ArgumentParser:
                        "along-strike, and obliquity (0 opening, 90 strike-slip, 180 closing).")
     p.add_argument("world", help="world file (TOML)")
     p.add_argument("motions", help="motions CSV (plate,lat,lon,rate)")
-    p.add_argument("--spacing-km", type=float, default=50.0,
+    p.add_argument("--spacing-km", type=_positive, default=50.0,
                    help="sample spacing along the lines, km (default 50)")
     p.add_argument("--classify", action="store_true",
                    help="give 'unclassified' lines a kind from their motion")
@@ -727,13 +741,13 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("motions", help="observed motions CSV")
     p.add_argument("-o", "--output", required=True, help="output JSON")
     p.add_argument("--weighting", **weighting)
-    p.add_argument("--bootstrap", type=int, default=0, metavar="N",
+    p.add_argument("--bootstrap", type=_count, default=0, metavar="N",
                    help="refit on N resamples of the plates")
-    p.add_argument("--monte-carlo", type=int, default=0, metavar="N",
+    p.add_argument("--monte-carlo", type=_count, default=0, metavar="N",
                    help="refit on N draws of the motions from their covariance columns")
-    p.add_argument("--physics-samples", type=int, default=0, metavar="N",
+    p.add_argument("--physics-samples", type=_count, default=0, metavar="N",
                    help="refit on N draws of the physics from the hypothesis' [spread] table")
-    p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
+    p.add_argument("--seed", type=_count, default=0, help="random seed (default 0)")
     p.set_defaults(func=_cmd_fit)
 
     p = sub.add_parser("predict", help="Euler vectors that balance the torques",
@@ -785,14 +799,58 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+EXIT_BROKEN_PIPE = 141     # 128 + SIGPIPE, what a shell reports for a reader that went away
+
+
+def _terminate(signum, frame):
+    # Raising unwinds the stack, so atomic writers remove their temporary files.
+    raise SystemExit(128 + signum)
+
+
 def main(argv=None) -> int:
+    """Run the ``torque`` command; returns the exit status.
+
+    0 on success; 2 on bad input or usage, with one message on stderr naming the file and
+    what is wrong; 141 (quietly) when the reader of standard output goes away
+    (``torque cooling --json | head``). SIGTERM removes partly written outputs.
+    """
+    import signal
     parser = build_parser()
     args = parser.parse_args(argv)
+    try:
+        previous = signal.signal(signal.SIGTERM, _terminate)
+    except ValueError:          # not the main thread: leave the handler alone
+        previous = None
     try:
         return args.func(args)
     except InputError as exc:
         print(f"torque {args.command}: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except BrokenPipeError:
+        _silence_stdout()
+        return EXIT_BROKEN_PIPE
+    except MemoryError:
+        print(f"torque {args.command}: not enough memory for this work; use a coarser grid "
+              "step or fewer samples", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except OSError as exc:
+        # a file that cannot be read or written (permissions, a full disk, ...)
+        where = exc.filename or "a file"
+        print(f"torque {args.command}: {where}: {exc.strerror or exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
+
+
+def _silence_stdout():
+    """Point stdout at /dev/null so that the interpreter's final flush does not fail."""
+    import os
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        pass
 
 
 if __name__ == "__main__":  # pragma: no cover

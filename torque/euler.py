@@ -16,7 +16,6 @@ References
 from __future__ import annotations
 
 import csv
-import io
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -24,7 +23,7 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from . import sphere
-from .errors import InputError, atomic_write, read_text
+from .errors import InputError, atomic_write, read_csv_rows
 
 MYR_S = 3.15576e13                               # s in a (Julian) million years
 YR_S = MYR_S / 1e6
@@ -242,9 +241,7 @@ def read_motions(path) -> Motions:
     vector in (deg/Myr)^2.
     """
     path = Path(path)
-    text = read_text(path, encoding="utf-8-sig")
-    rows = list(csv.reader(io.StringIO(text)))
-    rows = [r for r in rows if r and any(c.strip() for c in r) and not r[0].startswith("#")]
+    rows = [r for r in read_csv_rows(path) if not r[0].startswith("#")]
     if not rows:
         raise InputError("the file is empty; expected a header plate,lat,lon,rate", file=path)
     header = [h.strip().lower() for h in rows[0]]
@@ -294,6 +291,10 @@ def read_motions(path) -> Motions:
             except ValueError:
                 raise InputError("covariance columns must be numbers", file=path,
                                  where=f"line {n} (plate {name!r})") from None
+            if not np.all(np.isfinite(c)):
+                raise InputError("a covariance column is not finite (NaN or infinite)",
+                                 file=path, where=f"line {n} (plate {name!r})",
+                                 hint="give 0 for an exactly known component")
             covs.append(c)
     if not plates:
         raise InputError("no rows after the header", file=path)
@@ -302,8 +303,16 @@ def read_motions(path) -> Motions:
     if has_cov:
         c = np.array(covs) * RAD_S_PER_DEG_MYR ** 2
         cov = np.stack([c[:, [0, 1, 2]], c[:, [1, 3, 4]], c[:, [2, 4, 5]]], axis=1)
-        if np.any(np.linalg.eigvalsh(cov) < -1e-12 * np.abs(cov).max()):
-            raise InputError("a covariance matrix is not positive semi-definite", file=path)
+        size = np.abs(cov).max(axis=(1, 2))
+        low = np.linalg.eigvalsh(cov)[:, 0]
+        bad = np.nonzero(low < -1e-12 * np.maximum(size, 1e-300))[0]
+        if len(bad):
+            i = int(bad[0])
+            raise InputError(
+                "the covariance matrix is not positive semi-definite (its smallest "
+                f"eigenvalue is {low[i] / RAD_S_PER_DEG_MYR ** 2:.3g} (deg/Myr)^2)",
+                file=path, where=f"plate {plates[i]!r}",
+                hint="check the cov_* columns: |cov_xy| <= sqrt(cov_xx cov_yy) and so on")
     return Motions.from_poles(plates, v[:, 0], v[:, 1], v[:, 2], cov=cov, extra=extra,
                               source=str(path))
 

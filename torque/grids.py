@@ -9,7 +9,6 @@ is NaN where any of its four grid nodes is NaN (no age is invented at continenta
 from __future__ import annotations
 
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 
@@ -132,9 +131,8 @@ def read_ages(path) -> AgeGrid:
     2-D variable. CSV: one row per grid node, header ``lon,lat,age_myr``, empty or ``nan``
     age for no ocean; the nodes must form a full regular grid.
     """
-    path = Path(path)
-    if not path.is_file():
-        raise InputError("file not found", file=path)
+    from .errors import check_input_file
+    path = check_input_file(path)
     if path.suffix.lower() == ".csv":
         lon, lat, age = _read_csv(path)
     else:
@@ -150,10 +148,18 @@ def read_ages(path) -> AgeGrid:
 def _open_grid(path, variables):
     """Read 1-D lon, lat and the named 2-D variables (each a tuple of accepted names)."""
     import xarray as xr
+    from .errors import check_input_file
+    with open(check_input_file(path), "rb") as fh:
+        head = fh.read(8)
+    if not (head.startswith(b"CDF") or head.startswith(b"\x89HDF\r\n\x1a\n")):
+        raise InputError("is not a NetCDF file (it has neither the NetCDF nor the HDF5 "
+                         "signature); give a NetCDF grid, or a CSV lon,lat,... with the "
+                         "suffix .csv", file=path)
     try:
         ds = xr.open_dataset(path)
     except Exception as exc:  # noqa: BLE001 - any reader failure is bad input here
-        raise InputError(f"cannot read as NetCDF: {exc}", file=path) from None
+        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise InputError(f"cannot read as NetCDF: {first}", file=path) from None
     with ds:
         def coord(names, what):
             for n in names:
@@ -193,6 +199,19 @@ def _normalise_axes(lon, lat, arrays, path):
         lon, arrays = lon[::-1], [a[:, ::-1] for a in arrays]
     if lat[1] < lat[0]:
         lat, arrays = lat[::-1], [a[::-1] for a in arrays]
+    step = lon[1] - lon[0]
+    if abs(lon[-1] - lon[0] - 360.0) < 1e-6 * step:
+        # gridline registration (-180 and 180, or 0 and 360): the last column repeats the
+        # first meridian; keep one copy, after checking that they agree
+        for a in arrays:
+            if not np.allclose(a[:, 0], a[:, -1], rtol=1e-6, atol=1e-9, equal_nan=True):
+                raise InputError(f"longitudes {lon[0]:g} and {lon[-1]:g} are the same "
+                                 "meridian but the grid holds different values there",
+                                 file=path)
+        lon, arrays = lon[:-1], [a[:, :-1] for a in arrays]
+    elif lon[-1] - lon[0] > 360.0:
+        raise InputError(f"longitudes span {lon[-1] - lon[0]:g} degrees, more than 360",
+                         file=path)
     lon = np.where(lon >= 180.0 - 1e-9, lon - 360.0, lon)
     order = np.argsort(lon, kind="stable")
     lon, arrays = lon[order], [a[:, order] for a in arrays]
@@ -204,9 +223,8 @@ def _normalise_axes(lon, lat, arrays, path):
 def read_flow(path) -> FlowGrid:
     """Read a mantle flow grid: NetCDF with 1-D lon, lat and 2-D east and north velocity in
     mm/yr, named ``ve_mm_yr``/``vn_mm_yr`` (or ``east``/``north``, ``ve``/``vn``)."""
-    path = Path(path)
-    if not path.is_file():
-        raise InputError("file not found", file=path)
+    from .errors import check_input_file
+    path = check_input_file(path)
     lon, lat, (ve, vn) = _open_grid(path, [("ve_mm_yr", "east", "ve"),
                                            ("vn_mm_yr", "north", "vn")])
     lon, lat, (ve, vn) = _normalise_axes(lon, lat, [ve, vn], path)
@@ -216,9 +234,8 @@ def read_flow(path) -> FlowGrid:
 
 
 def _read_csv(path):
-    import csv
-    with open(path, newline="", encoding="utf-8-sig") as fh:
-        rows = [r for r in csv.reader(fh) if r and any(c.strip() for c in r)]
+    from .errors import read_csv_rows
+    rows = read_csv_rows(path)
     if not rows:
         raise InputError("the file is empty", file=path)
     header = [h.strip().lower() for h in rows[0]]

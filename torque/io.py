@@ -6,7 +6,6 @@ complete, so that no output is ever left half-written.
 
 from __future__ import annotations
 
-import csv
 import json
 from pathlib import Path
 
@@ -95,12 +94,9 @@ def write_netcdf(path, dataset) -> None:
 
 def read_points(path):
     """Read a CSV with columns ``lon,lat`` (degrees); returns two arrays, in file order."""
+    from .errors import read_csv_rows
     path = Path(path)
-    try:
-        with open(path, newline="", encoding="utf-8-sig") as fh:
-            rows = [r for r in csv.reader(fh) if r and any(c.strip() for c in r)]
-    except FileNotFoundError:
-        raise InputError("file not found", file=path) from None
+    rows = read_csv_rows(path)
     if not rows:
         raise InputError("the file is empty; expected a header lon,lat", file=path)
     header = [h.strip().lower() for h in rows[0]]

@@ -10,7 +10,6 @@ for commands that need a sound world.
 
 from __future__ import annotations
 
-import json
 import tomllib
 from dataclasses import dataclass, field
 from functools import cached_property
@@ -19,7 +18,7 @@ from pathlib import Path
 import numpy as np
 
 from . import sphere
-from .errors import InputError, read_text
+from .errors import InputError, read_json, read_text
 
 EARTH_RADIUS_KM = 6371.0
 BOUNDARY_KINDS = ("ridge", "subduction", "transform", "collision", "unclassified")
@@ -238,12 +237,7 @@ class World:
 # reading files
 # ----------------------------------------------------------------------------------------
 def _read_json(path: Path):
-    text = read_text(path)
-    try:
-        return json.loads(text)
-    except json.JSONDecodeError as exc:
-        raise InputError(f"not valid JSON: {exc.msg} at line {exc.lineno}, column {exc.colno}",
-                         file=path) from None
+    return read_json(path)
 
 
 def read_toml(path) -> dict:

@@ -197,7 +197,14 @@ class Context:
             raise InputError("a 'mantle' force needs a mantle flow grid: add 'mantle_flow' to "
                              "the world file", file=self.world.paths.get("world"))
         from ..grids import read_flow
-        return read_flow(self.world.paths["mantle_flow"])
+        grid = read_flow(self.world.paths["mantle_flow"])
+        if not grid.covers_sphere():
+            # outside the grid the mantle would silently be taken at rest
+            raise InputError("the mantle flow grid does not cover the plates (it must span "
+                             "all longitudes and reach within a grid step of both poles; it "
+                             f"spans lon {grid.lon[0]:g} to {grid.lon[-1]:g}, lat "
+                             f"{grid.lat[0]:g} to {grid.lat[-1]:g})", file=grid.source)
+        return grid
 
     def age_grid_if_any(self):
         """The age field if there is one (a grid, or ages that can be synthesised)."""
