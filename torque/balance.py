@@ -83,6 +83,10 @@ class System:
         Plate areas on the unit sphere.
     radius_m : float
     plates : tuple of str
+    name : str
+        The hypothesis' name.
+    source : str, optional
+        The hypothesis file, named in messages.
     """
 
     labels: tuple
@@ -98,6 +102,7 @@ class System:
     radius_m: float
     plates: tuple
     name: str = "hypothesis"
+    source: str | None = None
 
     @property
     def n_plates(self) -> int:
@@ -133,7 +138,7 @@ def assemble(world, hypothesis, terms) -> System:
         b=np.stack([t.driving.reshape(3 * P) for t in terms]),
         A=np.stack([t.resisting.reshape(3 * P, 3 * P) for t in terms]),
         D=D, area=area, radius_m=world.radius_m, plates=tuple(world.plate_names),
-        name=hypothesis.name)
+        name=hypothesis.name, source=hypothesis.source)
 
 
 # ----------------------------------------------------------------------------------------
@@ -181,16 +186,16 @@ class Fit:
 
 def _check_fittable(system: System):
     if not system.free.any():
-        raise InputError("the hypothesis has no free coefficient to fit",
+        raise InputError("the hypothesis has no free coefficient to fit", file=system.source,
                          hint='mark at least one coefficient "free"')
     if system.free.all():
         raise InputError("every coefficient is free, so the balance is homogeneous and all "
-                         "coefficients = 0 fits it perfectly",
+                         "coefficients = 0 fits it perfectly", file=system.source,
                          hint="fix one coefficient (for example ridge push at 1.0) to set "
                          "the scale")
     lo, hi = system.bounds[system.free].T
     if np.any(lo > hi):
-        raise InputError("a free coefficient has bounds with low > high")
+        raise InputError("a free coefficient has bounds with low > high", file=system.source)
 
 
 def _identifiability(system: System, G: np.ndarray, omega):
@@ -281,6 +286,11 @@ def _check_determined(system: System, M):
     # singular values scale with plate area; even a plate 1e-6 of the sphere stays far above
     # this relative threshold, so only a truly free motion trips it
     s = np.linalg.svd(M, compute_uv=False)
+    if s[0] == 0:
+        raise InputError("nothing in the hypothesis resists the motion of any plate: it has "
+                         "no drag, mantle or boundary resistance term with a non-zero "
+                         "coefficient", file=system.source,
+                         hint="add a 'drag' term (region = \"all\")")
     if s[-1] > 1e-11 * s[0]:
         return
     _, _, vt = np.linalg.svd(M)
@@ -289,12 +299,13 @@ def _check_determined(system: System, M):
         raise InputError(
             "the net rotation is undetermined: no basal drag or mantle term resists a "
             "rotation of all plates together, so any such rotation balances as well",
+            file=system.source,
             hint="add a 'drag' or 'mantle' term with a non-zero coefficient")
     involved = [system.plates[i] for i in np.nonzero(np.linalg.norm(null, axis=1)
                                                     > 0.1 * np.abs(null).max())[0]]
     raise InputError(f"the motion of plate(s) {', '.join(map(repr, involved))} is "
                      "undetermined: nothing in the hypothesis resists it (no drag over "
-                     "them, and no coupling to plates that have some)",
+                     "them, and no coupling to plates that have some)", file=system.source,
                      hint="use drag over 'all', or add a boundary resistance")
 
 

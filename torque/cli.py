@@ -32,8 +32,25 @@ def _json_default(obj):
     raise TypeError(type(obj).__name__)
 
 
+def _finite(obj):
+    """A copy of ``obj`` for JSON: numpy values as Python ones, NaN and infinities as None
+    (JSON has no token for them; a bare ``NaN`` makes the file unreadable elsewhere)."""
+    if isinstance(obj, dict):
+        return {k: _finite(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_finite(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return _finite(obj.tolist())
+    if isinstance(obj, np.generic):
+        obj = obj.item()
+    if isinstance(obj, float) and not np.isfinite(obj):
+        return None
+    return obj
+
+
 def dumps(obj) -> str:
-    return json.dumps(obj, indent=2, default=_json_default)
+    """JSON text (strict: no NaN tokens) of results holding numpy values."""
+    return json.dumps(_finite(obj), indent=2, default=_json_default, allow_nan=False)
 
 
 # ----------------------------------------------------------------------------------------
@@ -142,6 +159,11 @@ def _cmd_field(args) -> int:
         lon, lat = read_points(args.points)
         grid = None
     else:
+        from .errors import require_memory
+        n = int(np.ceil(360 / args.step)) * int(np.ceil(180 / args.step))
+        # coordinates, unit vectors, plate, velocities and the text of every row
+        require_memory(n * 200.0, f"a velocity field at --step {args.step:g} ({n:,} points)",
+                       hint="use a larger --step")
         glon, glat = grid_lonlat(args.step)
         LON, LAT = np.meshgrid(glon, glat)
         lon, lat = LON.ravel(), LAT.ravel()
@@ -397,6 +419,14 @@ def _cmd_fit(args) -> int:
         if getattr(args, opt) < 0:
             raise InputError(f"--{opt.replace('_', '-')} must not be negative")
     pb = _Problem(args.world, args.hypothesis, args.motions)
+    if args.monte_carlo and pb.motions.cov is None:
+        raise InputError("a Monte Carlo over motions needs their covariance: the file has no "
+                         "cov_xx ... cov_zz columns", file=args.motions,
+                         hint="add them in (deg/Myr)^2, or leave out --monte-carlo")
+    if args.physics_samples and not pb.hyp.spread:
+        raise InputError("a Monte Carlo over physics needs a [spread] table",
+                         file=args.hypothesis, hint="add one, or leave out --physics-samples")
+    _require_sample_memory(pb.system, args)
     rep = analyse(pb.system, pb.omega, args.weighting)
     unc = {}
     if args.bootstrap:
@@ -437,6 +467,24 @@ def _print_fit(d):
     for note in d.get("notes", []):
         print(f"note: {note}")
     print("caution: model-dependent research estimates, not for hazard or engineering use")
+
+
+def _require_sample_memory(system, args):
+    """Refuse sample counts whose arrays cannot fit in memory, before any is drawn."""
+    from .errors import require_memory
+    P, K = system.n_plates, len(system.labels)
+    per_member = {
+        # draws (3P), the torque columns of every member and their scaled copies (3P x K)
+        "monte_carlo": 8 * 3 * P * (3 * K + 4),
+        # one row of results per draw, with Python's overhead
+        "bootstrap": 8 * K + 120,
+        "physics_samples": 8 * K + 120,
+    }
+    for opt, per in per_member.items():
+        n = getattr(args, opt)
+        if n:
+            require_memory(n * per, f"--{opt.replace('_', '-')} {n:,}",
+                           hint="ask for fewer samples")
 
 
 def read_coefficients(path, hypothesis) -> dict:
@@ -517,7 +565,9 @@ def _cmd_rank(args) -> int:
     names = [s.name for s in systems]
     dup = sorted({n for n in names if names.count(n) > 1})
     if dup:
-        raise InputError(f"hypotheses share the name(s) {', '.join(map(repr, dup))}",
+        files = [h for h, n in zip(args.hypotheses, names) if n in dup]
+        raise InputError(f"hypotheses share the name(s) {', '.join(map(repr, dup))} "
+                         f"(files {', '.join(files)})", file=files[0],
                          hint="give each a different 'name'")
     rows, tests = rank(systems, omega, args.weighting)
     wn = max(10, *(len(r.name) for r in rows))
@@ -532,21 +582,27 @@ def _cmd_rank(args) -> int:
             print(f"F-test {t['smaller']!r} within {t['bigger']!r}: F = {t['F']:.3g}, "
                   f"p = {t['p_value']:.3g}")
     print("sorted by AIC (lowest first); CV = leave-one-plate-out cross-validation error")
+    # both outputs or neither: the CSV goes into place only once the JSON has
+    from contextlib import ExitStack
+
+    from .errors import atomic_path, atomic_write
+    with ExitStack() as stack:
+        if args.output:
+            write_csv(stack.enter_context(atomic_path(args.output)), {
+                "rank": np.arange(1, len(rows) + 1),
+                "hypothesis": np.array([r.name for r in rows], dtype=object),
+                "rms_velocity_mm_yr": np.array([r.rms_velocity_mm_yr for r in rows]),
+                "variance_reduction": np.array([r.variance_reduction for r in rows]),
+                "free_coefficients": np.array([r.free for r in rows]),
+                "aic": np.array([r.aic for r in rows]),
+                "aicc": np.array([r.aicc for r in rows]),
+                "bic": np.array([r.bic for r in rows]),
+                "cv_rms_mm_yr": np.array([r.cv_rms_mm_yr for r in rows])})
+        if args.json:
+            with atomic_write(args.json) as fh:
+                fh.write(dumps({"rows": [r.__dict__ for r in rows], "f_tests": tests}))
     if args.output:
-        write_csv(args.output, {
-            "rank": np.arange(1, len(rows) + 1),
-            "hypothesis": np.array([r.name for r in rows], dtype=object),
-            "rms_velocity_mm_yr": np.array([r.rms_velocity_mm_yr for r in rows]),
-            "variance_reduction": np.array([r.variance_reduction for r in rows]),
-            "free_coefficients": np.array([r.free for r in rows]),
-            "aic": np.array([r.aic for r in rows]), "aicc": np.array([r.aicc for r in rows]),
-            "bic": np.array([r.bic for r in rows]),
-            "cv_rms_mm_yr": np.array([r.cv_rms_mm_yr for r in rows])})
         print(f"wrote {args.output}")
-    if args.json:
-        from .errors import atomic_write
-        with atomic_write(args.json) as fh:
-            fh.write(dumps({"rows": [r.__dict__ for r in rows], "f_tests": tests}))
     return EXIT_OK
 
 

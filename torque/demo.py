@@ -329,6 +329,8 @@ def run(outdir, force: bool = False, echo=print) -> dict:
     outdir = Path(outdir)
     if outdir.exists() and not outdir.is_dir():
         raise InputError("exists and is not a folder", file=outdir)
+    from .errors import check_output_path
+    check_output_path(outdir / "report.html")     # refuses a folder under a file
     if outdir.is_dir() and any(outdir.iterdir()) and not force:
         raise InputError("the folder holds other files; torque demo writes only into an empty "
                          "folder", file=outdir,

@@ -18,7 +18,10 @@ FIELD_SUFFIXES = (".csv", ".geojson", ".json", ".nc")
 
 
 def output_suffix(path, allowed) -> str:
-    """The lower-case suffix of ``path``, or InputError if it is not one of ``allowed``."""
+    """The lower-case suffix of ``path``, or InputError if it is not one of ``allowed`` or
+    the path cannot be written (a folder, or under a file): checked before any work."""
+    from .errors import check_output_path
+    check_output_path(path)
     suffix = Path(path).suffix.lower()
     if suffix not in allowed:
         raise InputError(f"cannot write {suffix or 'a file without a suffix'}",

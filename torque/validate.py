@@ -110,9 +110,16 @@ def tiling_problems(world: World) -> list:
         if a <= 1e-14:
             probs.append(Problem("error", "the plate has no area (a degenerate ring?)",
                                  plate=world.plates[k].name))
-    xyz, cov = g.locator.coverage_problems()
-    if len(xyz):
-        reps, rest = _clusters(xyz)
+    xyz_all, cov_all = g.locator.coverage_problems()
+    rest = 0
+    # overlaps first, then gaps, each with their own few representatives, so that a large
+    # gap does not hide an overlap
+    for sel in (cov_all > 1, cov_all < 1):
+        xyz, cov = xyz_all[sel], cov_all[sel]
+        if not len(xyz):
+            continue
+        reps, more = _clusters(xyz, most=5)
+        rest += more
         left = sphere.points_left_of_rings(xyz[reps], g.xyz, g.ring_start)
         for j, k in enumerate(reps):
             inside = (np.bincount(g.ring_plate, weights=left[j], minlength=g.n_plates)
@@ -122,10 +129,11 @@ def tiling_problems(world: World) -> list:
             if cov[k] < 1:
                 msg = "a gap: this point lies in no plate"
             else:
-                msg = f"an overlap: this point lies in {cov[k]} plates ({', '.join(holders)})"
+                msg = (f"an overlap: this point lies in {cov[k]} plates "
+                       f"({', '.join(map(repr, holders))})")
             probs.append(Problem("error", msg, lon=float(lon), lat=float(lat)))
-        if rest:
-            probs.append(Problem("error", f"and {rest} more grid points in gaps or overlaps"))
+    if rest:
+        probs.append(Problem("error", f"and {rest} more grid points in gaps or overlaps"))
     if probs and _written_winding_tiles(g):
         # first, so that a shortened list of problems still shows it
         probs.insert(0, Problem(

@@ -60,7 +60,8 @@ class Problem:
             where.append(f"plate {self.plate!r}")
         at = (f" near lon {self.lon:.3f}, lat {self.lat:.3f}"
               if self.lon is not None and self.lat is not None else "")
-        return f"{self.severity}: {', '.join(where)}: {self.message}{at}"
+        head = f"{', '.join(where)}: " if where else ""
+        return f"{self.severity}: {head}{self.message}{at}"
 
 
 @dataclass(frozen=True)
@@ -267,6 +268,9 @@ def _features(doc, path: Path, what: str) -> list:
 
 
 def _coords_array(coords, path, where) -> np.ndarray:
+    if not isinstance(coords, list) or not coords:
+        raise InputError("a ring or line has no coordinates (an empty list)", file=path,
+                         where=where, hint="remove the empty part")
     try:
         arr = np.array([[float(c[0]), float(c[1])] for c in coords], dtype=float)
     except (TypeError, ValueError, IndexError):
@@ -625,6 +629,9 @@ def load_world(path) -> World:
             if not isinstance(cfg[key], str):
                 raise InputError(f"{key} must be a file name (a string)", file=path)
             p = (path.parent / cfg[key]).resolve()
+            if p.is_dir():
+                raise InputError(f"{key!r}: {cfg[key]} is a directory, not a file",
+                                 file=path)
             if not p.is_file():
                 raise InputError(f"the file named by {key!r} does not exist: {cfg[key]}",
                                  file=path)
