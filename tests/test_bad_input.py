@@ -15,10 +15,9 @@ import sys
 import time
 from pathlib import Path
 
-import numpy as np
 import pytest
 
-from .conftest import assert_refused, feature_collection, line_feature, plate_feature
+from .conftest import assert_refused, plate_feature
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "polygons_demo"

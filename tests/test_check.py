@@ -227,7 +227,7 @@ def test_overlap_is_located_and_named(write_world, cli):
     probs = check_problems(cli, path)
     assert any("sum to 1.5" in p["message"] for p in probs)
     over = [p for p in probs if "an overlap" in p["message"]]
-    assert over and "A, B" in over[0]["message"] and over[0]["lat"] > 0
+    assert over and "'A', 'B'" in over[0]["message"] and over[0]["lat"] > 0
 
 
 def test_gap_is_located(write_world, cli):
