@@ -119,7 +119,7 @@ def _pole_text(omega) -> str:
 
 
 def _cmd_frame(args) -> int:
-    from .euler import net_rotation, read_motions, write_motions
+    from .euler import net_rotation, read_motions, to_no_net_rotation, write_motions
     from .io import output_suffix
 
     output_suffix(args.output, (".csv",))
@@ -129,7 +129,7 @@ def _cmd_frame(args) -> int:
     w_net = net_rotation(world, omega)
     target = args.to
     if target == "nnr":
-        out = motions.add_rotation(-w_net)
+        out, _ = to_no_net_rotation(world, motions)
     elif target.startswith("plate:"):
         name = target[len("plate:"):]
         if name not in world.plate_index:

@@ -195,13 +195,45 @@ class Motions:
         """Every plate's Euler vector plus ``omega`` (rad/s): a change of reference frame."""
         return self.with_omega(self.omega + np.asarray(omega, float), self.cov)
 
+    def subtract_combination(self, weights) -> "Motions":
+        """Every Euler vector less the same linear combination of all of them.
+
+        ``w'_p = w_p - sum_q G_q w_q``, a change of frame by a rotation that is itself
+        estimated from the motions (a fixed plate, the net rotation). The covariance is
+        carried through the linear map exactly: with independent plates of covariance
+        ``C_q``, ``C'_p = C_p - G_p C_p - C_p G_p^T + sum_q G_q C_q G_q^T``. The change
+        correlates the plates; only these per-plate blocks are kept (the motions file has
+        no cross-covariance columns).
+
+        Parameters
+        ----------
+        weights : ndarray, shape (P, 3, 3)
+            ``G_q`` for every plate, in the order of ``self.plates``.
+        """
+        G = np.asarray(weights, float)
+        omega = self.omega - np.einsum("qij,qj->i", G, self.omega)
+        cov = None
+        if self.cov is not None:
+            C = self.cov
+            common = np.einsum("qij,qjk,qlk->il", G, C, G)
+            GC = np.einsum("pij,pjk->pik", G, C)
+            cov = C - GC - np.swapaxes(GC, 1, 2) + common
+            cov = 0.5 * (cov + np.swapaxes(cov, 1, 2))
+        return self.with_omega(omega, cov)
+
     def relative_to(self, plate: str) -> "Motions":
-        """Motions in the frame where ``plate`` is fixed."""
+        """Motions in the frame where ``plate`` is fixed.
+
+        The fixed plate's own uncertainty passes to every other plate: ``C'_p = C_p +
+        C_fixed``, and the fixed plate gets rate 0 with zero covariance.
+        """
         idx = self.index()
         if plate not in idx:
             raise InputError(f"no plate named {plate!r} in the motions",
                              file=self.source, hint=f"plates are {', '.join(self.plates)}")
-        return self.add_rotation(-self.omega[idx[plate]])
+        G = np.zeros((len(self.plates), 3, 3))
+        G[idx[plate]] = np.eye(3)
+        return self.subtract_combination(G)
 
 
 def net_rotation(world, omega) -> np.ndarray:
@@ -224,10 +256,19 @@ def net_rotation(world, omega) -> np.ndarray:
 
 
 def to_no_net_rotation(world, motions: Motions) -> tuple[Motions, np.ndarray]:
-    """Motions in the no-net-rotation frame, and the net rotation removed (rad/s)."""
+    """Motions in the no-net-rotation frame, and the net rotation removed (rad/s).
+
+    The net rotation is linear in the motions, ``w_net = sum_q S^-1 D_q w_q`` with
+    ``S = sum_q D_q``, so the covariance is carried through that map
+    (:meth:`Motions.subtract_combination`).
+    """
     omega = motions.for_world(world)
     w_net = net_rotation(world, omega)
-    return motions.add_rotation(-w_net), w_net
+    area, _, second = world.geometry.moments
+    D = area[:, None, None] * np.eye(3) - second
+    G_world = np.linalg.solve(D.sum(axis=0), D)          # S^-1 D_q, world order
+    order = [world.plate_index[p] for p in motions.plates]
+    return motions.subtract_combination(G_world[order]), w_net
 
 
 # ----------------------------------------------------------------------------------------
