@@ -313,3 +313,17 @@ def test_sigterm_while_writing_leaves_no_part_file(demo, tmp_path):
     assert p.returncode == 128 + signal.SIGTERM
     assert list(out_dir.iterdir()) == []
     assert "Traceback" not in p.stderr.read().decode()
+
+
+def test_toml_nested_too_deeply(demo, cli, tmp_path):
+    hyp = tmp_path / "deep.toml"
+    hyp.write_text("a = " + "[" * 5000 + "]" * 5000 + "\n")
+    out = tmp_path / "t.csv"
+    assert_refused(cli("torques", demo / "world.toml", hyp, "-o", out), out, "deep.toml",
+                   "nested too deeply")
+
+
+def test_boundary_spacing_too_fine_for_memory(demo, cli, tmp_path):
+    out = tmp_path / "b.csv"
+    assert_refused(cli("boundaries", demo / "world.toml", demo / "motions.csv",
+                       "--spacing-km", "1e-7", "-o", out), out, "memory", "--spacing-km")

@@ -234,6 +234,14 @@ def _cmd_boundaries(args) -> int:
     if not world.boundaries:
         raise InputError("the world has no boundaries", file=args.world)
     omega = read_motions(args.motions).for_world(world)
+    from .errors import require_memory
+    from .sphere import angle_between
+    length_m = sum(float(angle_between(b.xyz[:-1], b.xyz[1:]).sum())
+                   for b in world.boundaries) * world.radius_m
+    n = length_m / (args.spacing_km * 1e3)
+    # points, poles, velocities and the text of every row
+    require_memory(n * 400.0, f"--spacing-km {args.spacing_km:g} ({n:,.0f} samples)",
+                   hint="use a larger --spacing-km")
     samples = sample_boundaries(world.boundaries, args.spacing_km * 1e3 / world.radius_m)
     motion = boundary_motion(world, omega, samples)
     boundaries = list(world.boundaries)

@@ -249,6 +249,8 @@ def read_toml(path) -> dict:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML: {exc}", file=path) from None
+    except RecursionError:
+        raise InputError("the TOML is nested too deeply to read", file=path) from None
 
 
 def _features(doc, path: Path, what: str) -> list:
