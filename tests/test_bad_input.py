@@ -292,7 +292,8 @@ def test_closed_pipe_exits_quietly():
     err = p.stderr.read().decode()
     p.wait(timeout=60)
     assert "Traceback" not in err and "Error" not in err
-    assert p.returncode != 2
+    # 0 if all was written before the reader left (it fits in the pipe), else 141
+    assert p.returncode in (0, 141)
 
 
 def test_sigterm_while_writing_leaves_no_part_file(demo, tmp_path):

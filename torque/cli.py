@@ -423,9 +423,6 @@ def _cmd_fit(args) -> int:
     from .resample import bootstrap, monte_carlo_motions, monte_carlo_physics
 
     output_suffix(args.output, (".json",))
-    for opt in ("bootstrap", "monte_carlo", "physics_samples"):
-        if getattr(args, opt) < 0:
-            raise InputError(f"--{opt.replace('_', '-')} must not be negative")
     pb = _Problem(args.world, args.hypothesis, args.motions)
     if args.monte_carlo and pb.motions.cov is None:
         raise InputError("a Monte Carlo over motions needs their covariance: the file has no "
@@ -693,27 +690,25 @@ def _cmd_demo(args) -> int:
     run(args.outdir, force=args.force)
     return EXIT_OK
 
+
 # ----------------------------------------------------------------------------------------
-def _count(text: str) -> int:
-    """argparse type: a whole number >= 0 (samples, seeds)."""
-    try:
-        n = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if n < 0:
-        raise argparse.ArgumentTypeError(f"{text} is negative; give 0 or more")
-    return n
+def _arg_type(convert, noun, ok, rule):
+    """An argparse type: ``convert`` the text, then require ``ok`` of the value."""
+    def parse(text: str):
+        try:
+            value = convert(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not {noun}") from None
+        if not ok(value):
+            raise argparse.ArgumentTypeError(f"{text} {rule}")
+        return value
+    return parse
 
 
-def _positive(text: str) -> float:
-    """argparse type: a finite number > 0 (grid steps, spacings)."""
-    try:
-        x = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
-    if not np.isfinite(x) or x <= 0:
-        raise argparse.ArgumentTypeError(f"{text} must be a finite number above 0")
-    return x
+# sample counts and seeds; grid steps and spacings
+_count = _arg_type(int, "a whole number", lambda n: n >= 0, "is negative; give 0 or more")
+_positive = _arg_type(float, "a number", lambda x: bool(np.isfinite(x) and x > 0),
+                      "must be a finite number above 0")
 
 
 def build_parser() -> argparse.ArgumentParser:
