@@ -328,3 +328,26 @@ def test_boundary_spacing_too_fine_for_memory(demo, cli, tmp_path):
     out = tmp_path / "b.csv"
     assert_refused(cli("boundaries", demo / "world.toml", demo / "motions.csv",
                        "--spacing-km", "1e-7", "-o", out), out, "memory", "--spacing-km")
+
+
+def test_broken_pipe_in_process_is_quiet(monkeypatch, tmp_path, capsys):
+    # A reader that has gone away: every write raises BrokenPipeError, as it does on a
+    # closed pipe once the pipe's buffer is full.
+    from torque.cli import main
+
+    sink = open(tmp_path / "sink", "w")
+
+    class Closed:
+        def write(self, text):
+            raise BrokenPipeError(32, "Broken pipe")
+
+        def flush(self):
+            pass
+
+        def fileno(self):
+            return sink.fileno()
+
+    monkeypatch.setattr(sys, "stdout", Closed())
+    assert main(["cooling", "--json"]) == 141
+    sink.close()
+    assert "Traceback" not in capsys.readouterr().err
