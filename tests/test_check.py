@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 
 from torque import sphere
+from torque.validate import require_valid
 from torque.world import load_world
 
 from .conftest import assert_refused, line_feature, plate_feature, voronoi_rings
@@ -260,7 +261,7 @@ def test_other_commands_refuse_a_broken_world(write_world):
     from torque.errors import InputError
     path = write_world([plate_feature("Twin", [NORTH]), plate_feature("Twin", [SOUTH])])
     with pytest.raises(InputError, match="'Twin' is used again.*torque check"):
-        load_world(path).require_valid()
+        require_valid(load_world(path))
 
 
 def test_unclassified_world_without_boundaries_file_has_neighbours(voronoi_world, cli):

@@ -19,10 +19,11 @@ DEMO = ROOT / "polygons_demo"
 
 @pytest.fixture(scope="module")
 def demo_run(tmp_path_factory):
+    from torque.cli import main
     from torque.demo import run
     out = tmp_path_factory.mktemp("demo") / "out"
     lines = []
-    info = run(out, echo=lines.append)
+    info = run(main, out, echo=lines.append)
     return out, info, lines
 
 

@@ -108,8 +108,9 @@ def format_check(report) -> str:
 # kinematics: frame, field, boundaries
 # ----------------------------------------------------------------------------------------
 def _world(path):
+    from .validate import require_valid
     from .world import load_world
-    return load_world(path).require_valid()
+    return require_valid(load_world(path))
 
 
 def _pole_text(omega) -> str:
@@ -687,7 +688,7 @@ def _cmd_map(args) -> int:
 
 def _cmd_demo(args) -> int:
     from .demo import run
-    run(args.outdir, force=args.force)
+    run(main, args.outdir, force=args.force)
     return EXIT_OK
 
 

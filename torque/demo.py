@@ -149,6 +149,7 @@ def write(outdir: Path) -> dict:
     from torque.hypothesis import hypothesis_from_dict
     from torque.io import write_boundaries_geojson
     from torque.margins import boundary_motion, classify, sample_boundaries
+    from torque.validate import require_valid
     from torque.world import Boundary, load_world
 
     outdir.mkdir(parents=True, exist_ok=True)
@@ -166,7 +167,7 @@ def write(outdir: Path) -> dict:
         "# Orrery: an invented Earth-sized planet for the torque demo. All data synthetic.\n"
         'name = "Orrery"\nradius_km = 6371.0\nplates = "plates.geojson"\n'
         'continents = "continents.geojson"\n')
-    world = load_world(outdir / "world.toml").require_valid()
+    world = require_valid(load_world(outdir / "world.toml"))
     continents = read_continents(outdir / "continents.geojson")
     names = world.plate_names
 
@@ -313,9 +314,11 @@ OUTPUTS = ("check.json", "cooling.csv", "torques.csv", "fits", "rank.csv", "rank
            "report.md")
 
 
-def run(outdir, force: bool = False, echo=print) -> dict:
+def run(main, outdir, force: bool = False, echo=print) -> dict:
     """Run the whole job on the demo world; write everything into ``outdir``.
 
+    ``main`` is the command line's entry point (``torque.cli.main``), passed in so that the
+    demo runs exactly what users run without importing the command line (no cycle).
     ``outdir`` must be empty (or missing) unless ``force``; even then only the files this
     run writes are replaced, and nothing is deleted.
     """
@@ -323,7 +326,6 @@ def run(outdir, force: bool = False, echo=print) -> dict:
     import io
     import time
 
-    from .cli import main
     from .errors import InputError
 
     outdir = Path(outdir)

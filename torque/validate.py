@@ -13,6 +13,7 @@ import shapely
 from scipy.spatial import cKDTree
 
 from . import sphere
+from .errors import InputError
 from .locate import arc_boxes
 from .world import Problem, World
 
@@ -93,6 +94,23 @@ def _clusters(xyz, radius_deg=_CLUSTER_DEG, most=10):
         reps.append(k)
         left = left[sphere.dot(xyz[left], xyz[k]) < cos_r]
     return reps, left.size
+
+
+def require_valid(world: World) -> World:
+    """``world``, or :class:`~torque.errors.InputError` unless it is usable.
+
+    Usable means: reading found no error, and the plates tile the sphere (exact area sum
+    and grid coverage, see :func:`tiling_problems`). ``torque check`` runs these and the
+    slower checks, and lists every problem.
+    """
+    errs = world.errors or [p for p in tiling_problems(world) if p.severity == "error"]
+    if errs:
+        shown = "; ".join(str(e) for e in errs[:5])
+        more = f" (and {len(errs) - 5} more)" if len(errs) > 5 else ""
+        raise InputError(f"the world has {len(errs)} problem(s): {shown}{more}",
+                         file=world.paths.get("world"),
+                         hint="run 'torque check' on it for the full list")
+    return world
 
 
 def tiling_problems(world: World) -> list:
@@ -316,7 +334,6 @@ def _continent_problems(world: World) -> list:
     if "continents" not in world.paths:
         return []
     from .continents import clip_moments, read_continents
-    from .errors import InputError
     path = world.paths["continents"]
     try:
         cont = read_continents(path, world.winding)

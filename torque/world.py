@@ -4,7 +4,7 @@ A :class:`World` is the plate model of one planet: plate polygons on the unit sp
 (concatenated rings, see :mod:`torque.sphere`), boundary lines with their kinds, the radius,
 and the paths of the optional data files. Problems found while reading (a malformed ring,
 a boundary that names an unknown plate) are kept in ``World.problems`` so that
-``torque check`` can list them all; :meth:`World.require_valid` turns them into an error
+``torque check`` can list them all; :func:`torque.validate.require_valid` turns them into an error
 for commands that need a sound world.
 """
 
@@ -214,24 +214,6 @@ class World:
     @property
     def errors(self) -> list:
         return [p for p in self.problems if p.severity == "error"]
-
-    def require_valid(self):
-        """Raise :class:`InputError` unless the world is usable.
-
-        Usable means: reading found no error, and the plates tile the sphere (exact area sum
-        and grid coverage, see :func:`torque.validate.tiling_problems`). ``torque check``
-        runs these and the slower checks, and lists every problem.
-        """
-        from .validate import tiling_problems
-
-        errs = self.errors or [p for p in tiling_problems(self) if p.severity == "error"]
-        if errs:
-            shown = "; ".join(str(e) for e in errs[:5])
-            more = f" (and {len(errs) - 5} more)" if len(errs) > 5 else ""
-            raise InputError(f"the world has {len(errs)} problem(s): {shown}{more}",
-                             file=self.paths.get("world"),
-                             hint="run 'torque check' on it for the full list")
-        return self
 
 
 # ----------------------------------------------------------------------------------------

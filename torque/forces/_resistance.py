@@ -15,7 +15,7 @@ from __future__ import annotations
 import numpy as np
 
 from .. import sphere
-from . import ForceTerm, empty_term
+from .base import ForceTerm, empty_term
 
 UNIT = "Pa s"
 KEYS = {"component": '"all" (default), "strike" or "normal": which part of the relative '

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import ForceTerm, empty_term
+from .base import ForceTerm, empty_term
 
 KIND = "drag"
 UNIT = "Pa s/m"

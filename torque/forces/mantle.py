@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..euler import M_S_TO_MM_YR
-from . import ForceTerm, empty_term
+from .base import ForceTerm, empty_term
 from .drag import CHOICES, DEFAULTS, region_notes, resisting_blocks  # noqa: F401
 
 KIND = "mantle"

@@ -22,7 +22,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import ForceTerm, empty_term
+from .base import ForceTerm, empty_term
 
 KIND = "ridge"
 UNIT = "1"

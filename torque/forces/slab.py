@@ -18,7 +18,7 @@ import numpy as np
 
 from .. import sphere
 from ..errors import InputError
-from . import ForceTerm, empty_term
+from .base import ForceTerm, empty_term
 
 KIND = "slab"
 UNIT = "1"

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import ForceTerm, empty_term
+from .base import ForceTerm, empty_term
 from .slab import KEYS as SLAB_KEYS
 from .slab import POSITIVE, slab_buoyancy, trench_geometry  # noqa: F401
 

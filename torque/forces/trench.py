@@ -3,7 +3,7 @@
 
 from __future__ import annotations
 
-from . import ForceTerm
+from .base import ForceTerm
 from ._resistance import CHOICES, DEFAULTS, KEYS, UNIT, build_resistance  # noqa: F401
 
 KIND = "trench"

@@ -1,0 +1,80 @@
+"""The common shape of every force kind: :class:`ForceTerm` and boundary :class:`Pieces`.
+
+Force modules import from here (and from :mod:`torque.forces.context`), never from the
+package itself, so imports inside ``torque.forces`` run one way: base -> context -> kinds ->
+the registry in ``__init__``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+
+@dataclass(frozen=True, eq=False)
+class ForceTerm:
+    """The torque of one force entry on every plate, per unit coefficient.
+
+    Attributes
+    ----------
+    label, kind : str
+    spec : ForceSpec
+    unit : str
+        Unit of the coefficient.
+    driving : ndarray, shape (P, 3)
+        Torque (N m) independent of the plates' motion.
+    resisting : ndarray, shape (P, 3, P, 3)
+        Torque (N m) per angular velocity (rad/s): ``resisting[p, :, q, :] @ omega[q]`` is
+        the torque on plate p from the motion of plate q.
+    notes : tuple of str
+        How the term was computed where a user should know (e.g. synthesised ages).
+    """
+
+    label: str
+    kind: str
+    spec: object
+    unit: str
+    driving: np.ndarray
+    resisting: np.ndarray
+    notes: tuple = ()
+
+    @property
+    def n_plates(self) -> int:
+        return self.driving.shape[0]
+
+    @property
+    def velocity_dependent(self) -> bool:
+        return bool(np.any(self.resisting != 0))
+
+    def torque(self, omega=None) -> np.ndarray:
+        """Torque (N m, shape (P, 3)) at coefficient 1 for angular velocities ``omega``."""
+        if omega is None:
+            if self.velocity_dependent:
+                raise ValueError(f"term {self.label!r} depends on plate motion")
+            return self.driving.copy()
+        return self.driving + np.einsum("piqj,qj->pi", self.resisting, omega)
+
+
+def empty_term(ctx, spec, unit, notes=()):
+    P = ctx.world.geometry.n_plates
+    return ForceTerm(spec.label, spec.kind, spec, unit, np.zeros((P, 3)),
+                     np.zeros((P, 3, P, 3)), tuple(notes))
+
+
+@dataclass(frozen=True, eq=False)
+class Pieces:
+    """Boundary arcs split into short pieces: geometry and ownership.
+
+    ``line`` indexes ``ctx.world.boundaries``; ``n`` is the left-hand unit normal (pointing
+    into the left plate); ``m`` is ``int r ds`` over the piece; ``theta`` its length
+    (radians); ``mid`` its midpoint.
+    """
+
+    a: np.ndarray
+    b: np.ndarray
+    line: np.ndarray
+    n: np.ndarray
+    m: np.ndarray
+    theta: np.ndarray
+    mid: np.ndarray
