@@ -55,7 +55,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import linalg, optimize, stats
 
-from .errors import InputError
+from .errors import InputError, ModelError
 from .euler import M_S_TO_MM_YR, RAD_S_PER_DEG_MYR, vector_to_pole
 
 WEIGHTINGS = ("velocity", "area", "none")
@@ -103,6 +103,10 @@ class System:
     plates: tuple
     name: str = "hypothesis"
     source: str | None = None
+
+    def __repr__(self) -> str:
+        return (f"System({self.name!r}, {self.n_plates} plates, terms "
+                f"{list(self.labels)}, {self.n_free} free)")
 
     @property
     def n_plates(self) -> int:
@@ -183,19 +187,23 @@ class Fit:
     active_bounds: tuple = ()
     info: dict = field(default_factory=dict)
 
+    def __repr__(self) -> str:
+        vals = ", ".join(f"{l}={v:.4g}" for l, v in zip(self.system.labels, self.values))
+        return f"Fit({self.method!r}, {vals})"
+
 
 def _check_fittable(system: System):
     if not system.free.any():
-        raise InputError("the hypothesis has no free coefficient to fit", file=system.source,
+        raise ModelError("the hypothesis has no free coefficient to fit", file=system.source,
                          hint='mark at least one coefficient "free"')
     if system.free.all():
-        raise InputError("every coefficient is free, so the balance is homogeneous and all "
+        raise ModelError("every coefficient is free, so the balance is homogeneous and all "
                          "coefficients = 0 fits it perfectly", file=system.source,
                          hint="fix one coefficient (for example ridge push at 1.0) to set "
                          "the scale")
     lo, hi = system.bounds[system.free].T
     if np.any(lo > hi):
-        raise InputError("a free coefficient has bounds with low > high", file=system.source)
+        raise ModelError("a free coefficient has bounds with low > high", file=system.source)
 
 
 def _identifiability(system: System, G: np.ndarray, omega):
@@ -211,18 +219,18 @@ def _identifiability(system: System, G: np.ndarray, omega):
             + np.linalg.norm(system.A[system.free], axis=(1, 2)) * np.linalg.norm(omega))
     zero = [free_labels[i] for i in np.nonzero((norms == 0) | (raw <= 1e-10 * size))[0]]
     if zero:
-        raise InputError(f"free coefficient(s) {', '.join(map(repr, zero))} have no data to "
+        raise ModelError(f"free coefficient(s) {', '.join(map(repr, zero))} have no data to "
                          "constrain them: their torque is zero on every plate",
-                         hint="fix them, or drop the terms")
+                         file=system.source, hint="fix them, or drop the terms")
     Gn = G / norms
     _, s, vt = np.linalg.svd(Gn, full_matrices=False)
     if s[-1] < 1e-10 * s[0]:
         null = vt[-1]
         involved = [free_labels[i] for i in np.nonzero(np.abs(null) > 0.1)[0]]
-        raise InputError(f"the data cannot separate the free coefficients "
+        raise ModelError(f"the data cannot separate the free coefficients "
                          f"{', '.join(map(repr, involved))}: their torques are (nearly) "
                          f"proportional on every plate (condition number {s[0] / s[-1]:.1e})",
-                         hint="fix all but one of them")
+                         file=system.source, hint="fix all but one of them")
 
 
 def fit_torque(system: System, omega_obs, weighting: str = "velocity",
@@ -287,7 +295,7 @@ def _check_determined(system: System, M):
     # this relative threshold, so only a truly free motion trips it
     s = np.linalg.svd(M, compute_uv=False)
     if s[0] == 0:
-        raise InputError("nothing in the hypothesis resists the motion of any plate: it has "
+        raise ModelError("nothing in the hypothesis resists the motion of any plate: it has "
                          "no drag, mantle or boundary resistance term with a non-zero "
                          "coefficient", file=system.source,
                          hint="add a 'drag' term (region = \"all\")")
@@ -296,14 +304,14 @@ def _check_determined(system: System, M):
     _, _, vt = np.linalg.svd(M)
     null = vt[-1].reshape(-1, 3)
     if np.allclose(null, null[0], atol=1e-6 * np.abs(null).max()):
-        raise InputError(
+        raise ModelError(
             "the net rotation is undetermined: no basal drag or mantle term resists a "
             "rotation of all plates together, so any such rotation balances as well",
             file=system.source,
             hint="add a 'drag' or 'mantle' term with a non-zero coefficient")
     involved = [system.plates[i] for i in np.nonzero(np.linalg.norm(null, axis=1)
                                                     > 0.1 * np.abs(null).max())[0]]
-    raise InputError(f"the motion of plate(s) {', '.join(map(repr, involved))} is "
+    raise ModelError(f"the motion of plate(s) {', '.join(map(repr, involved))} is "
                      "undetermined: nothing in the hypothesis resists it (no drag over "
                      "them, and no coupling to plates that have some)", file=system.source,
                      hint="use drag over 'all', or add a boundary resistance")
@@ -481,6 +489,10 @@ class Report:
     omega_pred: np.ndarray
     pole_cov: np.ndarray
     uncertainty: dict = field(default_factory=dict)
+
+    def __repr__(self) -> str:
+        return (f"Report({self.system.name!r}, {self.system.n_plates} plates, "
+                f"preferred {self.preferred!r})")
 
     @property
     def preferred(self) -> Fit:

@@ -42,6 +42,12 @@ class InputError(Exception):
         return text
 
 
+class ModelError(InputError):
+    """A problem of the model itself, not of a file's format: a singular balance, a
+    coefficient nothing constrains. A subclass of :class:`InputError`, so the command line
+    reports it the same way (exit status 2, the hypothesis file named)."""
+
+
 def _umask_mode() -> int:
     """Permissions a newly created file gets (mkstemp makes files private, 0600)."""
     mask = os.umask(0)

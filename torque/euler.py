@@ -149,6 +149,11 @@ class Motions:
     extra: dict = field(default_factory=dict)
     source: str | None = None
 
+    def __repr__(self) -> str:
+        cov = ", with covariance" if self.cov is not None else ""
+        src = f", from {self.source!r}" if self.source else ""
+        return f"Motions({len(self.plates)} plates{cov}{src})"
+
     @classmethod
     def from_poles(cls, plates, lat_deg, lon_deg, rate_deg_myr, **kw):
         return cls(tuple(plates), pole_to_vector(lat_deg, lon_deg, rate_deg_myr), **kw)

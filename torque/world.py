@@ -123,6 +123,10 @@ class PlateGeometry:
     n_plates: int
     ring_reversed: np.ndarray | None = None
 
+    def __repr__(self) -> str:
+        return (f"PlateGeometry({self.n_plates} plates, {len(self.ring_start) - 1} rings, "
+                f"{len(self.xyz)} vertices)")
+
     @cached_property
     def edges(self):
         """Start, end and plate of every edge: ``(a, b, plate)``."""
@@ -159,6 +163,10 @@ class World:
     problems: tuple = ()
     name: str = "world"
     winding: str = "auto"
+
+    def __repr__(self) -> str:
+        return (f"World({self.name!r}, {len(self.plates)} plates, {len(self.boundaries)} "
+                f"boundary lines, radius {self.radius_m / 1e3:g} km)")
 
     # -- lookups --------------------------------------------------------------------------
     @cached_property

@@ -39,6 +39,11 @@ class ForceTerm:
     resisting: np.ndarray
     notes: tuple = ()
 
+    def __repr__(self) -> str:
+        moving = ", velocity-dependent" if self.velocity_dependent else ""
+        return (f"ForceTerm({self.label!r}, kind {self.kind!r}, {self.driving.shape[0]} "
+                f"plates, unit {self.unit!r}{moving})")
+
     @property
     def n_plates(self) -> int:
         return self.driving.shape[0]
