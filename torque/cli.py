@@ -446,8 +446,9 @@ def _cmd_fit(args) -> int:
         unc["monte_carlo_physics"] = monte_carlo_physics(
             pb.rebuild, pb.hyp.physics, pb.hyp.spread, pb.omega, args.physics_samples,
             args.seed, args.weighting)
+    import dataclasses
+    rep = dataclasses.replace(rep, uncertainty=unc)
     out = rep.as_dict()
-    out["uncertainty"] = unc
     out["notes"] = pb.notes()
     with atomic_write(args.output) as fh:
         fh.write(dumps(out))
