@@ -6,12 +6,13 @@ within that noise, and the hypothesis that made the data must rank first.
 """
 
 import json
-import re
 from html.parser import HTMLParser
 from pathlib import Path
 
 import numpy as np
 import pytest
+
+from .conftest import assert_same_text_and_numbers
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "polygons_demo"
@@ -83,23 +84,6 @@ def test_demo_refuses_a_folder_with_other_files(tmp_path, cli):
     status, out, err = cli("demo", tmp_path)
     assert status == 2 and "--force" in err and "Traceback" not in err
     assert sorted(p.name for p in tmp_path.iterdir()) == ["notes.txt"]
-
-
-_NUMBER = re.compile(r"[-+]?(?:\d+\.\d*|\.\d+|\d+)(?:[eE][-+]?\d+)?")
-
-
-def assert_same_text_and_numbers(got, want, name, rtol=1e-9, atol=1e-9):
-    """The two texts agree but for the last digits of their numbers.
-
-    The generator's floating-point results may differ in the 15th digit between machines
-    and library versions (BLAS, libm), so numbers are compared to a relative 1e-9 (the
-    demo's data carry no meaning at that level: common practice, no source) and the text
-    around them exactly.
-    """
-    assert _NUMBER.sub("#", got) == _NUMBER.sub("#", want), f"{name}: text differs"
-    a = np.array([float(x) for x in _NUMBER.findall(got)])
-    b = np.array([float(x) for x in _NUMBER.findall(want)])
-    np.testing.assert_allclose(a, b, rtol=rtol, atol=atol, err_msg=name)
 
 
 def test_number_comparison_catches_real_differences():

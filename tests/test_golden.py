@@ -1,0 +1,86 @@
+"""Every command's output on the demo planet stays what it was: the safety net for
+restructuring the code (issue 11). The recorded outputs in ``tests/golden/`` were made by
+this module; a change that moves any number by more than a relative 1e-9 fails here.
+
+To record them again after a change that is *meant* to change results (and say so in the
+commit): ``python -m tests.test_golden``.
+"""
+
+import contextlib
+import io
+import os
+import shutil
+import sys
+from pathlib import Path
+
+import pytest
+
+from .conftest import assert_same_text_and_numbers
+
+ROOT = Path(__file__).resolve().parents[1]
+GOLDEN = Path(__file__).resolve().parent / "golden"
+HYP = "demo/hypotheses/ridge_slab_drag.toml"
+
+# (output file, argv); an output ending in .stdout is what the command prints
+COMMANDS = [
+    ("check.stdout", ["check", "demo/world.toml", "--json"]),
+    ("cooling.stdout", ["cooling", "--physics", HYP, "--ages", "1,5,20,50,80,120,200",
+                        "--json"]),
+    ("torques.csv", ["torques", "demo/world.toml", HYP, "--motions", "demo/motions.csv",
+                     "-o", "out/torques.csv"]),
+    ("fit.json", ["fit", "demo/world.toml", HYP, "demo/motions.csv", "-o", "out/fit.json"]),
+    ("predicted.csv", ["predict", "demo/world.toml", HYP, "--coefficients", "out/fit.json",
+                       "-o", "out/predicted.csv"]),
+    ("field.csv", ["field", "demo/world.toml", "demo/motions.csv", "--step", "15", "-o",
+                   "out/field.csv"]),
+    ("nnr.csv", ["frame", "demo/motions.csv", "--world", "demo/world.toml", "--to", "nnr",
+                 "-o", "out/nnr.csv"]),
+    ("boundaries.csv", ["boundaries", "demo/world.toml", "demo/motions.csv",
+                        "--spacing-km", "500", "-o", "out/boundaries.csv"]),
+    ("rank.csv", ["rank", "demo/world.toml", "demo/motions.csv",
+                  "demo/hypotheses/ridge_drag.toml", HYP, "-o", "out/rank.csv"]),
+]
+
+
+def produce(folder: Path) -> dict:
+    """Run every command on a copy of the demo in ``folder``; ``{name: text}``."""
+    from torque.cli import main
+    shutil.copytree(ROOT / "polygons_demo", folder / "demo")
+    (folder / "out").mkdir()
+    texts = {}
+    here = os.getcwd()
+    os.chdir(folder)            # relative paths, so that no output names the folder
+    try:
+        for name, argv in COMMANDS:
+            buf = io.StringIO()
+            with contextlib.redirect_stdout(buf):
+                status = main(argv)
+            assert status == 0, (name, argv)
+            texts[name] = buf.getvalue() if name.endswith(".stdout") else \
+                (folder / "out" / name).read_text()
+    finally:
+        os.chdir(here)
+    return texts
+
+
+@pytest.fixture(scope="module")
+def outputs(tmp_path_factory):
+    return produce(tmp_path_factory.mktemp("golden"))
+
+
+@pytest.mark.parametrize("name", [c[0] for c in COMMANDS])
+def test_output_is_unchanged(outputs, name):
+    want = (GOLDEN / name).read_text()
+    got = outputs[name]
+    # relative 1e-9: the last digits may differ between machines and library versions
+    assert_same_text_and_numbers(got, want, name, rtol=1e-9, atol=1e-12)
+
+
+if __name__ == "__main__":
+    import tempfile
+    with tempfile.TemporaryDirectory() as tmp:
+        texts = produce(Path(tmp))
+    GOLDEN.mkdir(exist_ok=True)
+    for name, text in texts.items():
+        (GOLDEN / name).write_text(text)
+    print(f"wrote {len(texts)} files into {GOLDEN}", file=sys.stderr)
