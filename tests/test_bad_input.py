@@ -360,3 +360,16 @@ def test_json_outputs_have_no_nan_tokens():
     text = dumps({"a": float("nan"), "b": np.array([1.0, np.inf]), "c": np.float64(-np.inf)})
     doc = json.loads(text, parse_constant=lambda name: pytest.fail(f"bare {name} token"))
     assert doc == {"a": None, "b": [1.0, None], "c": None}
+
+
+@pytest.mark.parametrize("doc", ['{"coefficients": {}, "plates": [1, 2]}', '[]',
+                                 '{"coefficients": {"ridge": {"value": "x"}}, "plates": []}'])
+def test_malformed_fit_file(demo, cli, tmp_path, doc):
+    fit = tmp_path / "fit.json"
+    fit.write_text(doc)
+    out = tmp_path / "b.png"
+    assert_refused(cli("map", demo / "world.toml", "--kind", "budget", "--fit", fit,
+                       "-o", out), out, "fit.json")
+    out = tmp_path / "p.csv"
+    assert_refused(cli("predict", demo / "world.toml", HYP, "--coefficients", fit,
+                       "-o", out), out, "fit.json")

@@ -347,7 +347,7 @@ def test_coefficients_from_another_hypothesis(demo_files, cli):
     cli("fit", d / "world.toml", d / "small.toml", d / "obs.csv", "-o", d / "small.json")
     assert_bad(cli("predict", d / "world.toml", d / "full.toml", "--coefficients",
                    d / "small.json", "-o", d / "p.csv"), d / "p.csv",
-               "another hypothesis", "missing: slab, transform, trench")
+               "another hypothesis", "no coefficient for 'slab', 'transform', 'trench'")
 
 
 def test_predict_without_coefficients_for_free_terms(demo_files, cli):

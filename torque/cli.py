@@ -13,7 +13,7 @@ import sys
 
 import numpy as np
 
-from .errors import InputError, read_json
+from .errors import InputError
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
 
@@ -495,28 +495,17 @@ def _require_sample_memory(system, args):
 
 
 def read_coefficients(path, hypothesis) -> dict:
-    """Coefficient values from a ``torque fit`` JSON, checked against a hypothesis."""
-    doc = read_json(path)
-    coefs = doc.get("coefficients") if isinstance(doc, dict) else None
-    if not isinstance(coefs, dict):
-        raise InputError("no 'coefficients' object (expected the output of torque fit)",
-                         file=path)
-    labels = set(hypothesis.labels)
-    extra = sorted(set(coefs) - labels)
-    missing = sorted(set(hypothesis.free_labels) - set(coefs))
-    if extra or missing:
-        raise InputError("the coefficients come from another hypothesis: "
-                         + "; ".join(x for x in (
-                             f"not in {hypothesis.name!r}: {', '.join(extra)}" if extra else "",
-                             f"missing: {', '.join(missing)}" if missing else "") if x),
-                         file=path, hint="fit this hypothesis with torque fit first")
-    out = {}
-    for label in hypothesis.free_labels:
-        v = coefs[label].get("value") if isinstance(coefs[label], dict) else None
-        if not isinstance(v, (int, float)) or not np.isfinite(v):
-            raise InputError(f"coefficient {label!r} has no numeric 'value'", file=path)
-        out[label] = float(v)
-    return out
+    """Values of the free coefficients from a ``torque fit`` JSON, checked against a
+    hypothesis: ``{label: value}``."""
+    from .io import read_fit
+    doc = read_fit(path, free_labels=hypothesis.free_labels)
+    extra = sorted(set(doc["coefficients"]) - set(hypothesis.labels))
+    if extra:
+        raise InputError(f"the coefficients come from another hypothesis: not in "
+                         f"{hypothesis.name!r}: {', '.join(extra)}", file=path,
+                         hint="fit this hypothesis with torque fit first")
+    return {label: float(doc["coefficients"][label]["value"])
+            for label in hypothesis.free_labels}
 
 
 def _cmd_predict(args) -> int:
@@ -656,13 +645,8 @@ def _cmd_map(args) -> int:
     pred = read_motions(args.predicted).for_world(world) if args.predicted else None
     fit = None
     if args.fit:
-        fit = read_json(args.fit)
-        try:
-            fit["plates"], fit["coefficients"]
-        except (OSError, ValueError, KeyError, TypeError):
-            raise InputError("not the JSON output of torque fit", file=args.fit) from None
-        if [p["plate"] for p in fit["plates"]] != world.plate_names:
-            raise InputError("the fit is for other plates than this world's", file=args.fit)
+        from .io import read_fit
+        fit = read_fit(args.fit, world.plate_names)
     if args.kind == "plates":
         maps.plates_map(world, args.output, cont)
     elif args.kind == "velocities":
@@ -678,10 +662,9 @@ def _cmd_map(args) -> int:
         from .hypothesis import load_hypothesis
         hyp = load_hypothesis(args.hypothesis)
         terms = compute_torques(world, hyp, obs)
-        try:
-            coefs = [fit["coefficients"][t.label]["value"] for t in terms]
-        except KeyError:
-            raise InputError("the fit is for another hypothesis", file=args.fit) from None
+        from .io import read_fit
+        fit = read_fit(args.fit, world.plate_names, labels=[t.label for t in terms])
+        coefs = [fit["coefficients"][t.label]["value"] for t in terms]
         maps.torque_chart(args.output, world, terms, coefs, obs)
     print(f"wrote {args.output}")
     return EXIT_OK

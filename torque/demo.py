@@ -440,9 +440,10 @@ def draw_maps(outdir, world_path, motions_path, predicted_path, hyp_path, fit_pa
             if "continents" in world.paths else None)
     obs = read_motions(motions_path).for_world(world)
     pred = read_motions(predicted_path).for_world(world)
-    fit = json.loads(Path(fit_path).read_text())
     hyp = load_hypothesis(hyp_path)
     terms = compute_torques(world, hyp, obs)
+    from .io import read_fit
+    fit = read_fit(fit_path, world.plate_names, labels=[t.label for t in terms])
     coefs = [fit["coefficients"][t.label]["value"] for t in terms]
     m = Path(outdir) / "maps"
     figs = [("Plates and boundaries", maps.plates_map(world, m / "plates.png", cont)),

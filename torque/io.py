@@ -124,3 +124,49 @@ def read_points(path):
                          "(lon in [-180, 360], lat in [-90, 90])", file=path,
                          where=f"line {k + 2}")
     return vals[:, 0], vals[:, 1]
+
+
+# ----------------------------------------------------------------------------------------
+# the fit JSON (output of `torque fit`), read in one place
+# ----------------------------------------------------------------------------------------
+def read_fit(path, plate_names=None, labels=None, free_labels=None) -> dict:
+    """Read and check the JSON written by ``torque fit``.
+
+    Parameters
+    ----------
+    path : str or Path
+    plate_names : list of str, optional
+        The world's plates: the fit must list exactly these, in this order.
+    labels : list of str, optional
+        Term labels of a hypothesis: each must have a coefficient in the fit.
+    free_labels : list of str, optional
+        Labels whose coefficient must be in the fit (for a prediction, only the free ones
+        are needed).
+
+    Returns
+    -------
+    dict
+        The parsed document; ``coefficients[label]["value"]`` is a finite float for every
+        label asked for.
+    """
+    from .errors import read_json
+    doc = read_json(path)
+    if not (isinstance(doc, dict) and isinstance(doc.get("coefficients"), dict)
+            and isinstance(doc.get("plates"), list)
+            and all(isinstance(p, dict) and "plate" in p for p in doc["plates"])):
+        raise InputError("not the JSON output of torque fit (it needs 'coefficients' and "
+                         "'plates')", file=path)
+    if plate_names is not None and [p["plate"] for p in doc["plates"]] != list(plate_names):
+        raise InputError("the fit is for other plates than this world's", file=path)
+    coefs = doc["coefficients"]
+    wanted = list(labels or []) + [x for x in (free_labels or []) if x not in (labels or [])]
+    missing = [x for x in wanted if x not in coefs]
+    if missing:
+        raise InputError(f"the fit is for another hypothesis: no coefficient for "
+                         f"{', '.join(map(repr, missing))}", file=path,
+                         hint="fit this hypothesis with torque fit first")
+    for label in wanted:
+        v = coefs[label].get("value") if isinstance(coefs[label], dict) else None
+        if not isinstance(v, (int, float)) or isinstance(v, bool) or not np.isfinite(v):
+            raise InputError(f"coefficient {label!r} has no numeric 'value'", file=path)
+    return doc
