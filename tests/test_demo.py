@@ -132,3 +132,18 @@ def test_map_command_writes_a_figure(tmp_path, cli):
                            DEMO / "motions.csv", "-o", tmp_path / "v.svg")
     assert status == 0, err
     assert (tmp_path / "v.svg").read_text().lstrip().startswith("<?xml")
+
+
+@pytest.mark.parametrize("kind,extra", [
+    ("budget", []),
+    ("torques", ["--hypothesis", str(DEMO / "hypotheses" / "ridge_slab_drag.toml"),
+                 "--motions", str(DEMO / "motions.csv")]),
+])
+def test_chart_kinds_draw_through_the_command_line(demo_run, tmp_path, cli, kind, extra):
+    # every kind is one entry of torque.maps.KINDS; the charts are the quick ones to draw
+    out, _, _ = demo_run
+    fit = out / "fits" / "ridge_slab_drag.json"
+    status, _, err = cli("map", DEMO / "world.toml", "--kind", kind, "--fit", fit, *extra,
+                         "-o", tmp_path / f"{kind}.svg")
+    assert status == 0, err
+    assert (tmp_path / f"{kind}.svg").read_text().lstrip().startswith("<?xml")

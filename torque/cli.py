@@ -605,67 +605,41 @@ def _cmd_rank(args) -> int:
 # ----------------------------------------------------------------------------------------
 # figures and the demo
 # ----------------------------------------------------------------------------------------
-MAP_KINDS = {
-    "plates": "plates, continents and boundaries by kind",
-    "velocities": "velocity arrows (needs --motions; --predicted adds predicted arrows)",
-    "poles": "observed and predicted poles with 95 % ellipses (needs --fit)",
-    "misfit": "velocity misfit (needs --motions and --predicted)",
-    "budget": "force budget per plate (needs --fit)",
-    "torques": "torque of each term on each plate (needs --hypothesis, --motions, --fit)",
-}
-MAP_NEEDS = {"plates": (), "velocities": ("motions",), "poles": ("fit",),
-             "misfit": ("motions", "predicted"), "budget": ("fit",),
-             "torques": ("hypothesis", "motions", "fit")}
-MAP_ALLOWS = {"plates": (), "velocities": ("motions", "predicted"), "poles": ("fit",),
-              "misfit": ("motions", "predicted"), "budget": ("fit",),
-              "torques": ("hypothesis", "motions", "fit")}
+def _map_kinds():
+    from .maps import KINDS
+    return KINDS
 
 
 def _cmd_map(args) -> int:
-    from . import maps
     from .euler import read_motions
-    from .io import output_suffix
+    from .io import output_suffix, read_fit
+    from .maps import MapInputs
 
     output_suffix(args.output, (".png", ".svg", ".pdf"))
+    kind = _map_kinds()[args.kind]
     given = {k for k in ("motions", "predicted", "fit", "hypothesis") if getattr(args, k)}
-    missing = [k for k in MAP_NEEDS[args.kind] if k not in given]
+    missing = [k for k in kind.needs if k not in given]
     if missing:
         raise InputError(f"a {args.kind} map needs {', '.join('--' + m for m in missing)}")
-    extra = sorted(given - set(MAP_ALLOWS[args.kind]))
+    extra = sorted(given - set(kind.allows))
     if extra:
         raise InputError(f"{', '.join('--' + e for e in extra)} make(s) no sense for a "
-                         f"{args.kind} map", hint=f"a {args.kind} map shows "
-                         f"{MAP_KINDS[args.kind]}")
+                         f"{args.kind} map", hint=f"a {args.kind} map shows {kind.shows}")
     world = _world(args.world)
     cont = None
     if "continents" in world.paths:
         from .continents import read_continents
         cont = read_continents(world.paths["continents"], world.winding)
-    obs = read_motions(args.motions).for_world(world) if args.motions else None
-    pred = read_motions(args.predicted).for_world(world) if args.predicted else None
-    fit = None
-    if args.fit:
-        from .io import read_fit
-        fit = read_fit(args.fit, world.plate_names)
-    if args.kind == "plates":
-        maps.plates_map(world, args.output, cont)
-    elif args.kind == "velocities":
-        maps.velocity_map(world, args.output, obs, pred, cont)
-    elif args.kind == "poles":
-        maps.poles_map(world, args.output, fit)
-    elif args.kind == "misfit":
-        maps.misfit_map(world, args.output, obs, pred)
-    elif args.kind == "budget":
-        maps.budget_chart(args.output, fit)
-    else:
-        from .forces import compute_torques
+    hyp = None
+    if args.hypothesis:
         from .hypothesis import load_hypothesis
         hyp = load_hypothesis(args.hypothesis)
-        terms = compute_torques(world, hyp, obs)
-        from .io import read_fit
-        fit = read_fit(args.fit, world.plate_names, labels=[t.label for t in terms])
-        coefs = [fit["coefficients"][t.label]["value"] for t in terms]
-        maps.torque_chart(args.output, world, terms, coefs, obs)
+    kind.draw(MapInputs(
+        world, cont,
+        read_motions(args.motions).for_world(world) if args.motions else None,
+        read_motions(args.predicted).for_world(world) if args.predicted else None,
+        read_fit(args.fit, world.plate_names) if args.fit else None, args.fit, hyp),
+        args.output)
     print(f"wrote {args.output}")
     return EXIT_OK
 
@@ -821,9 +795,9 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("map", help="maps and charts",
                        description="Draw a map or chart (PNG, SVG or PDF). Kinds: "
-                       + "; ".join(f"{k}: {v}" for k, v in MAP_KINDS.items()) + ".")
+                       + "; ".join(f"{k}: {v.shows}" for k, v in _map_kinds().items()) + ".")
     p.add_argument("world", help="world file (TOML)")
-    p.add_argument("--kind", required=True, choices=list(MAP_KINDS))
+    p.add_argument("--kind", required=True, choices=list(_map_kinds()))
     p.add_argument("--motions", help="observed motions CSV")
     p.add_argument("--predicted", help="predicted motions CSV (from torque predict)")
     p.add_argument("--fit", help="output of torque fit")

@@ -13,6 +13,8 @@ subduction zones carry teeth on the overriding plate's side, as geologists draw 
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from . import sphere
@@ -289,3 +291,58 @@ def torque_chart(path, world, terms, coefficients, omega):
     ax.set_title("torque of each term on each plate (at the fitted coefficients)")
     ax.legend(fontsize=8, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     return _save(fig, path)
+
+
+# ----------------------------------------------------------------------------------------
+# the registry behind `torque map --kind`: a new kind is one entry
+# ----------------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class MapInputs:
+    """What a map may draw from, already read and checked (None where not given)."""
+
+    world: object
+    continents: object = None
+    observed: np.ndarray | None = None        # (P, 3) rad/s, world plate order
+    predicted: np.ndarray | None = None       # (P, 3) rad/s
+    fit: dict | None = None                   # the JSON of torque fit
+    fit_path: str | None = None
+    hypothesis: object = None                 # Hypothesis
+
+
+@dataclass(frozen=True)
+class MapKind:
+    """One kind of figure: what it shows, which inputs it needs and allows, how to draw."""
+
+    shows: str
+    needs: tuple
+    allows: tuple
+    draw: object                              # draw(inputs: MapInputs, path)
+
+
+def _draw_torques(inp: MapInputs, path):
+    from .forces import compute_torques
+    from .io import read_fit
+    terms = compute_torques(inp.world, inp.hypothesis, inp.observed)
+    fit = read_fit(inp.fit_path, inp.world.plate_names, labels=[t.label for t in terms])
+    coefs = [fit["coefficients"][t.label]["value"] for t in terms]
+    return torque_chart(path, inp.world, terms, coefs, inp.observed)
+
+
+KINDS = {
+    "plates": MapKind("plates, continents and boundaries by kind", (), (),
+                      lambda i, p: plates_map(i.world, p, i.continents)),
+    "velocities": MapKind("velocity arrows (needs --motions; --predicted adds predicted "
+                          "arrows)", ("motions",), ("motions", "predicted"),
+                          lambda i, p: velocity_map(i.world, p, i.observed, i.predicted,
+                                                    i.continents)),
+    "poles": MapKind("observed and predicted poles with 95 % ellipses (needs --fit)",
+                     ("fit",), ("fit",), lambda i, p: poles_map(i.world, p, i.fit)),
+    "misfit": MapKind("velocity misfit (needs --motions and --predicted)",
+                      ("motions", "predicted"), ("motions", "predicted"),
+                      lambda i, p: misfit_map(i.world, p, i.observed, i.predicted)),
+    "budget": MapKind("force budget per plate (needs --fit)", ("fit",), ("fit",),
+                      lambda i, p: budget_chart(p, i.fit)),
+    "torques": MapKind("torque of each term on each plate (needs --hypothesis, --motions, "
+                       "--fit)", ("hypothesis", "motions", "fit"),
+                       ("hypothesis", "motions", "fit"), _draw_torques),
+}
