@@ -301,7 +301,7 @@ def test_sigterm_while_writing_leaves_no_part_file(demo, tmp_path):
     out_dir = tmp_path / "out"
     out_dir.mkdir()
     out = out_dir / "field.csv"
-    p = _torque("field", demo / "world.toml", demo / "motions.csv", "--step", "0.05", "-o",
+    p = _torque("field", demo / "world.toml", demo / "motions.csv", "--step", "0.1", "-o",
                 out, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline and p.poll() is None:

@@ -24,14 +24,6 @@ class _Parser(argparse.ArgumentParser):
         self.exit(EXIT_BAD_INPUT, f"torque: error: {message}\n")
 
 
-def _json_default(obj):
-    if isinstance(obj, np.generic):
-        return obj.item()
-    if isinstance(obj, np.ndarray):
-        return obj.tolist()
-    raise TypeError(type(obj).__name__)
-
-
 def _finite(obj):
     """A copy of ``obj`` for JSON: numpy values as Python ones, NaN and infinities as None
     (JSON has no token for them; a bare ``NaN`` makes the file unreadable elsewhere)."""
@@ -50,7 +42,7 @@ def _finite(obj):
 
 def dumps(obj) -> str:
     """JSON text (strict: no NaN tokens) of results holding numpy values."""
-    return json.dumps(_finite(obj), indent=2, default=_json_default, allow_nan=False)
+    return json.dumps(_finite(obj), indent=2, allow_nan=False)
 
 
 # ----------------------------------------------------------------------------------------
@@ -127,11 +119,11 @@ def _cmd_frame(args) -> int:
     world = _world(args.world)
     motions = read_motions(args.motions)
     omega = motions.for_world(world)
-    w_net = net_rotation(world, omega)
     target = args.to
     if target == "nnr":
-        out, _ = to_no_net_rotation(world, motions)
+        out, w_net = to_no_net_rotation(world, motions)
     elif target.startswith("plate:"):
+        w_net = net_rotation(world, omega)
         name = target[len("plate:"):]
         if name not in world.plate_index:
             raise InputError(f"--to {target}: no plate named {name!r}",
@@ -149,6 +141,7 @@ def _cmd_frame(args) -> int:
 
 
 def _cmd_field(args) -> int:
+    from .errors import require_memory
     from .euler import grid_lonlat, read_motions, speed_azimuth, velocity_field
     from .io import (FIELD_SUFFIXES, output_suffix, read_points, write_csv, write_netcdf,
                      write_points_geojson)
@@ -160,7 +153,6 @@ def _cmd_field(args) -> int:
         lon, lat = read_points(args.points)
         grid = None
     else:
-        from .errors import require_memory
         n = int(np.ceil(360 / args.step)) * int(np.ceil(180 / args.step))
         # coordinates, unit vectors, plate, velocities and the text of every row
         require_memory(n * 200.0, f"a velocity field at --step {args.step:g} ({n:,} points)",
@@ -219,12 +211,13 @@ def field_dataset(world, lon, lat, plate, ve, vn, grid=None):
 
 
 def _cmd_boundaries(args) -> int:
-    from .grids import read_ages
+    from .errors import require_memory
     from .euler import read_motions
+    from .grids import read_ages
     from .io import output_suffix, write_boundaries_geojson, write_csv
     from .margins import (TRANSFORM_WITHIN_DEG, boundary_motion, classify, sample_boundaries,
                           with_kinds)
-    from .sphere import xyz_to_lonlat
+    from .sphere import angle_between, xyz_to_lonlat
 
     output_suffix(args.output, (".csv",))
     if args.geojson:
@@ -235,8 +228,6 @@ def _cmd_boundaries(args) -> int:
     if not world.boundaries:
         raise InputError("the world has no boundaries", file=args.world)
     omega = read_motions(args.motions).for_world(world)
-    from .errors import require_memory
-    from .sphere import angle_between
     length_m = sum(float(angle_between(b.xyz[:-1], b.xyz[1:]).sum())
                    for b in world.boundaries) * world.radius_m
     n = length_m / (args.spacing_km * 1e3)
@@ -497,15 +488,15 @@ def _require_sample_memory(system, args):
 def read_coefficients(path, hypothesis) -> dict:
     """Values of the free coefficients from a ``torque fit`` JSON, checked against a
     hypothesis: ``{label: value}``."""
-    from .io import read_fit
-    doc = read_fit(path, free_labels=hypothesis.free_labels)
+    from .io import fit_values, read_fit
+    doc = read_fit(path)
+    values = fit_values(doc, hypothesis.free_labels, path)
     extra = sorted(set(doc["coefficients"]) - set(hypothesis.labels))
     if extra:
         raise InputError(f"the coefficients come from another hypothesis: not in "
                          f"{hypothesis.name!r}: {', '.join(extra)}", file=path,
                          hint="fit this hypothesis with torque fit first")
-    return {label: float(doc["coefficients"][label]["value"])
-            for label in hypothesis.free_labels}
+    return dict(zip(hypothesis.free_labels, values))
 
 
 def _cmd_predict(args) -> int:

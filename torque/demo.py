@@ -326,12 +326,11 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
     import io
     import time
 
-    from .errors import InputError
+    from .errors import InputError, check_output_path
 
     outdir = Path(outdir)
     if outdir.exists() and not outdir.is_dir():
         raise InputError("exists and is not a folder", file=outdir)
-    from .errors import check_output_path
     check_output_path(outdir / "report.html")     # refuses a folder under a file
     if outdir.is_dir() and any(outdir.iterdir()) and not force:
         raise InputError("the folder holds other files; torque demo writes only into an empty "
@@ -442,9 +441,9 @@ def draw_maps(outdir, world_path, motions_path, predicted_path, hyp_path, fit_pa
     pred = read_motions(predicted_path).for_world(world)
     hyp = load_hypothesis(hyp_path)
     terms = compute_torques(world, hyp, obs)
-    from .io import read_fit
-    fit = read_fit(fit_path, world.plate_names, labels=[t.label for t in terms])
-    coefs = [fit["coefficients"][t.label]["value"] for t in terms]
+    from .io import fit_values, read_fit
+    fit = read_fit(fit_path, world.plate_names)
+    coefs = fit_values(fit, [t.label for t in terms], fit_path)
     m = Path(outdir) / "maps"
     figs = [("Plates and boundaries", maps.plates_map(world, m / "plates.png", cont)),
             ("Velocities, observed and predicted",

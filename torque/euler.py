@@ -268,10 +268,10 @@ def to_no_net_rotation(world, motions: Motions) -> tuple[Motions, np.ndarray]:
     (:meth:`Motions.subtract_combination`).
     """
     omega = motions.for_world(world)
-    w_net = net_rotation(world, omega)
     area, _, second = world.geometry.moments
     D = area[:, None, None] * np.eye(3) - second
     G_world = np.linalg.solve(D.sum(axis=0), D)          # S^-1 D_q, world order
+    w_net = np.einsum("qij,qj->i", G_world, omega)
     order = [world.plate_index[p] for p in motions.plates]
     return motions.subtract_combination(G_world[order]), w_net
 

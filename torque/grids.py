@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import InputError
+from .errors import InputError, check_input_file, read_csv_rows
 
 MAX_AGE_MYR = 300.0
 
@@ -131,7 +131,6 @@ def read_ages(path) -> AgeGrid:
     2-D variable. CSV: one row per grid node, header ``lon,lat,age_myr``, empty or ``nan``
     age for no ocean; the nodes must form a full regular grid.
     """
-    from .errors import check_input_file
     path = check_input_file(path)
     if path.suffix.lower() == ".csv":
         lon, lat, age = _read_csv(path)
@@ -148,7 +147,6 @@ def read_ages(path) -> AgeGrid:
 def _open_grid(path, variables):
     """Read 1-D lon, lat and the named 2-D variables (each a tuple of accepted names)."""
     import xarray as xr
-    from .errors import check_input_file
     with open(check_input_file(path), "rb") as fh:
         head = fh.read(8)
     if not (head.startswith(b"CDF") or head.startswith(b"\x89HDF\r\n\x1a\n")):
@@ -223,7 +221,6 @@ def _normalise_axes(lon, lat, arrays, path):
 def read_flow(path) -> FlowGrid:
     """Read a mantle flow grid: NetCDF with 1-D lon, lat and 2-D east and north velocity in
     mm/yr, named ``ve_mm_yr``/``vn_mm_yr`` (or ``east``/``north``, ``ve``/``vn``)."""
-    from .errors import check_input_file
     path = check_input_file(path)
     lon, lat, (ve, vn) = _open_grid(path, [("ve_mm_yr", "east", "ve"),
                                            ("vn_mm_yr", "north", "vn")])
@@ -234,7 +231,6 @@ def read_flow(path) -> FlowGrid:
 
 
 def _read_csv(path):
-    from .errors import read_csv_rows
     rows = read_csv_rows(path)
     if not rows:
         raise InputError("the file is empty", file=path)

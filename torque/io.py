@@ -12,7 +12,8 @@ from pathlib import Path
 import numpy as np
 
 from . import sphere
-from .errors import InputError, atomic_path, atomic_write
+from .errors import (InputError, atomic_path, atomic_write, check_output_path,
+                     read_csv_rows, read_json)
 
 FIELD_SUFFIXES = (".csv", ".geojson", ".json", ".nc")
 
@@ -20,7 +21,6 @@ FIELD_SUFFIXES = (".csv", ".geojson", ".json", ".nc")
 def output_suffix(path, allowed) -> str:
     """The lower-case suffix of ``path``, or InputError if it is not one of ``allowed`` or
     the path cannot be written (a folder, or under a file): checked before any work."""
-    from .errors import check_output_path
     check_output_path(path)
     suffix = Path(path).suffix.lower()
     if suffix not in allowed:
@@ -97,7 +97,6 @@ def write_netcdf(path, dataset) -> None:
 
 def read_points(path):
     """Read a CSV with columns ``lon,lat`` (degrees); returns two arrays, in file order."""
-    from .errors import read_csv_rows
     path = Path(path)
     rows = read_csv_rows(path)
     if not rows:
@@ -129,7 +128,7 @@ def read_points(path):
 # ----------------------------------------------------------------------------------------
 # the fit JSON (output of `torque fit`), read in one place
 # ----------------------------------------------------------------------------------------
-def read_fit(path, plate_names=None, labels=None, free_labels=None) -> dict:
+def read_fit(path, plate_names=None) -> dict:
     """Read and check the JSON written by ``torque fit``.
 
     Parameters
@@ -137,19 +136,12 @@ def read_fit(path, plate_names=None, labels=None, free_labels=None) -> dict:
     path : str or Path
     plate_names : list of str, optional
         The world's plates: the fit must list exactly these, in this order.
-    labels : list of str, optional
-        Term labels of a hypothesis: each must have a coefficient in the fit.
-    free_labels : list of str, optional
-        Labels whose coefficient must be in the fit (for a prediction, only the free ones
-        are needed).
 
     Returns
     -------
     dict
-        The parsed document; ``coefficients[label]["value"]`` is a finite float for every
-        label asked for.
+        The parsed document, with a ``coefficients`` object and a ``plates`` list.
     """
-    from .errors import read_json
     doc = read_json(path)
     if not (isinstance(doc, dict) and isinstance(doc.get("coefficients"), dict)
             and isinstance(doc.get("plates"), list)
@@ -158,15 +150,22 @@ def read_fit(path, plate_names=None, labels=None, free_labels=None) -> dict:
                          "'plates')", file=path)
     if plate_names is not None and [p["plate"] for p in doc["plates"]] != list(plate_names):
         raise InputError("the fit is for other plates than this world's", file=path)
+    return doc
+
+
+def fit_values(doc: dict, labels, path) -> list:
+    """The fitted value of each coefficient in ``labels`` (floats, in that order), or
+    InputError naming ``path`` when the fit lacks one or holds no number for it."""
     coefs = doc["coefficients"]
-    wanted = list(labels or []) + [x for x in (free_labels or []) if x not in (labels or [])]
-    missing = [x for x in wanted if x not in coefs]
+    missing = [x for x in labels if x not in coefs]
     if missing:
         raise InputError(f"the fit is for another hypothesis: no coefficient for "
                          f"{', '.join(map(repr, missing))}", file=path,
                          hint="fit this hypothesis with torque fit first")
-    for label in wanted:
+    out = []
+    for label in labels:
         v = coefs[label].get("value") if isinstance(coefs[label], dict) else None
         if not isinstance(v, (int, float)) or isinstance(v, bool) or not np.isfinite(v):
             raise InputError(f"coefficient {label!r} has no numeric 'value'", file=path)
-    return doc
+        out.append(float(v))
+    return out

@@ -321,10 +321,9 @@ class MapKind:
 
 def _draw_torques(inp: MapInputs, path):
     from .forces import compute_torques
-    from .io import read_fit
+    from .io import fit_values
     terms = compute_torques(inp.world, inp.hypothesis, inp.observed)
-    fit = read_fit(inp.fit_path, inp.world.plate_names, labels=[t.label for t in terms])
-    coefs = [fit["coefficients"][t.label]["value"] for t in terms]
+    coefs = fit_values(inp.fit, [t.label for t in terms], inp.fit_path)
     return torque_chart(path, inp.world, terms, coefs, inp.observed)
 
 
