@@ -43,13 +43,14 @@ from bench_torques import HYPOTHESIS  # noqa: E402
 
 from torque import balance, sphere  # noqa: E402
 from torque.euler import RAD_S_PER_DEG_MYR, velocity_field  # noqa: E402
-from torque.forces import compute_torques  # noqa: E402
+from torque import compute_torques  # noqa: E402
 from torque.hypothesis import hypothesis_from_dict  # noqa: E402
 from torque.io import write_boundaries_geojson  # noqa: E402
 from torque.resample import monte_carlo_motions  # noqa: E402
 from torque.sphere import region_moments  # noqa: E402
 from torque.validate import check_world  # noqa: E402
-from torque.world import PlateGeometry, load_world  # noqa: E402
+from torque.io import load_world
+from torque.world import PlateGeometry  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 

@@ -18,9 +18,9 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 import numpy as np  # noqa: E402
 import synthetic_world as sw  # noqa: E402
 
-from torque import balance  # noqa: E402
+from torque import balance, diagnostics  # noqa: E402
 from torque.euler import RAD_S_PER_DEG_MYR  # noqa: E402
-from torque.forces import compute_torques  # noqa: E402
+from torque import compute_torques  # noqa: E402
 from torque.hypothesis import hypothesis_from_dict  # noqa: E402
 from torque.resample import monte_carlo_motions  # noqa: E402
 
@@ -62,7 +62,7 @@ def main():
     times = []
     for _ in range(args.repeat):
         t = time.perf_counter()
-        rep = balance.analyse(system, obs)
+        rep = diagnostics.analyse(system, obs)
         times.append(time.perf_counter() - t)
     t_fit = float(np.median(times))
     t = time.perf_counter()

@@ -17,7 +17,7 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 import numpy as np  # noqa: E402
 import synthetic_world as sw  # noqa: E402
 
-from torque.forces import compute_torques  # noqa: E402
+from torque import compute_torques  # noqa: E402
 from torque.hypothesis import hypothesis_from_dict  # noqa: E402
 from torque.world import PlateGeometry  # noqa: E402
 

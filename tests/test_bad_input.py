@@ -356,7 +356,7 @@ def test_broken_pipe_in_process_is_quiet(monkeypatch, tmp_path, capsys):
 
 def test_json_outputs_have_no_nan_tokens():
     # RFC 8259 has no token for NaN or infinity; they are written as null
-    from torque.cli import dumps
+    from torque.io import dumps
     text = dumps({"a": float("nan"), "b": np.array([1.0, np.inf]), "c": np.float64(-np.inf)})
     doc = json.loads(text, parse_constant=lambda name: pytest.fail(f"bare {name} token"))
     assert doc == {"a": None, "b": [1.0, None], "c": None}

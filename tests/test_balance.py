@@ -18,12 +18,13 @@ import pytest
 from scipy import stats
 from scipy.spatial.transform import Rotation
 
-from torque import balance, sphere
+from torque import balance, diagnostics, sphere
 from torque.errors import InputError
 from torque.euler import RAD_S_PER_DEG_MYR
-from torque.forces import compute_torques
+from torque import compute_torques
 from torque.hypothesis import hypothesis_from_dict
-from torque.world import Boundary, world_from_rings
+from torque.io import world_from_rings
+from torque.world import Boundary
 
 from .conftest import assert_refused as assert_bad, voronoi_rings
 
@@ -152,11 +153,11 @@ def test_f_test_equals_t_squared_and_information_criteria():
     s2 = rss[1] / (n - 3)
     se = np.sqrt(s2 * np.linalg.inv(X.T @ X)[2, 2])
     t = b[2] / se
-    res = balance.f_test(rss[0], 2, rss[1], 3, n)
+    res = diagnostics.f_test(rss[0], 2, rss[1], 3, n)
     assert res["F"] == pytest.approx(t**2, rel=1e-10)
     assert res["p_value"] == pytest.approx(2 * stats.t.sf(abs(t), n - 3), rel=1e-8)
     # Burnham and Anderson (2002): AIC = n ln(RSS/n) + 2k; BIC = n ln(RSS/n) + k ln n
-    ic = balance.information_criteria(rss[1], n, 3)
+    ic = diagnostics.information_criteria(rss[1], n, 3)
     assert ic["aic"] == pytest.approx(n * np.log(rss[1] / n) + 6)
     assert ic["bic"] == pytest.approx(n * np.log(rss[1] / n) + 3 * np.log(n))
     assert ic["aicc"] == pytest.approx(ic["aic"] + 2 * 3 * 4 / (n - 4))
@@ -167,7 +168,7 @@ def test_pole_ellipse_against_chi_square():
     # region of angular radius sqrt(chi2_2(0.95)) s / w (scipy.stats.chi2).
     w = np.array([0.0, 0.0, 1.0]) * RAD_S_PER_DEG_MYR
     s = 0.01 * RAD_S_PER_DEG_MYR
-    e = balance.pole_ellipse(w, s**2 * np.eye(3))
+    e = diagnostics.pole_ellipse(w, s**2 * np.eye(3))
     r = np.degrees(np.sqrt(stats.chi2.ppf(0.95, 2)) * s / np.linalg.norm(w))
     assert e["major_deg"] == pytest.approx(r) and e["minor_deg"] == pytest.approx(r)
     assert e["rate_stderr_deg_myr"] == pytest.approx(0.01)
@@ -204,8 +205,9 @@ def test_fitted_drag_implies_a_plausible_asthenosphere_viscosity(tmp_path):
     # Earth-sized demo planet with its invented (not forward-modelled) motions.
     from pathlib import Path
 
-    from torque.euler import read_motions, to_no_net_rotation
-    from torque.world import load_world
+    from torque.euler import to_no_net_rotation
+    from torque.io import read_motions
+    from torque.io import load_world
     root = Path(__file__).resolve().parents[1]
     world = load_world(root / "polygons_demo" / "world.toml")
     nnr, _ = to_no_net_rotation(world, read_motions(root / "polygons_demo" / "motions.csv"))
@@ -229,7 +231,8 @@ def test_fitted_drag_implies_a_plausible_asthenosphere_viscosity(tmp_path):
 def demo_files(tmp_path):
     """A kinded world on disk, its true motions, and hypothesis files."""
     w = kinded_world()
-    from torque.euler import Motions, write_motions
+    from torque.euler import Motions
+    from torque.io import write_motions
     from torque.io import write_boundaries_geojson
     feats = []
     g = w.geometry
@@ -299,11 +302,11 @@ def test_predict_with_fitted_coefficients_and_rank(demo_files, cli):
     status, out, err = cli("predict", d / "world.toml", d / "full.toml", "--coefficients",
                            d / "fit.json", "-o", d / "pred.csv")
     assert status == 0, err
-    from torque.euler import read_motions
+    from torque.io import read_motions
     pred = read_motions(d / "pred.csv")
     obs = read_motions(d / "obs.csv")
     assert len(pred.plates) == 16
-    assert np.median(balance.pole_distance_deg(pred.omega, obs.omega)) < 10
+    assert np.median(diagnostics.pole_distance_deg(pred.omega, obs.omega)) < 10
     status, out, err = cli("rank", d / "world.toml", d / "obs.csv", d / "small.toml",
                            d / "full.toml", "-o", d / "rank.csv", "--json", d / "rank.json")
     assert status == 0, err

@@ -11,7 +11,7 @@ import pytest
 
 from torque import sphere
 from torque.validate import require_valid
-from torque.world import load_world
+from torque.io import load_world
 
 from .conftest import assert_refused, line_feature, plate_feature, voronoi_rings
 

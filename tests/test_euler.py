@@ -13,7 +13,8 @@ from pyproj import Geod
 from scipy.spatial.transform import Rotation
 
 from torque import euler, sphere
-from torque.world import world_from_rings
+from torque import io as tio
+from torque.io import world_from_rings
 
 R = 6371e3
 GEOD = Geod(a=R, b=R)
@@ -151,8 +152,8 @@ def test_motions_csv_round_trip(tmp_path):
     rng = np.random.default_rng(3)
     m = euler.Motions.from_poles([f"X{i}" for i in range(20)], rng.uniform(-90, 90, 20),
                                  rng.uniform(-180, 180, 20), rng.uniform(-3, 3, 20))
-    euler.write_motions(tmp_path / "m.csv", m)
-    back = euler.read_motions(tmp_path / "m.csv")
+    tio.write_motions(tmp_path / "m.csv", m)
+    back = tio.read_motions(tmp_path / "m.csv")
     np.testing.assert_allclose(back.omega, m.omega, rtol=1e-13, atol=1e-28)
     rates = [float(r.split(",")[3]) for r in (tmp_path / "m.csv").read_text().split()[1:]]
     assert min(rates) >= 0

@@ -18,11 +18,12 @@ from scipy.spatial.transform import Rotation
 
 from torque import sphere
 from torque.euler import RAD_S_PER_DEG_MYR
-from torque.forces import compute_torques
+from torque import compute_torques
 from torque.grids import AgeGrid, FlowGrid
 from torque.hypothesis import hypothesis_from_dict
 from torque.lithosphere import Cooling, Physics
-from torque.world import Boundary, world_from_rings
+from torque.io import world_from_rings
+from torque.world import Boundary
 
 from .conftest import voronoi_rings
 

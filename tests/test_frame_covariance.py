@@ -11,8 +11,9 @@ import csv
 import numpy as np
 import pytest
 
-from torque.euler import RAD_S_PER_DEG_MYR, Motions, read_motions, to_no_net_rotation
-from torque.world import load_world
+from torque.euler import RAD_S_PER_DEG_MYR, Motions, to_no_net_rotation
+from torque.io import read_motions
+from torque.io import load_world
 
 from .conftest import here
 

@@ -1,6 +1,6 @@
 """Every command's output on the demo planet stays what it was: the safety net for
 restructuring the code (issue 11). The recorded outputs in ``tests/golden/`` were made by
-this module; a change that moves any number by more than a relative 1e-9 fails here.
+this module; a change that moves any number by more than a relative 1e-12 fails here.
 
 To record them again after a change that is *meant* to change results (and say so in the
 commit): ``python -m tests.test_golden``.
@@ -72,8 +72,10 @@ def outputs(tmp_path_factory):
 def test_output_is_unchanged(outputs, name):
     want = (GOLDEN / name).read_text()
     got = outputs[name]
-    # relative 1e-9: the last digits may differ between machines and library versions
-    assert_same_text_and_numbers(got, want, name, rtol=1e-9, atol=1e-12)
+    # Relative 1e-12, as issue 11 asks of a restructuring: numbers are written with 10 to 15
+    # significant digits, so this is "the same digits" up to the last one or two (which
+    # rounding in another BLAS or libm may move; common practice, no source).
+    assert_same_text_and_numbers(got, want, name, rtol=1e-12, atol=1e-300)
 
 
 if __name__ == "__main__":

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from torque.errors import InputError
-from torque.grids import read_ages, read_flow
+from torque.io import read_ages, read_flow
 
 
 def test_csv_and_netcdf_readers_agree_and_sampling_is_bilinear(tmp_path):
@@ -104,7 +104,7 @@ def test_torques_with_a_gridline_registered_half_degree_age_grid(tmp_path, cli):
 
     import xarray as xr
 
-    from torque.grids import read_ages as ra
+    from torque.io import read_ages as ra
     from .conftest import here
     demo = tmp_path / "demo"
     shutil.copytree(here().parent / "polygons_demo", demo)

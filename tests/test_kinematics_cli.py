@@ -151,7 +151,7 @@ def test_field_csv_geojson_and_netcdf(hemi, cli):
 
 def test_every_point_lies_in_a_plate_on_a_valid_world(voronoi_world):
     # Cannot happen on a valid world: dense random points and the poles all find a plate.
-    from torque.world import load_world
+    from torque.io import load_world
     path, gen = voronoi_world
     world = load_world(path)
     rng = np.random.default_rng(8)

@@ -15,7 +15,7 @@ from scipy.spatial import cKDTree
 
 from torque import sphere
 from torque.locate import PlateLocator
-from torque.world import world_from_rings
+from torque.io import world_from_rings
 
 from .conftest import voronoi_rings
 

@@ -4,12 +4,14 @@ itself are ModelError (a kind of InputError, so the command line exits 2)."""
 import numpy as np
 import pytest
 
-from torque.balance import analyse, assemble, predict
+from torque.balance import assemble, predict
+from torque.diagnostics import analyse
 from torque.errors import InputError, ModelError
-from torque.euler import read_motions
-from torque.forces import compute_torques
-from torque.hypothesis import hypothesis_from_dict, load_hypothesis
-from torque.world import load_world
+from torque.io import read_motions
+from torque import compute_torques
+from torque.hypothesis import hypothesis_from_dict
+from torque.io import load_hypothesis
+from torque.io import load_world
 
 from .conftest import here
 

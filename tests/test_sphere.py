@@ -216,7 +216,7 @@ def test_points_left_of_rings_and_arc_helpers():
 def test_drag_tensor_closed_forms():
     # Closed forms: for a hemisphere, R^2 int (I - r r^T) dA = R^2 (2 pi - 2 pi/3) I
     # = (4 pi / 3) R^2 I; summed over any tiling it is R^2 (4 pi - 4 pi/3) I = (8 pi/3) R^2 I.
-    from torque.world import world_from_rings
+    from torque.io import world_from_rings
     north = [[(0, 0), (120, 0), (240, 0)]]
     south = [[(0, 0), (240, 0), (120, 0)]]
     w = world_from_rings({"Upper": north, "Lower": south}, radius_km=1000.0, winding="strict")

@@ -11,8 +11,8 @@ import numpy as np
 import pytest
 
 from torque import sphere
-from torque.continents import read_continents
-from torque.world import load_world
+from torque.io import read_continents
+from torque.io import load_world
 
 from .conftest import assert_refused, feature_collection, plate_feature
 

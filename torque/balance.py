@@ -41,11 +41,6 @@ References
    *Geophys. J. R. Astr. Soc.* 42, 769-801; Chapple, W. M. and Tullis, T. E. (1977).
    Evaluation of the forces that drive the plates. *J. Geophys. Res.* 82, 1967-1984
    (the torque balance; page numbers from memory).
-.. [2] Burnham, K. P. and Anderson, D. R. (2002). *Model Selection and Multimodel
-   Inference*, 2nd ed. Springer, sec. 2.2 (AIC for least squares: n ln(RSS/n) + 2k).
-.. [3] Schwarz, G. (1978). Estimating the dimension of a model. *Ann. Stat.* 6, 461-464.
-.. [4] Draper, N. R. and Smith, H. (1998). *Applied Regression Analysis*, 3rd ed. Wiley
-   (extra sum of squares F-test for nested linear models; covariance of estimates).
 """
 
 from __future__ import annotations
@@ -53,10 +48,9 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import linalg, optimize, stats
+from scipy import linalg, optimize
 
 from .errors import InputError, ModelError
-from .euler import M_S_TO_MM_YR, RAD_S_PER_DEG_MYR, vector_to_pole
 
 WEIGHTINGS = ("velocity", "area", "none")
 CONFIDENCE = 0.95
@@ -130,8 +124,8 @@ class System:
 def assemble(world, hypothesis, terms) -> System:
     """Gather the force terms of a hypothesis into a :class:`System`."""
     P = world.geometry.n_plates
-    area, _, second = world.geometry.moments
-    D = area[:, None, None] * np.eye(3) - second
+    area = world.geometry.moments[0]
+    D = world.drag_tensor
     specs = [t.spec for t in terms]
     return System(
         labels=tuple(t.label for t in terms), kinds=tuple(t.kind for t in terms),
@@ -390,199 +384,44 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None) -> Fit:
 
 
 # ----------------------------------------------------------------------------------------
-# diagnostics
+# the registry of fit methods
 # ----------------------------------------------------------------------------------------
-def velocity_misfit(system: System, omega_pred, omega_obs):
-    """Per-plate RMS velocity misfit (mm/yr) and the global misfit numbers (exact)."""
-    dw = np.asarray(omega_pred) - np.asarray(omega_obs)
-    R = system.radius_m
-    per = np.einsum("pi,pij,pj->p", dw, system.D, dw)               # int |dw x r|^2 dA
-    obs = np.einsum("pi,pij,pj->p", omega_obs, system.D, omega_obs)
-    rms = R * np.sqrt(per / system.area) * M_S_TO_MM_YR
-    total_rms = R * np.sqrt(per.sum() / system.area.sum()) * M_S_TO_MM_YR
-    vr = 1.0 - per.sum() / obs.sum() if obs.sum() > 0 else np.nan
-    return rms, {"rms_velocity_mm_yr": float(total_rms),
-                 "variance_reduction": float(vr),
-                 "velocity_rss_m4_s2": float(per.sum() * R ** 4)}
+@dataclass(frozen=True)
+class FitMethod:
+    """One way of estimating the free coefficients, as :func:`torque.diagnostics.analyse`
+    runs it.
 
-
-def pole_covariance(system: System, coefficients, cov_free, omega_pred) -> np.ndarray:
-    """Covariance (rad/s)^2 of each predicted Euler vector, shape (P, 3, 3), from the
-    covariance of the free coefficients by linear propagation."""
-    c = np.asarray(coefficients, float)
-    M = np.tensordot(c, system.A, axes=1)
-    w = np.asarray(omega_pred).reshape(-1)
-    rhs = (system.A[system.free] @ w + system.b[system.free]).T
-    J = -np.linalg.solve(M, rhs)                                     # (3P, k)
-    full = J @ cov_free @ J.T
-    P = system.n_plates
-    return full.reshape(P, 3, P, 3)[np.arange(P), :, np.arange(P), :]
-
-
-def pole_ellipse(omega, cov, confidence: float = CONFIDENCE) -> dict:
-    """Confidence ellipse of a pole and the rate's standard error from a 3x3 covariance.
-
-    The pole direction ``u = w/|w|`` varies as ``du = (I - u u^T) dw / |w|``; its 2-D
-    covariance in the tangent plane gives the ellipse, scaled by the chi-square quantile
-    with 2 degrees of freedom (``scipy.stats.chi2``).
+    Attributes
+    ----------
+    name : str
+        Its key in :data:`FIT_METHODS` and its ``Fit.method``.
+    run : callable
+        ``run(system, omega_obs, earlier, weighting) -> Fit``; ``earlier`` maps the names
+        of the methods already run (in registry order) to their fits, so a method can
+        start from another's result.
+    describes : str
+        One line for the documentation.
     """
-    omega = np.asarray(omega, float)
-    rate = np.linalg.norm(omega)
-    if rate == 0 or not np.all(np.isfinite(cov)):
-        return {"major_deg": None, "minor_deg": None, "azimuth_deg": None,
-                "rate_stderr_deg_myr": None, "confidence": confidence}
-    u = omega / rate
-    east = np.cross([0.0, 0.0, 1.0], u)
-    east = east / np.linalg.norm(east) if np.linalg.norm(east) > 1e-12 else np.array([0, 1.0,
-                                                                                        0])
-    north = np.cross(u, east)
-    T = np.stack([east, north]) / rate                                # (2, 3)
-    c2 = T @ cov @ T.T
-    vals, vecs = np.linalg.eigh(c2)
-    k = np.sqrt(stats.chi2.ppf(confidence, 2))
-    major = np.degrees(k * np.sqrt(max(vals[1], 0)))
-    minor = np.degrees(k * np.sqrt(max(vals[0], 0)))
-    az = np.degrees(np.arctan2(vecs[0, 1], vecs[1, 1])) % 180.0
-    rate_se = np.sqrt(max(u @ cov @ u, 0)) / RAD_S_PER_DEG_MYR
-    return {"major_deg": float(major), "minor_deg": float(minor), "azimuth_deg": float(az),
-            "rate_stderr_deg_myr": float(rate_se), "confidence": confidence}
+
+    name: str
+    run: object
+    describes: str
 
 
-def force_budget(system: System, coefficients, omega) -> np.ndarray:
-    """Share of each term in each plate's driving torque, shape (P, K).
-
-    The driving torque of a plate is the sum of the motion-independent torques of all terms
-    (at their coefficients). A term's share is its torque (at the motions ``omega``)
-    projected on the driving torque's direction and divided by its magnitude: driving
-    terms' shares add to 1, resisting terms' come out negative (near -1 in all if the
-    plate is balanced).
-    """
-    c = np.asarray(coefficients, float)
-    P = system.n_plates
-    G = system.columns(omega).reshape(P, 3, -1) * c                   # (P, 3, K)
-    drive = (c[:, None] * system.b).sum(0).reshape(P, 3)
-    mag2 = np.einsum("pi,pi->p", drive, drive)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(mag2[:, None] > 0, np.einsum("pik,pi->pk", G, drive) / mag2[:, None],
-                        np.nan)
+def _run_torque(system, omega_obs, earlier, weighting):
+    return fit_torque(system, omega_obs, weighting)
 
 
-def residual_torque(system: System, coefficients, omega) -> np.ndarray:
-    """Sum of all terms' torques (N m) at the observed motions, per plate (P, 3)."""
-    return (system.columns(omega) @ np.asarray(coefficients, float)).reshape(-1, 3)
+def _run_velocity(system, omega_obs, earlier, weighting):
+    return fit_velocity(system, omega_obs, earlier.get("torque"))
 
 
-def pole_distance_deg(w1, w2) -> np.ndarray:
-    """Angle (degrees) between the poles of two sets of Euler vectors (P, 3)."""
-    n = np.linalg.norm(np.cross(w1, w2), axis=-1)
-    return np.degrees(np.arctan2(n, np.einsum("pi,pi->p", w1, w2)))
-
-
-@dataclass(frozen=True, eq=False)
-class Report:
-    """Everything ``torque fit`` reports: both fits, predictions and diagnostics."""
-
-    system: System
-    torque_fit: Fit
-    velocity_fit: Fit
-    omega_obs: np.ndarray
-    omega_pred: np.ndarray
-    pole_cov: np.ndarray
-    uncertainty: dict = field(default_factory=dict)
-
-    def __repr__(self) -> str:
-        return (f"Report({self.system.name!r}, {self.system.n_plates} plates, "
-                f"preferred {self.preferred!r})")
-
-    @property
-    def preferred(self) -> Fit:
-        return self.velocity_fit
-
-    def misfit(self):
-        return velocity_misfit(self.system, self.omega_pred, self.omega_obs)
-
-    def as_dict(self) -> dict:
-        s = self.system
-        pref = self.preferred
-        tf = self.torque_fit
-        coefs = {}
-        for i, l in enumerate(s.labels):
-            coefs[l] = {"value": float(pref.values[i]), "stderr": float(pref.stderr[i]),
-                        "free": bool(s.free[i]), "unit": s.units[i],
-                        "torque_space_value": float(tf.values[i]),
-                        "torque_space_stderr": float(tf.stderr[i])}
-        rms, glob = self.misfit()
-        ang = pole_distance_deg(self.omega_obs, self.omega_pred)
-        budget = force_budget(s, pref.values, self.omega_obs)
-        resid = residual_torque(s, pref.values, self.omega_obs)
-        olat, olon, orate = vector_to_pole(self.omega_obs)
-        plat, plon, prate = vector_to_pole(self.omega_pred)
-        plates = []
-        for p, name in enumerate(s.plates):
-            plates.append({
-                "plate": name,
-                "observed": {"lat": float(olat[p]), "lon": float(olon[p]),
-                             "rate": float(orate[p])},
-                "predicted": {"lat": float(plat[p]), "lon": float(plon[p]),
-                              "rate": float(prate[p])},
-                "pole_distance_deg": float(ang[p]),
-                "rate_ratio": float(prate[p] / orate[p]) if orate[p] > 0 else None,
-                "rms_velocity_mm_yr": float(rms[p]),
-                "residual_torque_nm": resid[p].tolist(),
-                "budget": {l: (None if not np.isfinite(budget[p, k]) else float(budget[p, k]))
-                           for k, l in enumerate(s.labels)},
-                "pole_ellipse": pole_ellipse(self.omega_pred[p], self.pole_cov[p]),
-            })
-        n = 3 * s.n_plates
-        k = s.n_free
-        ic = information_criteria(glob["velocity_rss_m4_s2"], n, k)
-        return {
-            "hypothesis": s.name,
-            "caution": "model-dependent research estimate; not for hazard or engineering use",
-            "preferred_fit": "velocity",
-            "why": "the velocity-space fit measures misfit in the observed plate velocities "
-                   "and does not depend on how torques are weighted; the torque-space fit is "
-                   "linear and serves as its start and for resampling",
-            "coefficients": coefs,
-            "plates": plates,
-            "misfit": {**glob, "n": n, "free_coefficients": k, **ic,
-                       "torque_space_rss": tf.rss,
-                       "torque_space_weighting": tf.info.get("weighting"),
-                       "active_bounds": list(pref.active_bounds)},
-            "uncertainty": self.uncertainty,
-        }
-
-
-def information_criteria(rss: float, n: int, k: int) -> dict:
-    """AIC, AICc and BIC for a least-squares fit with Gaussian errors [2]_ [3]_.
-
-    ``AIC = n ln(RSS/n) + 2k``, ``AICc = AIC + 2k(k+1)/(n-k-1)``, ``BIC = n ln(RSS/n) +
-    k ln(n)`` (constants common to all models dropped).
-    """
-    base = n * np.log(max(rss, 1e-300) / n)
-    aic = base + 2 * k
-    aicc = aic + (2 * k * (k + 1) / (n - k - 1) if n - k - 1 > 0 else np.inf)
-    return {"aic": float(aic), "aicc": float(aicc), "bic": float(base + k * np.log(n))}
-
-
-def f_test(rss_small: float, k_small: int, rss_big: float, k_big: int, n: int) -> dict:
-    """Extra-sum-of-squares F-test of a nested model against a bigger one [4]_.
-
-    ``F = ((RSS_s - RSS_b)/(k_b - k_s)) / (RSS_b/(n - k_b))``, p-value from
-    ``scipy.stats.f``.
-    """
-    df1, df2 = k_big - k_small, n - k_big
-    if df1 <= 0 or df2 <= 0 or rss_big <= 0:
-        return {"F": None, "p_value": None, "df": [df1, df2]}
-    F = ((rss_small - rss_big) / df1) / (rss_big / df2)
-    return {"F": float(F), "p_value": float(stats.f.sf(F, df1, df2)), "df": [df1, df2]}
-
-
-def analyse(system: System, omega_obs, weighting: str = "velocity") -> Report:
-    """Both fits, the prediction at the preferred coefficients and its uncertainty."""
-    omega_obs = np.asarray(omega_obs, float)
-    tf = fit_torque(system, omega_obs, weighting)
-    vf = fit_velocity(system, omega_obs, tf)
-    pred = predict(system, vf.values)
-    cov = pole_covariance(system, vf.values, vf.cov, pred)
-    return Report(system, tf, vf, omega_obs, pred, cov)
+#: Fit methods in the order :func:`torque.diagnostics.analyse` runs them. A new method is
+#: one entry here (its ``run`` may use the fits of the methods before it).
+FIT_METHODS = {
+    "torque": FitMethod("torque", _run_torque, "bounded linear least squares of the "
+                        "weighted torque balance"),
+    "velocity": FitMethod("velocity", _run_velocity, "nonlinear least squares of the "
+                          "area-integrated velocity misfit (preferred)"),
+}
+PREFERRED_FIT = "velocity"

@@ -19,15 +19,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import cached_property
-from pathlib import Path
 
 import numpy as np
 import shapely
 
 from . import sphere
-from .errors import InputError
 from .locate import PlateLocator, arc_boxes
-from .world import _features, _read_json, plates_from_features
 
 
 @dataclass(frozen=True, eq=False)
@@ -61,38 +58,6 @@ class Continents:
     def contains(self, xyz) -> np.ndarray:
         """Whether each unit vector ``(N, 3)`` lies on a continent."""
         return self.locator.locate(xyz) == 0
-
-
-def read_continents(path, winding: str = "auto") -> Continents:
-    """Read continental regions (GeoJSON Polygon/MultiPolygon features, any properties).
-
-    Continents must not overlap one another. ``winding`` is the world's key: ``"auto"``
-    takes the smaller region of each ring, ``"strict"`` the rings as written (RFC 7946).
-    """
-    path = Path(path)
-    feats = _features(_read_json(path), path, "continent polygons")
-    # plates_from_features wants a name per feature; continents need none.
-    named = []
-    for i, f in enumerate(feats):
-        g = dict(f)
-        g["properties"] = dict(f.get("properties") or {}, plate=f"continent {i}")
-        named.append(g)
-    _, geom, problems = plates_from_features(named, path, winding, noun="continent")
-    errs = [p for p in problems if p.severity == "error"]
-    if errs:
-        raise InputError("; ".join(f"feature {e.feature}: {e.message}" for e in errs[:3]),
-                         file=path)
-    c = Continents(geom.xyz, geom.ring_start, geom.ring_is_hole, geom.ring_polygon, str(path))
-    # continents alone (not a tiling): a cell held by two of them is an overlap
-    n_poly = int(geom.ring_polygon.max()) + 1
-    alone = PlateLocator(geom.xyz, geom.ring_start, geom.ring_polygon, geom.ring_is_hole,
-                         n_poly)
-    where = alone.overlaps()
-    if len(where):
-        lon, lat = sphere.xyz_to_lonlat(where[0])
-        raise InputError(f"continents overlap one another (near lon {float(lon):.2f}, lat "
-                         f"{float(lat):.2f}); merge the overlapping polygons", file=path)
-    return c
 
 
 def clip_moments(world, continents: Continents):

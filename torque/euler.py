@@ -15,15 +15,13 @@ References
 
 from __future__ import annotations
 
-import csv
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 from scipy.spatial.transform import Rotation
 
 from . import sphere
-from .errors import InputError, atomic_write, read_csv_rows
+from .errors import InputError
 
 MYR_S = 3.15576e13                               # s in a (Julian) million years
 YR_S = MYR_S / 1e6
@@ -255,8 +253,7 @@ def net_rotation(world, omega) -> np.ndarray:
     omega : ndarray, shape (P, 3)
         Angular velocity of each plate, in world plate order.
     """
-    area, _, second = world.geometry.moments
-    D = area[:, None, None] * np.eye(3) - second
+    D = world.drag_tensor
     return np.linalg.solve(D.sum(axis=0), np.einsum("pij,pj->i", D, omega))
 
 
@@ -268,124 +265,11 @@ def to_no_net_rotation(world, motions: Motions) -> tuple[Motions, np.ndarray]:
     (:meth:`Motions.subtract_combination`).
     """
     omega = motions.for_world(world)
-    area, _, second = world.geometry.moments
-    D = area[:, None, None] * np.eye(3) - second
+    D = world.drag_tensor
     G_world = np.linalg.solve(D.sum(axis=0), D)          # S^-1 D_q, world order
     w_net = np.einsum("qij,qj->i", G_world, omega)
     order = [world.plate_index[p] for p in motions.plates]
     return motions.subtract_combination(G_world[order]), w_net
-
-
-# ----------------------------------------------------------------------------------------
-# motions CSV
-# ----------------------------------------------------------------------------------------
-def read_motions(path) -> Motions:
-    """Read a motions CSV: header ``plate,lat,lon,rate`` (deg, deg, deg/Myr).
-
-    Extra columns are kept in ``Motions.extra``. If all of ``cov_xx, cov_xy, cov_xz, cov_yy,
-    cov_yz, cov_zz`` are present they are read as the covariance of the Cartesian Euler
-    vector in (deg/Myr)^2.
-    """
-    path = Path(path)
-    rows = [r for r in read_csv_rows(path) if not r[0].startswith("#")]
-    if not rows:
-        raise InputError("the file is empty; expected a header plate,lat,lon,rate", file=path)
-    header = [h.strip().lower() for h in rows[0]]
-    for need in ("plate", "lat", "lon", "rate"):
-        if need not in header:
-            raise InputError(f"the header has no column {need!r}", file=path,
-                             hint="the header must name plate,lat,lon,rate")
-    col = {h: i for i, h in enumerate(header)}
-    plates, values = [], []
-    has_cov = all(c in col for c in COV_COLUMNS)
-    covs = []
-    extra = {h: [] for h in header if h not in ("plate", "lat", "lon", "rate")}
-    for n, r in enumerate(rows[1:], start=2):
-        if len(r) < len(header):
-            raise InputError(f"row has {len(r)} fields, the header {len(header)}", file=path,
-                             where=f"line {n}")
-        name = r[col["plate"]].strip()
-        if not name:
-            raise InputError("empty plate name", file=path, where=f"line {n}")
-        vals = []
-        for key in ("lat", "lon", "rate"):
-            try:
-                v = float(r[col[key]])
-            except ValueError:
-                raise InputError(f"{key} is {r[col[key]]!r}, not a number", file=path,
-                                 where=f"line {n} (plate {name!r})") from None
-            if not np.isfinite(v):
-                raise InputError(f"{key} is not finite", file=path,
-                                 where=f"line {n} (plate {name!r})")
-            vals.append(v)
-        lat, lon, _ = vals
-        if not -90.0 <= lat <= 90.0:
-            raise InputError(f"pole latitude {lat:g} is out of [-90, 90]", file=path,
-                             where=f"line {n} (plate {name!r})")
-        if not -360.0 <= lon <= 360.0:
-            raise InputError(f"pole longitude {lon:g} is out of [-360, 360]", file=path,
-                             where=f"line {n} (plate {name!r})")
-        if name in plates:
-            raise InputError(f"plate {name!r} has a second row", file=path, where=f"line {n}")
-        plates.append(name)
-        values.append(vals)
-        for h in extra:
-            extra[h].append(r[col[h]])
-        if has_cov:
-            try:
-                c = [float(r[col[k]]) for k in COV_COLUMNS]
-            except ValueError:
-                raise InputError("covariance columns must be numbers", file=path,
-                                 where=f"line {n} (plate {name!r})") from None
-            if not np.all(np.isfinite(c)):
-                raise InputError("a covariance column is not finite (NaN or infinite)",
-                                 file=path, where=f"line {n} (plate {name!r})",
-                                 hint="give 0 for an exactly known component")
-            covs.append(c)
-    if not plates:
-        raise InputError("no rows after the header", file=path)
-    v = np.array(values)
-    cov = None
-    if has_cov:
-        c = np.array(covs) * RAD_S_PER_DEG_MYR ** 2
-        cov = np.stack([c[:, [0, 1, 2]], c[:, [1, 3, 4]], c[:, [2, 4, 5]]], axis=1)
-        size = np.abs(cov).max(axis=(1, 2))
-        low = np.linalg.eigvalsh(cov)[:, 0]
-        bad = np.nonzero(low < -1e-12 * np.maximum(size, 1e-300))[0]
-        if len(bad):
-            i = int(bad[0])
-            raise InputError(
-                "the covariance matrix is not positive semi-definite (its smallest "
-                f"eigenvalue is {low[i] / RAD_S_PER_DEG_MYR ** 2:.3g} (deg/Myr)^2)",
-                file=path, where=f"plate {plates[i]!r}",
-                hint="check the cov_* columns: |cov_xy| <= sqrt(cov_xx cov_yy) and so on")
-    return Motions.from_poles(plates, v[:, 0], v[:, 1], v[:, 2], cov=cov, extra=extra,
-                              source=str(path))
-
-
-def write_motions(path, motions: Motions, plates=None) -> None:
-    """Write a motions CSV: ``plate,lat,lon,rate`` with rate >= 0 and 15 significant digits.
-
-    ``plates`` orders and selects the rows (default: the order of ``motions``). The
-    covariance, if known, is written in the ``cov_*`` columns, (deg/Myr)^2.
-    """
-    idx = motions.index()
-    names = list(plates) if plates is not None else list(motions.plates)
-    lat, lon, rate = motions.poles
-    header = ["plate", "lat", "lon", "rate"]
-    if motions.cov is not None:
-        header += list(COV_COLUMNS)
-    with atomic_write(path, newline="") as fh:
-        w = csv.writer(fh)
-        w.writerow(header)
-        for p in names:
-            i = idx[p]
-            row = [p, f"{lat[i]:.15g}", f"{lon[i]:.15g}", f"{rate[i]:.15g}"]
-            if motions.cov is not None:
-                c = motions.cov[i] / RAD_S_PER_DEG_MYR ** 2
-                row += [f"{c[a, b]:.15g}" for a, b in ((0, 0), (0, 1), (0, 2), (1, 1),
-                                                      (1, 2), (2, 2))]
-            w.writerow(row)
 
 
 # ----------------------------------------------------------------------------------------

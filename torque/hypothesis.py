@@ -8,14 +8,13 @@ has a ``kind`` (one module of :mod:`torque.forces`), a ``coefficient`` (a number
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 
 from .errors import InputError
-from .lithosphere import Physics
-from .world import read_toml
+from .lithosphere import Cooling, Physics
 
 TOP_KEYS = ("name", "physics", "force", "spread")
 COMMON_KEYS = {
@@ -120,13 +119,6 @@ def parse_force(entry: dict, index: int, file=None) -> ForceSpec:
     return ForceSpec(kind, label, value, (float(bounds[0]), float(bounds[1])), options)
 
 
-def load_hypothesis(path) -> Hypothesis:
-    """Read a hypothesis TOML file (see the contract); errors name the key and the file."""
-    path = Path(path)
-    cfg = read_toml(path)
-    return hypothesis_from_dict(cfg, name=path.stem, file=path)
-
-
 def hypothesis_from_dict(cfg: dict, name: str = "hypothesis", file=None) -> Hypothesis:
     """A hypothesis from the same structure as the TOML file, e.g. for use in notebooks."""
     unknown = sorted(set(cfg) - set(TOP_KEYS))
@@ -153,7 +145,61 @@ def hypothesis_from_dict(cfg: dict, name: str = "hypothesis", file=None) -> Hypo
                              f"and {i + 1}); give one a different label", file=file)
         seen[f.label] = i + 1
     title = cfg.get("name", name)
-    from .resample import parse_spread
     spread = parse_spread(cfg.get("spread", {}), physics, file)
     return Hypothesis(str(title), physics, tuple(forces), None if file is None else str(file),
                       spread)
+
+
+def parse_spread(table: dict, physics, file=None) -> dict:
+    """Physics parameters given as distributions: ``{key: {"normal": sd}}`` or
+    ``{key: {"uniform": [low, high]}}`` (the hypothesis file's ``[spread]`` table)."""
+    names = {f.name for f in dataclasses.fields(physics)} - {"model"}
+    out = {}
+    for key, spec in table.items():
+        if key not in names:
+            raise InputError(f"[spread] names {key!r}, which is not a [physics] number",
+                             file=file, hint=f"valid: {', '.join(sorted(names))}")
+        if not isinstance(spec, dict) or len(spec) != 1:
+            raise InputError(f"[spread] {key} must be {{normal = SD}} or "
+                             "{uniform = [LOW, HIGH]}", file=file)
+        (kind, val), = spec.items()
+        if kind == "normal" and isinstance(val, (int, float)) and val > 0:
+            out[key] = ("normal", float(val))
+        elif (kind == "uniform" and isinstance(val, list) and len(val) == 2
+              and all(isinstance(v, (int, float)) for v in val) and val[0] < val[1]):
+            out[key] = ("uniform", (float(val[0]), float(val[1])))
+        else:
+            raise InputError(f"[spread] {key}: {spec!r} is not {{normal = SD > 0}} or "
+                             "{uniform = [LOW, HIGH]} with LOW < HIGH", file=file)
+    return out
+
+
+def slab_depth_km(hypothesis: Hypothesis) -> float:
+    """The depth (km) the hypothesis' first slab entry gives its slabs, else the default."""
+    from .forces.slab import DEFAULT_DEPTH_KM
+    return next((f.options.get("depth_km") for f in hypothesis.forces
+                 if f.kind == "slab" and "depth_km" in f.options), DEFAULT_DEPTH_KM)
+
+
+def cooling_table(hypothesis: Hypothesis, ages_myr) -> list:
+    """The cooling model of a hypothesis against age: the rows of ``torque cooling``.
+
+    Parameters
+    ----------
+    hypothesis : Hypothesis
+        Its physics, and the depth of its slab entry (:func:`slab_depth_km`).
+    ages_myr : sequence of float
+
+    Returns
+    -------
+    list of dict
+        One per age: ``age_myr``, ``depth_m``, ``heat_flow_mw_m2``, ``ridge_push_n_m``,
+        ``slab_pull_n_m`` (the negative buoyancy per metre of trench of a slab of that age
+        reaching the slab depth).
+    """
+    c = Cooling(hypothesis.physics)
+    t = np.asarray(ages_myr, float)
+    cols = (t, c.depth_m(t), c.heat_flow_mw_m2(t), c.ridge_push_n_m(t),
+            c.slab_pull_n_m(t, slab_depth_km(hypothesis)))
+    keys = ("age_myr", "depth_m", "heat_flow_mw_m2", "ridge_push_n_m", "slab_pull_n_m")
+    return [dict(zip(keys, map(float, row))) for row in zip(*cols)]

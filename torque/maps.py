@@ -18,7 +18,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import sphere
-from .errors import atomic_path
+from .euler import velocity_en
+from .forces import build_terms
+from .forces.context import Context
+from .io.files import atomic_path
 
 PLATE_COLOURS = ["#9DB8D9", "#E8C77D", "#A9CFA3", "#D9A7BE", "#C9C1E3", "#E6B08F",
                  "#A6D4D1", "#CFCF9C"]
@@ -173,7 +176,6 @@ def velocity_map(world, path, omega_obs, omega_pred=None, continents=None):
     """Velocity arrows of observed (black) and predicted (orange) motions."""
     import cartopy.crs as ccrs
 
-    from .euler import velocity_en
     fig, ax = _axes(f"{world.name}: plate velocities (mm/yr)")
     draw_plates(ax, world, continents, labels=False)
     xyz = _sample_points()
@@ -206,12 +208,12 @@ def _ellipse_lonlat(lat, lon, major_deg, minor_deg, azimuth_deg, n=72):
     return lo, la
 
 
-def poles_map(world, path, fit: dict):
+def poles_map(world, path, fit):
     """Observed and predicted Euler poles with the predicted poles' 95 % ellipses."""
     import cartopy.crs as ccrs
     fig, ax = _axes(f"{world.name}: Euler poles, observed (black) and predicted (orange)")
     draw_plates(ax, world, labels=False)
-    for p in fit["plates"]:
+    for p in fit.plates:
         o, q = p["observed"], p["predicted"]
         ax.plot(o["lon"], o["lat"], "o", ms=6, mfc="white", mec=OBSERVED_COLOUR,
                 transform=ccrs.PlateCarree(), zorder=6)
@@ -232,7 +234,6 @@ def misfit_map(world, path, omega_obs, omega_pred):
     """Magnitude of the predicted minus observed velocity (mm/yr)."""
     import cartopy.crs as ccrs
 
-    from .euler import velocity_en
     fig, ax = _axes(f"{world.name}: velocity misfit |v_pred - v_obs| (mm/yr)")
     lon, lat, idx = _raster(world, 1.0)
     LON, LAT = np.meshgrid(lon, lat)
@@ -247,24 +248,24 @@ def misfit_map(world, path, omega_obs, omega_pred):
     return _save(fig, path)
 
 
-def budget_chart(path, fit: dict):
+def budget_chart(path, fit):
     """Per plate, each term's share of the driving torque (stacked bars)."""
     plt = _plt()
-    plates = [p["plate"] for p in fit["plates"]]
-    labels = list(fit["coefficients"])
+    plates = [p["plate"] for p in fit.plates]
+    labels = list(fit.coefficients)
     fig, ax = plt.subplots(figsize=(9, 0.35 * len(plates) + 1.5))
     left_pos = np.zeros(len(plates))
     left_neg = np.zeros(len(plates))
     cols = PLATE_COLOURS + list(KIND_STYLE[k]["color"] for k in KIND_STYLE)
     for k, l in enumerate(labels):
-        v = np.array([p["budget"].get(l) or 0.0 for p in fit["plates"]])
+        v = np.array([p["budget"].get(l) or 0.0 for p in fit.plates])
         start = np.where(v >= 0, left_pos, left_neg)
         ax.barh(plates, v, left=start, color=cols[k % len(cols)], label=l, edgecolor="white")
         left_pos += np.where(v >= 0, v, 0)
         left_neg += np.where(v < 0, v, 0)
     ax.axvline(0, color="k", lw=0.8)
     ax.set_xlabel("share of the plate's driving torque (driving > 0, resisting < 0)")
-    ax.set_title(f"force budget: {fit['hypothesis']}")
+    ax.set_title(f"force budget: {fit.hypothesis}")
     ax.legend(fontsize=8, loc="lower right")
     ax.invert_yaxis()
     return _save(fig, path)
@@ -298,15 +299,38 @@ def torque_chart(path, world, terms, coefficients, omega):
 # ----------------------------------------------------------------------------------------
 @dataclass(frozen=True)
 class MapInputs:
-    """What a map may draw from, already read and checked (None where not given)."""
+    """What a map may draw from, already read and checked (None where not given).
 
-    world: object
-    continents: object = None
-    observed: np.ndarray | None = None        # (P, 3) rad/s, world plate order
-    predicted: np.ndarray | None = None       # (P, 3) rad/s
-    fit: dict | None = None                   # the JSON of torque fit
+    Attributes
+    ----------
+    inputs : Inputs
+        The world and its data (:class:`torque.io.Inputs`, or any
+        :class:`~torque.data.WorldData`).
+    observed, predicted : ndarray, shape (P, 3), optional
+        Euler vectors (rad/s) in world plate order.
+    fit : FitResult, optional
+        The results of ``torque fit``.
+    fit_path : str, optional
+        The fit's file, named in messages.
+    hypothesis : Hypothesis, optional
+    """
+
+    inputs: object
+    observed: np.ndarray | None = None
+    predicted: np.ndarray | None = None
+    fit: object = None
     fit_path: str | None = None
-    hypothesis: object = None                 # Hypothesis
+    hypothesis: object = None
+
+    @property
+    def world(self):
+        """The world."""
+        return self.inputs.world
+
+    @property
+    def continents(self):
+        """The world's continents, or None."""
+        return self.inputs.continents
 
 
 @dataclass(frozen=True)
@@ -318,12 +342,13 @@ class MapKind:
     allows: tuple
     draw: object                              # draw(inputs: MapInputs, path)
 
+    def __repr__(self) -> str:
+        return f"MapKind({self.shows!r}, needs {list(self.needs)})"
+
 
 def _draw_torques(inp: MapInputs, path):
-    from .forces import compute_torques
-    from .io import fit_values
-    terms = compute_torques(inp.world, inp.hypothesis, inp.observed)
-    coefs = fit_values(inp.fit, [t.label for t in terms], inp.fit_path)
+    terms = build_terms(Context(inp.inputs, inp.hypothesis, inp.observed))
+    coefs = inp.fit.values([t.label for t in terms], file=inp.fit_path)
     return torque_chart(path, inp.world, terms, coefs, inp.observed)
 
 

@@ -14,7 +14,7 @@ import numpy as np
 
 from . import sphere
 from .euler import M_S_TO_MM_YR
-from .world import Boundary
+from .world import Boundary, BoundarySet
 
 #: A boundary is a transform when its mean obliquity is within this many degrees of 90.
 TRANSFORM_WITHIN_DEG = 30.0
@@ -48,13 +48,11 @@ class BoundarySamples:
 
 def sample_boundaries(boundaries, spacing_rad: float) -> BoundarySamples:
     """Split every boundary into pieces of at most ``spacing_rad`` and sample their midpoints."""
-    a = np.concatenate([b.xyz[:-1] for b in boundaries])
-    b_ = np.concatenate([b.xyz[1:] for b in boundaries])
-    owner = np.concatenate([np.full(len(b.xyz) - 1, k) for k, b in enumerate(boundaries)])
-    pa, pb, piece = sphere.densify_arcs(a, b_, spacing_rad)
+    arcs = BoundarySet.from_boundaries(boundaries, {})
+    pa, pb, piece = sphere.densify_arcs(arcs.a, arcs.b, spacing_rad)
     n, theta = sphere.arc_pole(pa, pb)
     mid = sphere.slerp_points(pa, pb, 0.5)
-    return BoundarySamples(owner[piece], mid, np.cross(n, mid), n, theta)
+    return BoundarySamples(arcs.line[piece], mid, np.cross(n, mid), n, theta)
 
 
 @dataclass(frozen=True, eq=False)
@@ -81,9 +79,8 @@ class BoundaryMotion:
 
 def boundary_motion(world, omega, samples: BoundarySamples) -> BoundaryMotion:
     """Relative motion at boundary samples for plate angular velocities ``omega`` (P, 3)."""
-    idx = world.plate_index
-    left = np.array([idx[b.left] for b in world.boundaries])[samples.line]
-    right = np.array([idx[b.right] for b in world.boundaries])[samples.line]
+    bs = world.boundary_set
+    left, right = bs.left[samples.line], bs.right[samples.line]
     v = np.cross(omega[right] - omega[left], samples.xyz) * world.radius_m * M_S_TO_MM_YR
     # the normal points into the left plate, so moving apart is along -normal
     return BoundaryMotion(samples, -sphere.dot(v, samples.normal),

@@ -16,14 +16,31 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .balance import (System, analyse, f_test, fit_torque, information_criteria, predict,
-                      velocity_misfit)
+from .balance import System, fit_torque, predict
+from .diagnostics import analyse, f_test, information_criteria, velocity_misfit
 from .errors import InputError
-
 
 
 @dataclass(frozen=True)
 class Row:
+    """One hypothesis in a ranking.
+
+    Attributes
+    ----------
+    name : str
+    rms_velocity_mm_yr : float
+        RMS velocity misfit of the preferred fit over all plates.
+    variance_reduction : float
+        1 - misfit / observed, both area-integrated squared velocities.
+    free : int
+        Number of free coefficients.
+    aic, aicc, bic : float
+    cv_rms_mm_yr : float
+        Leave-one-plate-out cross-validation error.
+    coefficients : dict
+        ``{label: value}`` of the free coefficients.
+    """
+
     name: str
     rms_velocity_mm_yr: float
     variance_reduction: float
@@ -53,7 +70,24 @@ def cross_validation(system: System, omega_obs, weighting="velocity") -> float:
 
 
 def rank(systems, omega_obs, weighting="velocity"):
-    """Rows (sorted by AIC) and F-tests of nested pairs, for a list of :class:`System`."""
+    """Fit every hypothesis and rank them.
+
+    Parameters
+    ----------
+    systems : sequence of System
+        One per hypothesis, on the same world, with different names.
+    omega_obs : ndarray, shape (P, 3)
+        Observed Euler vectors (rad/s), mantle at rest.
+    weighting : {"velocity", "area", "none"}
+        Of the torque-space fits.
+
+    Returns
+    -------
+    rows : list of Row
+        Sorted by AIC, lowest first.
+    tests : list of dict
+        F-tests of the nested pairs: ``smaller``, ``bigger``, ``F``, ``p_value``, ``df``.
+    """
     rows, rss, specs = [], {}, {}
     for s in systems:
         rep = analyse(s, omega_obs, weighting)
@@ -90,6 +124,3 @@ def _nested(small: System, big: System) -> bool:
         if not (np.array_equal(small.b[i], big.b[j]) and np.array_equal(small.A[i], big.A[j])):
             return False
     return True
-
-
-

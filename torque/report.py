@@ -8,7 +8,7 @@ import base64
 import html
 from pathlib import Path
 
-from .errors import atomic_write
+from .io.files import atomic_write
 
 CAUTION = ("These are model-dependent research estimates. They depend on the plate model, "
            "the cooling model, the hypothesis and the observed motions, and are not inputs "
@@ -48,13 +48,13 @@ def _tables(run: dict) -> list:
     for name, fit in run["fits"].items():
         rows = []
         truth = (run.get("truth") or {}).get("true_coefficients", {})
-        for label, c in fit["coefficients"].items():
-            rows.append([label, _fmt(c["value"]),
-                         _fmt(c["stderr"]) if c["free"] else "fixed",
-                         _fmt(c["torque_space_value"]) if c["free"] else "",
-                         c["unit"], _fmt(truth.get(label)) if truth and
-                         fit["hypothesis"] == run["truth"]["hypothesis"] else ""])
-        out.append((f"Fitted coefficients: {fit['hypothesis']}",
+        for label, c in fit.coefficients.items():
+            rows.append([label, _fmt(c.value),
+                         _fmt(c.stderr) if c.free else "fixed",
+                         _fmt(c.torque_space_value) if c.free else "",
+                         c.unit, _fmt(truth.get(label)) if truth and
+                         fit.hypothesis == run["truth"]["hypothesis"] else ""])
+        out.append((f"Fitted coefficients: {fit.hypothesis}",
                     ["term", "value (velocity space)", "std. error", "torque space", "unit",
                      "true"], rows, None))
     best = run["fits"][run["rank"][0]["name"]]
@@ -62,8 +62,8 @@ def _tables(run: dict) -> list:
              _fmt(p["observed"]["rate"]),
              f"{p['predicted']['lat']:.2f}, {p['predicted']['lon']:.2f}",
              _fmt(p["predicted"]["rate"]), _fmt(p["pole_distance_deg"]),
-             _fmt(p["rms_velocity_mm_yr"])] for p in best["plates"]]
-    out.append((f"Per-plate fit of the best hypothesis ({best['hypothesis']})",
+             _fmt(p["rms_velocity_mm_yr"])] for p in best.plates]
+    out.append((f"Per-plate fit of the best hypothesis ({best.hypothesis})",
                 ["plate", "observed pole (lat, lon)", "rate deg/Myr", "predicted pole",
                  "rate deg/Myr", "pole distance deg", "RMS misfit mm/yr"], rows, None))
     return out

@@ -97,30 +97,6 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
                     refitted_with_bounds=int(len(broke)))
 
 
-def parse_spread(table: dict, physics, file=None) -> dict:
-    """Physics parameters given as distributions: ``{key: {"normal": sd}}`` or
-    ``{key: {"uniform": [low, high]}}`` (the hypothesis file's ``[spread]`` table)."""
-    names = {f.name for f in dataclasses.fields(physics)} - {"model"}
-    out = {}
-    for key, spec in table.items():
-        if key not in names:
-            raise InputError(f"[spread] names {key!r}, which is not a [physics] number",
-                             file=file, hint=f"valid: {', '.join(sorted(names))}")
-        if not isinstance(spec, dict) or len(spec) != 1:
-            raise InputError(f"[spread] {key} must be {{normal = SD}} or "
-                             "{uniform = [LOW, HIGH]}", file=file)
-        (kind, val), = spec.items()
-        if kind == "normal" and isinstance(val, (int, float)) and val > 0:
-            out[key] = ("normal", float(val))
-        elif (kind == "uniform" and isinstance(val, list) and len(val) == 2
-              and all(isinstance(v, (int, float)) for v in val) and val[0] < val[1]):
-            out[key] = ("uniform", (float(val[0]), float(val[1])))
-        else:
-            raise InputError(f"[spread] {key}: {spec!r} is not {{normal = SD > 0}} or "
-                             "{uniform = [LOW, HIGH]} with LOW < HIGH", file=file)
-    return out
-
-
 def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
                         seed: int = 0, weighting: str = "velocity") -> dict:
     """Refit for ``n`` draws of the physics parameters from their distributions.

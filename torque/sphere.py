@@ -103,7 +103,17 @@ def angle_between(a, b) -> np.ndarray:
 
 
 def east_north(xyz) -> tuple[np.ndarray, np.ndarray]:
-    """Local unit east and north vectors at points ``(..., 3)`` (not at the poles)."""
+    """Local unit east and north vectors at points (not at the poles).
+
+    Parameters
+    ----------
+    xyz : array_like, shape (..., 3)
+        Unit vectors.
+
+    Returns
+    -------
+    east, north : ndarray, shape (..., 3)
+    """
     xyz = np.asarray(xyz, dtype=float)
     east = np.cross([0.0, 0.0, 1.0], xyz)
     east = normalize(east)
@@ -410,6 +420,34 @@ def region_moments(xyz, ring_start, ring_owner, ring_is_hole, n_owner: int):
     second[:, j, i] = per_owner[:, 4:] / 6.0
     second += area[:, None, None] / 3.0 * np.eye(3)
     return area, first, second
+
+
+def drag_tensor(area, second) -> np.ndarray:
+    """``int (I - r r^T) dA`` of regions from their area and second moment.
+
+    Parameters
+    ----------
+    area : array_like, shape (P,)
+        Areas on the unit sphere (steradians).
+    second : array_like, shape (P, 3, 3)
+        ``int r r^T dA`` on the unit sphere.
+
+    Returns
+    -------
+    ndarray, shape (P, 3, 3)
+        The basal drag tensor on the unit sphere: a plate turning at ``omega`` over a
+        mantle at rest, with traction ``-C v``, feels the torque ``-C R^4 D omega``.
+
+    Examples
+    --------
+    The whole sphere: ``int r r^T dA = (4 pi / 3) I``, so ``D = (8 pi / 3) I``.
+
+    >>> D = drag_tensor([4 * np.pi], [4 * np.pi / 3 * np.eye(3)])
+    >>> np.allclose(D[0], 8 * np.pi / 3 * np.eye(3))
+    True
+    """
+    area = np.asarray(area, float)
+    return area[..., None, None] * np.eye(3) - np.asarray(second, float)
 
 
 def ring_perimeter(xyz, ring_start) -> np.ndarray:

@@ -13,6 +13,7 @@ import shapely
 from scipy.spatial import cKDTree
 
 from . import sphere
+from .data import WorldData
 from .errors import InputError
 from .locate import arc_boxes
 from .world import Problem, World
@@ -329,23 +330,35 @@ def _boundary_problems(world: World) -> list:
     return probs
 
 
-def _continent_problems(world: World) -> list:
-    """The continents file: readable, no overlaps, and how exactly it clips to plates."""
-    if "continents" not in world.paths:
+def _continent_problems(data: WorldData) -> list:
+    """The continents: readable, no overlaps, and how exactly they clip to plates."""
+    world = data.world
+    if "continents" not in world.paths and data.continents is None:
         return []
-    from .continents import clip_moments, read_continents
-    path = world.paths["continents"]
+    path = world.paths.get("continents")
     try:
-        cont = read_continents(path, world.winding)
+        part = data.continental_part
     except InputError as exc:
         return [Problem("error", f"continents: {exc.message}", exc.file or path)]
-    *_, warnings = clip_moments(world, cont)
-    return [Problem("warning", w, path) for w in warnings]
+    return [Problem("warning", w, path) for w in part.warnings]
 
 
-def check_world(world: World) -> CheckReport:
+def check_world(world) -> CheckReport:
     """Run every check on a world.
 
+    Parameters
+    ----------
+    world : World or WorldData
+        With a :class:`~torque.data.WorldData` (such as :class:`torque.io.Inputs`, which
+        reads the world's continents file), its continents are checked too.
+
+    Returns
+    -------
+    CheckReport
+        The per-plate summary and every problem found.
+
+    Notes
+    -----
     Checks: problems found while reading (malformed rings, unknown plates, subduction
     without a sinking plate); the plates tile the sphere (total area to 1e-9 relative, and
     no gaps or overlaps at the centres of a 0.25 degree grid); no ring crosses itself;
@@ -353,9 +366,11 @@ def check_world(world: World) -> CheckReport:
     the right way round; continents (if any) do not overlap, and none of their edges runs
     along a plate edge (where clipping would depend on rounding).
     """
+    data = world if isinstance(world, WorldData) else WorldData(world)
+    world = data.world
     probs = list(world.problems)
     probs += tiling_problems(world)
     probs += _crossing_problems(world)
     probs += _boundary_problems(world)
-    probs += _continent_problems(world)
+    probs += _continent_problems(data)
     return CheckReport(world, _plate_summary(world), probs)

@@ -14,7 +14,9 @@ A :class:`ForceTerm` holds, for a coefficient of 1, the torque on every plate sp
 part independent of the plates' motion and a part linear in their angular velocities, so
 that the torque of the term is ``coefficient * (driving + resisting @ omega)`` and the
 torque balance is a linear system. Adding a kind is adding one module and one line in
-:data:`KINDS`.
+:func:`_registry`; a module may also hold several kinds of one shape as objects with these
+attributes, listed in its ``KINDS`` (the boundary resistances of
+:mod:`torque.forces.resistance`).
 """
 
 from __future__ import annotations
@@ -27,9 +29,12 @@ __all__ = ["ForceTerm", "Pieces", "Context", "empty_term", "KINDS", "build_terms
 
 
 def _registry():
-    from . import collision, drag, mantle, ridge, slab, suction, transform, trench
-    mods = (ridge, slab, suction, drag, mantle, transform, trench, collision)
-    return {m.KIND: m for m in mods}
+    from . import drag, mantle, resistance, ridge, slab, suction
+    kinds = []
+    for m in (ridge, slab, suction, drag, mantle, resistance):
+        # a module is one kind, or lists several in KINDS
+        kinds += getattr(m, "KINDS", (m,))
+    return {k.KIND: k for k in kinds}
 
 
 KINDS = _registry()

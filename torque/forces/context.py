@@ -1,4 +1,4 @@
-"""The :class:`Context` the force modules share: world, physics, motions, derived data."""
+"""The :class:`Context` the force modules share: one hypothesis on one world's data."""
 
 from __future__ import annotations
 
@@ -7,13 +7,32 @@ from functools import cached_property
 import numpy as np
 
 from .. import sphere
+from ..data import WorldData
 from ..errors import InputError
 from ..lithosphere import Cooling
 from .base import Pieces
 
 
 class Context:
-    """What the force modules share: the world, physics, motions and derived data."""
+    """What the force modules share: the world's data, the physics and the motions.
+
+    A context reads no file and leaves nothing behind: everything derived from the world
+    alone (node labels, continental moments, checked grids, synthesised ages) comes from
+    its :class:`~torque.data.WorldData`, shared by every hypothesis on the same world, and
+    what a user should know about how a term was made is returned in the term's ``notes``.
+
+    Parameters
+    ----------
+    data : WorldData or World
+        The world and its data; a bare :class:`~torque.world.World` is wrapped together
+        with ``ages``, ``continents`` and ``flow``.
+    hypothesis : Hypothesis
+    omega : ndarray, shape (P, 3), optional
+        Angular velocities (rad/s) in world plate order: needed to synthesise ages when the
+        world has none.
+    ages, continents, flow : optional
+        Data objects in memory, used only when ``data`` is a bare world.
+    """
 
     #: spacing of the pieces along boundaries where a force varies along them (km)
     PIECE_KM = 50.0
@@ -22,151 +41,94 @@ class Context:
     #: distance into the subducting plate at which the trench age is read (km)
     TRENCH_PROBE_KM = 30.0
 
-    def __init__(self, world, hypothesis, omega=None, ages=None, continents=None,
+    def __init__(self, data, hypothesis, omega=None, *, ages=None, continents=None,
                  flow=None):
-        self.world = world
+        if not isinstance(data, WorldData):
+            data = WorldData(data, ages=ages, continents=continents, flow=flow)
+        self.data = data
+        self.world = data.world
         self.hypothesis = hypothesis
         self.physics = hypothesis.physics
         self.cooling = Cooling(hypothesis.physics)
         self.omega = omega
-        self._ages = ages
-        self._continents = continents
-        self._flow = flow
-        self.R = world.radius_m
+        self.R = self.world.radius_m
 
-    # -- data files -----------------------------------------------------------------------
-    @cached_property
+    def __repr__(self) -> str:
+        return f"Context({self.world.name!r}, hypothesis {self.hypothesis.name!r})"
+
+    # -- data -----------------------------------------------------------------------------
+    @property
     def continents(self):
-        if self._continents is not None:
-            return self._continents
-        if "continents" not in self.world.paths:
-            return None
-        from ..continents import read_continents
-        return read_continents(self.world.paths["continents"], self.world.winding)
+        """The world's continents, or None."""
+        return self.data.continents
 
-    clip_warnings: tuple = ()
-
-    @cached_property
-    def continent_moments(self):
-        """Exact (area, first, second) of the continental part of each plate (zeros if none)."""
-        P = self.world.geometry.n_plates
-        if self.continents is None:
-            return np.zeros(P), np.zeros((P, 3)), np.zeros((P, 3, 3))
-        from ..continents import clip_moments
-        area, first, second, warnings = clip_moments(self.world, self.continents)
-        self.clip_warnings = tuple(warnings)
-        return area, first, second
+    @property
+    def flow(self):
+        """The mantle flow grid; InputError if the world has none."""
+        grid = self.data.flow
+        if grid is None:
+            raise InputError("a 'mantle' force needs a mantle flow grid: add 'mantle_flow' to "
+                             "the world file", file=self.world.paths.get("world"))
+        return grid
 
     def drag_tensor(self, region: str) -> np.ndarray:
         """``int (I - r r^T) dA`` over the region of each plate (unit sphere), (P, 3, 3)."""
-        area, _, second = self.world.geometry.moments
-        D = area[:, None, None] * np.eye(3) - second
-        if region == "all":
-            return D
-        if self.continents is None:
-            raise InputError(f"region {region!r} needs continents: add a 'continents' file to "
-                             "the world", file=self.world.paths.get("world"))
-        ca, _, cs = self.continent_moments
-        Dc = ca[:, None, None] * np.eye(3) - cs
-        return Dc if region == "continent" else D - Dc
+        return self.data.drag_tensor(region)
+
+    @property
+    def clip_warnings(self) -> tuple:
+        """Where clipping continents to plates is inexact (for a term's notes)."""
+        return self.data.continental_part.warnings if self.continents is not None else ()
 
     @cached_property
     def ages(self):
-        """``(AgeGrid, synthesised)``: the world's grid, else one made from ridges and rates."""
-        self.age_notes = ()
-        if self._ages is not None:
-            return self._ages, False
-        if "ages" in self.world.paths:
-            from ..grids import read_ages
-            grid = read_ages(self.world.paths["ages"])
-            self._check_ages(grid)
-            return grid, False
+        """``(AgeGrid, notes)``: the world's grid, else one synthesised from ridges and
+        spreading rates (with notes saying how)."""
+        grid = self.data.ages
+        if grid is not None:
+            return grid, ()
         from .ages_synth import synthesise_ages
-        grid, self.age_notes = synthesise_ages(self)
-        return grid, True
-
-    def _check_ages(self, grid):
-        if not grid.covers_sphere():
-            raise InputError("the age grid does not cover the plates (it must span all "
-                             f"longitudes and reach within a grid step of both poles; it spans "
-                             f"lon {grid.lon[0]:g} to {grid.lon[-1]:g}, lat {grid.lat[0]:g} to "
-                             f"{grid.lat[-1]:g})", file=grid.source)
-        if self.continents is None:
-            return
-        plate = self.node_plates(grid)
-        cont = self.node_continental(grid)
-        nan = ~np.isfinite(grid.age_myr) & ~cont
-        if nan.any():
-            j, i = np.argwhere(nan)[0]
-            name = self.world.plates[int(plate[j, i])].name
-            raise InputError(f"{int(nan.sum())} age node(s) are NaN outside the continents, "
-                             f"the first in plate {name!r} at lon {grid.lon[i]:g}, lat "
-                             f"{grid.lat[j]:g}", file=grid.source,
-                             hint="give every oceanic node an age, or extend the continents")
-
-    @cached_property
-    def flow(self):
-        if self._flow is not None:
-            return self._flow
-        if "mantle_flow" not in self.world.paths:
-            raise InputError("a 'mantle' force needs a mantle flow grid: add 'mantle_flow' to "
-                             "the world file", file=self.world.paths.get("world"))
-        from ..grids import read_flow
-        grid = read_flow(self.world.paths["mantle_flow"])
-        if not grid.covers_sphere():
-            # outside the grid the mantle would silently be taken at rest
-            raise InputError("the mantle flow grid does not cover the plates (it must span "
-                             "all longitudes and reach within a grid step of both poles; it "
-                             f"spans lon {grid.lon[0]:g} to {grid.lon[-1]:g}, lat "
-                             f"{grid.lat[0]:g} to {grid.lat[-1]:g})", file=grid.source)
-        return grid
+        key = ("ages", None if self.omega is None else np.asarray(self.omega).tobytes(),
+               self.SYNTH_STEP_DEG)
+        return self.data.synthesised(key, lambda: synthesise_ages(self))
 
     def age_grid_if_any(self):
         """The age field if there is one (a grid, or ages that can be synthesised)."""
-        if (self._ages is not None or "ages" in self.world.paths
+        if (self.data.ages is not None
                 or (self.omega is not None and self.lines("ridge"))):
             return self.ages[0]
         return None
 
     # -- grids ----------------------------------------------------------------------------
     def node_xyz(self, grid):
+        """Unit vectors of the nodes of a regular grid, shape (nlat, nlon, 3)."""
         LON, LAT = np.meshgrid(grid.lon, grid.lat)
         return sphere.lonlat_to_xyz(LON, LAT)
 
     def node_plates(self, grid) -> np.ndarray:
-        """Plate index of every grid node, shape (nlat, nlon) (cached per grid)."""
-        cache = self.__dict__.setdefault("_node_plates", {})
-        if id(grid) not in cache:
-            cache[id(grid)] = self.world.geometry.locator.locate_grid(grid.lon, grid.lat)
-        return cache[id(grid)]
+        """Plate index of every grid node, shape (nlat, nlon)."""
+        return self.data.node_plates(grid)
 
     def node_continental(self, grid) -> np.ndarray:
         """Whether each grid node lies on a continent (all False without continents)."""
-        if self.continents is None:
-            return np.zeros((len(grid.lat), len(grid.lon)), bool)
-        cache = self.__dict__.setdefault("_node_cont", {})
-        if id(grid) not in cache:
-            cache[id(grid)] = self.continents.locator.locate_grid(grid.lon, grid.lat) == 0
-        return cache[id(grid)]
+        return self.data.node_continental(grid)
 
     # -- boundaries -----------------------------------------------------------------------
     def lines(self, kind: str) -> list:
+        """Indices of the world's boundary lines of a kind."""
         return [k for k, b in enumerate(self.world.boundaries) if b.kind == kind]
 
     def pieces(self, kind: str, spacing_km: float | None = None) -> Pieces:
         """Pieces of the boundaries of a kind, no longer than ``spacing_km``."""
-        lines = self.lines(kind)
-        bnd = self.world.boundaries
-        a = np.concatenate([bnd[k].xyz[:-1] for k in lines])
-        b = np.concatenate([bnd[k].xyz[1:] for k in lines])
-        owner = np.concatenate([np.full(len(bnd[k].xyz) - 1, k) for k in lines])
+        arcs = self.world.boundary_set.of_kind(kind)
         step = (spacing_km or self.PIECE_KM) * 1e3 / self.R
-        pa, pb, piece = sphere.densify_arcs(a, b, step)
+        pa, pb, piece = sphere.densify_arcs(arcs.a, arcs.b, step)
         n, theta = sphere.arc_pole(pa, pb)
-        return Pieces(pa, pb, owner[piece], n, sphere.arc_first_moment(pa, pb), theta,
+        return Pieces(pa, pb, arcs.line[piece], n, sphere.arc_first_moment(pa, pb), theta,
                       sphere.slerp_points(pa, pb, 0.5))
 
     def require_lines(self, kind: str, term: str):
+        """InputError unless the world has boundaries of ``kind`` (for term ``term``)."""
         if not self.lines(kind):
             raise InputError(f"the {term!r} term needs {kind} boundaries, and the world has "
                              "none", file=self.world.paths.get("world"),
@@ -174,6 +136,7 @@ class Context:
                              "the term")
 
     def plate_ids(self, names) -> np.ndarray:
+        """Plate indices of plate names."""
         idx = self.world.plate_index
         return np.array([idx[n] for n in names], dtype=np.int64)
 

@@ -1,5 +1,5 @@
-"""Resistance at plate boundaries proportional to the relative velocity (shared by the
-``transform``, ``trench`` and ``collision`` kinds).
+"""Resistance at plate boundaries proportional to the relative velocity: the kinds
+``transform``, ``trench`` (at subduction boundaries) and ``collision``, one per boundary kind.
 
 On a boundary between plates P (left) and Q (right) the force per unit length on P is
 ``-c (v_P - v_Q)``, or only its along-strike or boundary-normal part (``component``). Its
@@ -11,6 +11,8 @@ Pa s (N per metre of boundary per m/s).
 """
 
 from __future__ import annotations
+
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -25,19 +27,29 @@ DEFAULTS = {"component": "all"}
 
 
 def build_resistance(ctx, spec, boundary_kind) -> ForceTerm:
+    """The term of a resistance along the boundaries of ``boundary_kind``.
+
+    Parameters
+    ----------
+    ctx : Context
+    spec : ForceSpec
+        Its option ``component`` chooses which part of the relative velocity is resisted.
+    boundary_kind : str
+        ``"transform"``, ``"subduction"`` or ``"collision"``.
+
+    Returns
+    -------
+    ForceTerm
+        Only a resisting part: ``resisting[p, :, q, :]`` couples each pair of neighbours.
+    """
     ctx.require_lines(boundary_kind, spec.label)
-    bnd = ctx.world.boundaries
-    lines = ctx.lines(boundary_kind)
-    a = np.concatenate([bnd[k].xyz[:-1] for k in lines])
-    b = np.concatenate([bnd[k].xyz[1:] for k in lines])
-    line = np.concatenate([np.full(len(bnd[k].xyz) - 1, k) for k in lines])
-    theta, _, second, n = sphere.polyline_moments(a, b)
+    arcs = ctx.world.boundary_set.of_kind(boundary_kind)
+    theta, _, second, n = sphere.polyline_moments(arcs.a, arcs.b)
     strike = theta[:, None, None] * np.einsum("ei,ej->eij", n, n)
     full = theta[:, None, None] * np.eye(3) - second
     comp = spec.options["component"]
     K = {"all": full, "strike": strike, "normal": full - strike}[comp]
-    left = ctx.plate_ids([x.left for x in bnd])[line]
-    right = ctx.plate_ids([x.right for x in bnd])[line]
+    left, right = arcs.arc_left, arcs.arc_right
     term = empty_term(ctx, spec, UNIT)
     scale = ctx.R ** 3
     for p, q in ((left, right), (right, left)):
@@ -45,3 +57,36 @@ def build_resistance(ctx, spec, boundary_kind) -> ForceTerm:
         np.add.at(term.resisting, (p, slice(None), p, slice(None)), -scale * K)
         np.add.at(term.resisting, (p, slice(None), q, slice(None)), scale * K)
     return term
+
+
+@dataclass(frozen=True)
+class ResistanceKind:
+    """One force kind of this module, in the shape every force kind has (see
+    :mod:`torque.forces`): a resistance along the boundaries of one boundary kind.
+
+    Attributes
+    ----------
+    KIND : str
+        The force kind's name in hypothesis files.
+    boundary_kind : str
+        The boundaries it acts along.
+    """
+
+    KIND: str
+    boundary_kind: str
+    UNIT = UNIT
+    KEYS = KEYS
+    CHOICES = CHOICES
+    DEFAULTS = DEFAULTS
+
+    def default_label(self, options) -> str:
+        """The term's label when the entry gives none: the kind."""
+        return self.KIND
+
+    def build(self, ctx, spec) -> ForceTerm:
+        """The :class:`ForceTerm` of one force entry of this kind."""
+        return build_resistance(ctx, spec, self.boundary_kind)
+
+
+KINDS = (ResistanceKind("transform", "transform"), ResistanceKind("trench", "subduction"),
+         ResistanceKind("collision", "collision"))

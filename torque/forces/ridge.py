@@ -61,8 +61,8 @@ def _edge(ctx, spec) -> ForceTerm:
     pcs = ctx.pieces("ridge")
     bnd = ctx.world.boundaries
     F = np.array([edge_force_per_length(ctx, spec, k) for k in range(len(bnd))])[pcs.line]
-    left = ctx.plate_ids([bnd[k].left for k in range(len(bnd))])[pcs.line]
-    right = ctx.plate_ids([bnd[k].right for k in range(len(bnd))])[pcs.line]
+    bs = ctx.world.boundary_set
+    left, right = bs.left[pcs.line], bs.right[pcs.line]
     # n points into the left plate: push +n on the left plate, -n on the right one
     drv = (ctx.line_force_torque(pcs, F, 1.0, left)
            + ctx.line_force_torque(pcs, F, -1.0, right))
@@ -72,8 +72,8 @@ def _edge(ctx, spec) -> ForceTerm:
 
 
 def _distributed(ctx, spec) -> ForceTerm:
-    grid, _ = ctx.ages
-    notes = list(ctx.age_notes)
+    grid, notes = ctx.ages
+    notes = list(notes)
     F = ctx.cooling.ridge_push_lookup(np.nan_to_num(grid.age_myr, nan=0.0))
     plate = ctx.node_plates(grid)
     ocean = np.isfinite(grid.age_myr) & ~ctx.node_continental(grid)

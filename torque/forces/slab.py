@@ -39,10 +39,9 @@ def trench_geometry(ctx, label):
     """Pieces of all subduction lines, with the sinking and the overriding plate of each."""
     ctx.require_lines("subduction", label)
     pcs = ctx.pieces("subduction")
-    bnd = ctx.world.boundaries
+    bnd, bs = ctx.world.boundaries, ctx.world.boundary_set
     sub_left = np.array([b.subducting == b.left for b in bnd])[pcs.line]
-    left = ctx.plate_ids([b.left for b in bnd])[pcs.line]
-    right = ctx.plate_ids([b.right for b in bnd])[pcs.line]
+    left, right = bs.left[pcs.line], bs.right[pcs.line]
     sinking = np.where(sub_left, left, right)
     overriding = np.where(sub_left, right, left)
     return pcs, sub_left, sinking, overriding

@@ -1,32 +1,152 @@
-"""Reading point lists and writing tables, GeoJSON and NetCDF, atomically.
+"""CSV tables: one reader with line-numbered errors, one writer.
 
-Every writer goes through a temporary file beside the target, renamed into place only when
-complete, so that no output is ever left half-written.
+Every CSV the tool reads (motions, point lists, age grids as CSV) goes through
+:func:`read_table`: a header row, named columns, numbers parsed a column at a time, and a
+message naming the file, the line and the column for anything that is not a number.
 """
 
 from __future__ import annotations
 
-import json
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
-from . import sphere
-from .errors import (InputError, atomic_path, atomic_write, check_output_path,
-                     read_csv_rows, read_json)
-
-FIELD_SUFFIXES = (".csv", ".geojson", ".json", ".nc")
+from ..errors import InputError
+from .files import atomic_write, read_csv_rows
 
 
-def output_suffix(path, allowed) -> str:
-    """The lower-case suffix of ``path``, or InputError if it is not one of ``allowed`` or
-    the path cannot be written (a folder, or under a file): checked before any work."""
-    check_output_path(path)
-    suffix = Path(path).suffix.lower()
-    if suffix not in allowed:
-        raise InputError(f"cannot write {suffix or 'a file without a suffix'}",
-                         file=path, hint=f"use one of {', '.join(allowed)}")
-    return suffix
+@dataclass(frozen=True, eq=False)
+class Table:
+    """The rows of a CSV file under its header.
+
+    Attributes
+    ----------
+    path : Path
+        The file, named in messages.
+    header : list of str
+        Column names, stripped and lower-cased.
+    rows : list of list of str
+        The data rows, as text (blank rows and, if asked, ``#`` comments dropped).
+    """
+
+    path: Path
+    header: list
+    rows: list
+
+    def __repr__(self) -> str:
+        return f"Table({str(self.path)!r}, {len(self.rows)} rows, columns {self.header})"
+
+    def __len__(self) -> int:
+        return len(self.rows)
+
+    def has(self, *names) -> bool:
+        """Whether the header names every one of ``names``."""
+        return all(n in self.header for n in names)
+
+    @staticmethod
+    def line(i: int) -> int:
+        """The line number of data row ``i`` (the header is line 1)."""
+        return i + 2
+
+    def text(self, name: str) -> list:
+        """The column ``name`` as stripped strings (``""`` where a row is short)."""
+        c = self.header.index(name)
+        return [r[c].strip() if c < len(r) else "" for r in self.rows]
+
+    def numbers(self, name: str, *, blank=None, where=None, message=None) -> np.ndarray:
+        """The column ``name`` as floats, shape (N,).
+
+        Parameters
+        ----------
+        name : str
+            A column of the header.
+        blank : float, optional
+            The value of an empty cell; without it an empty cell is an error.
+        where : callable, optional
+            ``where(i) -> str`` names row ``i`` in a message (default: its line).
+        message : str, optional
+            The message for a cell that is not a number (default: ``"NAME is 'X', not a
+            number"``).
+        """
+        cells = self.text(name)
+        out = np.empty(len(cells))
+        try:
+            out[:] = [float(c) if c or blank is None else blank for c in cells]
+            return out
+        except ValueError:
+            pass
+        for i, c in enumerate(cells):     # find the first bad cell, for the message
+            if c == "" and blank is not None:
+                continue
+            try:
+                float(c)
+            except ValueError:
+                raise InputError(message or f"{name} is {c!r}, not a number", file=self.path,
+                                 where=where(i) if where else f"line {self.line(i)}") from None
+        raise AssertionError("unreachable")  # pragma: no cover
+
+
+def read_table(path, required, *, comments: bool = False, empty: str | None = None,
+               hint: str | None = None) -> Table:
+    """Read a CSV file with a header naming at least the ``required`` columns.
+
+    Parameters
+    ----------
+    path : str or Path
+    required : sequence of str
+        Column names the header must have (compared lower-case).
+    comments : bool
+        Drop rows whose first cell starts with ``#``.
+    empty : str, optional
+        The message for a file with no header.
+    hint : str, optional
+        How to fix a missing column.
+
+    Returns
+    -------
+    Table
+
+    Raises
+    ------
+    InputError
+        Naming the file: missing or unreadable, no header, or a required column missing.
+    """
+    path = Path(path)
+    rows = read_csv_rows(path)
+    if comments:
+        rows = [r for r in rows if not r[0].startswith("#")]
+    if not rows:
+        raise InputError(empty or f"the file is empty; expected a header {','.join(required)}",
+                         file=path)
+    header = [h.strip().lower() for h in rows[0]]
+    for need in required:
+        if need not in header:
+            raise InputError(f"the header has no column {need!r}", file=path, hint=hint)
+    return Table(path, header, rows[1:])
+
+
+def read_points(path):
+    """Read a CSV with columns ``lon,lat`` (degrees).
+
+    Returns
+    -------
+    lon, lat : ndarray, shape (N,)
+        In file order.
+    """
+    table = read_table(path, ("lon", "lat"), empty="the file is empty; expected a header "
+                       "lon,lat", hint="the header must name columns 'lon' and 'lat'")
+    if not len(table):
+        raise InputError("no points after the header", file=path)
+    lon, lat = table.numbers("lon"), table.numbers("lat")
+    bad = ~(np.isfinite(lon) & np.isfinite(lat)) | (np.abs(lat) > 90) | (lon < -180) | (
+        lon > 360)
+    if bad.any():
+        k = int(np.nonzero(bad)[0][0])
+        raise InputError(f"point ({lon[k]:g}, {lat[k]:g}) is out of range (lon in "
+                         "[-180, 360], lat in [-90, 90])", file=path,
+                         where=f"line {Table.line(k)}")
+    return lon, lat
 
 
 def _csv_text(column) -> np.ndarray:
@@ -38,10 +158,14 @@ def _csv_text(column) -> np.ndarray:
 
 
 def write_csv(path, columns: dict) -> None:
-    """Write equal-length columns ``{name: array}`` as CSV.
+    """Write equal-length columns as CSV, atomically.
 
-    Floats are written to 10 significant digits, integers as integers, anything else as
-    text, quoted as CSV requires.
+    Parameters
+    ----------
+    path : str or Path
+    columns : dict
+        ``{name: array}``, in column order. Floats are written to 10 significant digits,
+        integers as integers, anything else as text, quoted as CSV requires.
     """
     names = list(columns)
     cols = [np.asarray(columns[n]) for n in names]
@@ -58,114 +182,3 @@ def write_csv(path, columns: dict) -> None:
     with atomic_write(path, newline="") as fh:
         fh.write(",".join(names) + "\n")
         fh.writelines(line % row for row in zip(*text_cols))
-
-
-def write_points_geojson(path, lon, lat, properties: dict) -> None:
-    """Write points with per-point properties as a GeoJSON FeatureCollection."""
-    names = list(properties)
-    cols = [np.asarray(properties[n]).tolist() for n in names]
-    feats = []
-    for k, (x, y) in enumerate(zip(np.asarray(lon).tolist(), np.asarray(lat).tolist())):
-        props = {n: c[k] for n, c in zip(names, cols)}
-        feats.append({"type": "Feature", "geometry": {"type": "Point", "coordinates": [x, y]},
-                      "properties": props})
-    with atomic_write(path) as fh:
-        json.dump({"type": "FeatureCollection", "features": feats}, fh)
-
-
-def write_boundaries_geojson(path, boundaries) -> None:
-    """Write boundary lines in the contract's format."""
-    feats = []
-    for b in boundaries:
-        lon, lat = sphere.xyz_to_lonlat(b.xyz)
-        props = {"kind": b.kind, "left": b.left, "right": b.right}
-        if b.subducting:
-            props["subducting"] = b.subducting
-        props.update(b.properties)
-        feats.append({"type": "Feature", "properties": props,
-                      "geometry": {"type": "LineString",
-                                   "coordinates": np.round(np.c_[lon, lat], 10).tolist()}})
-    with atomic_write(path) as fh:
-        json.dump({"type": "FeatureCollection", "features": feats}, fh, indent=1)
-
-
-def write_netcdf(path, dataset) -> None:
-    """Write an xarray Dataset to NetCDF-4 (h5netcdf engine) atomically."""
-    with atomic_path(path) as tmp:
-        dataset.to_netcdf(tmp, engine="h5netcdf")
-
-
-def read_points(path):
-    """Read a CSV with columns ``lon,lat`` (degrees); returns two arrays, in file order."""
-    path = Path(path)
-    rows = read_csv_rows(path)
-    if not rows:
-        raise InputError("the file is empty; expected a header lon,lat", file=path)
-    header = [h.strip().lower() for h in rows[0]]
-    if "lon" not in header or "lat" not in header:
-        raise InputError("the header must name columns 'lon' and 'lat'", file=path)
-    il, ia = header.index("lon"), header.index("lat")
-    vals = np.empty((len(rows) - 1, 2))
-    for n, r in enumerate(rows[1:]):
-        for k, c in enumerate((il, ia)):
-            try:
-                vals[n, k] = float(r[c])
-            except (ValueError, IndexError):
-                raise InputError(f"{header[c]} is {r[c] if c < len(r) else ''!r}, not a "
-                                 "number", file=path, where=f"line {n + 2}") from None
-    if not len(vals):
-        raise InputError("no points after the header", file=path)
-    bad = ~np.isfinite(vals).all(axis=1) | (np.abs(vals[:, 1]) > 90) | (
-        (vals[:, 0] < -180) | (vals[:, 0] > 360))
-    if bad.any():
-        k = int(np.nonzero(bad)[0][0])
-        raise InputError(f"point ({vals[k, 0]:g}, {vals[k, 1]:g}) is out of range "
-                         "(lon in [-180, 360], lat in [-90, 90])", file=path,
-                         where=f"line {k + 2}")
-    return vals[:, 0], vals[:, 1]
-
-
-# ----------------------------------------------------------------------------------------
-# the fit JSON (output of `torque fit`), read in one place
-# ----------------------------------------------------------------------------------------
-def read_fit(path, plate_names=None) -> dict:
-    """Read and check the JSON written by ``torque fit``.
-
-    Parameters
-    ----------
-    path : str or Path
-    plate_names : list of str, optional
-        The world's plates: the fit must list exactly these, in this order.
-
-    Returns
-    -------
-    dict
-        The parsed document, with a ``coefficients`` object and a ``plates`` list.
-    """
-    doc = read_json(path)
-    if not (isinstance(doc, dict) and isinstance(doc.get("coefficients"), dict)
-            and isinstance(doc.get("plates"), list)
-            and all(isinstance(p, dict) and "plate" in p for p in doc["plates"])):
-        raise InputError("not the JSON output of torque fit (it needs 'coefficients' and "
-                         "'plates')", file=path)
-    if plate_names is not None and [p["plate"] for p in doc["plates"]] != list(plate_names):
-        raise InputError("the fit is for other plates than this world's", file=path)
-    return doc
-
-
-def fit_values(doc: dict, labels, path) -> list:
-    """The fitted value of each coefficient in ``labels`` (floats, in that order), or
-    InputError naming ``path`` when the fit lacks one or holds no number for it."""
-    coefs = doc["coefficients"]
-    missing = [x for x in labels if x not in coefs]
-    if missing:
-        raise InputError(f"the fit is for another hypothesis: no coefficient for "
-                         f"{', '.join(map(repr, missing))}", file=path,
-                         hint="fit this hypothesis with torque fit first")
-    out = []
-    for label in labels:
-        v = coefs[label].get("value") if isinstance(coefs[label], dict) else None
-        if not isinstance(v, (int, float)) or isinstance(v, bool) or not np.isfinite(v):
-            raise InputError(f"coefficient {label!r} has no numeric 'value'", file=path)
-        out.append(float(v))
-    return out

@@ -1,0 +1,102 @@
+"""The ``torque`` command: a thin layer over the library.
+
+One module per group of commands, each with an ``add_parser(sub)`` that declares its
+commands and a ``run_*`` function per command: :mod:`~torque.cli.world` (check),
+:mod:`~torque.cli.kinematics` (frame, field, boundaries), :mod:`~torque.cli.physics`
+(cooling, torques), :mod:`~torque.cli.balance` (fit, predict, rank),
+:mod:`~torque.cli.figures` (map, demo). Terminal tables are in :mod:`~torque.cli.text`.
+Every command reads its inputs through :mod:`torque.io`, calls the library, and writes its
+outputs atomically. Bad input raises :class:`torque.errors.InputError`, which ends here as
+one message on stderr and exit status 2.
+"""
+
+from __future__ import annotations
+
+import os
+import signal
+import sys
+
+from ..errors import InputError
+from . import balance, figures, kinematics, physics, world
+from .common import EXIT_BAD_INPUT, EXIT_BROKEN_PIPE, EXIT_OK, Parser
+
+__all__ = ["EXIT_BAD_INPUT", "EXIT_BROKEN_PIPE", "EXIT_OK", "build_parser", "main"]
+
+
+def build_parser() -> Parser:
+    """The argument parser of every command."""
+    parser = Parser(prog="torque", description=(
+        "Plate torques and Euler-pole prediction on a sphere. Results are model-dependent "
+        "research estimates, not inputs to hazard or engineering decisions."))
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=Parser)
+    world.add_parser(sub)
+    kinematics.add_parser(sub)
+    physics.add_parser(sub)
+    balance.add_parser(sub)
+    figures.add_parser(sub, main)
+    return parser
+
+
+def _terminate(signum, frame):
+    # Raising unwinds the stack, so atomic writers remove their temporary files.
+    raise SystemExit(128 + signum)
+
+
+def main(argv=None, *, preloaded=None) -> int:
+    """Run the ``torque`` command; returns the exit status.
+
+    Parameters
+    ----------
+    argv : list of str, optional
+        The arguments (default ``sys.argv[1:]``).
+    preloaded : Inputs, optional
+        A world already read and checked (:class:`torque.io.Inputs`); a command naming the
+        same world file uses it instead of reading it again (the demo does this).
+
+    Returns
+    -------
+    int
+        0 on success; 2 on bad input or usage, with one message on stderr naming the file
+        and what is wrong; 141 (quietly) when the reader of standard output goes away
+        (``torque cooling --json | head``). SIGTERM removes partly written outputs.
+    """
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    args.preloaded = preloaded
+    try:
+        previous = signal.signal(signal.SIGTERM, _terminate)
+    except ValueError:          # not the main thread: leave the handler alone
+        previous = None
+    try:
+        return args.func(args)
+    except InputError as exc:
+        print(f"torque {args.command}: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except BrokenPipeError:
+        _silence_stdout()
+        return EXIT_BROKEN_PIPE
+    except MemoryError:
+        print(f"torque {args.command}: not enough memory for this work; use a coarser grid "
+              "step or fewer samples", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except OSError as exc:
+        # a file that cannot be read or written (permissions, a full disk, ...)
+        where = exc.filename or "a file"
+        print(f"torque {args.command}: {where}: {exc.strerror or exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
+
+
+def _silence_stdout():
+    """Point stdout at /dev/null so that the interpreter's final flush does not fail."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        pass
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,235 @@
+"""The torque balance commands: ``fit``, ``predict`` and ``rank``."""
+
+from __future__ import annotations
+
+import dataclasses
+from contextlib import ExitStack
+
+import numpy as np
+
+from ..balance import assemble, predict
+from ..diagnostics import analyse
+from ..errors import InputError, require_memory
+from ..euler import Motions, net_rotation
+from ..forces import build_terms
+from ..io import (atomic_path, atomic_write, dumps, load_hypothesis, output_suffix,
+                  read_coefficients, read_motions, write_csv, write_json, write_motions)
+from ..rank import rank
+from ..resample import bootstrap, monte_carlo_motions, monte_carlo_physics
+from . import text
+from .common import EXIT_OK, count, inputs
+
+WEIGHTING = dict(choices=("velocity", "area", "none"), default="velocity",
+                 help="weighting of the plates' torque equations in the torque-space fit "
+                 "(default velocity: by the inverse square root of each plate's drag tensor)")
+
+
+def add_parser(sub) -> None:
+    """Add the ``fit``, ``predict`` and ``rank`` commands to the subparsers ``sub``."""
+    p = sub.add_parser("fit", help="estimate the free coefficients from observed motions",
+                       description="Fit the free coefficients of a hypothesis to observed "
+                       "Euler vectors (mantle at rest, e.g. no-net-rotation), in torque space "
+                       "(linear) and in velocity space (preferred), with per-plate "
+                       "diagnostics and optional resampling.")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("hypothesis", help="hypothesis file (TOML)")
+    p.add_argument("motions", help="observed motions CSV")
+    p.add_argument("-o", "--output", required=True, help="output JSON")
+    p.add_argument("--weighting", **WEIGHTING)
+    p.add_argument("--bootstrap", type=count, default=0, metavar="N",
+                   help="refit on N resamples of the plates")
+    p.add_argument("--monte-carlo", type=count, default=0, metavar="N",
+                   help="refit on N draws of the motions from their covariance columns")
+    p.add_argument("--physics-samples", type=count, default=0, metavar="N",
+                   help="refit on N draws of the physics from the hypothesis' [spread] table")
+    p.add_argument("--seed", type=count, default=0, help="random seed (default 0)")
+    p.set_defaults(func=run_fit)
+
+    p = sub.add_parser("predict", help="Euler vectors that balance the torques",
+                       description="Forward model: the Euler vector of every plate that "
+                       "balances the torques of a hypothesis, in the frame where the mantle "
+                       "is at rest. Free coefficients take their values from --coefficients.")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("hypothesis", help="hypothesis file (TOML)")
+    p.add_argument("--coefficients", metavar="FIT.json", help="output of torque fit")
+    p.add_argument("--motions", help="motions CSV, only to synthesise sea-floor ages when "
+                   "the world has no age grid")
+    p.add_argument("-o", "--output", required=True, help="output motions CSV")
+    p.set_defaults(func=run_predict)
+
+    p = sub.add_parser("rank", help="compare hypotheses",
+                       description="Fit every hypothesis to the same motions and tabulate "
+                       "misfit, free coefficients, AIC, AICc, BIC and leave-one-plate-out "
+                       "cross-validation error, best (lowest AIC) first; F-tests for nested "
+                       "pairs.")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("motions", help="observed motions CSV")
+    p.add_argument("hypotheses", nargs="+", metavar="HYP", help="hypothesis files")
+    p.add_argument("-o", "--output", help="output CSV")
+    p.add_argument("--json", metavar="FILE", help="also write rows and F-tests as JSON")
+    p.add_argument("--weighting", **WEIGHTING)
+    p.set_defaults(func=run_rank)
+
+
+@dataclasses.dataclass(frozen=True, eq=False)
+class Problem:
+    """A hypothesis on a world's inputs, with observed motions if any, and its balance.
+
+    Attributes
+    ----------
+    inputs : Inputs
+    hypothesis : Hypothesis
+    motions : Motions or None
+    omega : ndarray, shape (P, 3), or None
+        The motions in world plate order (rad/s).
+    terms : list of ForceTerm
+    system : System
+    """
+
+    inputs: object
+    hypothesis: object
+    motions: object
+    omega: object
+    terms: list
+    system: object
+
+    @classmethod
+    def build(cls, data, hypothesis, motions=None) -> "Problem":
+        """Build every term of ``hypothesis`` on the inputs ``data``."""
+        omega = motions.for_world(data.world) if motions is not None else None
+        terms = build_terms(data.context(hypothesis, omega))
+        return cls(data, hypothesis, motions, omega, terms,
+                   assemble(data.world, hypothesis, terms))
+
+    def rebuild(self, physics):
+        """The balance for other physics (a Monte Carlo draw); the world's data, located
+        and clipped once, are shared."""
+        hyp = dataclasses.replace(self.hypothesis, physics=physics)
+        return assemble(self.inputs.world, hyp,
+                        build_terms(self.inputs.context(hyp, self.omega)))
+
+    def notes(self) -> list:
+        """The notes of every term, in order."""
+        return [n for t in self.terms for n in t.notes]
+
+
+def _problem(args, motions_path=None) -> Problem:
+    data = inputs(args)
+    motions = read_motions(motions_path) if motions_path else None
+    return Problem.build(data, load_hypothesis(args.hypothesis), motions)
+
+
+def run_fit(args) -> int:
+    """Run ``torque fit``."""
+    output_suffix(args.output, (".json",))
+    pb = _problem(args, args.motions)
+    if args.monte_carlo and pb.motions.cov is None:
+        raise InputError("a Monte Carlo over motions needs their covariance: the file has no "
+                         "cov_xx ... cov_zz columns", file=args.motions,
+                         hint="add them in (deg/Myr)^2, or leave out --monte-carlo")
+    if args.physics_samples and not pb.hypothesis.spread:
+        raise InputError("a Monte Carlo over physics needs a [spread] table",
+                         file=args.hypothesis, hint="add one, or leave out --physics-samples")
+    _require_sample_memory(pb.system, args)
+    rep = analyse(pb.system, pb.omega, args.weighting)
+    unc = {}
+    if args.bootstrap:
+        unc["bootstrap"] = bootstrap(pb.system, pb.omega, args.bootstrap, args.seed,
+                                     args.weighting)
+    if args.monte_carlo:
+        unc["monte_carlo_motions"] = monte_carlo_motions(
+            pb.system, pb.omega, pb.motions.cov_for_world(pb.inputs.world), args.monte_carlo,
+            args.seed, args.weighting)
+    if args.physics_samples:
+        unc["monte_carlo_physics"] = monte_carlo_physics(
+            pb.rebuild, pb.hypothesis.physics, pb.hypothesis.spread, pb.omega,
+            args.physics_samples, args.seed, args.weighting)
+    result = dataclasses.replace(rep, uncertainty=unc).result(pb.notes())
+    write_json(args.output, result.as_dict())
+    print(text.fit(result.as_dict()))
+    print(f"wrote {args.output}")
+    return EXIT_OK
+
+
+def _require_sample_memory(system, args):
+    """Refuse sample counts whose arrays cannot fit in memory, before any is drawn."""
+    P, K = system.n_plates, len(system.labels)
+    per_member = {
+        # draws (3P), the torque columns of every member and their scaled copies (3P x K)
+        "monte_carlo": 8 * 3 * P * (3 * K + 4),
+        # one row of results per draw, with Python's overhead
+        "bootstrap": 8 * K + 120,
+        "physics_samples": 8 * K + 120,
+    }
+    for opt, per in per_member.items():
+        n = getattr(args, opt)
+        if n:
+            require_memory(n * per, f"--{opt.replace('_', '-')} {n:,}",
+                           hint="ask for fewer samples")
+
+
+def run_predict(args) -> int:
+    """Run ``torque predict``."""
+    output_suffix(args.output, (".csv",))
+    pb = _problem(args, args.motions)
+    s = pb.system
+    c = s.fixed.copy()
+    if s.free.any():
+        if not args.coefficients:
+            raise InputError(f"free coefficient(s) {', '.join(pb.hypothesis.free_labels)} "
+                             "need values", file=args.hypothesis,
+                             hint="pass --coefficients FIT.json from torque fit, or fix them "
+                             "in the hypothesis")
+        values = read_coefficients(args.coefficients, pb.hypothesis)
+        for i, label in enumerate(s.labels):
+            if s.free[i]:
+                c[i] = values[label]
+    omega = predict(s, c)
+    world = pb.inputs.world
+    write_motions(args.output, Motions(tuple(world.plate_names), omega))
+    print(f"predicted Euler vectors of {len(omega)} plates (mantle at rest); net rotation "
+          f"{text.pole(net_rotation(world, omega))}")
+    for note in pb.notes():
+        print(f"note: {note}")
+    print(f"wrote {args.output}")
+    return EXIT_OK
+
+
+def run_rank(args) -> int:
+    """Run ``torque rank``: every hypothesis on one set of inputs, read once."""
+    if args.output:
+        output_suffix(args.output, (".csv",))
+    if args.json:
+        output_suffix(args.json, (".json",))
+    data = inputs(args)
+    motions = read_motions(args.motions)
+    systems = [Problem.build(data, load_hypothesis(h), motions).system
+               for h in args.hypotheses]
+    names = [s.name for s in systems]
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        files = [h for h, n in zip(args.hypotheses, names) if n in dup]
+        raise InputError(f"hypotheses share the name(s) {', '.join(map(repr, dup))} "
+                         f"(files {', '.join(files)})", file=files[0],
+                         hint="give each a different 'name'")
+    rows, tests = rank(systems, motions.for_world(data.world), args.weighting)
+    print(text.rank(rows, tests))
+    # both outputs or neither: the CSV goes into place only once the JSON has
+    with ExitStack() as stack:
+        if args.output:
+            write_csv(stack.enter_context(atomic_path(args.output)), {
+                "rank": np.arange(1, len(rows) + 1),
+                "hypothesis": np.array([r.name for r in rows], dtype=object),
+                "rms_velocity_mm_yr": np.array([r.rms_velocity_mm_yr for r in rows]),
+                "variance_reduction": np.array([r.variance_reduction for r in rows]),
+                "free_coefficients": np.array([r.free for r in rows]),
+                "aic": np.array([r.aic for r in rows]),
+                "aicc": np.array([r.aicc for r in rows]),
+                "bic": np.array([r.bic for r in rows]),
+                "cv_rms_mm_yr": np.array([r.cv_rms_mm_yr for r in rows])})
+        if args.json:
+            with atomic_write(args.json) as fh:
+                fh.write(dumps({"rows": [r.__dict__ for r in rows], "f_tests": tests}))
+    if args.output:
+        print(f"wrote {args.output}")
+    return EXIT_OK

@@ -1,0 +1,65 @@
+"""What the command modules share: exit statuses, argument types, and loading inputs."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+import numpy as np
+
+from ..io import Inputs, read_motions
+
+EXIT_OK, EXIT_BAD_INPUT = 0, 2
+EXIT_BROKEN_PIPE = 141     # 128 + SIGPIPE, what a shell reports for a reader that went away
+CAUTION = "caution: model-dependent research estimates, not for hazard or engineering use"
+
+
+class Parser(argparse.ArgumentParser):
+    """An argument parser whose usage errors exit 2 with a short message, no traceback."""
+
+    def error(self, message):
+        self.print_usage(sys.stderr)
+        self.exit(EXIT_BAD_INPUT, f"torque: error: {message}\n")
+
+
+def arg_type(convert, noun, ok, rule):
+    """An argparse type: ``convert`` the text, then require ``ok`` of the value."""
+    def parse(text: str):
+        try:
+            value = convert(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not {noun}") from None
+        if not ok(value):
+            raise argparse.ArgumentTypeError(f"{text} {rule}")
+        return value
+    return parse
+
+
+#: sample counts and seeds
+count = arg_type(int, "a whole number", lambda n: n >= 0, "is negative; give 0 or more")
+#: grid steps and spacings
+positive = arg_type(float, "a number", lambda x: bool(np.isfinite(x) and x > 0),
+                    "must be a finite number above 0")
+
+
+def inputs(args, path=None, *, valid: bool = True) -> Inputs:
+    """The inputs of the world named on the command line, read and checked once.
+
+    ``args.preloaded`` (set by :func:`torque.cli.main` when a caller such as the demo
+    passes already loaded :class:`~torque.io.Inputs`) is used when it is of the same world
+    file; otherwise the world is read here and, with ``valid``, refused if it has errors
+    (:func:`torque.validate.require_valid`).
+    """
+    path = Path(path if path is not None else args.world)
+    pre = getattr(args, "preloaded", None)
+    if pre is not None and pre.path == path.resolve():
+        return pre
+    return Inputs.load(path, valid=valid)
+
+
+def motions_for(path, world):
+    """``(Motions, omega)``: a motions file and its angular velocities (rad/s) in world
+    plate order."""
+    motions = read_motions(path)
+    return motions, motions.for_world(world)

@@ -1,0 +1,178 @@
+"""Kinematics commands: ``frame`` (reference frames), ``field`` (velocity fields) and
+``boundaries`` (relative motion along boundaries)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError, require_memory
+from ..euler import (grid_lonlat, net_rotation, speed_azimuth, to_no_net_rotation,
+                     velocity_field)
+from ..io import (field_dataset, output_suffix, read_motions, read_points,
+                  write_boundaries_geojson, write_csv, write_motions, write_netcdf,
+                  write_points_geojson)
+from ..margins import (TRANSFORM_WITHIN_DEG, boundary_motion, classify, sample_boundaries,
+                       with_kinds)
+from ..sphere import xyz_to_lonlat
+from . import text
+from .common import EXIT_OK, inputs, motions_for, positive
+
+FIELD_SUFFIXES = (".csv", ".geojson", ".json", ".nc")
+
+
+def add_parser(sub) -> None:
+    """Add the ``frame``, ``field`` and ``boundaries`` commands to the subparsers ``sub``."""
+    p = sub.add_parser("frame", help="change the reference frame of a set of motions",
+                       description="Express plate motions in the no-net-rotation frame (the "
+                       "frame in which the surface integral of r x v vanishes, computed "
+                       "exactly from the plates' drag tensors) or with one plate fixed. "
+                       "Prints the net rotation before and after.")
+    p.add_argument("motions", help="motions CSV (plate,lat,lon,rate)")
+    p.add_argument("--world", required=True, help="world file (TOML)")
+    p.add_argument("--to", required=True, metavar="FRAME", help="nnr, or plate:NAME")
+    p.add_argument("-o", "--output", required=True, help="output motions CSV")
+    p.set_defaults(func=run_frame)
+
+    p = sub.add_parser("field", help="velocity field on a grid or at points",
+                       description="Velocity of the plate under each point, east and north "
+                       "in mm/yr. Output by suffix: .csv, .geojson (points) or .nc "
+                       "(NetCDF, CF-style; a lat x lon grid for --step).")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("motions", help="motions CSV (plate,lat,lon,rate)")
+    g = p.add_mutually_exclusive_group()
+    g.add_argument("--step", type=positive, default=1.0, metavar="DEG",
+                   help="cell-centred lon/lat grid step in degrees (default 1)")
+    g.add_argument("--points", metavar="FILE", help="CSV of points with columns lon,lat")
+    p.add_argument("-o", "--output", required=True, help="output file (.csv, .geojson, .nc)")
+    p.set_defaults(func=run_field)
+
+    p = sub.add_parser("boundaries", help="relative motion along every boundary",
+                       description="Sample every boundary and give the velocity of the right "
+                       "plate relative to the left one: boundary-normal (opening positive), "
+                       "along-strike, and obliquity (0 opening, 90 strike-slip, 180 closing).")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("motions", help="motions CSV (plate,lat,lon,rate)")
+    p.add_argument("--spacing-km", type=positive, default=50.0,
+                   help="sample spacing along the lines, km (default 50)")
+    p.add_argument("--classify", action="store_true",
+                   help="give 'unclassified' lines a kind from their motion")
+    p.add_argument("--geojson", metavar="FILE",
+                   help="also write the (classified) boundaries as GeoJSON")
+    p.add_argument("-o", "--output", required=True, help="output CSV")
+    p.set_defaults(func=run_boundaries)
+
+
+def run_frame(args) -> int:
+    """Run ``torque frame``."""
+    output_suffix(args.output, (".csv",))
+    world = inputs(args, args.world).world
+    motions = read_motions(args.motions)
+    omega = motions.for_world(world)
+    target = args.to
+    if target == "nnr":
+        out, w_net = to_no_net_rotation(world, motions)
+    elif target.startswith("plate:"):
+        w_net = net_rotation(world, omega)
+        name = target[len("plate:"):]
+        if name not in world.plate_index:
+            raise InputError(f"--to {target}: no plate named {name!r}",
+                             file=args.world, hint=f"plates are {', '.join(world.plate_names)}")
+        out = motions.relative_to(name)
+    else:
+        raise InputError(f"--to {target!r} is not a frame",
+                         hint="use --to nnr or --to plate:NAME")
+    write_motions(args.output, out, world.plate_names)
+    new_net = net_rotation(world, out.for_world(world))
+    print(f"net rotation of {args.motions}: {text.pole(w_net)}")
+    print(f"net rotation in the new frame: {text.pole(new_net)}")
+    print(f"wrote {args.output}")
+    return EXIT_OK
+
+
+def run_field(args) -> int:
+    """Run ``torque field``."""
+    suffix = output_suffix(args.output, FIELD_SUFFIXES)
+    world = inputs(args).world
+    _, omega = motions_for(args.motions, world)
+    if args.points:
+        lon, lat = read_points(args.points)
+        grid = None
+    else:
+        n = int(np.ceil(360 / args.step)) * int(np.ceil(180 / args.step))
+        # coordinates, unit vectors, plate, velocities and the text of every row
+        require_memory(n * 200.0, f"a velocity field at --step {args.step:g} ({n:,} points)",
+                       hint="use a larger --step")
+        glon, glat = grid_lonlat(args.step)
+        LON, LAT = np.meshgrid(glon, glat)
+        lon, lat = LON.ravel(), LAT.ravel()
+        grid = (glon, glat)
+    plate, ve, vn = velocity_field(world, omega, lon, lat)
+    speed, azimuth = speed_azimuth(ve, vn)
+    names = np.array(world.plate_names, dtype=object)[plate]
+    if suffix == ".csv":
+        write_csv(args.output, {"lon": lon, "lat": lat, "plate": names, "ve_mm_yr": ve,
+                                "vn_mm_yr": vn, "speed_mm_yr": speed, "azimuth_deg": azimuth})
+    elif suffix in (".geojson", ".json"):
+        write_points_geojson(args.output, lon, lat, {
+            "plate": names, "ve_mm_yr": ve, "vn_mm_yr": vn, "speed_mm_yr": speed,
+            "azimuth_deg": azimuth})
+    else:
+        write_netcdf(args.output, field_dataset(world, lon, lat, plate, ve, vn, grid))
+    print(f"velocity at {len(lon):,} points: speed {speed.min():.2f} to {speed.max():.2f} "
+          f"mm/yr, mean {speed.mean():.2f} mm/yr; wrote {args.output}")
+    return EXIT_OK
+
+
+def run_boundaries(args) -> int:
+    """Run ``torque boundaries``."""
+    output_suffix(args.output, (".csv",))
+    if args.geojson:
+        output_suffix(args.geojson, (".geojson", ".json"))
+    if not args.spacing_km > 0:
+        raise InputError(f"--spacing-km must be positive, got {args.spacing_km:g}")
+    data = inputs(args)
+    world = data.world
+    if not world.boundaries:
+        raise InputError("the world has no boundaries", file=args.world)
+    _, omega = motions_for(args.motions, world)
+    length_m = float(world.boundary_set.length().sum()) * world.radius_m
+    n = length_m / (args.spacing_km * 1e3)
+    # points, poles, velocities and the text of every row
+    require_memory(n * 400.0, f"--spacing-km {args.spacing_km:g} ({n:,.0f} samples)",
+                   hint="use a larger --spacing-km")
+    samples = sample_boundaries(world.boundaries, args.spacing_km * 1e3 / world.radius_m)
+    motion = boundary_motion(world, omega, samples)
+    boundaries = list(world.boundaries)
+    unresolved = []
+    if args.classify:
+        kinds, sinking = classify(world, motion, data.ages)
+        boundaries = with_kinds(world, kinds, sinking)
+        unresolved = [k for k, b in enumerate(boundaries)
+                      if b.kind == "subduction" and b.subducting is None]
+    line = samples.line
+    lon, lat = xyz_to_lonlat(samples.xyz)
+    write_csv(args.output, {
+        "lon": lon, "lat": lat, "line": line,
+        "left": np.array([b.left for b in boundaries], dtype=object)[line],
+        "right": np.array([b.right for b in boundaries], dtype=object)[line],
+        "kind": np.array([b.kind for b in boundaries], dtype=object)[line],
+        "subducting": np.array([b.subducting or ("unresolved" if k in unresolved else "")
+                                for k, b in enumerate(boundaries)], dtype=object)[line],
+        "opening_mm_yr": motion.opening_mm_yr, "along_mm_yr": motion.along_mm_yr,
+        "obliquity_deg": motion.obliquity_deg})
+    if args.geojson:
+        write_boundaries_geojson(args.geojson, boundaries)
+    kinds = {}
+    for b in boundaries:
+        kinds[b.kind] = kinds.get(b.kind, 0) + 1
+    print(f"{len(lon):,} samples on {len(boundaries)} lines; kinds: "
+          + ", ".join(f"{k} {n}" for k, n in sorted(kinds.items())))
+    if args.classify:
+        print(f"classified by mean motion: transform within {TRANSFORM_WITHIN_DEG:g} deg of "
+              "pure strike-slip, else ridge (opening) or subduction (closing)")
+        if unresolved:
+            print(f"sinking plate unresolved (no sea-floor ages on either side) for "
+                  f"{len(unresolved)} subduction line(s): {', '.join(map(str, unresolved))}; "
+                  "give the world an age grid, or set 'subducting' by hand")
+    print(f"wrote {args.output}" + (f" and {args.geojson}" if args.geojson else ""))
+    return EXIT_OK

@@ -1,0 +1,101 @@
+"""Physics commands: ``cooling`` (the lithosphere cooling model against age) and ``torques``
+(the torque of every force term on every plate)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError
+from ..hypothesis import Hypothesis, cooling_table, slab_depth_km
+from ..io import dumps, load_hypothesis, output_suffix, write_csv
+from ..lithosphere import Physics
+from . import text
+from .common import EXIT_OK, inputs, motions_for
+
+DEFAULT_COOLING_AGES = (1, 2, 5, 10, 20, 30, 40, 50, 60, 80, 100, 120, 150, 200)
+
+
+def add_parser(sub) -> None:
+    """Add the ``cooling`` and ``torques`` commands to the subparsers ``sub``."""
+    p = sub.add_parser("cooling", help="table of the lithosphere cooling model",
+                       description="Sea-floor depth, surface heat flow, ridge push and slab "
+                       "pull (per metre of trench, for the hypothesis' slab depth or 660 km) "
+                       "against age, for the physics of a hypothesis file or the defaults.")
+    p.add_argument("--physics", metavar="HYP.toml", help="hypothesis file whose [physics] "
+                   "table to use")
+    p.add_argument("--ages", metavar="A,B,...", help="ages in Myr (default 1 to 200)")
+    p.add_argument("--json", action="store_true", help="print JSON")
+    p.add_argument("-o", "--output", help="also write the table as CSV")
+    p.set_defaults(func=run_cooling)
+
+    p = sub.add_parser("torques", help="torque of each force term on each plate",
+                       description="Torque about the planet's centre of every force term of "
+                       "a hypothesis on every plate, at the term's fixed coefficient or at 1 "
+                       "for a free one. Velocity-dependent terms (drag, resistance) need "
+                       "--motions.")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("hypothesis", help="hypothesis file (TOML)")
+    p.add_argument("--motions", help="motions CSV (plate,lat,lon,rate)")
+    p.add_argument("-o", "--output", required=True, help="output CSV")
+    p.set_defaults(func=run_torques)
+
+
+def parse_ages(text_: str) -> list:
+    """``--ages A,B,...``: ages in Myr, each in (0, 300]."""
+    try:
+        ages = [float(a) for a in text_.split(",") if a.strip()]
+    except ValueError:
+        raise InputError(f"--ages must be numbers separated by commas, got {text_!r}") \
+            from None
+    bad = [a for a in ages if not (0 < a <= 300)]
+    if not ages or bad:
+        raise InputError(f"--ages must lie in (0, 300] Myr; got {bad or text_!r}")
+    return ages
+
+
+def run_cooling(args) -> int:
+    """Run ``torque cooling``."""
+    if args.output:
+        output_suffix(args.output, (".csv",))
+    hyp = load_hypothesis(args.physics) if args.physics else Hypothesis("defaults", Physics(), ())
+    ages = parse_ages(args.ages) if args.ages else DEFAULT_COOLING_AGES
+    rows, depth = cooling_table(hyp, ages), slab_depth_km(hyp)
+    p = hyp.physics
+    if args.json:
+        print(dumps({"model": p.model, "physics": p.__dict__, "slab_depth_km": depth,
+                     "rows": rows}))
+    else:
+        print(text.cooling(p, depth, rows))
+    if args.output:
+        write_csv(args.output, {k: np.array([r[k] for r in rows]) for k in rows[0]})
+    return EXIT_OK
+
+
+def run_torques(args) -> int:
+    """Run ``torque torques``."""
+    from ..forces import build_terms
+
+    output_suffix(args.output, (".csv",))
+    data = inputs(args)
+    world = data.world
+    hyp = load_hypothesis(args.hypothesis)
+    omega = motions_for(args.motions, world)[1] if args.motions else None
+    terms = build_terms(data.context(hyp, omega))
+    moving = [t.label for t in terms if t.velocity_dependent]
+    if moving and omega is None:
+        raise InputError(f"term(s) {', '.join(moving)} depend on the plates' motion",
+                         file=args.hypothesis, hint="give the motions with --motions M.csv")
+    plates, labels, coefs, tq = [], [], [], []
+    for t in terms:
+        c = 1.0 if t.spec.free else t.spec.coefficient
+        plates += world.plate_names
+        labels += [t.label] * len(world.plates)
+        coefs += [c] * len(world.plates)
+        tq.append(c * t.torque(omega))
+    tq = np.concatenate(tq)
+    write_csv(args.output, {"plate": np.array(plates, dtype=object),
+                            "term": np.array(labels, dtype=object), "coefficient": np.array(coefs),
+                            "tx_nm": tq[:, 0], "ty_nm": tq[:, 1], "tz_nm": tq[:, 2]})
+    print(text.torques(terms, omega))
+    print(f"wrote {args.output} ({len(plates)} rows)")
+    return EXIT_OK

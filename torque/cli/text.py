@@ -1,0 +1,111 @@
+"""Text tables for the terminal: every command's human-readable summary, in one place.
+
+Each function takes results (dicts or result objects) and returns text; the commands print
+it. Machine-readable output (CSV, JSON) is written by :mod:`torque.io`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..euler import vector_to_pole
+from .common import CAUTION
+
+
+def pole(omega) -> str:
+    """An Euler vector (rad/s, shape (3,)) as ``pole LAT N, LON E, rate R deg/Myr``."""
+    lat, lon, rate = vector_to_pole(omega)
+    return f"pole {float(lat):.4f} N, {float(lon):.4f} E, rate {float(rate):.6f} deg/Myr"
+
+
+def check(report) -> str:
+    """Human summary of a :class:`torque.validate.CheckReport`."""
+    d = report.as_dict()
+    R = d["radius_m"]
+    lines = [f"world {d['world']!r}: radius {R / 1e3:.1f} km, {len(d['plates'])} plates, "
+             f"{d['boundaries']['count']} boundary lines"
+             + (" (derived from shared edges)" if d["boundaries"]["derived"] else ""),
+             f"total area {d['total_area_m2']:.6e} m2 = "
+             f"{d['total_area_m2'] / d['sphere_area_m2']:.12f} of the sphere", ""]
+    w = max(5, *(len(p["plate"]) for p in d["plates"]))
+    lines.append(f"{'plate':<{w}}  {'area km2':>12}  {'share':>6}  {'centroid lon':>12}  "
+                 f"{'lat':>7}  {'vertices':>8}  neighbours")
+    for p in d["plates"]:
+        lines.append(f"{p['plate']:<{w}}  {p['area_m2'] / 1e6:12.4e}  "
+                     f"{100 * p['area_fraction']:5.2f}%  {p['centroid_lon']:12.3f}  "
+                     f"{p['centroid_lat']:7.3f}  {p['vertices']:8d}  "
+                     f"{', '.join(p['neighbours'])}")
+    if d["boundaries"]["length_m_by_kind"]:
+        lines.append("")
+        lines.append("boundary length by kind: " + ", ".join(
+            f"{k} {v / 1e3:,.0f} km" for k, v in sorted(d["boundaries"]["length_m_by_kind"]
+                                                       .items())))
+    lines.append("")
+    if report.problems:
+        lines += [str(p) for p in report.problems]
+    else:
+        lines.append("no problems found")
+    return "\n".join(lines)
+
+
+def cooling(physics, depth_km, rows) -> str:
+    """The table of ``torque cooling``."""
+    lines = [f"{physics.model} cooling model; slab pull for a slab reaching {depth_km:g} km",
+             f"{'age Myr':>8} {'depth m':>9} {'heat flow mW/m2':>16} {'ridge push N/m':>15} "
+             f"{'slab pull N/m':>14}"]
+    for r in rows:
+        lines.append(f"{r['age_myr']:8.1f} {r['depth_m']:9.1f} {r['heat_flow_mw_m2']:16.2f} "
+                     f"{r['ridge_push_n_m']:15.4e} {r['slab_pull_n_m']:14.4e}")
+    return "\n".join(lines)
+
+
+def torques(terms, omega) -> str:
+    """One line per force term of ``torque torques``, with its notes."""
+    lines = []
+    for t in terms:
+        mag = np.linalg.norm(t.torque(omega), axis=1)
+        lines.append(f"{t.label:<16} {'free' if t.spec.free else 'fixed':<5} coefficient unit "
+                     f"{t.unit:<7} |torque| at coefficient 1: median {np.median(mag):.3e} N m")
+        lines += [f"  note: {note}" for note in t.notes]
+    return "\n".join(lines)
+
+
+def fit(d: dict) -> str:
+    """The coefficient table and misfit of ``torque fit`` (from the fit's dict)."""
+    lines = [f"hypothesis {d['hypothesis']!r}: velocity-space fit (preferred) and "
+             "torque-space fit",
+             f"{'term':<16} {'value':>12} {'stderr':>10} {'torque-space':>13} {'unit':<8}"]
+    for label, c in d["coefficients"].items():
+        if c["free"]:
+            lines.append(f"{label:<16} {c['value']:12.4e} {c['stderr']:10.2e} "
+                         f"{c['torque_space_value']:13.4e} {c['unit']:<8}")
+        else:
+            lines.append(f"{label:<16} {c['value']:12.4e} {'fixed':>10} {'':>13} "
+                         f"{c['unit']:<8}")
+    m = d["misfit"]
+    lines.append(f"RMS velocity misfit {m['rms_velocity_mm_yr']:.3f} mm/yr, variance "
+                 f"reduction {100 * m['variance_reduction']:.2f} %, AIC {m['aic']:.2f}, "
+                 f"BIC {m['bic']:.2f}")
+    if m["active_bounds"]:
+        lines.append(f"at a bound: {', '.join(m['active_bounds'])}")
+    lines += [f"note: {note}" for note in d.get("notes", [])]
+    lines.append(CAUTION)
+    return "\n".join(lines)
+
+
+def rank(rows, tests) -> str:
+    """The ranking table of ``torque rank`` and its F-tests."""
+    wn = max(10, *(len(r.name) for r in rows))
+    lines = [f"{'rank':>4}  {'hypothesis':<{wn}} {'rms mm/yr':>9} {'VR %':>7} {'k':>2} "
+             f"{'AIC':>10} {'BIC':>10} {'CV mm/yr':>9}"]
+    for i, r in enumerate(rows, 1):
+        lines.append(f"{i:4d}  {r.name:<{wn}} {r.rms_velocity_mm_yr:9.3f} "
+                     f"{100 * r.variance_reduction:7.2f} {r.free:2d} {r.aic:10.2f} "
+                     f"{r.bic:10.2f} {r.cv_rms_mm_yr:9.3f}")
+    for t in tests:
+        if t["p_value"] is not None:
+            lines.append(f"F-test {t['smaller']!r} within {t['bigger']!r}: F = {t['F']:.3g}, "
+                         f"p = {t['p_value']:.3g}")
+    lines.append("sorted by AIC (lowest first); CV = leave-one-plate-out cross-validation "
+                 "error")
+    return "\n".join(lines)

@@ -1,0 +1,206 @@
+"""A world with its data, and what every force term derives from them once.
+
+:class:`WorldData` holds a :class:`~torque.world.World` and its optional continents, sea-floor
+age grid and mantle flow grid, and computes, once, what every force term of every
+hypothesis shares: the plate and the continental flag of each grid node, the exact moments
+of the continental part of each plate, the drag tensor of a region, the age grid checked
+against the plates, and sea-floor ages synthesised from ridges. ``torque rank`` fits many
+hypotheses to one world, and each one's :class:`~torque.forces.context.Context` draws on
+the same ``WorldData``, so nothing is located, clipped or synthesised twice.
+
+It reads no file: :class:`torque.io.Inputs` is a ``WorldData`` that reads the world's data
+files on first use.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+
+from . import sphere
+from .continents import clip_moments
+from .errors import InputError
+
+
+@dataclass(frozen=True, eq=False)
+class ContinentalPart:
+    """Exact moments of the continental part of each plate, on the unit sphere.
+
+    Attributes
+    ----------
+    area : ndarray, shape (P,)
+    first : ndarray, shape (P, 3)
+        ``int r dA``.
+    second : ndarray, shape (P, 3, 3)
+        ``int r r^T dA``.
+    warnings : tuple of str
+        Where the clipping is inexact (a continent edge along a plate edge).
+    """
+
+    area: np.ndarray
+    first: np.ndarray
+    second: np.ndarray
+    warnings: tuple = ()
+
+    def __repr__(self) -> str:
+        return f"ContinentalPart({len(self.area)} plates, {len(self.warnings)} warnings)"
+
+
+class WorldData:
+    """A world, its optional data, and the data derived from them once.
+
+    Parameters
+    ----------
+    world : World
+    continents : Continents, optional
+    ages : AgeGrid, optional
+        Sea-floor ages; checked against the plates on first use.
+    flow : FlowGrid, optional
+        Mantle flow; checked to cover the sphere on first use.
+
+    Examples
+    --------
+    >>> from torque.io import world_from_rings
+    >>> w = world_from_rings({"Upper": [[(0, 0), (120, 0), (240, 0)]],
+    ...                       "Lower": [[(0, 0), (240, 0), (120, 0)]]}, winding="strict")
+    >>> data = WorldData(w)
+    >>> D = data.drag_tensor("all")        # (2, 3, 3), unit sphere
+    >>> # a hemisphere: int r r^T dA = (2 pi / 3) I, so D = (2 pi - 2 pi / 3) I = (4 pi / 3) I
+    >>> [round(float(x), 6) for x in D[0].diagonal() / np.pi]
+    [1.333333, 1.333333, 1.333333]
+    """
+
+    def __init__(self, world, *, continents=None, ages=None, flow=None):
+        self.world = world
+        self._given = {"continents": continents, "ages": ages, "flow": flow}
+        self._node_cache: dict = {}
+        self._synth_cache: dict = {}
+
+    def __repr__(self) -> str:
+        have = [k for k in ("continents", "ages", "flow")
+                if self._given[k] is not None or k in self.world.paths
+                or (k == "flow" and "mantle_flow" in self.world.paths)]
+        return f"{type(self).__name__}({self.world!r}, data: {', '.join(have) or 'none'})"
+
+    def _read(self, key: str):
+        """The world's data file of ``key`` read, or None (this class reads no file)."""
+        return None
+
+    def _data(self, key: str):
+        given = self._given[key]
+        return given if given is not None else self._read(key)
+
+    # -- the data -------------------------------------------------------------------------
+    @cached_property
+    def continents(self):
+        """Continental regions (:class:`~torque.continents.Continents`), or None."""
+        return self._data("continents")
+
+    @cached_property
+    def ages(self):
+        """The sea-floor age grid (:class:`~torque.grids.AgeGrid`) checked against the
+        plates, or None.
+
+        Raises
+        ------
+        InputError
+            If the grid does not cover the sphere, or (with continents) an oceanic node has
+            no age.
+        """
+        grid = self._data("ages")
+        if grid is not None:
+            self._check_ages(grid)
+        return grid
+
+    @cached_property
+    def flow(self):
+        """The mantle flow grid (:class:`~torque.grids.FlowGrid`), checked to cover the
+        sphere, or None."""
+        grid = self._data("flow")
+        if grid is not None and not grid.covers_sphere():
+            # outside the grid the mantle would silently be taken at rest
+            raise InputError("the mantle flow grid does not cover the plates (it must span "
+                             "all longitudes and reach within a grid step of both poles; it "
+                             f"spans lon {grid.lon[0]:g} to {grid.lon[-1]:g}, lat "
+                             f"{grid.lat[0]:g} to {grid.lat[-1]:g})", file=grid.source)
+        return grid
+
+    def _check_ages(self, grid):
+        if not grid.covers_sphere():
+            raise InputError("the age grid does not cover the plates (it must span all "
+                             f"longitudes and reach within a grid step of both poles; it spans "
+                             f"lon {grid.lon[0]:g} to {grid.lon[-1]:g}, lat {grid.lat[0]:g} to "
+                             f"{grid.lat[-1]:g})", file=grid.source)
+        if self.continents is None:
+            return
+        plate = self.node_plates(grid)
+        nan = ~np.isfinite(grid.age_myr) & ~self.node_continental(grid)
+        if nan.any():
+            j, i = np.argwhere(nan)[0]
+            name = self.world.plates[int(plate[j, i])].name
+            raise InputError(f"{int(nan.sum())} age node(s) are NaN outside the continents, "
+                             f"the first in plate {name!r} at lon {grid.lon[i]:g}, lat "
+                             f"{grid.lat[j]:g}", file=grid.source,
+                             hint="give every oceanic node an age, or extend the continents")
+
+    # -- derived once ---------------------------------------------------------------------
+    def node_plates(self, grid) -> np.ndarray:
+        """Plate index of every node of a regular grid, shape (nlat, nlon), located once
+        per grid."""
+        key = ("plates", id(grid))
+        if key not in self._node_cache:
+            self._node_cache[key] = (grid, self.world.geometry.locator.locate_grid(
+                grid.lon, grid.lat))
+        return self._node_cache[key][1]
+
+    def node_continental(self, grid) -> np.ndarray:
+        """Whether each node of a regular grid lies on a continent, shape (nlat, nlon)
+        (all False without continents)."""
+        if self.continents is None:
+            return np.zeros((len(grid.lat), len(grid.lon)), bool)
+        key = ("continental", id(grid))
+        if key not in self._node_cache:
+            self._node_cache[key] = (grid, self.continents.locator.locate_grid(
+                grid.lon, grid.lat) == 0)
+        return self._node_cache[key][1]
+
+    @cached_property
+    def continental_part(self) -> ContinentalPart:
+        """Exact moments of the continental part of each plate (zeros without continents)."""
+        P = self.world.geometry.n_plates
+        if self.continents is None:
+            return ContinentalPart(np.zeros(P), np.zeros((P, 3)), np.zeros((P, 3, 3)))
+        area, first, second, warnings = clip_moments(self.world, self.continents)
+        return ContinentalPart(area, first, second, tuple(warnings))
+
+    def drag_tensor(self, region: str) -> np.ndarray:
+        """``int (I - r r^T) dA`` over a region of each plate, unit sphere, shape (P, 3, 3).
+
+        Parameters
+        ----------
+        region : {"all", "ocean", "continent"}
+
+        Raises
+        ------
+        InputError
+            For "ocean" or "continent" when the world has no continents.
+        """
+        area, _, second = self.world.geometry.moments
+        D = sphere.drag_tensor(area, second)
+        if region == "all":
+            return D
+        if self.continents is None:
+            raise InputError(f"region {region!r} needs continents: add a 'continents' file to "
+                             "the world", file=self.world.paths.get("world"))
+        part = self.continental_part
+        Dc = sphere.drag_tensor(part.area, part.second)
+        return Dc if region == "continent" else D - Dc
+
+    def synthesised(self, key, make):
+        """``make()`` the first time for ``key``, then the same result (synthesised ages
+        depend only on the world, the motions and the grid step, not on the hypothesis)."""
+        if key not in self._synth_cache:
+            self._synth_cache[key] = make()
+        return self._synth_cache[key]

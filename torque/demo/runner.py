@@ -1,0 +1,173 @@
+"""``torque demo``: the whole job on the bundled demo planet, and its report.
+
+The runner calls the command line itself, in-process, so that it exercises exactly what
+users run; ``main`` is passed in (no import of :mod:`torque.cli`, which imports this
+module). The demo world's inputs are read and checked once and handed to every step.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import io
+import time
+from pathlib import Path
+
+from ..errors import InputError
+from ..forces import build_terms
+from ..io import Inputs, atomic_write, load_hypothesis, read_fit, read_motions
+from ..io.files import check_output_path, read_json
+from ..report import write_html, write_markdown
+from .. import maps
+from .planet import BUNDLED, TRUTH_HYPOTHESIS, write
+
+OUTPUTS = ("check.json", "cooling.csv", "torques.csv", "fits", "rank.csv", "rank.json",
+           "predicted.csv", "field.nc", "boundary_motion.csv", "maps", "report.html",
+           "report.md")
+
+
+def run(main, outdir, force: bool = False, echo=print) -> dict:
+    """Run the whole job on the demo world; write everything into ``outdir``.
+
+    Parameters
+    ----------
+    main : callable
+        The command line's entry point (``torque.cli.main``), passed in so that the demo
+        runs exactly what users run without importing the command line (no cycle). It is
+        called as ``main(argv, preloaded=inputs)``.
+    outdir : str or Path
+        Must be empty (or missing) unless ``force``; even then only the files this run
+        writes are replaced, and nothing is deleted.
+    force : bool
+    echo : callable
+        Where the summary lines go.
+
+    Returns
+    -------
+    dict
+        ``outdir``, the ``best`` hypothesis' name and the run time in ``seconds``.
+    """
+    outdir = Path(outdir)
+    if outdir.exists() and not outdir.is_dir():
+        raise InputError("exists and is not a folder", file=outdir)
+    check_output_path(outdir / "report.html")     # refuses a folder under a file
+    if outdir.is_dir() and any(outdir.iterdir()) and not force:
+        raise InputError("the folder holds other files; torque demo writes only into an empty "
+                         "folder", file=outdir,
+                         hint="choose a new folder, or pass --force to overwrite torque's own "
+                         "output names there (nothing is ever deleted)")
+    outdir.mkdir(parents=True, exist_ok=True)
+    t0 = time.perf_counter()
+    src = BUNDLED
+    if not (src / "world.toml").is_file():
+        src = outdir / "world"
+        echo(f"generating the demo world in {src}")
+        write(src)
+    world = src / "world.toml"
+    motions = src / "motions.csv"
+    hyps = sorted((src / "hypotheses").glob("*.toml"))
+    truth = read_json(src / "truth.json")
+    inputs = Inputs.load(world)        # read and checked once, for every step
+
+    def step(*argv):
+        buf = io.StringIO()
+        with contextlib.redirect_stdout(buf):
+            status = main([str(a) for a in argv], preloaded=inputs)
+        if status != 0:
+            raise InputError(f"demo step 'torque {argv[0]}' failed (status {status})")
+        return buf.getvalue()
+
+    (outdir / "fits").mkdir(exist_ok=True)
+    (outdir / "maps").mkdir(exist_ok=True)
+    with atomic_write(outdir / "check.json") as fh:
+        fh.write(step("check", world, "--json"))
+    step("cooling", "-o", outdir / "cooling.csv")
+    for h in hyps:
+        extra = (["--bootstrap", "200", "--monte-carlo", "1000", "--seed", "1"]
+                 if h.stem == TRUTH_HYPOTHESIS else [])
+        step("fit", world, h, motions, "-o", outdir / "fits" / f"{h.stem}.json", *extra)
+    step("rank", world, motions, *hyps, "-o", outdir / "rank.csv", "--json",
+         outdir / "rank.json")
+    rows = read_json(outdir / "rank.json")["rows"]
+    fits = {h.stem: read_fit(outdir / "fits" / f"{h.stem}.json") for h in hyps}
+    by_name = {f.hypothesis: stem for stem, f in fits.items()}
+    best = by_name[rows[0]["name"]]
+    best_hyp = src / "hypotheses" / f"{best}.toml"
+    step("torques", world, best_hyp, "--motions", motions, "-o", outdir / "torques.csv")
+    step("predict", world, best_hyp, "--coefficients", outdir / "fits" / f"{best}.json",
+         "-o", outdir / "predicted.csv")
+    step("field", world, motions, "--step", "1", "-o", outdir / "field.nc")
+    step("boundaries", world, motions, "-o", outdir / "boundary_motion.csv")
+    figures = draw_maps(outdir, inputs, motions, outdir / "predicted.csv", best_hyp,
+                        outdir / "fits" / f"{best}.json")
+
+    fit = fits[best]
+    summary = [
+        f"{len(fit.plates)} plates on the invented planet Orrery; every number here comes "
+        "from synthetic data made by the forward model (truth.json).",
+        f"best hypothesis: {rows[0]['name']} (RMS velocity misfit "
+        f"{rows[0]['rms_velocity_mm_yr']:.2f} mm/yr, variance reduction "
+        f"{100 * rows[0]['variance_reduction']:.2f} %).",
+        "true coefficients: " + ", ".join(f"{k} {v:g}" for k, v in
+                                          truth["true_coefficients"].items()) + ".",
+        "fitted: " + ", ".join(f"{k} {c.value:.4g} ± {c.stderr:.2g}"
+                               for k, c in fit.coefficients.items() if c.free) + ".",
+    ]
+    by_hypothesis = {f.hypothesis: f for f in fits.values()}
+    run_info = {"world": "Orrery (synthetic demo)", "summary": summary, "truth": truth,
+                "rank": rows, "fits": {r["name"]: by_hypothesis[r["name"]] for r in rows},
+                "figures": figures}
+    write_markdown(outdir / "report.md", run_info)
+    write_html(outdir / "report.html", run_info, outdir)
+    elapsed = time.perf_counter() - t0
+    echo(f"torque demo: the whole job on the invented planet Orrery ({elapsed:.0f} s)")
+    for line in summary[1:]:
+        echo(f"  {line}")
+    echo(f"  world and data:   {src}")
+    for name, what in (("check.json", "world check"), ("cooling.csv", "cooling table"),
+                       ("torques.csv", "torques of the best hypothesis"),
+                       ("fits/", "fits of every hypothesis"), ("rank.csv", "ranking"),
+                       ("predicted.csv", "predicted Euler vectors"),
+                       ("field.nc", "velocity field"),
+                       ("boundary_motion.csv", "relative motion along boundaries"),
+                       ("maps/", "maps and charts"), ("report.html", "report (one file)"),
+                       ("report.md", "report summary")):
+        echo(f"  {what + ':':<34}{outdir / name}")
+    echo("  caution: synthetic data; results of this tool are model-dependent research "
+         "estimates, not for hazard or engineering use")
+    return {"outdir": str(outdir), "best": rows[0]["name"], "seconds": elapsed}
+
+
+def draw_maps(outdir, inputs, motions_path, predicted_path, hyp_path, fit_path) -> list:
+    """Every map and chart of the demo.
+
+    Parameters
+    ----------
+    outdir : Path
+        The figures go into ``outdir / "maps"``.
+    inputs : Inputs
+        The demo world and its data.
+    motions_path, predicted_path, hyp_path, fit_path : Path
+        Observed and predicted motions, the best hypothesis and its fit.
+
+    Returns
+    -------
+    list of (str, str)
+        Title and path relative to ``outdir`` of every figure.
+    """
+    world = inputs.world
+    cont = inputs.continents
+    obs = read_motions(motions_path).for_world(world)
+    pred = read_motions(predicted_path).for_world(world)
+    hyp = load_hypothesis(hyp_path)
+    terms = build_terms(inputs.context(hyp, obs))
+    fit = read_fit(fit_path, world.plate_names)
+    coefs = fit.values([t.label for t in terms], file=fit_path)
+    m = Path(outdir) / "maps"
+    figs = [("Plates and boundaries", maps.plates_map(world, m / "plates.png", cont)),
+            ("Velocities, observed and predicted",
+             maps.velocity_map(world, m / "velocities.png", obs, pred, cont)),
+            ("Euler poles with 95 % ellipses", maps.poles_map(world, m / "poles.png", fit)),
+            ("Velocity misfit", maps.misfit_map(world, m / "misfit.png", obs, pred)),
+            ("Force budget", maps.budget_chart(m / "budget.png", fit)),
+            ("Torques", maps.torque_chart(m / "torques.png", world, terms, coefs, obs))]
+    return [(t, str(Path(p).relative_to(outdir))) for t, p in figs]

@@ -1,0 +1,438 @@
+"""What a fit means: misfits, pole ellipses, force budgets, information criteria, and the
+results of ``torque fit`` as one record that round-trips through JSON.
+
+:func:`analyse` runs every fit method of :data:`torque.balance.FIT_METHODS` on a
+:class:`~torque.balance.System`, predicts the Euler vectors at the preferred coefficients
+and propagates their uncertainty (:class:`Report`, the computation). :class:`FitResult` is
+what is reported: coefficients, per-plate diagnostics, misfit and resampled uncertainty,
+with :meth:`FitResult.as_dict` / :meth:`FitResult.from_dict` for the fit JSON that
+``predict``, ``map``, the report and the demo read back.
+
+References
+----------
+.. [1] Burnham, K. P. and Anderson, D. R. (2002). *Model Selection and Multimodel
+   Inference*, 2nd ed. Springer, sec. 2.2 (AIC for least squares: n ln(RSS/n) + 2k).
+.. [2] Schwarz, G. (1978). Estimating the dimension of a model. *Ann. Stat.* 6, 461-464.
+.. [3] Draper, N. R. and Smith, H. (1998). *Applied Regression Analysis*, 3rd ed. Wiley
+   (extra sum of squares F-test for nested linear models; covariance of estimates).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import stats
+
+from .balance import FIT_METHODS, PREFERRED_FIT, Fit, System, predict
+from .errors import InputError
+from .euler import M_S_TO_MM_YR, RAD_S_PER_DEG_MYR, vector_to_pole
+
+CONFIDENCE = 0.95
+CAUTION = "model-dependent research estimate; not for hazard or engineering use"
+WHY_VELOCITY = ("the velocity-space fit measures misfit in the observed plate velocities and "
+                "does not depend on how torques are weighted; the torque-space fit is linear "
+                "and serves as its start and for resampling")
+
+
+def velocity_misfit(system: System, omega_pred, omega_obs):
+    """Per-plate RMS velocity misfit (mm/yr) and the global misfit numbers (exact)."""
+    dw = np.asarray(omega_pred) - np.asarray(omega_obs)
+    R = system.radius_m
+    per = np.einsum("pi,pij,pj->p", dw, system.D, dw)               # int |dw x r|^2 dA
+    obs = np.einsum("pi,pij,pj->p", omega_obs, system.D, omega_obs)
+    rms = R * np.sqrt(per / system.area) * M_S_TO_MM_YR
+    total_rms = R * np.sqrt(per.sum() / system.area.sum()) * M_S_TO_MM_YR
+    vr = 1.0 - per.sum() / obs.sum() if obs.sum() > 0 else np.nan
+    return rms, {"rms_velocity_mm_yr": float(total_rms),
+                 "variance_reduction": float(vr),
+                 "velocity_rss_m4_s2": float(per.sum() * R ** 4)}
+
+
+def pole_covariance(system: System, coefficients, cov_free, omega_pred) -> np.ndarray:
+    """Covariance (rad/s)^2 of each predicted Euler vector, shape (P, 3, 3), from the
+    covariance of the free coefficients by linear propagation."""
+    c = np.asarray(coefficients, float)
+    M = np.tensordot(c, system.A, axes=1)
+    w = np.asarray(omega_pred).reshape(-1)
+    rhs = (system.A[system.free] @ w + system.b[system.free]).T
+    J = -np.linalg.solve(M, rhs)                                     # (3P, k)
+    full = J @ cov_free @ J.T
+    P = system.n_plates
+    return full.reshape(P, 3, P, 3)[np.arange(P), :, np.arange(P), :]
+
+
+def pole_ellipse(omega, cov, confidence: float = CONFIDENCE) -> dict:
+    """Confidence ellipse of a pole and the rate's standard error from a 3x3 covariance.
+
+    The pole direction ``u = w/|w|`` varies as ``du = (I - u u^T) dw / |w|``; its 2-D
+    covariance in the tangent plane gives the ellipse, scaled by the chi-square quantile
+    with 2 degrees of freedom (``scipy.stats.chi2``).
+    """
+    omega = np.asarray(omega, float)
+    rate = np.linalg.norm(omega)
+    if rate == 0 or not np.all(np.isfinite(cov)):
+        return {"major_deg": None, "minor_deg": None, "azimuth_deg": None,
+                "rate_stderr_deg_myr": None, "confidence": confidence}
+    u = omega / rate
+    east = np.cross([0.0, 0.0, 1.0], u)
+    east = east / np.linalg.norm(east) if np.linalg.norm(east) > 1e-12 else np.array([0, 1.0,
+                                                                                        0])
+    north = np.cross(u, east)
+    T = np.stack([east, north]) / rate                                # (2, 3)
+    c2 = T @ cov @ T.T
+    vals, vecs = np.linalg.eigh(c2)
+    k = np.sqrt(stats.chi2.ppf(confidence, 2))
+    major = np.degrees(k * np.sqrt(max(vals[1], 0)))
+    minor = np.degrees(k * np.sqrt(max(vals[0], 0)))
+    az = np.degrees(np.arctan2(vecs[0, 1], vecs[1, 1])) % 180.0
+    rate_se = np.sqrt(max(u @ cov @ u, 0)) / RAD_S_PER_DEG_MYR
+    return {"major_deg": float(major), "minor_deg": float(minor), "azimuth_deg": float(az),
+            "rate_stderr_deg_myr": float(rate_se), "confidence": confidence}
+
+
+def force_budget(system: System, coefficients, omega) -> np.ndarray:
+    """Share of each term in each plate's driving torque, shape (P, K).
+
+    The driving torque of a plate is the sum of the motion-independent torques of all terms
+    (at their coefficients). A term's share is its torque (at the motions ``omega``)
+    projected on the driving torque's direction and divided by its magnitude: driving
+    terms' shares add to 1, resisting terms' come out negative (near -1 in all if the
+    plate is balanced).
+    """
+    c = np.asarray(coefficients, float)
+    P = system.n_plates
+    G = system.columns(omega).reshape(P, 3, -1) * c                   # (P, 3, K)
+    drive = (c[:, None] * system.b).sum(0).reshape(P, 3)
+    mag2 = np.einsum("pi,pi->p", drive, drive)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(mag2[:, None] > 0, np.einsum("pik,pi->pk", G, drive) / mag2[:, None],
+                        np.nan)
+
+
+def residual_torque(system: System, coefficients, omega) -> np.ndarray:
+    """Sum of all terms' torques (N m) at the observed motions, per plate (P, 3)."""
+    return (system.columns(omega) @ np.asarray(coefficients, float)).reshape(-1, 3)
+
+
+def pole_distance_deg(w1, w2) -> np.ndarray:
+    """Angle (degrees) between the poles of two sets of Euler vectors (P, 3)."""
+    n = np.linalg.norm(np.cross(w1, w2), axis=-1)
+    return np.degrees(np.arctan2(n, np.einsum("pi,pi->p", w1, w2)))
+
+
+def information_criteria(rss: float, n: int, k: int) -> dict:
+    """AIC, AICc and BIC for a least-squares fit with Gaussian errors [1]_ [2]_.
+
+    ``AIC = n ln(RSS/n) + 2k``, ``AICc = AIC + 2k(k+1)/(n-k-1)``, ``BIC = n ln(RSS/n) +
+    k ln(n)`` (constants common to all models dropped).
+    """
+    base = n * np.log(max(rss, 1e-300) / n)
+    aic = base + 2 * k
+    aicc = aic + (2 * k * (k + 1) / (n - k - 1) if n - k - 1 > 0 else np.inf)
+    return {"aic": float(aic), "aicc": float(aicc), "bic": float(base + k * np.log(n))}
+
+
+def f_test(rss_small: float, k_small: int, rss_big: float, k_big: int, n: int) -> dict:
+    """Extra-sum-of-squares F-test of a nested model against a bigger one [3]_.
+
+    ``F = ((RSS_s - RSS_b)/(k_b - k_s)) / (RSS_b/(n - k_b))``, p-value from
+    ``scipy.stats.f``.
+    """
+    df1, df2 = k_big - k_small, n - k_big
+    if df1 <= 0 or df2 <= 0 or rss_big <= 0:
+        return {"F": None, "p_value": None, "df": [df1, df2]}
+    F = ((rss_small - rss_big) / df1) / (rss_big / df2)
+    return {"F": float(F), "p_value": float(stats.f.sf(F, df1, df2)), "df": [df1, df2]}
+
+
+# ----------------------------------------------------------------------------------------
+# the reported result, and its JSON form
+# ----------------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Coefficient:
+    """One coefficient as reported: the preferred fit's value and the torque-space one.
+
+    Attributes
+    ----------
+    value, stderr : float
+        The preferred (velocity-space) estimate and its standard error (0 when fixed).
+    free : bool
+    unit : str
+    torque_space_value, torque_space_stderr : float
+    """
+
+    value: float
+    stderr: float
+    free: bool
+    unit: str
+    torque_space_value: float
+    torque_space_stderr: float
+
+
+_PLATE_KEYS = ("plate", "observed", "predicted", "pole_distance_deg", "rate_ratio",
+               "rms_velocity_mm_yr", "residual_torque_nm", "budget", "pole_ellipse")
+
+
+@dataclass(frozen=True)
+class FitResult:
+    """The results of ``torque fit``: what the fit JSON holds, as one record.
+
+    Attributes
+    ----------
+    hypothesis : str
+    coefficients : dict
+        ``{label: Coefficient}``, in the hypothesis' order.
+    plates : tuple of dict
+        Per plate: ``plate``, ``observed`` and ``predicted`` poles (``lat``, ``lon`` in
+        degrees, ``rate`` in deg/Myr), ``pole_distance_deg``, ``rate_ratio``,
+        ``rms_velocity_mm_yr``, ``residual_torque_nm`` (3 numbers), ``budget``
+        (``{label: share}``) and the predicted pole's ``pole_ellipse``.
+    misfit : dict
+        RMS velocity misfit (mm/yr), variance reduction, AIC, AICc, BIC and the fits' sums
+        of squares.
+    uncertainty : dict
+        Resampled spreads by method (``bootstrap``, ``monte_carlo_motions``,
+        ``monte_carlo_physics``), empty if none was asked for.
+    notes : tuple of str
+        How the terms were computed where a user should know.
+    preferred_fit : str
+        The method whose values are ``Coefficient.value``.
+
+    Examples
+    --------
+    >>> r = FitResult("h", {"slab": Coefficient(0.05, 0.001, True, "1", 0.049, 0.002)},
+    ...               plates=(), misfit={"rms_velocity_mm_yr": 1.5})
+    >>> FitResult.from_dict(r.as_dict()) == r
+    True
+    >>> r.values(["slab"])
+    [0.05]
+    """
+
+    hypothesis: str
+    coefficients: dict
+    plates: tuple = ()
+    misfit: dict = field(default_factory=dict)
+    uncertainty: dict = field(default_factory=dict)
+    notes: tuple = ()
+    preferred_fit: str = PREFERRED_FIT
+
+    def __repr__(self) -> str:
+        free = [l for l, c in self.coefficients.items() if c.free]
+        return (f"FitResult({self.hypothesis!r}, {len(self.plates)} plates, free "
+                f"{free}, preferred {self.preferred_fit!r})")
+
+    @property
+    def plate_names(self) -> list:
+        """The plates, in the order of :attr:`plates`."""
+        return [p["plate"] for p in self.plates]
+
+    def values(self, labels, file=None) -> list:
+        """The value of each coefficient in ``labels``, in that order.
+
+        Raises
+        ------
+        InputError
+            Naming ``file`` when the fit has no coefficient of one of the labels.
+        """
+        missing = [x for x in labels if x not in self.coefficients]
+        if missing:
+            raise InputError(f"the fit is for another hypothesis: no coefficient for "
+                             f"{', '.join(map(repr, missing))}", file=file,
+                             hint="fit this hypothesis with torque fit first")
+        return [self.coefficients[x].value for x in labels]
+
+    def as_dict(self) -> dict:
+        """The fit JSON (see the README): plain numbers, lists and dicts."""
+        out = {
+            "hypothesis": self.hypothesis,
+            "caution": CAUTION,
+            "preferred_fit": self.preferred_fit,
+            "why": WHY_VELOCITY,
+            "coefficients": {l: dict(c.__dict__) for l, c in self.coefficients.items()},
+            "plates": [dict(p) for p in self.plates],
+            "misfit": dict(self.misfit),
+            "uncertainty": self.uncertainty,
+        }
+        out["notes"] = list(self.notes)
+        return out
+
+    @classmethod
+    def from_dict(cls, doc, file=None) -> "FitResult":
+        """The record of a fit JSON document, checked.
+
+        Parameters
+        ----------
+        doc : dict
+            As written by :meth:`as_dict` (``torque fit``).
+        file : str or Path, optional
+            Named in messages.
+
+        Raises
+        ------
+        InputError
+            If the document is not the output of ``torque fit``.
+        """
+        if not (isinstance(doc, dict) and isinstance(doc.get("coefficients"), dict)
+                and isinstance(doc.get("plates"), list)
+                and all(isinstance(p, dict) and "plate" in p for p in doc["plates"])):
+            raise InputError("not the JSON output of torque fit (it needs 'coefficients' "
+                             "and 'plates')", file=file)
+        coefs = {}
+        for label, c in doc["coefficients"].items():
+            v = c.get("value") if isinstance(c, dict) else None
+            if not isinstance(v, (int, float)) or isinstance(v, bool) or not np.isfinite(v):
+                raise InputError(f"coefficient {label!r} has no numeric 'value'", file=file)
+
+            def num(key, default=np.nan):
+                x = c.get(key, default)
+                return float(x) if isinstance(x, (int, float)) else np.nan
+            coefs[label] = Coefficient(float(v), num("stderr", 0.0), bool(c.get("free", False)),
+                                       str(c.get("unit", "")), num("torque_space_value"),
+                                       num("torque_space_stderr"))
+        return cls(str(doc.get("hypothesis", "")), coefs, tuple(doc["plates"]),
+                   dict(doc.get("misfit") or {}), dict(doc.get("uncertainty") or {}),
+                   tuple(doc.get("notes") or ()), str(doc.get("preferred_fit", PREFERRED_FIT)))
+
+
+@dataclass(frozen=True, eq=False)
+class Report:
+    """A fitted hypothesis: every fit method's result, the prediction at the preferred
+    coefficients and its uncertainty. :meth:`result` gives what is reported.
+
+    Attributes
+    ----------
+    system : System
+    fits : dict
+        ``{method: Fit}`` for every method run (see :data:`torque.balance.FIT_METHODS`).
+    omega_obs, omega_pred : ndarray, shape (P, 3)
+        Observed and predicted Euler vectors (rad/s).
+    pole_cov : ndarray, shape (P, 3, 3)
+        Covariance of each predicted Euler vector, (rad/s)^2.
+    uncertainty : dict
+        Resampled spreads (see :mod:`torque.resample`).
+    preferred_fit : str
+    """
+
+    system: System
+    fits: dict
+    omega_obs: np.ndarray
+    omega_pred: np.ndarray
+    pole_cov: np.ndarray
+    uncertainty: dict = field(default_factory=dict)
+    preferred_fit: str = PREFERRED_FIT
+
+    def __repr__(self) -> str:
+        return (f"Report({self.system.name!r}, {self.system.n_plates} plates, "
+                f"preferred {self.preferred!r})")
+
+    @property
+    def preferred(self) -> Fit:
+        """The fit whose values are reported (velocity space)."""
+        return self.fits[self.preferred_fit]
+
+    @property
+    def torque_fit(self) -> Fit:
+        """The torque-space fit."""
+        return self.fits["torque"]
+
+    @property
+    def velocity_fit(self) -> Fit:
+        """The velocity-space fit."""
+        return self.fits["velocity"]
+
+    def misfit(self):
+        """Per-plate RMS velocity misfit (mm/yr) and the global numbers (see
+        :func:`velocity_misfit`)."""
+        return velocity_misfit(self.system, self.omega_pred, self.omega_obs)
+
+    def as_dict(self) -> dict:
+        """The fit JSON: ``self.result().as_dict()``."""
+        return self.result().as_dict()
+
+    def result(self, notes=()) -> FitResult:
+        """What is reported of this fit, with ``notes`` on how the terms were made."""
+        s = self.system
+        pref = self.preferred
+        tf = self.torque_fit
+        coefs = {}
+        for i, l in enumerate(s.labels):
+            coefs[l] = {"value": float(pref.values[i]), "stderr": float(pref.stderr[i]),
+                        "free": bool(s.free[i]), "unit": s.units[i],
+                        "torque_space_value": float(tf.values[i]),
+                        "torque_space_stderr": float(tf.stderr[i])}
+        rms, glob = self.misfit()
+        ang = pole_distance_deg(self.omega_obs, self.omega_pred)
+        budget = force_budget(s, pref.values, self.omega_obs)
+        resid = residual_torque(s, pref.values, self.omega_obs)
+        olat, olon, orate = vector_to_pole(self.omega_obs)
+        plat, plon, prate = vector_to_pole(self.omega_pred)
+        plates = []
+        for p, name in enumerate(s.plates):
+            plates.append({
+                "plate": name,
+                "observed": {"lat": float(olat[p]), "lon": float(olon[p]),
+                             "rate": float(orate[p])},
+                "predicted": {"lat": float(plat[p]), "lon": float(plon[p]),
+                              "rate": float(prate[p])},
+                "pole_distance_deg": float(ang[p]),
+                "rate_ratio": float(prate[p] / orate[p]) if orate[p] > 0 else None,
+                "rms_velocity_mm_yr": float(rms[p]),
+                "residual_torque_nm": resid[p].tolist(),
+                "budget": {l: (None if not np.isfinite(budget[p, k]) else float(budget[p, k]))
+                           for k, l in enumerate(s.labels)},
+                "pole_ellipse": pole_ellipse(self.omega_pred[p], self.pole_cov[p]),
+            })
+        n = 3 * s.n_plates
+        k = s.n_free
+        ic = information_criteria(glob["velocity_rss_m4_s2"], n, k)
+        misfit = {**glob, "n": n, "free_coefficients": k, **ic,
+                  "torque_space_rss": tf.rss,
+                  "torque_space_weighting": tf.info.get("weighting"),
+                  "active_bounds": list(pref.active_bounds)}
+        return FitResult(s.name, {l: Coefficient(**c) for l, c in coefs.items()},
+                         tuple(plates), misfit, self.uncertainty, tuple(notes),
+                         self.preferred_fit)
+
+
+def analyse(system: System, omega_obs, weighting: str = "velocity",
+            methods=None) -> Report:
+    """Fit a hypothesis by every fit method, predict, and propagate the uncertainty.
+
+    Parameters
+    ----------
+    system : System
+    omega_obs : ndarray, shape (P, 3)
+        Observed Euler vectors (rad/s), in the frame where the mantle is at rest.
+    weighting : {"velocity", "area", "none"}
+        Weighting of the torque-space fit (see :func:`torque.balance.plate_weights`).
+    methods : sequence of str, optional
+        Names in :data:`torque.balance.FIT_METHODS` to run, in registry order (default
+        all); the preferred one must be among them.
+
+    Returns
+    -------
+    Report
+        ``report.result()`` is the :class:`FitResult` that ``torque fit`` writes.
+
+    Examples
+    --------
+    >>> import torque
+    >>> inputs = torque.Inputs.load("polygons_demo/world.toml")
+    >>> hyp = torque.load_hypothesis("polygons_demo/hypotheses/continental_drag.toml")
+    >>> omega = torque.read_motions("polygons_demo/motions.csv").for_world(inputs.world)
+    >>> system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, omega))
+    >>> report = analyse(system, omega)
+    >>> round(report.result().coefficients["slab"].value, 3)
+    0.05
+    """
+    omega_obs = np.asarray(omega_obs, float)
+    names = list(FIT_METHODS) if methods is None else [m for m in FIT_METHODS
+                                                       if m in methods]
+    fits = {}
+    for name in names:
+        fits[name] = FIT_METHODS[name].run(system, omega_obs, fits, weighting)
+    pref = fits[PREFERRED_FIT]
+    pred = predict(system, pref.values)
+    cov = pole_covariance(system, pref.values, pref.cov, pred)
+    return Report(system, fits, omega_obs, pred, cov)

@@ -1,0 +1,89 @@
+"""JSON results: strict JSON out (NaN written as null), and the fit file of ``torque fit``
+read and checked in one place for ``predict``, ``map`` and the demo."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+
+from ..diagnostics import FitResult
+from ..errors import InputError
+from .files import atomic_write, read_json
+
+
+def _finite(obj):
+    """A copy of ``obj`` for JSON: numpy values as Python ones, NaN and infinities as None
+    (JSON has no token for them; a bare ``NaN`` makes the file unreadable elsewhere)."""
+    if isinstance(obj, dict):
+        return {k: _finite(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_finite(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return _finite(obj.tolist())
+    if isinstance(obj, np.generic):
+        obj = obj.item()
+    if isinstance(obj, float) and not np.isfinite(obj):
+        return None
+    return obj
+
+
+def dumps(obj) -> str:
+    """JSON text (strict: no NaN tokens) of results holding numpy values."""
+    return json.dumps(_finite(obj), indent=2, allow_nan=False)
+
+
+def write_json(path, obj, end: str = "") -> None:
+    """Write results as strict JSON (see :func:`dumps`) followed by ``end``, atomically."""
+    with atomic_write(path) as fh:
+        fh.write(dumps(obj) + end)
+
+
+def read_fit(path, plate_names=None) -> FitResult:
+    """Read and check the JSON written by ``torque fit``.
+
+    Parameters
+    ----------
+    path : str or Path
+    plate_names : list of str, optional
+        The world's plates: the fit must list exactly these, in this order.
+
+    Returns
+    -------
+    FitResult
+
+    Raises
+    ------
+    InputError
+        Naming the file: not JSON, not the output of ``torque fit``, a coefficient without
+        a number, or (with ``plate_names``) a fit of other plates.
+    """
+    result = FitResult.from_dict(read_json(path), file=path)
+    if plate_names is not None and result.plate_names != list(plate_names):
+        raise InputError("the fit is for other plates than this world's", file=path)
+    return result
+
+
+def read_coefficients(path, hypothesis) -> dict:
+    """The values of a hypothesis' free coefficients from a ``torque fit`` JSON.
+
+    Parameters
+    ----------
+    path : str or Path
+    hypothesis : Hypothesis
+        The fit must be of this hypothesis: a coefficient for each free label, none for a
+        label the hypothesis does not have.
+
+    Returns
+    -------
+    dict
+        ``{label: value}``.
+    """
+    result = read_fit(path)
+    values = result.values(hypothesis.free_labels, file=path)
+    extra = sorted(set(result.coefficients) - set(hypothesis.labels))
+    if extra:
+        raise InputError(f"the coefficients come from another hypothesis: not in "
+                         f"{hypothesis.name!r}: {', '.join(extra)}", file=path,
+                         hint="fit this hypothesis with torque fit first")
+    return dict(zip(hypothesis.free_labels, values))

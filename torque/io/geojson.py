@@ -1,0 +1,330 @@
+"""GeoJSON (RFC 7946) in and out: plate polygons, boundary lines, continents, points.
+
+Decoding checks every feature and collects what is wrong with rings and lines as
+:class:`~torque.world.Problem` records (so that ``torque check`` can list them all); a file
+that cannot be read at all raises :class:`~torque.errors.InputError` naming the file and
+the feature.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+
+from .. import sphere
+from ..continents import Continents
+from ..errors import InputError
+from ..locate import PlateLocator
+from ..world import BOUNDARY_KINDS, Boundary, Plate, Problem, geometry_from_rings
+from .files import atomic_write, read_json
+
+
+def features(doc, path, what: str) -> list:
+    """The features of a GeoJSON FeatureCollection, each checked to have a geometry and
+    properties; InputError naming the file and the feature otherwise.
+
+    ``what`` names what the features should be, for messages ("plate polygons").
+    """
+    if not isinstance(doc, dict) or doc.get("type") != "FeatureCollection":
+        raise InputError(f"expected a GeoJSON FeatureCollection of {what}", file=path)
+    feats = doc.get("features")
+    if not isinstance(feats, list) or not feats:
+        raise InputError(f"the FeatureCollection has no features (expected {what})", file=path)
+    for i, f in enumerate(feats):
+        if not isinstance(f, dict) or f.get("type") != "Feature":
+            raise InputError("not a GeoJSON Feature", file=path, where=f"feature {i}")
+        if not isinstance(f.get("geometry"), dict):
+            raise InputError("the feature has no geometry", file=path, where=f"feature {i}")
+        if not isinstance(f.get("properties"), dict):
+            raise InputError("the feature has no properties", file=path, where=f"feature {i}")
+    return feats
+
+
+def _coords_array(coords, path, where) -> np.ndarray:
+    if not isinstance(coords, list) or not coords:
+        raise InputError("a ring or line has no coordinates (an empty list)", file=path,
+                         where=where, hint="remove the empty part")
+    try:
+        arr = np.array([[float(c[0]), float(c[1])] for c in coords], dtype=float)
+    except (TypeError, ValueError, IndexError):
+        raise InputError("coordinates must be [lon, lat] number pairs", file=path,
+                         where=where) from None
+    return arr.reshape(-1, 2)
+
+
+def _check_coordinates(lonlat, path, i, name, add) -> bool:
+    """Range checks on one ring or line; add problems; True if usable."""
+    lon, lat = lonlat[:, 0], lonlat[:, 1]
+    if not np.all(np.isfinite(lonlat)):
+        k = int(np.nonzero(~np.all(np.isfinite(lonlat), axis=1))[0][0])
+        add("error", f"vertex {k} has a coordinate that is not a finite number (NaN or inf)",
+            i, name)
+        return False
+    if np.any(np.abs(lat) > 90.0):
+        k = int(np.argmax(np.abs(lat)))
+        if np.all(np.abs(lon) <= 90.0):
+            add("error", f"vertex {k} has latitude {lat[k]:g}, out of [-90, 90]; the "
+                "coordinates look like [lat, lon], but GeoJSON wants [lon, lat]", i, name)
+        else:
+            add("error", f"vertex {k} has latitude {lat[k]:g}, out of [-90, 90]", i, name)
+        return False
+    if np.any((lon < -180.0) | (lon > 360.0)):
+        k = int(np.argmax(np.abs(lon)))
+        add("error", f"vertex {k} has longitude {lon[k]:g}, out of [-180, 360]", i, name)
+        return False
+    return True
+
+
+def _clean_ring(lonlat, path, i, name, add):
+    """Unit vectors of a ring without its closing vertex and repeated vertices, or None."""
+    xyz = sphere.lonlat_to_xyz(lonlat[:, 0], lonlat[:, 1])
+    # Points at a pole are the same whatever their longitude.
+    keep = np.r_[True, np.any(np.abs(np.diff(xyz, axis=0)) > 1e-15, axis=1)]
+    xyz, ll = xyz[keep], lonlat[keep]
+    if len(xyz) > 1 and np.all(np.abs(xyz[0] - xyz[-1]) <= 1e-15):
+        xyz, ll = xyz[:-1], ll[:-1]
+    if len(xyz) < 3:
+        add("error", f"a ring has {len(xyz)} distinct vertices; a polygon needs at least 3",
+            i, name, *(lonlat[0] if len(lonlat) else (None, None)))
+        return None
+    nxt = np.roll(np.arange(len(xyz)), -1)
+    antipodal = sphere.dot(xyz, xyz[nxt]) < -1.0 + 1e-12
+    if antipodal.any():
+        k = int(np.nonzero(antipodal)[0][0])
+        add("error", f"vertices {k} and {(k + 1) % len(xyz)} are antipodal, so the edge between "
+            "them is not a defined great-circle arc; insert a vertex between them", i, name,
+            *ll[k])
+        return None
+    return xyz
+
+
+def read_plates(path, winding: str = "auto"):
+    """Read plate polygons from GeoJSON.
+
+    Returns
+    -------
+    plates : tuple of Plate
+    geometry : PlateGeometry
+    problems : list of Problem
+    """
+    path = Path(path)
+    return plates_from_features(features(read_json(path), path, "plate polygons"), path,
+                                winding)
+
+
+def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"):
+    """:func:`read_plates` for GeoJSON features already in memory (``path`` names them).
+
+    ``noun`` names what the polygons are in messages ("plate", "continent").
+    """
+    problems: list = []
+
+    def add(sev, msg, i=None, name=None, lon=None, lat=None):
+        problems.append(Problem(sev, msg, str(path), i, name,
+                                None if lon is None else float(lon),
+                                None if lat is None else float(lat)))
+
+    plates, seen = [], {}
+    rings, ring_plate, ring_hole, ring_poly = [], [], [], []
+    n_poly = 0
+    for i, f in enumerate(feats):
+        name = f["properties"].get("plate")
+        if not isinstance(name, str) or not name.strip():
+            raise InputError("properties.plate must be a non-empty string naming the plate",
+                             file=path, where=f"feature {i}")
+        if name in seen:
+            add("error", f"plate name {name!r} is used again (first in feature {seen[name]}); "
+                "names must be unique", i, name)
+            continue
+        seen[name] = i
+        geom = f["geometry"]
+        gtype, coords = geom.get("type"), geom.get("coordinates")
+        if gtype == "Polygon":
+            parts = [coords]
+        elif gtype == "MultiPolygon":
+            parts = coords
+        else:
+            raise InputError(f"geometry type {gtype!r} is not a plate; use Polygon or "
+                             "MultiPolygon", file=path, where=f"feature {i} (plate {name!r})")
+        if not isinstance(parts, list) or not parts or not all(
+                isinstance(p, list) and p for p in parts):
+            raise InputError("polygon coordinates must be a non-empty list of rings",
+                             file=path, where=f"feature {i} (plate {name!r})")
+        index = len(plates)
+        plates.append(Plate(name, index, i))
+        for part in parts:
+            for k, ring in enumerate(part):
+                if not isinstance(ring, list):
+                    raise InputError("a ring must be a list of [lon, lat] positions",
+                                     file=path, where=f"feature {i} (plate {name!r})")
+                ll = _coords_array(ring, path, f"feature {i} (plate {name!r})")
+                if not _check_coordinates(ll, path, i, name, add):
+                    continue
+                xyz = _clean_ring(ll, path, i, name, add)
+                if xyz is None:
+                    continue
+                rings.append(xyz)
+                ring_plate.append(index)
+                ring_hole.append(k > 0)
+                ring_poly.append(n_poly)
+            n_poly += 1
+
+    if not rings:
+        detail = "; ".join(
+            f"feature {p.feature}" + (f" (plate {p.plate!r})" if noun == "plate" else "")
+            + f": {p.message}" for p in problems[:3])
+        raise InputError(f"no usable {noun} polygon in the file"
+                         + (f": {detail}" if detail else ""), file=path)
+    geometry = geometry_from_rings(rings, ring_plate, ring_hole, ring_poly, len(plates),
+                                   winding)
+    return tuple(plates), geometry, problems
+
+
+def read_boundaries(path, plate_names) -> tuple[list, list]:
+    """Read boundary lines from GeoJSON; returns ``(boundaries, problems)``."""
+    path = Path(path)
+    feats = features(read_json(path), path, "boundary lines")
+    names = set(plate_names)
+    out, problems = [], []
+
+    def add(sev, msg, i, lon=None, lat=None):
+        problems.append(Problem(sev, msg, str(path), i, None, lon, lat))
+
+    for i, f in enumerate(feats):
+        props, geom = f["properties"], f["geometry"]
+        where = f"feature {i}"
+        kind = props.get("kind")
+        if kind not in BOUNDARY_KINDS:
+            raise InputError(f"kind {kind!r} is not a boundary kind", file=path, where=where,
+                             hint=f"use one of {', '.join(BOUNDARY_KINDS)}")
+        left, right = props.get("left"), props.get("right")
+        if not isinstance(left, str) or not isinstance(right, str):
+            raise InputError("properties.left and properties.right must name the plates on "
+                             "either side", file=path, where=where)
+        ok = True
+        for side, nm in (("left", left), ("right", right)):
+            if nm not in names:
+                add("error", f"{side} plate {nm!r} is not a plate of the world", i)
+                ok = False
+        if left == right:
+            add("error", f"left and right are the same plate {left!r}", i)
+            ok = False
+        sub = props.get("subducting")
+        if kind == "subduction":
+            if sub not in (left, right):
+                add("error", f"a subduction boundary must name its sinking plate in "
+                    f"properties.subducting (one of {left!r}, {right!r}); got {sub!r}", i)
+                ok = False
+        elif sub is not None:
+            add("warning", f"'subducting' is ignored on a {kind} boundary", i)
+            sub = None
+        extra = {k: v for k, v in props.items()
+                 if k not in ("kind", "left", "right", "subducting", "name")}
+        for k, v in extra.items():
+            if not isinstance(v, (int, float)) or isinstance(v, bool) or not np.isfinite(v):
+                raise InputError(f"property {k!r} must be a finite number, got {v!r}",
+                                 file=path, where=where)
+        gtype, coords = geom.get("type"), geom.get("coordinates")
+        if gtype == "LineString":
+            parts = [coords]
+        elif gtype == "MultiLineString":
+            parts = coords
+        else:
+            raise InputError(f"geometry type {gtype!r} is not a boundary line; use LineString "
+                             "or MultiLineString", file=path, where=where)
+        if not isinstance(parts, list) or not parts:
+            raise InputError("line coordinates must be a non-empty list", file=path,
+                             where=where)
+        for part in parts:
+            if not isinstance(part, list):
+                raise InputError("a line must be a list of [lon, lat] positions", file=path,
+                                 where=where)
+            ll = _coords_array(part, path, where)
+            if not _check_coordinates(ll, path, i, None,
+                                      lambda s, m, *a: add(s, m, i)):
+                ok = False
+                continue
+            xyz = sphere.lonlat_to_xyz(ll[:, 0], ll[:, 1])
+            keep = np.r_[True, np.any(np.abs(np.diff(xyz, axis=0)) > 1e-15, axis=1)]
+            xyz = xyz[keep]
+            if len(xyz) < 2:
+                add("error", "a boundary line needs at least 2 distinct vertices", i)
+                ok = False
+                continue
+            if np.any(sphere.dot(xyz[:-1], xyz[1:]) < -1.0 + 1e-12):
+                add("error", "two consecutive vertices are antipodal; insert a vertex "
+                    "between them", i)
+                ok = False
+                continue
+            if ok:
+                out.append(Boundary(kind, left, right, xyz, i, sub, extra))
+    return out, problems
+
+
+def read_continents(path, winding: str = "auto") -> Continents:
+    """Read continental regions (GeoJSON Polygon/MultiPolygon features, any properties).
+
+    Continents must not overlap one another. ``winding`` is the world's key: ``"auto"``
+    takes the smaller region of each ring, ``"strict"`` the rings as written (RFC 7946).
+    """
+    path = Path(path)
+    feats = features(read_json(path), path, "continent polygons")
+    # plates_from_features wants a name per feature; continents need none.
+    named = []
+    for i, f in enumerate(feats):
+        g = dict(f)
+        g["properties"] = dict(f.get("properties") or {}, plate=f"continent {i}")
+        named.append(g)
+    _, geom, problems = plates_from_features(named, path, winding, noun="continent")
+    errs = [p for p in problems if p.severity == "error"]
+    if errs:
+        raise InputError("; ".join(f"feature {e.feature}: {e.message}" for e in errs[:3]),
+                         file=path)
+    c = Continents(geom.xyz, geom.ring_start, geom.ring_is_hole, geom.ring_polygon, str(path))
+    # continents alone (not a tiling): a cell held by two of them is an overlap
+    n_poly = int(geom.ring_polygon.max()) + 1
+    alone = PlateLocator(geom.xyz, geom.ring_start, geom.ring_polygon, geom.ring_is_hole,
+                         n_poly)
+    where = alone.overlaps()
+    if len(where):
+        lon, lat = sphere.xyz_to_lonlat(where[0])
+        raise InputError(f"continents overlap one another (near lon {float(lon):.2f}, lat "
+                         f"{float(lat):.2f}); merge the overlapping polygons", file=path)
+    return c
+
+
+def write_points_geojson(path, lon, lat, properties: dict) -> None:
+    """Write points with per-point properties as a GeoJSON FeatureCollection."""
+    names = list(properties)
+    cols = [np.asarray(properties[n]).tolist() for n in names]
+    feats = []
+    for k, (x, y) in enumerate(zip(np.asarray(lon).tolist(), np.asarray(lat).tolist())):
+        props = {n: c[k] for n, c in zip(names, cols)}
+        feats.append({"type": "Feature", "geometry": {"type": "Point", "coordinates": [x, y]},
+                      "properties": props})
+    with atomic_write(path) as fh:
+        json.dump({"type": "FeatureCollection", "features": feats}, fh)
+
+
+def write_boundaries_geojson(path, boundaries) -> None:
+    """Write boundary lines in the contract's format."""
+    feats = []
+    for b in boundaries:
+        lon, lat = sphere.xyz_to_lonlat(b.xyz)
+        props = {"kind": b.kind, "left": b.left, "right": b.right}
+        if b.subducting:
+            props["subducting"] = b.subducting
+        props.update(b.properties)
+        feats.append({"type": "Feature", "properties": props,
+                      "geometry": {"type": "LineString",
+                                   "coordinates": np.round(np.c_[lon, lat], 10).tolist()}})
+    with atomic_write(path) as fh:
+        json.dump({"type": "FeatureCollection", "features": feats}, fh, indent=1)
+
+
+def write_feature_collection(path, features) -> None:
+    """Write GeoJSON features (dicts) as a FeatureCollection, atomically."""
+    with atomic_write(path) as fh:
+        json.dump({"type": "FeatureCollection", "features": list(features)}, fh, indent=1)

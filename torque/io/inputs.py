@@ -1,0 +1,97 @@
+"""The inputs of a command: a world and its data files, read and checked once.
+
+:class:`Inputs` is a :class:`~torque.data.WorldData` that reads the world's optional data
+files (continents, ages, mantle flow) the first time a term needs them, so a world whose
+hypothesis never uses its age grid never reads it, and a world used by many hypotheses
+(``torque rank``, the demo) reads, locates and clips everything once.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from ..data import WorldData
+from ..forces import build_terms
+from ..forces.context import Context
+from ..validate import require_valid
+from .geojson import read_continents
+from .grids import read_ages, read_flow
+from .world import load_world
+
+_PATH_KEYS = {"continents": "continents", "ages": "ages", "flow": "mantle_flow"}
+
+
+class Inputs(WorldData):
+    """A world and its data files, each read (and checked) once, on first use.
+
+    Parameters
+    ----------
+    world : World
+        Its ``paths`` name the data files to read.
+    continents, ages, flow : optional
+        Data objects in memory, used instead of the world's files.
+
+    Examples
+    --------
+    >>> inputs = Inputs.load("polygons_demo/world.toml")    # doctest: +SKIP
+    >>> inputs.ages.age_myr.shape                            # doctest: +SKIP
+    (360, 720)
+    """
+
+    @classmethod
+    def load(cls, path, *, valid: bool = True) -> "Inputs":
+        """Read a world file; with ``valid``, refuse a world with errors.
+
+        Parameters
+        ----------
+        path : str or Path
+            The world file (TOML).
+        valid : bool
+            Raise InputError listing the world's errors (see
+            :func:`torque.validate.require_valid`).
+        """
+        world = load_world(path)
+        return cls(require_valid(world) if valid else world)
+
+    @property
+    def path(self) -> Path | None:
+        """The world file, resolved (None for a world built in memory)."""
+        p = self.world.paths.get("world")
+        return None if p is None else Path(p).resolve()
+
+    def _read(self, key: str):
+        path = self.world.paths.get(_PATH_KEYS[key])
+        if path is None:
+            return None
+        if key == "continents":
+            return read_continents(path, self.world.winding)
+        return read_ages(path) if key == "ages" else read_flow(path)
+
+    def context(self, hypothesis, omega=None) -> Context:
+        """A :class:`~torque.forces.context.Context` of a hypothesis on these inputs."""
+        return Context(self, hypothesis, omega)
+
+
+def compute_torques(world, hypothesis, omega=None, **data) -> list:
+    """The force terms of a hypothesis on a world, reading the world's data files as needed.
+
+    Parameters
+    ----------
+    world : World or WorldData
+        A bare world reads the files its ``paths`` name (continents, ages, mantle flow)
+        when a term needs them.
+    hypothesis : Hypothesis
+    omega : ndarray, shape (P, 3), optional
+        Angular velocities (rad/s) in world plate order: needed to synthesise ages when the
+        world has none, and to evaluate velocity-dependent terms.
+    **data
+        ``ages``, ``continents``, ``flow`` objects to use instead of the world's files.
+
+    Returns
+    -------
+    list of ForceTerm
+        One per force entry of the hypothesis, in order.
+    """
+    if not isinstance(world, WorldData):
+        world = Inputs(world, **data)
+    return build_terms(Context(world, hypothesis, omega))

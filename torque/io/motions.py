@@ -1,0 +1,139 @@
+"""Motions CSV files: one Euler vector per plate (``plate,lat,lon,rate``), with optional
+covariance columns ``cov_xx ... cov_zz`` in (deg/Myr)^2."""
+
+from __future__ import annotations
+
+import csv
+
+import numpy as np
+
+from ..errors import InputError
+from ..euler import COV_COLUMNS, RAD_S_PER_DEG_MYR, Motions
+from .files import atomic_write
+from .tables import read_table
+
+
+def read_motions(path) -> Motions:
+    """Read a motions CSV.
+
+    Parameters
+    ----------
+    path : str or Path
+        Header ``plate,lat,lon,rate``: pole latitude and longitude in degrees, rate in
+        deg/Myr (counter-clockwise seen from above the pole). Rows starting with ``#`` are
+        skipped. Extra columns are kept in ``Motions.extra``; if all of ``cov_xx, cov_xy,
+        cov_xz, cov_yy, cov_yz, cov_zz`` are present they are read as the covariance of the
+        Cartesian Euler vector in (deg/Myr)^2.
+
+    Returns
+    -------
+    Motions
+        Angular velocities in rad/s (covariance in (rad/s)^2).
+
+    Raises
+    ------
+    InputError
+        Naming the file, the line and the plate: a missing column, a value that is not a
+        finite number or is out of range, a plate given twice, or a covariance that is not
+        positive semi-definite.
+    """
+    table = read_table(path, ("plate", "lat", "lon", "rate"), comments=True,
+                       empty="the file is empty; expected a header plate,lat,lon,rate",
+                       hint="the header must name plate,lat,lon,rate")
+    path = table.path
+    width = len(table.header)
+    plates = table.text("plate")
+    for i, r in enumerate(table.rows):
+        if len(r) < width:
+            raise InputError(f"row has {len(r)} fields, the header {width}", file=path,
+                             where=f"line {table.line(i)}")
+        if not plates[i]:
+            raise InputError("empty plate name", file=path, where=f"line {table.line(i)}")
+
+    def where(i):
+        return f"line {table.line(i)} (plate {plates[i]!r})"
+
+    vals = {}
+    for key in ("lat", "lon", "rate"):
+        v = table.numbers(key, where=where)
+        bad = np.nonzero(~np.isfinite(v))[0]
+        if len(bad):
+            raise InputError(f"{key} is not finite", file=path, where=where(int(bad[0])))
+        vals[key] = v
+    lat, lon = vals["lat"], vals["lon"]
+    for i in range(len(plates)):
+        if not -90.0 <= lat[i] <= 90.0:
+            raise InputError(f"pole latitude {lat[i]:g} is out of [-90, 90]", file=path,
+                             where=where(i))
+        if not -360.0 <= lon[i] <= 360.0:
+            raise InputError(f"pole longitude {lon[i]:g} is out of [-360, 360]", file=path,
+                             where=where(i))
+        if plates[i] in plates[:i]:
+            raise InputError(f"plate {plates[i]!r} has a second row", file=path,
+                             where=f"line {table.line(i)}")
+    if not plates:
+        raise InputError("no rows after the header", file=path)
+    extra = {h: table.text(h) for h in table.header if h not in ("plate", "lat", "lon", "rate")}
+    cov = None
+    if table.has(*COV_COLUMNS):
+        c = np.stack([table.numbers(k, where=where, message="covariance columns must be "
+                                    "numbers") for k in COV_COLUMNS], axis=1)
+        bad = np.nonzero(~np.all(np.isfinite(c), axis=1))[0]
+        if len(bad):
+            raise InputError("a covariance column is not finite (NaN or infinite)",
+                             file=path, where=where(int(bad[0])),
+                             hint="give 0 for an exactly known component")
+        cov = _covariance_matrices(c * RAD_S_PER_DEG_MYR ** 2, plates, path)
+    return Motions.from_poles(plates, lat, lon, vals["rate"], cov=cov, extra=extra,
+                              source=str(path))
+
+
+def _covariance_matrices(c, plates, path) -> np.ndarray:
+    """(P, 3, 3) symmetric matrices from the six columns, checked positive semi-definite."""
+    cov = np.stack([c[:, [0, 1, 2]], c[:, [1, 3, 4]], c[:, [2, 4, 5]]], axis=1)
+    size = np.abs(cov).max(axis=(1, 2))
+    low = np.linalg.eigvalsh(cov)[:, 0]
+    bad = np.nonzero(low < -1e-12 * np.maximum(size, 1e-300))[0]
+    if len(bad):
+        i = int(bad[0])
+        raise InputError(
+            "the covariance matrix is not positive semi-definite (its smallest "
+            f"eigenvalue is {low[i] / RAD_S_PER_DEG_MYR ** 2:.3g} (deg/Myr)^2)",
+            file=path, where=f"plate {plates[i]!r}",
+            hint="check the cov_* columns: |cov_xy| <= sqrt(cov_xx cov_yy) and so on")
+    return cov
+
+
+def write_motions(path, motions: Motions, plates=None) -> None:
+    """Write a motions CSV, atomically.
+
+    Parameters
+    ----------
+    path : str or Path
+    motions : Motions
+    plates : sequence of str, optional
+        Orders and selects the rows (default: the order of ``motions``).
+
+    Notes
+    -----
+    Rates are written >= 0 (the pole flipped to its antipode where needed), every number
+    to 15 significant digits; the covariance, if known, in the ``cov_*`` columns in
+    (deg/Myr)^2.
+    """
+    idx = motions.index()
+    names = list(plates) if plates is not None else list(motions.plates)
+    lat, lon, rate = motions.poles
+    header = ["plate", "lat", "lon", "rate"]
+    if motions.cov is not None:
+        header += list(COV_COLUMNS)
+    with atomic_write(path, newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(header)
+        for p in names:
+            i = idx[p]
+            row = [p, f"{lat[i]:.15g}", f"{lon[i]:.15g}", f"{rate[i]:.15g}"]
+            if motions.cov is not None:
+                c = motions.cov[i] / RAD_S_PER_DEG_MYR ** 2
+                row += [f"{c[a, b]:.15g}" for a, b in ((0, 0), (0, 1), (0, 2), (1, 1),
+                                                      (1, 2), (2, 2))]
+            w.writerow(row)

@@ -1,0 +1,131 @@
+"""World files (TOML): a plate model and the files of its data, read into a
+:class:`~torque.world.World`; and worlds built from rings in memory."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError
+from ..world import EARTH_RADIUS_KM, World, derive_boundaries
+from .files import read_toml
+from .geojson import plates_from_features, read_boundaries, read_plates
+
+WORLD_KEYS = {
+    "name": "optional title used in reports",
+    "radius_km": "planet radius in km (default 6371.0)",
+    "plates": "GeoJSON file of plate polygons (required)",
+    "boundaries": "GeoJSON file of boundary lines",
+    "continents": "GeoJSON file of continental regions",
+    "ages": "sea-floor age grid (NetCDF or CSV lon,lat,age_myr)",
+    "mantle_flow": "mantle velocity grid (NetCDF)",
+    "winding": '"auto" (default) or "strict"',
+}
+DATA_KEYS = ("plates", "boundaries", "continents", "ages", "mantle_flow")
+
+
+def load_world(path) -> World:
+    """Read a world file (TOML) and the files it names.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    World
+        With ``problems`` listing whatever reading found wrong or doubtful; call
+        :func:`torque.validate.check_world` for the full set of checks.
+
+    Raises
+    ------
+    InputError
+        For files that cannot be read at all: missing files, malformed TOML or JSON,
+        unknown keys, features of the wrong type.
+    """
+    path = Path(path)
+    cfg = read_toml(path)
+    unknown = sorted(set(cfg) - set(WORLD_KEYS))
+    if unknown:
+        raise InputError(f"unknown key(s) {', '.join(map(repr, unknown))}", file=path,
+                         hint=f"valid keys: {', '.join(WORLD_KEYS)}")
+    if "plates" not in cfg:
+        raise InputError("the key 'plates' is required (a GeoJSON file of plate polygons)",
+                         file=path)
+    radius_km = cfg.get("radius_km", EARTH_RADIUS_KM)
+    if (not isinstance(radius_km, (int, float)) or isinstance(radius_km, bool)
+            or not np.isfinite(radius_km) or radius_km <= 0):
+        raise InputError(f"radius_km must be a positive number, got {radius_km!r}", file=path)
+    winding = cfg.get("winding", "auto")
+    if winding not in ("auto", "strict"):
+        raise InputError(f"winding must be \"auto\" or \"strict\", got {winding!r}", file=path)
+    paths = {"world": str(path)}
+    for key in DATA_KEYS:
+        if key in cfg:
+            if not isinstance(cfg[key], str):
+                raise InputError(f"{key} must be a file name (a string)", file=path)
+            p = (path.parent / cfg[key]).resolve()
+            if p.is_dir():
+                raise InputError(f"{key!r}: {cfg[key]} is a directory, not a file",
+                                 file=path)
+            if not p.is_file():
+                raise InputError(f"the file named by {key!r} does not exist: {cfg[key]}",
+                                 file=path)
+            paths[key] = str(p)
+
+    plates, geometry, problems = read_plates(paths["plates"], winding)
+    names = [p.name for p in plates]
+    if "boundaries" in paths:
+        boundaries, more = read_boundaries(paths["boundaries"], names)
+        derived = False
+    else:
+        boundaries, more = derive_boundaries(geometry, names)
+        derived = True
+    name = cfg.get("name", path.stem)
+    return World(tuple(plates), geometry, tuple(boundaries), float(radius_km) * 1e3, derived,
+                 paths, tuple(problems + more), str(name), winding)
+
+
+def world_from_rings(plates: dict, boundaries=(), radius_km: float = EARTH_RADIUS_KM,
+                     winding: str = "auto", name: str = "world") -> World:
+    """Build a world in code.
+
+    Parameters
+    ----------
+    plates : dict
+        ``{name: polygon}``, where a polygon is a list of rings (the first the exterior, the
+        rest holes) or a list of such polygons, each ring an ``(n, 2)`` array of lon, lat in
+        degrees (closed or not).
+    boundaries : sequence of Boundary, optional
+        Without them, the shared edges are used (kind ``unclassified``).
+
+    Examples
+    --------
+    Two hemispheres (exactly half the sphere each, so the winding must be taken as written):
+
+    >>> north = [[(0, 0), (120, 0), (240, 0)]]
+    >>> south = [[(0, 0), (240, 0), (120, 0)]]
+    >>> w = world_from_rings({"Upper": north, "Lower": south}, winding="strict")
+    >>> [round(float(a) / 2.5505e14, 3) for a in w.area_m2]
+    [1.0, 1.0]
+    >>> w.locate([10.0, 10.0], [30.0, -30.0]).tolist()
+    [0, 1]
+    """
+    feats = []
+    for nm, poly in plates.items():
+        poly = [np.asarray(r, float).tolist() for r in poly] if np.ndim(poly[0][0]) == 1 \
+            else [[np.asarray(r, float).tolist() for r in part] for part in poly]
+        gtype = "Polygon" if np.ndim(poly[0][0]) == 1 else "MultiPolygon"
+        feats.append({"type": "Feature", "properties": {"plate": nm},
+                      "geometry": {"type": gtype, "coordinates": poly}})
+    pl, geometry, problems = plates_from_features(feats, "<plates in memory>", winding)
+    names = [x.name for x in pl]
+    if boundaries:
+        bnd, derived = tuple(boundaries), False
+    else:
+        bnd, more = derive_boundaries(geometry, names)
+        bnd, derived = tuple(bnd), True
+        problems = problems + more
+    return World(pl, geometry, bnd, radius_km * 1e3, derived, {}, tuple(problems), name,
+                 winding)
