@@ -83,3 +83,77 @@ def test_force_modules_do_not_import_the_package():
     upward = {m for m, deps in graph.items()
               if m.startswith("torque.forces.") and "torque.forces" in deps}
     assert upward == set()
+
+
+# The flow of data, lowest layer first (DEVELOPERS.md draws the same picture). A module may
+# import from its own layer or a lower one, never from a higher one. Within a layer, the
+# cycle test above keeps imports one way.
+LAYERS = [
+    ("torque.errors", "torque.sphere", "torque.grids", "torque.forces.base"),
+    ("torque.locate", "torque.euler"),
+    ("torque.world", "torque.continents", "torque.lithosphere"),
+    ("torque.margins", "torque.data"),
+    ("torque.validate", "torque.forces.ages_synth"),
+    ("torque.forces",),                         # the context, the kinds and the registry
+    ("torque.hypothesis",),
+    ("torque.balance",),
+    ("torque.diagnostics", "torque.resample"),
+    ("torque.rank",),
+    ("torque.io",),                             # every file read or written
+    ("torque.maps", "torque.report"),
+    ("torque.demo",),
+    ("torque.cli",),
+    ("torque", "torque.__main__"),
+]
+#: The numerical core: every layer below torque.io. It reads and writes no file.
+CORE_TOP = [i for i, layer in enumerate(LAYERS) if "torque.io" in layer][0]
+
+
+def layer_of(module: str) -> int:
+    """The layer of a module: that of the longest prefix listed in LAYERS."""
+    best, found = -1, None
+    for i, layer in enumerate(LAYERS):
+        for name in layer:
+            if (module == name or module.startswith(name + ".")) and len(name) > best:
+                best, found = len(name), i
+    assert found is not None, f"{module} is in no layer: add it to LAYERS"
+    return found
+
+
+def upward_imports(graph) -> list:
+    """Imports from a higher layer than the importing module's."""
+    return sorted(f"{m} -> {d}" for m, deps in graph.items() for d in deps
+                  if layer_of(d) > layer_of(m))
+
+
+def test_imports_run_down_the_layers():
+    assert upward_imports(import_graph()) == []
+
+
+def test_the_layer_check_catches_an_upward_import():
+    # a force kind reading a file through torque.io, or the core importing the CLI
+    fake = {"torque.forces.ridge": {"torque.io.grids", "torque.sphere"},
+            "torque.sphere": set(), "torque.io.grids": {"torque.grids"},
+            "torque.grids": set(), "torque.world": {"torque.cli.text"},
+            "torque.cli.text": set()}
+    assert upward_imports(fake) == ["torque.forces.ridge -> torque.io.grids",
+                                    "torque.world -> torque.cli.text"]
+
+
+def test_the_core_touches_no_file():
+    """Below torque.io nothing opens, reads or writes a file (the memory guard reads
+    /proc/meminfo, which is the machine, not an input)."""
+    found = []
+    for p in PACKAGE.rglob("*.py"):
+        parts = p.relative_to(PACKAGE.parent).with_suffix("").parts
+        name = ".".join(parts[:-1] if parts[-1] == "__init__" else parts)
+        if layer_of(name) >= CORE_TOP or name == "torque.errors":
+            continue
+        for node in ast.walk(ast.parse(p.read_text())):
+            if isinstance(node, ast.Call):
+                f = node.func
+                called = f.id if isinstance(f, ast.Name) else getattr(f, "attr", "")
+                if called in ("open", "read_text", "write_text", "read_bytes", "write_bytes",
+                              "open_dataset", "to_netcdf", "savefig"):
+                    found.append(f"{name}: {called}()")
+    assert found == []
