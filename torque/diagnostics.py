@@ -75,6 +75,9 @@ def pole_ellipse(omega, cov, confidence: float = CONFIDENCE) -> dict:
         return {"major_deg": None, "minor_deg": None, "azimuth_deg": None,
                 "rate_stderr_deg_myr": None, "confidence": confidence}
     u = omega / rate
+    # the local basis at the pole, as sphere.east_north, but normalised as a single vector:
+    # the ellipse of a rank-deficient covariance (a minor axis of 1e-8 degrees) is rounding
+    # noise, and this keeps it the same noise as the recorded outputs
     east = np.cross([0.0, 0.0, 1.0], u)
     east = east / np.linalg.norm(east) if np.linalg.norm(east) > 1e-12 else np.array([0, 1.0,
                                                                                         0])

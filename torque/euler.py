@@ -84,10 +84,7 @@ def velocity_en(omega, xyz, radius_m: float):
     """
     xyz = np.asarray(xyz, dtype=float)
     v = velocity_xyz(omega, xyz, radius_m)
-    east = np.cross([0.0, 0.0, 1.0], xyz)
-    en = np.linalg.norm(east, axis=-1, keepdims=True)
-    east = np.where(en > 1e-15, east / np.where(en > 0, en, 1.0), [0.0, 1.0, 0.0])
-    north = np.cross(xyz, east)
+    east, north = sphere.east_north(xyz)
     return sphere.dot(v, east) * M_S_TO_MM_YR, sphere.dot(v, north) * M_S_TO_MM_YR
 
 

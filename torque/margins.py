@@ -113,8 +113,8 @@ def classify(world, motion: BoundaryMotion, ages=None):
     sinking: list = [None] * nb
     if ages is not None:
         off = AGE_PROBE_KM * 1e3 / world.radius_m
-        left_pts = np.cos(off) * s.xyz + np.sin(off) * s.normal
-        right_pts = np.cos(off) * s.xyz - np.sin(off) * s.normal
+        left_pts = sphere.step_toward(s.xyz, s.normal, off)
+        right_pts = sphere.step_toward(s.xyz, -s.normal, off)
         side_age = []
         for pts in (left_pts, right_pts):
             lon, lat = sphere.xyz_to_lonlat(pts)

@@ -103,22 +103,58 @@ def angle_between(a, b) -> np.ndarray:
 
 
 def east_north(xyz) -> tuple[np.ndarray, np.ndarray]:
-    """Local unit east and north vectors at points (not at the poles).
+    """Local unit east and north vectors at points.
+
+    Parameters
+    ----------
+    xyz : array_like, shape (..., 3)
+        Unit vectors. At a pole, where east is undefined, east is taken along +y (the
+        direction of longitude 90 E), so that north is then along -x or +x.
+
+    Returns
+    -------
+    east, north : ndarray, shape (..., 3)
+
+    Examples
+    --------
+    >>> e, n = east_north([1.0, 0.0, 0.0])        # lon 0, lat 0
+    >>> e.tolist(), n.tolist()
+    ([0.0, 1.0, 0.0], [0.0, 0.0, 1.0])
+    """
+    xyz = np.asarray(xyz, dtype=float)
+    east = np.cross([0.0, 0.0, 1.0], xyz)
+    en = np.linalg.norm(east, axis=-1, keepdims=True)
+    east = np.where(en > 1e-15, east / np.where(en > 0, en, 1.0), [0.0, 1.0, 0.0])
+    return east, np.cross(xyz, east)
+
+
+def step_toward(xyz, tangent, angle) -> np.ndarray:
+    """Points a given angle away from ``xyz`` along the great circle in direction ``tangent``.
+
+    Used to step off a boundary into the plate on one side (``tangent`` the arc's pole,
+    which points into its left plate) or the other (``-tangent``).
 
     Parameters
     ----------
     xyz : array_like, shape (..., 3)
         Unit vectors.
+    tangent : array_like, shape (..., 3)
+        Unit vectors perpendicular to ``xyz``.
+    angle : float or array_like
+        Radians on the unit sphere (distance / radius).
 
     Returns
     -------
-    east, north : ndarray, shape (..., 3)
+    ndarray, shape (..., 3)
+        ``cos(angle) xyz + sin(angle) tangent``, unit vectors.
+
+    Examples
+    --------
+    >>> p = step_toward([1.0, 0.0, 0.0], [0.0, 0.0, 1.0], np.pi / 2)   # to the north pole
+    >>> np.round(p, 12).tolist()
+    [0.0, 0.0, 1.0]
     """
-    xyz = np.asarray(xyz, dtype=float)
-    east = np.cross([0.0, 0.0, 1.0], xyz)
-    east = normalize(east)
-    north = np.cross(xyz, east)
-    return east, north
+    return np.cos(angle) * np.asarray(xyz, float) + np.sin(angle) * np.asarray(tangent, float)
 
 
 # ----------------------------------------------------------------------------------------

@@ -315,7 +315,7 @@ def _boundary_problems(world: World) -> list:
         n, theta = sphere.arc_pole(s0, s1)
         m = sphere.slerp_points(s0, s1, 0.5)
         off = min(theta / 4.0, np.radians(0.25))
-        probes += [np.cos(off) * m + np.sin(off) * n, np.cos(off) * m - np.sin(off) * n, m]
+        probes += [sphere.step_toward(m, n, off), sphere.step_toward(m, -n, off), m]
         which.append(k)
     if which:
         got = world.locate_xyz(np.array(probes)).reshape(-1, 3)

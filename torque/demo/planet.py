@@ -25,14 +25,14 @@ import dataclasses
 from pathlib import Path
 
 import numpy as np
-from scipy.spatial import SphericalVoronoi, cKDTree
+from scipy.spatial import SphericalVoronoi
 
 from .. import sphere
 from ..balance import assemble, predict
 from ..data import WorldData
 from ..euler import MYR_S, Motions, pole_to_vector
 from ..forces import build_terms
-from ..forces.ages_synth import synthesise_ages
+from ..forces.ages_synth import ridge_distance_ages, synthesise_ages
 from ..forces.context import Context
 from ..grids import MAX_AGE_MYR, AgeGrid
 from ..hypothesis import hypothesis_from_dict
@@ -248,8 +248,8 @@ def _continental_both_sides(world, b, continents):
     n, _ = sphere.arc_pole(b.xyz[:-1], b.xyz[1:])
     mid = sphere.normalize(b.xyz[:-1] + b.xyz[1:])
     off = 100e3 / world.radius_m
-    left = continents.contains(np.cos(off) * mid + np.sin(off) * n)
-    right = continents.contains(np.cos(off) * mid - np.sin(off) * n)
+    left = continents.contains(sphere.step_toward(mid, n, off))
+    right = continents.contains(sphere.step_toward(mid, -n, off))
     return bool(np.mean(left & right) > 0.5)
 
 
@@ -267,7 +267,5 @@ def _fill_ocean(grid, world, ctx, omega, max_age, AgeGrid):
         half = max(np.median(opening[opening > 0]) / 2, 5.0) / 1e3 / (MYR_S / 1e6)
         LON, LAT = np.meshgrid(grid.lon, grid.lat)
         xyz = sphere.lonlat_to_xyz(LON[hole], LAT[hole])
-        d, _ = cKDTree(smp.xyz).query(xyz)
-        ang = 2 * np.arcsin(np.clip(d / 2, 0, 1))
-        age[hole] = np.minimum(ang * world.radius_m / half / MYR_S, max_age)
+        age[hole] = ridge_distance_ages(xyz, smp.xyz, half, world.radius_m, max_age)
     return AgeGrid(grid.lon, grid.lat, age, "demo")

@@ -17,6 +17,33 @@ from ..euler import MYR_S
 from ..grids import MAX_AGE_MYR, AgeGrid
 
 
+def ridge_distance_ages(xyz, ridge_xyz, half_rate_m_s: float, radius_m: float,
+                        max_age_myr: float = MAX_AGE_MYR) -> np.ndarray:
+    """Sea-floor age at points from their distance to the nearest ridge point.
+
+    Parameters
+    ----------
+    xyz : ndarray, shape (N, 3)
+        Unit vectors of the points.
+    ridge_xyz : ndarray, shape (M, 3)
+        Unit vectors of points along the ridges.
+    half_rate_m_s : float
+        Half spreading rate, m/s.
+    radius_m : float
+    max_age_myr : float
+        Ages are capped here.
+
+    Returns
+    -------
+    ndarray, shape (N,)
+        ``distance / half rate`` in Myr, the distance along the great circle to the nearest
+        ridge point (a k-d tree on chords, ``scipy.spatial.cKDTree``).
+    """
+    d, _ = cKDTree(ridge_xyz).query(xyz)
+    angle = 2.0 * np.arcsin(np.clip(d / 2.0, 0.0, 1.0))
+    return np.minimum(angle * radius_m / half_rate_m_s / MYR_S, max_age_myr)
+
+
 def synthesise_ages(ctx):
     """The synthesised :class:`AgeGrid` and notes on how it was made."""
     world = ctx.world
@@ -55,9 +82,7 @@ def synthesise_ages(ctx):
             continue
         half_m_s = rate / 2.0 / 1e3 / (MYR_S / 1e6)
         nodes = plate == p.index
-        d, _ = cKDTree(samples.xyz[mine]).query(xyz[nodes])
-        angle = 2.0 * np.arcsin(np.clip(d / 2.0, 0.0, 1.0))
-        age[nodes] = np.minimum(angle * ctx.R / half_m_s / MYR_S, MAX_AGE_MYR)
+        age[nodes] = ridge_distance_ages(xyz[nodes], samples.xyz[mine], half_m_s, ctx.R)
         notes.append(f"{p.name}: half rate {rate / 2:.1f} mm/yr")
     cont = ctx.node_continental(grid)
     age[cont] = np.nan

@@ -63,7 +63,7 @@ def slab_buoyancy(ctx, spec, pcs, sub_left) -> tuple[np.ndarray, list]:
     if need.any() and grid is not None:
         off = ctx.TRENCH_PROBE_KM * 1e3 / ctx.R
         side = np.where(sub_left, 1.0, -1.0)[:, None]
-        probe = np.cos(off) * pcs.mid + np.sin(off) * side * pcs.n
+        probe = sphere.step_toward(pcs.mid, side * pcs.n, off)
         lon, lat = sphere.xyz_to_lonlat(probe)
         age = np.where(need, grid.sample(lon, lat), age)
         need = ~np.isfinite(age)
