@@ -19,32 +19,18 @@ os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 import numpy as np  # noqa: E402
-from scipy.spatial import SphericalVoronoi  # noqa: E402
 
 from torque import sphere  # noqa: E402
 from torque.locate import PlateLocator  # noqa: E402
 
+import synthetic_world  # noqa: E402
+
 
 def voronoi_world(n_plates: int, n_vertices: int, seed: int = 1):
-    """Rings of a Voronoi tiling, edges split evenly to reach about ``n_vertices``."""
-    rng = np.random.default_rng(seed)
-    sv = SphericalVoronoi(sphere.normalize(rng.normal(size=(n_plates, 3))))
-    sv.sort_vertices_of_regions()
-    rings = []
-    for region in sv.regions:
-        v = sv.vertices[region]
-        if sphere.ring_left_area(v, [0, len(v)])[0] > 2 * np.pi:
-            v = v[::-1]
-        rings.append(v)
-    total = sum(sphere.ring_perimeter(r, [0, len(r)])[0] for r in rings)
-    step = total / n_vertices
-    dense = []
-    for r in rings:
-        pa, _, _ = sphere.densify_arcs(r, np.roll(r, -1, axis=0), step)
-        dense.append(pa)
-    xyz = np.concatenate(dense)
-    start = np.r_[0, np.cumsum([len(d) for d in dense])]
-    return xyz, start
+    """Concatenated rings and ring starts of the synthetic benchmark world's plates
+    (:func:`synthetic_world.plates`, about ``n_vertices`` vertices)."""
+    geom, _, _ = synthetic_world.plates(n_plates, n_vertices, seed)
+    return geom.xyz, geom.ring_start
 
 
 def median_time(fn, repeat):

@@ -1,4 +1,5 @@
-"""Shared helpers for the tests: small worlds written to temporary folders."""
+"""Shared fixtures and helpers for the tests: worlds written to temporary folders, the
+command line run in-process, and comparisons. Worlds in memory are in ``worlds.py``."""
 
 from __future__ import annotations
 
@@ -8,26 +9,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from scipy.spatial import SphericalVoronoi
 
-from torque import sphere
-
-
-def voronoi_rings(n, seed=0):
-    """Generators and rings (lon/lat, closed, counter-clockwise) of a random Voronoi tiling."""
-    rng = np.random.default_rng(seed)
-    gen = sphere.normalize(rng.normal(size=(n, 3)))
-    sv = SphericalVoronoi(gen)
-    sv.sort_vertices_of_regions()
-    rings = []
-    for region in sv.regions:
-        v = sv.vertices[region]
-        if sphere.ring_left_area(v, [0, len(v)])[0] > 2 * np.pi:
-            v = v[::-1]
-        lon, lat = sphere.xyz_to_lonlat(v)
-        ring = np.c_[lon, lat].tolist()
-        rings.append(ring + [ring[0]])
-    return gen, sv, rings
+from .worlds import voronoi_rings
 
 
 def feature_collection(features):
@@ -62,8 +45,15 @@ def write_world(tmp_path):
     return _write
 
 
+def hemispheres_file(write_world, boundaries=None, extra=""):
+    """Write the northern (Upper) and southern (Lower) hemispheres; the world file's path."""
+    north = [[0, 0], [120, 0], [240, 0], [0, 0]]
+    return write_world([plate_feature("Upper", [north]), plate_feature("Lower", [north[::-1]])],
+                       boundaries, extra='winding = "strict"\n' + extra)
+
+
 @pytest.fixture
-def voronoi_world(write_world):
+def voronoi_world_file(write_world):
     """A 12-plate Voronoi world (plates P0..P11) and its generators."""
     gen, sv, rings = voronoi_rings(12, seed=3)
     path = write_world([plate_feature(f"P{i}", [r]) for i, r in enumerate(rings)])

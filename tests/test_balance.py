@@ -26,27 +26,10 @@ from torque.hypothesis import hypothesis_from_dict
 from torque.io import world_from_rings
 from torque.world import Boundary
 
-from .conftest import assert_refused as assert_bad, voronoi_rings
+from .conftest import assert_refused as assert_bad
+from .worlds import KIND_CYCLE, voronoi_world
 
 R = 6371e3
-KIND_CYCLE = ("ridge", "subduction", "transform", "subduction", "ridge", "collision")
-
-
-def kinded_world(n=16, seed=2, Q=None):
-    """A Voronoi world whose shared edges get kinds in a fixed cycle (sinking: left)."""
-    _, _, rings = voronoi_rings(n, seed)
-    if Q is not None:
-        rings = [np.c_[sphere.xyz_to_lonlat(sphere.lonlat_to_xyz(*np.asarray(r).T) @ Q.T)]
-                 .tolist() for r in rings]
-    w = world_from_rings({f"P{i}": [r] for i, r in enumerate(rings)})
-    bnd = []
-    for k, b in enumerate(w.boundaries):
-        kind = KIND_CYCLE[k % len(KIND_CYCLE)]
-        bnd.append(Boundary(kind, b.left, b.right, b.xyz, None,
-                            b.left if kind == "subduction" else None, {}))
-    return world_from_rings({f"P{i}": [r] for i, r in enumerate(rings)}, boundaries=bnd)
-
-
 TRUE = {"slab": 0.07, "drag": 4e14, "transform": 3e20, "trench": 8e20}
 
 
@@ -67,7 +50,7 @@ def system_for(world, hyp, omega=None):
 
 def test_round_trip_predict_then_fit():
     # Motions made by predict with known coefficients are fitted back to 1e-6 relative.
-    w = kinded_world()
+    w = voronoi_world(16, 2, kinds=KIND_CYCLE)
     omega = balance.predict(system_for(w, forces(False)), system_for(w, forces(False)).fixed)
     s = system_for(w, forces(True))
     tf = balance.fit_torque(s, omega)
@@ -107,7 +90,7 @@ def test_two_plate_closed_form():
 
 def test_rotating_the_world_rotates_predictions_and_keeps_coefficients():
     Q = Rotation.from_euler("zyx", [20, 35, -50], degrees=True).as_matrix()
-    w0, w1 = kinded_world(), kinded_world(Q=Q)
+    w0, w1 = voronoi_world(16, 2, kinds=KIND_CYCLE), voronoi_world(16, 2, Q=Q, kinds=KIND_CYCLE)
     s0, s1 = system_for(w0, forces(False)), system_for(w1, forces(False))
     o0, o1 = balance.predict(s0, s0.fixed), balance.predict(s1, s1.fixed)
     np.testing.assert_allclose(o1, o0 @ Q.T, atol=1e-9 * np.abs(o0).max())
@@ -120,7 +103,7 @@ def test_rotating_the_world_rotates_predictions_and_keeps_coefficients():
 
 def test_unbounded_lsq_linear_agrees_with_numpy_lstsq():
     # Source: numpy.linalg.lstsq on the same weighted system.
-    w = kinded_world()
+    w = voronoi_world(16, 2, kinds=KIND_CYCLE)
     hyp = hypothesis_from_dict({"force": [
         {"kind": "ridge", "form": "edge", "coefficient": 1.0},
         {"kind": "slab", "age_myr": 80.0, "bounds": [-np.inf, np.inf]},
@@ -175,7 +158,7 @@ def test_pole_ellipse_against_chi_square():
 
 
 def test_net_rotation_undetermined_without_drag():
-    w = kinded_world()
+    w = voronoi_world(16, 2, kinds=KIND_CYCLE)
     hyp = hypothesis_from_dict({"force": [
         {"kind": "ridge", "form": "edge", "coefficient": 1.0},
         {"kind": "transform", "coefficient": 1e20}, {"kind": "trench", "coefficient": 1e20},
@@ -186,7 +169,7 @@ def test_net_rotation_undetermined_without_drag():
 
 
 def test_nothing_fixed_and_inseparable_coefficients():
-    w = kinded_world()
+    w = voronoi_world(16, 2, kinds=KIND_CYCLE)
     s0 = system_for(w, forces(False))
     omega = balance.predict(s0, s0.fixed)
     hyp = hypothesis_from_dict({"force": [{"kind": "slab", "age_myr": 80.0},
@@ -230,7 +213,7 @@ def test_fitted_drag_implies_a_plausible_asthenosphere_viscosity(tmp_path):
 @pytest.fixture
 def demo_files(tmp_path):
     """A kinded world on disk, its true motions, and hypothesis files."""
-    w = kinded_world()
+    w = voronoi_world(16, 2, kinds=KIND_CYCLE)
     from torque.euler import Motions
     from torque.io import write_motions
     from torque.io import write_boundaries_geojson
@@ -364,7 +347,7 @@ def test_monte_carlo_spread_matches_linear_propagation():
     # propagation of the motions' covariance through the (unbounded) least-squares solution
     # (first-order error propagation; common practice, no source).
     from torque.resample import monte_carlo_motions
-    w = kinded_world()
+    w = voronoi_world(16, 2, kinds=KIND_CYCLE)
     s0 = system_for(w, forces(False))
     omega = balance.predict(s0, s0.fixed)
     s = system_for(w, forces(True), omega)

@@ -102,7 +102,7 @@ def test_finite_rotation_composition_matches_rodrigues_and_scipy():
 
 def nine_plate_world():
     rng = np.random.default_rng(4)
-    from .conftest import voronoi_rings
+    from .worlds import voronoi_rings
     _, _, rings = voronoi_rings(9, seed=5)
     return world_from_rings({f"P{i}": [r] for i, r in enumerate(rings)}), rng
 

@@ -22,10 +22,9 @@ from torque import compute_torques
 from torque.grids import AgeGrid, FlowGrid
 from torque.hypothesis import hypothesis_from_dict
 from torque.lithosphere import Cooling, Physics
-from torque.io import world_from_rings
 from torque.world import Boundary
 
-from .conftest import voronoi_rings
+from .worlds import east_west, hemispheres, voronoi_world
 
 R = 6371e3
 
@@ -41,23 +40,6 @@ def hyp(*forces, **physics):
     if physics:
         cfg["physics"] = physics
     return hypothesis_from_dict(cfg)
-
-
-def hemispheres(boundaries=(), Q=None):
-    """Upper (north) and Lower (south); optionally everything rotated by Q."""
-    north = np.array([(0, 0), (120, 0), (240, 0)], float)
-    south = north[::-1]
-    if Q is not None:
-        north = np.c_[sphere.xyz_to_lonlat(line(north, Q))]
-        south = np.c_[sphere.xyz_to_lonlat(line(south, Q))]
-    return world_from_rings({"Upper": [north.tolist()], "Lower": [south.tolist()]},
-                            boundaries=boundaries, winding="strict")
-
-
-def east_west(boundaries):
-    east = [(0, 90), (0, 0), (0, -90), (90, 0)]
-    west = [(0, 90), (270, 0), (0, -90), (180, 0)]
-    return world_from_rings({"East": [east], "West": [west]}, boundaries=boundaries)
 
 
 def test_line_force_along_a_meridian():
@@ -146,11 +128,6 @@ def test_rotating_the_world_rotates_every_torque():
         ref = ta.torque(omega)
         scale = np.abs(ref).max()
         np.testing.assert_allclose(tb.torque(omega @ Q.T), ref @ Q.T, atol=1e-9 * scale)
-
-
-def voronoi_world(n=12, seed=3):
-    _, _, rings = voronoi_rings(n, seed)
-    return world_from_rings({f"P{i}": [r] for i, r in enumerate(rings)})
 
 
 def smooth_ages(lon, lat):

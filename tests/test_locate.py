@@ -17,7 +17,7 @@ from torque import sphere
 from torque.locate import PlateLocator
 from torque.io import world_from_rings
 
-from .conftest import voronoi_rings
+from .worlds import voronoi_rings
 
 
 def voronoi_locator(n, seed):

@@ -14,7 +14,7 @@ from scipy.spatial.transform import Rotation
 
 from torque import sphere
 
-from .conftest import voronoi_rings
+from .worlds import voronoi_rings
 
 R = 6371e3
 GEOD = Geod(a=R, b=R)

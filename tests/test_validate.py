@@ -13,21 +13,16 @@ from torque import sphere
 from torque.validate import require_valid
 from torque.io import load_world
 
-from .conftest import assert_refused, line_feature, plate_feature, voronoi_rings
+from .conftest import assert_refused, hemispheres_file, line_feature, plate_feature
+from .worlds import voronoi_rings
 
 NORTH = [[0, 0], [120, 0], [240, 0], [0, 0]]
 SOUTH = [[0, 0], [240, 0], [120, 0], [0, 0]]
 
-
-def hemispheres(write_world, boundaries=None, **kw):
-    return write_world([plate_feature("Upper", [NORTH]), plate_feature("Lower", [SOUTH])],
-                       boundaries, extra='winding = "strict"\n' + kw.get("extra", ""))
-
-
-def test_check_json_has_the_contract_keys(voronoi_world, cli):
+def test_check_json_has_the_contract_keys(voronoi_world_file, cli):
     # Contract (shared/interface.md): radius_m, total_area_m2, plates[{plate, area_m2}],
     # problems. A Voronoi tiling covers 4 pi R^2 exactly (definition of a tiling).
-    path, _ = voronoi_world
+    path, _ = voronoi_world_file
     status, out, err = cli("check", path, "--json")
     assert status == 0, err
     d = json.loads(out)
@@ -39,10 +34,10 @@ def test_check_json_has_the_contract_keys(voronoi_world, cli):
     assert d["boundaries"]["derived"] is True
 
 
-def test_derived_boundaries_are_the_shared_edges(voronoi_world):
+def test_derived_boundaries_are_the_shared_edges(voronoi_world_file):
     # A Voronoi tiling of n cells has 3n - 6 edges (Euler's formula, V - E + F = 2 with
     # every vertex of degree 3); each is shared by exactly two cells.
-    path, _ = voronoi_world
+    path, _ = voronoi_world_file
     w = load_world(path)
     assert len(w.boundaries) == 3 * 12 - 6
     pairs = {frozenset((b.left, b.right)) for b in w.boundaries}
@@ -57,15 +52,15 @@ def test_derived_boundaries_are_the_shared_edges(voronoi_world):
         assert [w.plates[i].name for i in got] == [b.left, b.right]
 
 
-def test_human_summary(voronoi_world, cli):
-    path, _ = voronoi_world
+def test_human_summary(voronoi_world_file, cli):
+    path, _ = voronoi_world_file
     status, out, _ = cli("check", path)
     assert status == 0
     assert "12 plates" in out and "no problems found" in out
 
 
 def test_boundaries_file_on_shared_edges(write_world, cli):
-    path = hemispheres(write_world, [
+    path = hemispheres_file(write_world, [
         line_feature([[0, 0], [120, 0], [240, 0], [360, 0]], kind="ridge", left="Upper",
                      right="Lower")])
     status, out, err = cli("check", path, "--json")
@@ -78,7 +73,7 @@ def test_boundaries_file_on_shared_edges(write_world, cli):
 
 def test_boundary_off_the_shared_edge_is_a_warning_with_distance(write_world, cli):
     # 0.1 degree of latitude on a 6371 km sphere is 11.1 km (arc length R * angle).
-    path = hemispheres(write_world, [
+    path = hemispheres_file(write_world, [
         line_feature([[0, 0.1], [60, 0.1]], kind="transform", left="Upper", right="Lower")])
     status, out, _ = cli("check", path, "--json")
     assert status == 0
@@ -87,7 +82,7 @@ def test_boundary_off_the_shared_edge_is_a_warning_with_distance(write_world, cl
 
 
 def test_swapped_left_and_right_is_an_error(write_world, cli):
-    path = hemispheres(write_world, [
+    path = hemispheres_file(write_world, [
         line_feature([[0, 0], [60, 0]], kind="ridge", left="Lower", right="Upper")])
     status, out, err = cli("check", path)
     assert status == 2
@@ -105,17 +100,17 @@ def test_missing_world_file(cli, tmp_path):
 
 
 def test_malformed_toml(write_world, cli):
-    path = hemispheres(write_world, extra="radius_km = = 3\n")
+    path = hemispheres_file(write_world, extra="radius_km = = 3\n")
     assert_bad(cli("check", path), "world.toml", "not valid TOML")
 
 
 def test_unknown_world_key(write_world, cli):
-    path = hemispheres(write_world, extra="radious_km = 6000\n")
+    path = hemispheres_file(write_world, extra="radious_km = 6000\n")
     assert_bad(cli("check", path), "world.toml", "'radious_km'", "valid keys")
 
 
 def test_missing_data_file(write_world, cli):
-    path = hemispheres(write_world, extra='ages = "ages.nc"\n')
+    path = hemispheres_file(write_world, extra='ages = "ages.nc"\n')
     assert_bad(cli("check", path), "world.toml", "'ages'", "does not exist")
 
 
@@ -125,7 +120,7 @@ def test_plates_key_required(tmp_path, cli):
 
 
 def test_bad_radius(write_world, cli):
-    path = hemispheres(write_world, extra="radius_km = -5\n")
+    path = hemispheres_file(write_world, extra="radius_km = -5\n")
     assert_bad(cli("check", path), "radius_km must be a positive number")
 
 
@@ -149,7 +144,7 @@ def test_wrong_geometry_type(write_world, cli):
 
 
 def test_unknown_boundary_kind(write_world, cli):
-    path = hemispheres(write_world, [line_feature([[0, 0], [60, 0]], kind="rift",
+    path = hemispheres_file(write_world, [line_feature([[0, 0], [60, 0]], kind="rift",
                                                   left="Upper", right="Lower")])
     assert_bad(cli("check", path), "boundaries.geojson", "feature 0", "'rift'",
                "ridge, subduction")
@@ -243,7 +238,7 @@ def test_gap_is_located(write_world, cli):
 
 
 def test_boundary_names_unknown_plate(write_world, cli):
-    path = hemispheres(write_world, [line_feature([[0, 0], [60, 0]], kind="ridge",
+    path = hemispheres_file(write_world, [line_feature([[0, 0], [60, 0]], kind="ridge",
                                                   left="Upper", right="Nowhere")])
     probs = check_problems(cli, path)
     assert any("'Nowhere' is not a plate" in p["message"] and p["feature"] == 0
@@ -251,7 +246,7 @@ def test_boundary_names_unknown_plate(write_world, cli):
 
 
 def test_subduction_without_sinking_plate(write_world, cli):
-    path = hemispheres(write_world, [line_feature([[0, 0], [60, 0]], kind="subduction",
+    path = hemispheres_file(write_world, [line_feature([[0, 0], [60, 0]], kind="subduction",
                                                   left="Upper", right="Lower")])
     probs = check_problems(cli, path)
     assert any("must name its sinking plate" in p["message"] for p in probs)
@@ -264,8 +259,8 @@ def test_other_commands_refuse_a_broken_world(write_world):
         require_valid(load_world(path))
 
 
-def test_unclassified_world_without_boundaries_file_has_neighbours(voronoi_world, cli):
-    path, gen = voronoi_world
+def test_unclassified_world_without_boundaries_file_has_neighbours(voronoi_world_file, cli):
+    path, gen = voronoi_world_file
     _, out, _ = cli("check", path, "--json")
     plates = json.loads(out)["plates"]
     # degree of each Voronoi cell equals the number of its vertices (3-valent tiling)
@@ -278,7 +273,7 @@ def test_continents_are_checked(write_world, cli, tmp_path):
     import json as _json
     box = [[10, 10], [30, 10], [30, 30], [10, 30], [10, 10]]
     shifted = [[20, 20], [40, 20], [40, 40], [20, 40], [20, 20]]
-    path = hemispheres(write_world, extra='continents = "c.geojson"\n')
+    path = hemispheres_file(write_world, extra='continents = "c.geojson"\n')
     fc = {"type": "FeatureCollection", "features": [plate_feature("a", [box]),
                                                     plate_feature("b", [shifted])]}
     (tmp_path / "c.geojson").write_text(_json.dumps(fc))

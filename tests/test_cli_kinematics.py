@@ -103,8 +103,8 @@ def test_classify_kinds_and_sinking_plate_from_ages(hemi, cli):
     assert kinds["1"] == ("subduction", "Lower")
 
 
-def test_frame_nnr_and_fixed_plate(voronoi_world, cli, tmp_path):
-    path, gen = voronoi_world
+def test_frame_nnr_and_fixed_plate(voronoi_world_file, cli, tmp_path):
+    path, gen = voronoi_world_file
     rng = np.random.default_rng(0)
     rows = [f"P{i},{rng.uniform(-80, 80):.6f},{rng.uniform(-180, 180):.6f},"
             f"{rng.uniform(0.1, 2):.6f}" for i in range(12)]
@@ -149,10 +149,10 @@ def test_field_csv_geojson_and_netcdf(hemi, cli):
         assert json.loads(ds["plate"].attrs["plate_names"]) == ["Upper", "Lower"]
 
 
-def test_every_point_lies_in_a_plate_on_a_valid_world(voronoi_world):
+def test_every_point_lies_in_a_plate_on_a_valid_world(voronoi_world_file):
     # Cannot happen on a valid world: dense random points and the poles all find a plate.
     from torque.io import load_world
-    path, gen = voronoi_world
+    path, gen = voronoi_world_file
     world = load_world(path)
     rng = np.random.default_rng(8)
     lon = np.r_[rng.uniform(-180, 180, 300_000), 0, 0]
