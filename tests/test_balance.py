@@ -15,39 +15,19 @@ import json
 
 import numpy as np
 import pytest
-from scipy import stats
 from scipy.spatial.transform import Rotation
 
 from torque import balance, diagnostics, sphere
 from torque.errors import InputError
 from torque.euler import RAD_S_PER_DEG_MYR
-from torque import compute_torques
 from torque.hypothesis import hypothesis_from_dict
 from torque.io import world_from_rings
 from torque.world import Boundary
 
 from .conftest import assert_refused as assert_bad
-from .worlds import KIND_CYCLE, voronoi_world
+from .worlds import KIND_CYCLE, TRUE, forces, system_for, voronoi_world
 
 R = 6371e3
-TRUE = {"slab": 0.07, "drag": 4e14, "transform": 3e20, "trench": 8e20}
-
-
-def forces(free=True):
-    f = [{"kind": "ridge", "form": "edge", "coefficient": 1.0},
-         {"kind": "slab", "age_myr": 80.0}, {"kind": "drag", "label": "drag"},
-         {"kind": "transform"}, {"kind": "trench"}]
-    for e in f[1:]:
-        e["coefficient"] = "free" if free else TRUE[e.get("label", e["kind"])]
-    return hypothesis_from_dict({"force": f})
-
-
-def system_for(world, hyp, omega=None):
-    P = world.geometry.n_plates
-    omega = np.zeros((P, 3)) if omega is None else omega
-    return balance.assemble(world, hyp, compute_torques(world, hyp, omega))
-
-
 def test_round_trip_predict_then_fit():
     # Motions made by predict with known coefficients are fitted back to 1e-6 relative.
     w = voronoi_world(16, 2, kinds=KIND_CYCLE)
@@ -120,41 +100,6 @@ def test_unbounded_lsq_linear_agrees_with_numpy_lstsq():
     x, *_ = np.linalg.lstsq(G[:, 1:] / scale, -G[:, 0], rcond=None)
     np.testing.assert_allclose(fit.values[1:], x / scale, rtol=1e-8)
     assert fit.active_bounds == ()
-
-
-def test_f_test_equals_t_squared_and_information_criteria():
-    # Draper and Smith (1998): nested models differing by one coefficient have F = t^2.
-    rng = np.random.default_rng(4)
-    n = 60
-    X = np.c_[np.ones(n), rng.normal(size=n), rng.normal(size=n)]
-    y = X @ [1.0, 0.5, 0.3] + rng.normal(scale=0.8, size=n)
-    rss = []
-    for cols in ([0, 1], [0, 1, 2]):
-        b, *_ = np.linalg.lstsq(X[:, cols], y, rcond=None)
-        rss.append(float(np.sum((y - X[:, cols] @ b) ** 2)))
-    b, *_ = np.linalg.lstsq(X, y, rcond=None)
-    s2 = rss[1] / (n - 3)
-    se = np.sqrt(s2 * np.linalg.inv(X.T @ X)[2, 2])
-    t = b[2] / se
-    res = diagnostics.f_test(rss[0], 2, rss[1], 3, n)
-    assert res["F"] == pytest.approx(t**2, rel=1e-10)
-    assert res["p_value"] == pytest.approx(2 * stats.t.sf(abs(t), n - 3), rel=1e-8)
-    # Burnham and Anderson (2002): AIC = n ln(RSS/n) + 2k; BIC = n ln(RSS/n) + k ln n
-    ic = diagnostics.information_criteria(rss[1], n, 3)
-    assert ic["aic"] == pytest.approx(n * np.log(rss[1] / n) + 6)
-    assert ic["bic"] == pytest.approx(n * np.log(rss[1] / n) + 3 * np.log(n))
-    assert ic["aicc"] == pytest.approx(ic["aic"] + 2 * 3 * 4 / (n - 4))
-
-
-def test_pole_ellipse_against_chi_square():
-    # An isotropic covariance s^2 I of an Euler vector of rate w gives a circular 95 %
-    # region of angular radius sqrt(chi2_2(0.95)) s / w (scipy.stats.chi2).
-    w = np.array([0.0, 0.0, 1.0]) * RAD_S_PER_DEG_MYR
-    s = 0.01 * RAD_S_PER_DEG_MYR
-    e = diagnostics.pole_ellipse(w, s**2 * np.eye(3))
-    r = np.degrees(np.sqrt(stats.chi2.ppf(0.95, 2)) * s / np.linalg.norm(w))
-    assert e["major_deg"] == pytest.approx(r) and e["minor_deg"] == pytest.approx(r)
-    assert e["rate_stderr_deg_myr"] == pytest.approx(0.01)
 
 
 def test_net_rotation_undetermined_without_drag():
@@ -342,27 +287,3 @@ def test_predict_without_coefficients_for_free_terms(demo_files, cli):
                d / "p.csv", "need values", "--coefficients")
 
 
-def test_monte_carlo_spread_matches_linear_propagation():
-    # For small motion errors the Monte Carlo spread of the coefficients equals the linear
-    # propagation of the motions' covariance through the (unbounded) least-squares solution
-    # (first-order error propagation; common practice, no source).
-    from torque.resample import monte_carlo_motions
-    w = voronoi_world(16, 2, kinds=KIND_CYCLE)
-    s0 = system_for(w, forces(False))
-    omega = balance.predict(s0, s0.fixed)
-    s = system_for(w, forces(True), omega)
-    sigma = 1e-4 * RAD_S_PER_DEG_MYR
-    cov = np.broadcast_to(sigma**2 * np.eye(3), (16, 3, 3)).copy()
-    mc = monte_carlo_motions(s, omega, cov, 4000, seed=2)
-    assert mc["refitted_with_bounds"] == 0
-    # linear propagation by finite differences of the torque-space fit
-    base = balance.fit_torque(s, omega).values[s.free]
-    J = np.zeros((len(base), omega.size))
-    eps = 1e-3 * sigma
-    for j in range(omega.size):
-        d = np.zeros(omega.size)
-        d[j] = eps
-        J[:, j] = (balance.fit_torque(s, omega + d.reshape(-1, 3)).values[s.free] - base) / eps
-    sd_lin = sigma * np.sqrt(np.sum(J**2, axis=1))
-    sd_mc = np.array([v["std"] for v in mc["coefficients"].values()])
-    np.testing.assert_allclose(sd_mc, sd_lin, rtol=0.08)

@@ -1,17 +1,27 @@
-"""Result objects print their sizes and labels, not their arrays; problems of the model
-itself are ModelError (a kind of InputError, so the command line exits 2)."""
+"""Diagnostics of a fit: information criteria, F-tests and pole ellipses against their
+published forms; the fit results as a record that round-trips its JSON; the registry of
+fit methods; short reprs; problems of the model itself as ModelError.
+
+Sources: Draper and Smith (1998), Applied Regression Analysis, 3rd ed.: for nested linear
+models differing by one coefficient the extra-sum-of-squares F equals the square of that
+coefficient's t statistic; Burnham and Anderson (2002), Model Selection and Multimodel
+Inference, sec. 2.2: AIC = n ln(RSS/n) + 2k for least squares; Schwarz (1978): BIC;
+scipy.stats for the t, F and chi-square distributions.
+"""
+
+import json
 
 import numpy as np
 import pytest
+from scipy import stats
 
+from torque import balance, compute_torques, diagnostics
 from torque.balance import assemble, predict
-from torque.diagnostics import analyse
+from torque.diagnostics import FitResult, analyse
 from torque.errors import InputError, ModelError
-from torque.io import read_motions
-from torque import compute_torques
+from torque.euler import RAD_S_PER_DEG_MYR
 from torque.hypothesis import hypothesis_from_dict
-from torque.io import load_hypothesis
-from torque.io import load_world
+from torque.io import dumps, load_hypothesis, load_world, read_fit, read_motions, write_json
 
 from .conftest import here
 
@@ -54,3 +64,85 @@ def test_model_problems_are_model_errors(demo_fit):
     with pytest.raises(ModelError, match="every coefficient is free"):
         analyse(system, motions.for_world(world))
     assert np.all(np.isnan(system.fixed))
+
+
+def test_f_test_equals_t_squared_and_information_criteria():
+    # Draper and Smith (1998): nested models differing by one coefficient have F = t^2.
+    rng = np.random.default_rng(4)
+    n = 60
+    X = np.c_[np.ones(n), rng.normal(size=n), rng.normal(size=n)]
+    y = X @ [1.0, 0.5, 0.3] + rng.normal(scale=0.8, size=n)
+    rss = []
+    for cols in ([0, 1], [0, 1, 2]):
+        b, *_ = np.linalg.lstsq(X[:, cols], y, rcond=None)
+        rss.append(float(np.sum((y - X[:, cols] @ b) ** 2)))
+    b, *_ = np.linalg.lstsq(X, y, rcond=None)
+    s2 = rss[1] / (n - 3)
+    se = np.sqrt(s2 * np.linalg.inv(X.T @ X)[2, 2])
+    t = b[2] / se
+    res = diagnostics.f_test(rss[0], 2, rss[1], 3, n)
+    assert res["F"] == pytest.approx(t**2, rel=1e-10)
+    assert res["p_value"] == pytest.approx(2 * stats.t.sf(abs(t), n - 3), rel=1e-8)
+    # Burnham and Anderson (2002): AIC = n ln(RSS/n) + 2k; BIC = n ln(RSS/n) + k ln n
+    ic = diagnostics.information_criteria(rss[1], n, 3)
+    assert ic["aic"] == pytest.approx(n * np.log(rss[1] / n) + 6)
+    assert ic["bic"] == pytest.approx(n * np.log(rss[1] / n) + 3 * np.log(n))
+    assert ic["aicc"] == pytest.approx(ic["aic"] + 2 * 3 * 4 / (n - 4))
+
+
+def test_pole_ellipse_against_chi_square():
+    # An isotropic covariance s^2 I of an Euler vector of rate w gives a circular 95 %
+    # region of angular radius sqrt(chi2_2(0.95)) s / w (scipy.stats.chi2).
+    w = np.array([0.0, 0.0, 1.0]) * RAD_S_PER_DEG_MYR
+    s = 0.01 * RAD_S_PER_DEG_MYR
+    e = diagnostics.pole_ellipse(w, s**2 * np.eye(3))
+    r = np.degrees(np.sqrt(stats.chi2.ppf(0.95, 2)) * s / np.linalg.norm(w))
+    assert e["major_deg"] == pytest.approx(r) and e["minor_deg"] == pytest.approx(r)
+    assert e["rate_stderr_deg_myr"] == pytest.approx(0.01)
+
+
+def test_fit_result_round_trips_its_json(demo_fit, tmp_path):
+    # What torque fit writes is read back into the same record (JSON keeps every digit of
+    # a float: Python writes the shortest repr that reads back exactly).
+    *_, report = demo_fit
+    result = report.result(notes=("a note",))
+    back = FitResult.from_dict(json.loads(dumps(result.as_dict())))
+    assert back == result
+    write_json(tmp_path / "fit.json", result.as_dict())
+    assert read_fit(tmp_path / "fit.json", result.plate_names) == result
+    with pytest.raises(InputError, match="other plates"):
+        read_fit(tmp_path / "fit.json", result.plate_names[::-1])
+    with pytest.raises(InputError, match="another hypothesis"):
+        result.values(["drag_all", "slab"])
+    assert result.values(["drag_all"]) == [result.coefficients["drag_all"].value]
+
+
+def test_fit_result_refuses_what_is_not_a_fit(tmp_path):
+    with pytest.raises(InputError, match="not the JSON output of torque fit"):
+        FitResult.from_dict({"coefficients": {}}, file="x.json")
+    with pytest.raises(InputError, match="no numeric 'value'"):
+        FitResult.from_dict({"coefficients": {"slab": {"value": "high"}}, "plates": []})
+
+
+def test_a_new_fit_method_plugs_in_without_editing_analyse(demo_fit, monkeypatch):
+    # a method registered after the others sees their fits and is run and kept
+    world, motions, terms, system, _ = demo_fit
+    seen = {}
+
+    def halfway(system, omega_obs, earlier, weighting):
+        seen.update(earlier)
+        t, v = earlier["torque"], earlier["velocity"]
+        return balance.Fit(system, "halfway", (t.values + v.values) / 2, v.stderr, v.cov,
+                           v.rss, v.dof)
+
+    monkeypatch.setitem(balance.FIT_METHODS, "halfway",
+                        balance.FitMethod("halfway", halfway, "the mean of the others"))
+    report = analyse(system, motions.for_world(world))
+    assert list(report.fits) == ["torque", "velocity", "halfway"]
+    assert set(seen) == {"torque", "velocity"}
+    np.testing.assert_allclose(report.fits["halfway"].values,
+                               (report.torque_fit.values + report.velocity_fit.values) / 2)
+    # the preferred fit is still the velocity-space one, and a caller may leave one out
+    assert report.preferred is report.velocity_fit
+    assert list(analyse(system, motions.for_world(world),
+                        methods=("torque", "velocity")).fits) == ["torque", "velocity"]

@@ -13,7 +13,6 @@ Closed forms (vector calculus on the sphere, written out beside each test):
 """
 
 import numpy as np
-import pytest
 from scipy.spatial.transform import Rotation
 
 from torque import sphere
@@ -182,36 +181,6 @@ def test_distributed_ridge_push_is_zero_for_uniform_age():
     flat = AgeGrid(g.lon, g.lat, np.full_like(g.age_myr, 60.0))
     (t,) = compute_torques(w, hyp({"kind": "ridge"}), ages=flat)
     assert np.abs(t.torque()).max() == 0.0
-
-
-def test_continents_are_clipped_to_plates_exactly():
-    # A cap centred on the equator is cut in two equal halves by it (mirror symmetry), and
-    # the whole cap's moments are the closed forms of a cap: area 2 pi (1 - cos a).
-    from pyproj import Geod
-
-    from torque.continents import Continents, clip_moments
-    geod = Geod(a=1, b=1)
-    alpha = np.radians(20.0)
-    lon, lat, _ = geod.fwd(np.full(720, 30.0), np.zeros(720), np.linspace(360, 0, 720,
-                                                                          endpoint=False),
-                           np.full(720, alpha))
-    xyz = sphere.lonlat_to_xyz(lon, lat)
-    cont = Continents(xyz, np.array([0, 720]), np.array([False]), np.array([0]))
-    area, first, second, warn = clip_moments(hemispheres(), cont)
-    cap_area, _, _ = sphere.region_moments(xyz, [0, 720], [0], [False], 1)
-    assert area.sum() == pytest.approx(cap_area[0], rel=1e-12)
-    assert area[0] == pytest.approx(area[1], rel=1e-10)
-    assert cap_area[0] == pytest.approx(2 * np.pi * (1 - np.cos(alpha)), rel=1e-4)
-    assert first[0, 2] == pytest.approx(-first[1, 2], rel=1e-10)
-    assert warn == []
-    # drag over the continent and the ocean add up to drag over the whole plate
-    omega = np.array([[1e-15, 2e-15, 3e-15], [0, 0, 1e-15]])
-    tall, toc, tco = compute_torques(hemispheres(), hyp(
-        {"kind": "drag"}, {"kind": "drag", "region": "ocean"},
-        {"kind": "drag", "region": "continent"}), omega, continents=cont)
-    scale = np.abs(tall.torque(omega)).max()
-    np.testing.assert_allclose(toc.torque(omega) + tco.torque(omega), tall.torque(omega),
-                               rtol=1e-12, atol=1e-12 * scale)
 
 
 def test_mantle_flow_of_a_rigid_rotation_converges_to_the_exact_drag():

@@ -3,7 +3,9 @@
 * :func:`voronoi_rings` and :func:`voronoi_world`: random spherical Voronoi tilings (scipy
   ``SphericalVoronoi``), optionally rotated and with boundary kinds in a fixed cycle;
 * :func:`hemispheres`: the northern and southern hemispheres, optionally rotated;
-* :func:`east_west`: the eastern and western hemispheres.
+* :func:`east_west`: the eastern and western hemispheres;
+* :func:`forces` and :func:`system_for`: a hypothesis with every boundary kind for a
+  kinded Voronoi world, its invented true coefficients :data:`TRUE`, and its balance.
 
 Fixtures that write worlds to files are in ``conftest.py`` (``write_world``,
 ``voronoi_world_file``).
@@ -14,7 +16,8 @@ from __future__ import annotations
 import numpy as np
 from scipy.spatial import SphericalVoronoi
 
-from torque import sphere
+from torque import balance, compute_torques, sphere
+from torque.hypothesis import hypothesis_from_dict
 from torque.io import world_from_rings
 from torque.world import Boundary
 
@@ -80,3 +83,25 @@ def east_west(boundaries=()):
     east = [(0, 90), (0, 0), (0, -90), (90, 0)]
     west = [(0, 90), (270, 0), (0, -90), (180, 0)]
     return world_from_rings({"East": [east], "West": [west]}, boundaries=boundaries)
+
+
+#: invented true coefficients of :func:`forces` (for tests only)
+TRUE = {"slab": 0.07, "drag": 4e14, "transform": 3e20, "trench": 8e20}
+
+
+def forces(free=True):
+    """Ridge push (edge, fixed), slab pull, drag, transform and trench resistance: free, or
+    fixed at :data:`TRUE`."""
+    f = [{"kind": "ridge", "form": "edge", "coefficient": 1.0},
+         {"kind": "slab", "age_myr": 80.0}, {"kind": "drag", "label": "drag"},
+         {"kind": "transform"}, {"kind": "trench"}]
+    for e in f[1:]:
+        e["coefficient"] = "free" if free else TRUE[e.get("label", e["kind"])]
+    return hypothesis_from_dict({"force": f})
+
+
+def system_for(world, hyp, omega=None):
+    """The balance of a hypothesis on a world (motions zero unless given)."""
+    P = world.geometry.n_plates
+    omega = np.zeros((P, 3)) if omega is None else omega
+    return balance.assemble(world, hyp, compute_torques(world, hyp, omega))

@@ -1,0 +1,94 @@
+"""Uncertainty by resampling: bootstrap over plates, Monte Carlo over the motions and over
+the physics.
+
+Sources: first-order error propagation (the delta method; common practice, no source) for
+the Monte Carlo spread; reproducibility from numpy's seeded ``default_rng``.
+"""
+
+import dataclasses
+
+import numpy as np
+import pytest
+
+from torque import balance
+from torque.errors import InputError
+from torque.euler import RAD_S_PER_DEG_MYR
+from torque.hypothesis import parse_spread
+from torque.lithosphere import Physics
+from torque.resample import bootstrap, monte_carlo_motions, monte_carlo_physics
+
+from .worlds import KIND_CYCLE, TRUE, forces, system_for, voronoi_world
+
+
+@pytest.fixture(scope="module")
+def kinded():
+    """A kinded world, motions made by its forward model, and the free balance (built, as
+    the forward model was, without motions: slabs take the entry age, not synthesised
+    ones)."""
+    w = voronoi_world(16, 2, kinds=KIND_CYCLE)
+    s0 = system_for(w, forces(False))
+    omega = balance.predict(s0, s0.fixed)
+    return w, omega, system_for(w, forces(True))
+
+
+def test_monte_carlo_spread_matches_linear_propagation():
+    # For small motion errors the Monte Carlo spread of the coefficients equals the linear
+    # propagation of the motions' covariance through the (unbounded) least-squares solution
+    # (first-order error propagation; common practice, no source).
+    w = voronoi_world(16, 2, kinds=KIND_CYCLE)
+    s0 = system_for(w, forces(False))
+    omega = balance.predict(s0, s0.fixed)
+    s = system_for(w, forces(True), omega)
+    sigma = 1e-4 * RAD_S_PER_DEG_MYR
+    cov = np.broadcast_to(sigma**2 * np.eye(3), (16, 3, 3)).copy()
+    mc = monte_carlo_motions(s, omega, cov, 4000, seed=2)
+    assert mc["refitted_with_bounds"] == 0
+    # linear propagation by finite differences of the torque-space fit
+    base = balance.fit_torque(s, omega).values[s.free]
+    J = np.zeros((len(base), omega.size))
+    eps = 1e-3 * sigma
+    for j in range(omega.size):
+        d = np.zeros(omega.size)
+        d[j] = eps
+        J[:, j] = (balance.fit_torque(s, omega + d.reshape(-1, 3)).values[s.free] - base) / eps
+    sd_lin = sigma * np.sqrt(np.sum(J**2, axis=1))
+    sd_mc = np.array([v["std"] for v in mc["coefficients"].values()])
+    np.testing.assert_allclose(sd_mc, sd_lin, rtol=0.08)
+
+
+def test_bootstrap_is_reproducible_and_centred_on_noise_free_truth(kinded):
+    # On noise-free motions every resample of the plates fits the true coefficients.
+    _, omega, s = kinded
+    a = bootstrap(s, omega, 50, seed=7)
+    b = bootstrap(s, omega, 50, seed=7)
+    assert a == b and a["members"] + a["failed"] == 50
+    for label, c in a["coefficients"].items():
+        assert c["median"] == pytest.approx(TRUE[label], rel=1e-6)
+        assert c["p2_5"] <= c["median"] <= c["p97_5"]
+
+
+def test_physics_draws_follow_the_spread(kinded):
+    # A [spread] of the expansivity: each draw rebuilds the balance with the drawn physics;
+    # the build function sees draws whose sample standard deviation is the one asked for
+    # (to sampling error, 4/sqrt(2n) relative at about 4 sigma).
+    _, omega, s = kinded
+    spread = parse_spread({"expansivity": {"normal": 0.2e-5}}, Physics())
+    seen = []
+
+    def build(physics):
+        seen.append(physics.expansivity)
+        return s
+    out = monte_carlo_physics(build, Physics(), spread, omega, 400, seed=3)
+    assert out["members"] == 400 and len(seen) == 400
+    assert np.std(seen, ddof=1) == pytest.approx(0.2e-5, rel=4 / np.sqrt(800))
+    assert np.mean(seen) == pytest.approx(Physics().expansivity, abs=4 * 0.2e-5 / 20)
+
+
+def test_spread_tables_are_checked():
+    with pytest.raises(InputError, match="not a \\[physics\\] number"):
+        parse_spread({"viscosity": {"normal": 1.0}}, Physics())
+    with pytest.raises(InputError, match="LOW < HIGH"):
+        parse_spread({"expansivity": {"uniform": [3e-5, 2e-5]}}, Physics())
+    assert parse_spread({"plate_thickness_km": {"uniform": [85.0, 105.0]}}, Physics()) == {
+        "plate_thickness_km": ("uniform", (85.0, 105.0))}
+    assert dataclasses.replace(Physics(), expansivity=2e-5).expansivity == 2e-5
