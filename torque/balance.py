@@ -111,18 +111,51 @@ class System:
         return int(self.free.sum())
 
     def columns(self, omega) -> np.ndarray:
-        """Torque of every term at coefficient 1 for motions ``omega`` (P, 3): (3P, K)."""
+        """Torque of every term at coefficient 1 for motions ``omega`` (P, 3): (3P, K).
+
+        Parameters
+        ----------
+        omega : array_like, shape (P, 3)
+            rad/s.
+
+        Returns
+        -------
+        ndarray, shape (3P, K)
+        """
         w = np.asarray(omega, float).reshape(-1)
         return (self.b + self.A @ w).T
 
     def full_coefficients(self, free_values) -> np.ndarray:
+        """Every coefficient: the fixed values, with the free ones filled in.
+
+        Parameters
+        ----------
+        free_values : array_like, shape (k,)
+            In the order of the free terms.
+
+        Returns
+        -------
+        ndarray, shape (K,)
+        """
         c = self.fixed.copy()
         c[self.free] = free_values
         return c
 
 
 def assemble(world, hypothesis, terms) -> System:
-    """Gather the force terms of a hypothesis into a :class:`System`."""
+    """Gather the force terms of a hypothesis into a :class:`System`.
+
+    Parameters
+    ----------
+    world : World
+    hypothesis : Hypothesis
+    terms : list of ForceTerm
+        One per force entry, in order (see :func:`torque.forces.build_terms`).
+
+    Returns
+    -------
+    System
+    """
     P = world.geometry.n_plates
     area = world.geometry.moments[0]
     D = world.drag_tensor
@@ -143,7 +176,17 @@ def assemble(world, hypothesis, terms) -> System:
 # weighting
 # ----------------------------------------------------------------------------------------
 def plate_weights(system: System, weighting: str = "velocity") -> np.ndarray:
-    """Block-diagonal weights of the plates' torque equations, shape (3P, 3P)."""
+    """Block-diagonal weights of the plates' torque equations, shape (3P, 3P).
+
+    Parameters
+    ----------
+    system : System
+    weighting : {"velocity", "area", "none"}
+
+    Returns
+    -------
+    ndarray, shape (3P, 3P)
+    """
     P = system.n_plates
     W = np.zeros((P, 3, P, 3))
     if weighting == "velocity":
@@ -169,6 +212,21 @@ class Fit:
 
     ``values`` and ``stderr`` have one entry per term (fixed ones with stderr 0);
     ``cov`` is the covariance of the free coefficients, in the order of ``system.free``.
+
+    Attributes
+    ----------
+    system : System
+    method : str
+        The fit method's name (see :data:`FIT_METHODS`).
+    values, stderr : ndarray, shape (K,)
+    cov : ndarray, shape (k, k)
+    rss : float
+        Residual sum of squares (in the method's own measure).
+    dof : int
+    active_bounds : tuple of str
+        Free coefficients at a bound.
+    info : dict
+        Method-specific details (weighting, evaluations).
     """
 
     system: System
@@ -276,6 +334,16 @@ def predict(system: System, coefficients) -> np.ndarray:
 
     Raises InputError explaining which motion is undetermined when the system is singular
     (no basal drag or mantle term: the net rotation is then free).
+
+    Parameters
+    ----------
+    system : System
+    coefficients : array_like, shape (K,)
+        Every coefficient (fixed and free).
+
+    Returns
+    -------
+    ndarray, shape (P, 3)
     """
     c = np.asarray(coefficients, float)
     M = np.tensordot(c, system.A, axes=1)
@@ -319,7 +387,20 @@ def _misfit_vector(system: System, omega_pred, omega_obs) -> np.ndarray:
 
 
 def fit_velocity(system: System, omega_obs, start: Fit | None = None) -> Fit:
-    """Free coefficients minimising the area-integrated squared velocity misfit."""
+    """Free coefficients minimising the area-integrated squared velocity misfit.
+
+    Parameters
+    ----------
+    system : System
+    omega_obs : array_like, shape (P, 3)
+        Observed Euler vectors, rad/s, mantle at rest.
+    start : Fit, optional
+        The torque-space fit to start from (made if not given).
+
+    Returns
+    -------
+    Fit
+    """
     _check_fittable(system)
     if start is None:
         start = fit_torque(system, omega_obs)

@@ -36,7 +36,21 @@ WHY_VELOCITY = ("the velocity-space fit measures misfit in the observed plate ve
 
 
 def velocity_misfit(system: System, omega_pred, omega_obs):
-    """Per-plate RMS velocity misfit (mm/yr) and the global misfit numbers (exact)."""
+    """Per-plate RMS velocity misfit (mm/yr) and the global misfit numbers (exact).
+
+    Parameters
+    ----------
+    system : System
+    omega_pred, omega_obs : array_like, shape (P, 3)
+        rad/s.
+
+    Returns
+    -------
+    rms : ndarray, shape (P,)
+        mm/yr per plate.
+    global : dict
+        ``rms_velocity_mm_yr``, ``variance_reduction``, ``velocity_rss_m4_s2``.
+    """
     dw = np.asarray(omega_pred) - np.asarray(omega_obs)
     R = system.radius_m
     per = np.einsum("pi,pij,pj->p", dw, system.D, dw)               # int |dw x r|^2 dA
@@ -51,7 +65,21 @@ def velocity_misfit(system: System, omega_pred, omega_obs):
 
 def pole_covariance(system: System, coefficients, cov_free, omega_pred) -> np.ndarray:
     """Covariance (rad/s)^2 of each predicted Euler vector, shape (P, 3, 3), from the
-    covariance of the free coefficients by linear propagation."""
+    covariance of the free coefficients by linear propagation.
+
+    Parameters
+    ----------
+    system : System
+    coefficients : array_like, shape (K,)
+    cov_free : ndarray, shape (k, k)
+        Covariance of the free coefficients.
+    omega_pred : array_like, shape (P, 3)
+        The prediction at ``coefficients``.
+
+    Returns
+    -------
+    ndarray, shape (P, 3, 3)
+    """
     c = np.asarray(coefficients, float)
     M = np.tensordot(c, system.A, axes=1)
     w = np.asarray(omega_pred).reshape(-1)
@@ -68,6 +96,20 @@ def pole_ellipse(omega, cov, confidence: float = CONFIDENCE) -> dict:
     The pole direction ``u = w/|w|`` varies as ``du = (I - u u^T) dw / |w|``; its 2-D
     covariance in the tangent plane gives the ellipse, scaled by the chi-square quantile
     with 2 degrees of freedom (``scipy.stats.chi2``).
+
+    Parameters
+    ----------
+    omega : array_like, shape (3,)
+        rad/s.
+    cov : array_like, shape (3, 3)
+        (rad/s)^2.
+    confidence : float
+
+    Returns
+    -------
+    dict
+        ``major_deg``, ``minor_deg`` (semi-axes), ``azimuth_deg`` of the major axis,
+        ``rate_stderr_deg_myr``, ``confidence``; None where the rate is 0.
     """
     omega = np.asarray(omega, float)
     rate = np.linalg.norm(omega)
@@ -102,6 +144,18 @@ def force_budget(system: System, coefficients, omega) -> np.ndarray:
     projected on the driving torque's direction and divided by its magnitude: driving
     terms' shares add to 1, resisting terms' come out negative (near -1 in all if the
     plate is balanced).
+
+    Parameters
+    ----------
+    system : System
+    coefficients : array_like, shape (K,)
+    omega : array_like, shape (P, 3)
+        rad/s.
+
+    Returns
+    -------
+    ndarray, shape (P, K)
+        NaN for a plate with no driving torque.
     """
     c = np.asarray(coefficients, float)
     P = system.n_plates
@@ -114,12 +168,32 @@ def force_budget(system: System, coefficients, omega) -> np.ndarray:
 
 
 def residual_torque(system: System, coefficients, omega) -> np.ndarray:
-    """Sum of all terms' torques (N m) at the observed motions, per plate (P, 3)."""
+    """Sum of all terms' torques (N m) at the observed motions, per plate (P, 3).
+
+    Parameters
+    ----------
+    system : System
+    coefficients : array_like, shape (K,)
+    omega : array_like, shape (P, 3)
+
+    Returns
+    -------
+    ndarray, shape (P, 3)
+    """
     return (system.columns(omega) @ np.asarray(coefficients, float)).reshape(-1, 3)
 
 
 def pole_distance_deg(w1, w2) -> np.ndarray:
-    """Angle (degrees) between the poles of two sets of Euler vectors (P, 3)."""
+    """Angle (degrees) between the poles of two sets of Euler vectors (P, 3).
+
+    Parameters
+    ----------
+    w1, w2 : array_like, shape (P, 3)
+
+    Returns
+    -------
+    ndarray, shape (P,)
+    """
     n = np.linalg.norm(np.cross(w1, w2), axis=-1)
     return np.degrees(np.arctan2(n, np.einsum("pi,pi->p", w1, w2)))
 
@@ -129,6 +203,20 @@ def information_criteria(rss: float, n: int, k: int) -> dict:
 
     ``AIC = n ln(RSS/n) + 2k``, ``AICc = AIC + 2k(k+1)/(n-k-1)``, ``BIC = n ln(RSS/n) +
     k ln(n)`` (constants common to all models dropped).
+
+    Parameters
+    ----------
+    rss : float
+        Residual sum of squares.
+    n : int
+        Number of equations.
+    k : int
+        Number of free coefficients.
+
+    Returns
+    -------
+    dict
+        ``aic``, ``aicc``, ``bic``.
     """
     base = n * np.log(max(rss, 1e-300) / n)
     aic = base + 2 * k
@@ -141,6 +229,20 @@ def f_test(rss_small: float, k_small: int, rss_big: float, k_big: int, n: int) -
 
     ``F = ((RSS_s - RSS_b)/(k_b - k_s)) / (RSS_b/(n - k_b))``, p-value from
     ``scipy.stats.f``.
+
+    Parameters
+    ----------
+    rss_small, rss_big : float
+        Residual sums of squares of the nested and the bigger model.
+    k_small, k_big : int
+        Their numbers of free coefficients.
+    n : int
+        Number of equations.
+
+    Returns
+    -------
+    dict
+        ``F``, ``p_value`` (None when undefined) and ``df``.
     """
     df1, df2 = k_big - k_small, n - k_big
     if df1 <= 0 or df2 <= 0 or rss_big <= 0:
@@ -232,6 +334,16 @@ class FitResult:
 
     def values(self, labels, file=None) -> list:
         """The value of each coefficient in ``labels``, in that order.
+
+        Parameters
+        ----------
+        labels : sequence of str
+        file : str or Path, optional
+            Named in messages.
+
+        Returns
+        -------
+        list of float
 
         Raises
         ------
@@ -354,7 +466,16 @@ class Report:
         return self.result().as_dict()
 
     def result(self, notes=()) -> FitResult:
-        """What is reported of this fit, with ``notes`` on how the terms were made."""
+        """What is reported of this fit, with ``notes`` on how the terms were made.
+
+        Parameters
+        ----------
+        notes : sequence of str
+
+        Returns
+        -------
+        FitResult
+        """
         s = self.system
         pref = self.preferred
         tf = self.torque_fit

@@ -36,6 +36,18 @@ COV_COLUMNS = ("cov_xx", "cov_xy", "cov_xz", "cov_yy", "cov_yz", "cov_zz")
 def pole_to_vector(lat_deg, lon_deg, rate_deg_myr) -> np.ndarray:
     """Angular velocity vectors (rad/s), shape ``(..., 3)``, from poles and rates.
 
+    Parameters
+    ----------
+    lat_deg, lon_deg : array_like, shape (...)
+        Pole position, degrees.
+    rate_deg_myr : array_like, shape (...)
+        Rotation rate, deg/Myr, counter-clockwise seen from above the pole.
+
+    Returns
+    -------
+    ndarray, shape (..., 3)
+        rad/s.
+
     Examples
     --------
     One degree per Myr about the north pole:
@@ -52,6 +64,15 @@ def vector_to_pole(omega):
     """Pole latitude, longitude (degrees) and rate (deg/Myr, always >= 0) of vectors (rad/s).
 
     A zero vector gets the pole (90, 0) and rate 0.
+
+    Parameters
+    ----------
+    omega : array_like, shape (..., 3)
+        Angular velocities, rad/s.
+
+    Returns
+    -------
+    lat_deg, lon_deg, rate_deg_myr : ndarray, shape (...)
     """
     omega = np.asarray(omega, dtype=float)
     rate = np.linalg.norm(omega, axis=-1)
@@ -63,7 +84,21 @@ def vector_to_pole(omega):
 
 
 def velocity_xyz(omega, xyz, radius_m: float) -> np.ndarray:
-    """Velocity ``omega x (R r)`` in m/s at unit vectors ``xyz`` (broadcasting)."""
+    """Velocity ``omega x (R r)`` in m/s at unit vectors ``xyz`` (broadcasting).
+
+    Parameters
+    ----------
+    omega : array_like, shape (..., 3)
+        Angular velocities, rad/s.
+    xyz : array_like, shape (..., 3)
+        Unit vectors of the points.
+    radius_m : float
+
+    Returns
+    -------
+    ndarray, shape (..., 3)
+        m/s.
+    """
     return np.cross(omega, xyz) * radius_m
 
 
@@ -89,12 +124,32 @@ def velocity_en(omega, xyz, radius_m: float):
 
 
 def speed_azimuth(ve, vn):
-    """Speed (same unit as the components) and azimuth (degrees clockwise from north)."""
+    """Speed (same unit as the components) and azimuth (degrees clockwise from north).
+
+    Parameters
+    ----------
+    ve, vn : array_like
+        East and north components.
+
+    Returns
+    -------
+    speed, azimuth_deg : ndarray
+    """
     return np.hypot(ve, vn), np.mod(np.degrees(np.arctan2(ve, vn)), 360.0)
 
 
 def relative(omega_a, omega_b) -> np.ndarray:
-    """Angular velocity of plate A relative to plate B: ``omega_A - omega_B``."""
+    """Angular velocity of plate A relative to plate B: ``omega_A - omega_B``.
+
+    Parameters
+    ----------
+    omega_a, omega_b : array_like, shape (..., 3)
+        rad/s.
+
+    Returns
+    -------
+    ndarray, shape (..., 3)
+    """
     return np.asarray(omega_a) - np.asarray(omega_b)
 
 
@@ -102,13 +157,34 @@ def relative(omega_a, omega_b) -> np.ndarray:
 # finite rotations (scipy does the algebra)
 # ----------------------------------------------------------------------------------------
 def finite_rotation(lat_deg, lon_deg, angle_deg) -> Rotation:
-    """The finite rotation by ``angle_deg`` (counter-clockwise) about a pole."""
+    """The finite rotation by ``angle_deg`` (counter-clockwise) about a pole.
+
+    Parameters
+    ----------
+    lat_deg, lon_deg : float or array_like
+        The pole, degrees.
+    angle_deg : float or array_like
+        Degrees, counter-clockwise seen from above the pole.
+
+    Returns
+    -------
+    scipy.spatial.transform.Rotation
+    """
     axis = sphere.lonlat_to_xyz(lon_deg, lat_deg)
     return Rotation.from_rotvec(axis * np.radians(np.asarray(angle_deg, float))[..., None])
 
 
 def rotation_pole(rotation: Rotation):
-    """Pole latitude, longitude and angle (degrees, >= 0) of finite rotations."""
+    """Pole latitude, longitude and angle (degrees, >= 0) of finite rotations.
+
+    Parameters
+    ----------
+    rotation : scipy.spatial.transform.Rotation
+
+    Returns
+    -------
+    lat_deg, lon_deg, angle_deg : ndarray
+    """
     rv = rotation.as_rotvec()
     angle = np.degrees(np.linalg.norm(rv, axis=-1))
     lon, lat = sphere.xyz_to_lonlat(rv)
@@ -116,7 +192,17 @@ def rotation_pole(rotation: Rotation):
 
 
 def compose(first: Rotation, then: Rotation) -> Rotation:
-    """The rotation ``first`` followed by ``then``."""
+    """The rotation ``first`` followed by ``then``.
+
+    Parameters
+    ----------
+    first, then : scipy.spatial.transform.Rotation
+
+    Returns
+    -------
+    scipy.spatial.transform.Rotation
+        ``then * first``: a point is rotated by ``first``, then by ``then``.
+    """
     return then * first
 
 
@@ -151,6 +237,20 @@ class Motions:
 
     @classmethod
     def from_poles(cls, plates, lat_deg, lon_deg, rate_deg_myr, **kw):
+        """Motions from pole latitudes, longitudes and rates.
+
+        Parameters
+        ----------
+        plates : sequence of str
+        lat_deg, lon_deg : array_like, shape (P,)
+        rate_deg_myr : array_like, shape (P,)
+        **kw
+            ``cov``, ``extra``, ``source`` (see the class).
+
+        Returns
+        -------
+        Motions
+        """
         return cls(tuple(plates), pole_to_vector(lat_deg, lon_deg, rate_deg_myr), **kw)
 
     @property
@@ -159,12 +259,22 @@ class Motions:
         return vector_to_pole(self.omega)
 
     def index(self) -> dict:
+        """``{plate: row}`` of these motions.
+        """
         return {p: i for i, p in enumerate(self.plates)}
 
     def for_world(self, world) -> np.ndarray:
         """Angular velocities (rad/s) in the order of ``world.plates``, shape (P, 3).
 
         Raises InputError naming the plates that are unknown to the world or missing here.
+
+        Parameters
+        ----------
+        world : World
+
+        Returns
+        -------
+        ndarray, shape (P, 3)
         """
         idx = self.index()
         names = world.plate_names
@@ -181,18 +291,51 @@ class Motions:
         return self.omega[[idx[p] for p in names]]
 
     def cov_for_world(self, world):
+        """The covariance (rad/s)^2 in the order of ``world.plates``, or None.
+
+        Parameters
+        ----------
+        world : World
+
+        Returns
+        -------
+        ndarray, shape (P, 3, 3), or None
+        """
         if self.cov is None:
             return None
         idx = self.index()
         return self.cov[[idx[p] for p in world.plate_names]]
 
     def with_omega(self, omega, cov=None) -> "Motions":
+        """The same plates with other Euler vectors (and covariance).
+
+        Parameters
+        ----------
+        omega : array_like, shape (P, 3)
+            rad/s, in the order of ``plates``.
+        cov : ndarray, shape (P, 3, 3), optional
+            (rad/s)^2.
+
+        Returns
+        -------
+        Motions
+        """
         return Motions(self.plates, np.asarray(omega, float), cov, dict(self.extra),
                        self.source)
 
     # -- frames ---------------------------------------------------------------------------
     def add_rotation(self, omega) -> "Motions":
-        """Every plate's Euler vector plus ``omega`` (rad/s): a change of reference frame."""
+        """Every plate's Euler vector plus ``omega`` (rad/s): a change of reference frame.
+
+        Parameters
+        ----------
+        omega : array_like, shape (3,)
+            rad/s.
+
+        Returns
+        -------
+        Motions
+        """
         return self.with_omega(self.omega + np.asarray(omega, float), self.cov)
 
     def subtract_combination(self, weights) -> "Motions":
@@ -226,6 +369,15 @@ class Motions:
 
         The fixed plate's own uncertainty passes to every other plate: ``C'_p = C_p +
         C_fixed``, and the fixed plate gets rate 0 with zero covariance.
+
+        Parameters
+        ----------
+        plate : str
+            One of ``plates``.
+
+        Returns
+        -------
+        Motions
         """
         idx = self.index()
         if plate not in idx:
@@ -260,6 +412,19 @@ def to_no_net_rotation(world, motions: Motions) -> tuple[Motions, np.ndarray]:
     The net rotation is linear in the motions, ``w_net = sum_q S^-1 D_q w_q`` with
     ``S = sum_q D_q``, so the covariance is carried through that map
     (:meth:`Motions.subtract_combination`).
+
+    Parameters
+    ----------
+    world : World
+    motions : Motions
+        Of every plate of the world.
+
+    Returns
+    -------
+    motions : Motions
+        In the no-net-rotation frame, with the covariance carried through.
+    w_net : ndarray, shape (3,)
+        The net rotation removed, rad/s.
     """
     omega = motions.for_world(world)
     D = world.drag_tensor
@@ -273,7 +438,18 @@ def to_no_net_rotation(world, motions: Motions) -> tuple[Motions, np.ndarray]:
 # velocity fields
 # ----------------------------------------------------------------------------------------
 def grid_lonlat(step_deg: float):
-    """Cell-centred regular grid (so no node sits on a pole): 1-D lon and lat, degrees."""
+    """Cell-centred regular grid (so no node sits on a pole): 1-D lon and lat, degrees.
+
+    Parameters
+    ----------
+    step_deg : float
+        Grid step, in (0, 90] degrees.
+
+    Returns
+    -------
+    lon, lat : ndarray
+        Cell centres, degrees, increasing.
+    """
     if not (np.isfinite(step_deg) and 0 < step_deg <= 90):
         raise InputError(f"the grid step must be in (0, 90] degrees, got {step_deg:g}")
     lon = np.arange(-180.0 + step_deg / 2, 180.0, step_deg)

@@ -59,6 +59,25 @@ class Physics:
     mantle temperature 1450 C above the surface, alpha 3.1e-5 /K, conductivity
     3.138 W/m/K, heat capacity 1.171 kJ/kg/K (so kappa = k / (rho c) = 8.047e-7 m2/s),
     rho_m 3330 kg/m3, ridge depth 2600 m.
+
+    Parameters
+    ----------
+    model : {"plate", "half-space"}
+    mantle_density, water_density : float
+        kg/m3.
+    expansivity : float
+        1/K.
+    temperature_contrast : float
+        K, mantle minus surface.
+    diffusivity : float
+        m2/s.
+    conductivity : float
+        W/m/K (heat flow only).
+    plate_thickness_km : float
+        Plate model only.
+    ridge_depth_m : float
+    gravity : float
+        m/s2.
     """
 
     model: str = "plate"
@@ -74,7 +93,19 @@ class Physics:
 
     @classmethod
     def from_table(cls, table: dict, file=None) -> "Physics":
-        """Physics from a ``[physics]`` table, with errors naming the key and the file."""
+        """Physics from a ``[physics]`` table, with errors naming the key and the file.
+
+        Parameters
+        ----------
+        table : dict
+            The ``[physics]`` table; missing keys take the defaults.
+        file : str or Path, optional
+            Named in messages.
+
+        Returns
+        -------
+        Physics
+        """
         known = {f.name for f in fields(cls)}
         unknown = sorted(set(table) - known)
         if unknown:
@@ -97,6 +128,12 @@ class Physics:
         return phys
 
     def validate(self, file=None) -> None:
+        """InputError (naming ``file``) unless every parameter is physical.
+
+        Parameters
+        ----------
+        file : str or Path, optional
+        """
         positive = ("mantle_density", "expansivity", "temperature_contrast", "diffusivity",
                     "conductivity", "plate_thickness_km", "gravity")
         for k in positive:
@@ -146,6 +183,18 @@ class Cooling:
         """Dimensionless temperature ``(T - T_s)/(T_m - T_s)`` at depths below the sea floor.
 
         ``z_m`` and ``age_myr`` broadcast against each other.
+
+        Parameters
+        ----------
+        z_m : array_like
+            Depth below the sea floor, m.
+        age_myr : array_like
+            Myr.
+
+        Returns
+        -------
+        ndarray
+            Between 0 (surface) and 1 (mantle).
         """
         z, t = np.broadcast_arrays(np.asarray(z_m, float), np.asarray(age_myr, float) * MYR_S)
         if self.p.model == "half-space":
@@ -176,7 +225,19 @@ class Cooling:
         return np.where(live, np.clip(acc, 0.0, 1.0), np.where(z > 0, 1.0, 0.0))
 
     def temperature_k(self, z_m, age_myr, surface_k: float = 273.0) -> np.ndarray:
-        """Temperature (K) for a surface temperature ``surface_k``."""
+        """Temperature (K) for a surface temperature ``surface_k``.
+
+        Parameters
+        ----------
+        z_m, age_myr : array_like
+            Depth (m) and age (Myr), broadcast.
+        surface_k : float
+
+        Returns
+        -------
+        ndarray
+            K.
+        """
         return surface_k + self.p.temperature_contrast * self.theta(z_m, age_myr)
 
     # -- column integrals by quadrature ---------------------------------------------------
@@ -200,13 +261,33 @@ class Cooling:
         return I0, I1
 
     def excess_mass_kg_m2(self, age_myr) -> np.ndarray:
-        """``rho_m alpha dT int (1 - theta) dz``: mass per unit area the cooled layer adds."""
+        """``rho_m alpha dT int (1 - theta) dz``: mass per unit area the cooled layer adds.
+
+        Parameters
+        ----------
+        age_myr : array_like
+
+        Returns
+        -------
+        ndarray
+            kg/m2.
+        """
         I0, _ = self._layer_integrals(age_myr)
         p = self.p
         return _shape(p.mantle_density * p.expansivity * p.temperature_contrast * I0, age_myr)
 
     def depth_m(self, age_myr) -> np.ndarray:
-        """Sea-floor depth below sea level (m), from isostasy."""
+        """Sea-floor depth below sea level (m), from isostasy.
+
+        Parameters
+        ----------
+        age_myr : array_like
+
+        Returns
+        -------
+        ndarray
+            m.
+        """
         p = self.p
         return p.ridge_depth_m + self.excess_mass_kg_m2(age_myr) / (p.mantle_density
                                                                      - p.water_density)
@@ -216,6 +297,15 @@ class Cooling:
 
         The difference in vertically integrated lithostatic pressure, by quadrature of the
         model's temperature profile (see the module notes).
+
+        Parameters
+        ----------
+        age_myr : array_like
+
+        Returns
+        -------
+        ndarray
+            N/m.
         """
         p = self.p
         I0, I1 = self._layer_integrals(age_myr)
@@ -236,12 +326,34 @@ class Cooling:
         return float(self.ridge_push_n_m(1e6))
 
     def slab_pull_n_m(self, age_myr, depth_km: float = 660.0) -> np.ndarray:
-        """Negative buoyancy (N/m of trench) of a slab of this age reaching ``depth_km``."""
+        """Negative buoyancy (N/m of trench) of a slab of this age reaching ``depth_km``.
+
+        Parameters
+        ----------
+        age_myr : array_like
+        depth_km : float
+            Depth the slab reaches, km.
+
+        Returns
+        -------
+        ndarray
+            N/m.
+        """
         return self.p.gravity * depth_km * 1e3 * self.excess_mass_kg_m2(age_myr)
 
     # -- heat flow ------------------------------------------------------------------------
     def heat_flow_mw_m2(self, age_myr) -> np.ndarray:
-        """Surface heat flow (mW/m2): ``k dT/dz`` at the surface."""
+        """Surface heat flow (mW/m2): ``k dT/dz`` at the surface.
+
+        Parameters
+        ----------
+        age_myr : array_like
+
+        Returns
+        -------
+        ndarray
+            mW/m2.
+        """
         t = np.asarray(age_myr, float) * MYR_S
         p = self.p
         with np.errstate(divide="ignore"):
@@ -260,7 +372,17 @@ class Cooling:
     # -- closed forms (half-space) for checking -------------------------------------------
     def ridge_push_half_space_closed_n_m(self, age_myr) -> np.ndarray:
         """Turcotte and Schubert (2002), sec. 6-20: ``F = g rho_m alpha dT kappa t
-        [1 + (2/pi) rho_m alpha dT / (rho_m - rho_w)]``."""
+        [1 + (2/pi) rho_m alpha dT / (rho_m - rho_w)]``.
+
+        Parameters
+        ----------
+        age_myr : array_like
+
+        Returns
+        -------
+        ndarray
+            N/m.
+        """
         p = self.p
         t = np.asarray(age_myr, float) * MYR_S
         ra = p.mantle_density * p.expansivity * p.temperature_contrast
@@ -277,12 +399,34 @@ class Cooling:
         """:meth:`ridge_push_n_m` by linear interpolation in a 0.25 Myr table (0-300 Myr).
 
         For large age grids; the interpolation error is below 1e-4 of the value (tested).
+
+        Parameters
+        ----------
+        age_myr : array_like
+            0 to 300 Myr.
+
+        Returns
+        -------
+        ndarray
+            N/m.
         """
         ages, F, _ = self._table
         return np.interp(age_myr, ages, F)
 
     def slab_pull_lookup(self, age_myr, depth_km=660.0) -> np.ndarray:
-        """:meth:`slab_pull_n_m` by interpolation in the same table."""
+        """:meth:`slab_pull_n_m` by interpolation in the same table.
+
+        Parameters
+        ----------
+        age_myr : array_like
+            0 to 300 Myr.
+        depth_km : float or array_like
+
+        Returns
+        -------
+        ndarray
+            N/m.
+        """
         ages, _, M = self._table
         return self.p.gravity * np.asarray(depth_km) * 1e3 * np.interp(age_myr, ages, M)
 

@@ -55,7 +55,17 @@ def _axes(title=None):
 
 
 def plate_colours(world) -> list:
-    """A colour per plate such that plates sharing a boundary differ (greedy colouring)."""
+    """A colour per plate such that plates sharing a boundary differ (greedy colouring).
+
+    Parameters
+    ----------
+    world : World
+
+    Returns
+    -------
+    list of str
+        A colour per plate, in plate order.
+    """
     n = len(world.plates)
     nbr = [set() for _ in range(n)]
     for b in world.boundaries:
@@ -76,7 +86,16 @@ def _raster(world, step=0.5):
 
 
 def draw_plates(ax, world, continents=None, labels=True):
-    """Fill plates, outline continents, draw boundaries by kind, label plates."""
+    """Fill plates, outline continents, draw boundaries by kind, label plates.
+
+    Parameters
+    ----------
+    ax : cartopy GeoAxes
+    world : World
+    continents : Continents, optional
+    labels : bool
+        Write plate names at their centroids.
+    """
     import cartopy.crs as ccrs
     from matplotlib.colors import ListedColormap
     lon, lat, idx = _raster(world)
@@ -109,6 +128,14 @@ def _line_lonlat(xyz, step_rad=np.radians(1.0)):
 
 
 def draw_boundaries(ax, world, teeth_spacing_km=700.0):
+    """Draw boundaries by kind, with teeth on the overriding side of subduction zones.
+
+    Parameters
+    ----------
+    ax : cartopy GeoAxes
+    world : World
+    teeth_spacing_km : float
+    """
     import cartopy.crs as ccrs
     seen = set()
     for b in world.boundaries:
@@ -157,7 +184,20 @@ def _save(fig, path):
 
 # ----------------------------------------------------------------------------------------
 def plates_map(world, path, continents=None):
-    """Plates, continents and boundaries by kind."""
+    """Plates, continents and boundaries by kind.
+
+    Parameters
+    ----------
+    world : World
+    path : str or Path
+        .png, .svg or .pdf.
+    continents : Continents, optional
+
+    Returns
+    -------
+    Path
+        The file written.
+    """
     fig, ax = _axes(f"{world.name}: plates and boundaries")
     draw_plates(ax, world, continents)
     _legend(ax)
@@ -173,7 +213,21 @@ def _sample_points(n=400):
 
 
 def velocity_map(world, path, omega_obs, omega_pred=None, continents=None):
-    """Velocity arrows of observed (black) and predicted (orange) motions."""
+    """Velocity arrows of observed (black) and predicted (orange) motions.
+
+    Parameters
+    ----------
+    world : World
+    path : str or Path
+    omega_obs : ndarray, shape (P, 3)
+        rad/s.
+    omega_pred : ndarray, shape (P, 3), optional
+    continents : Continents, optional
+
+    Returns
+    -------
+    Path
+    """
     import cartopy.crs as ccrs
 
     fig, ax = _axes(f"{world.name}: plate velocities (mm/yr)")
@@ -209,7 +263,18 @@ def _ellipse_lonlat(lat, lon, major_deg, minor_deg, azimuth_deg, n=72):
 
 
 def poles_map(world, path, fit):
-    """Observed and predicted Euler poles with the predicted poles' 95 % ellipses."""
+    """Observed and predicted Euler poles with the predicted poles' 95 % ellipses.
+
+    Parameters
+    ----------
+    world : World
+    path : str or Path
+    fit : FitResult
+
+    Returns
+    -------
+    Path
+    """
     import cartopy.crs as ccrs
     fig, ax = _axes(f"{world.name}: Euler poles, observed (black) and predicted (orange)")
     draw_plates(ax, world, labels=False)
@@ -231,7 +296,19 @@ def poles_map(world, path, fit):
 
 
 def misfit_map(world, path, omega_obs, omega_pred):
-    """Magnitude of the predicted minus observed velocity (mm/yr)."""
+    """Magnitude of the predicted minus observed velocity (mm/yr).
+
+    Parameters
+    ----------
+    world : World
+    path : str or Path
+    omega_obs, omega_pred : ndarray, shape (P, 3)
+        rad/s.
+
+    Returns
+    -------
+    Path
+    """
     import cartopy.crs as ccrs
 
     fig, ax = _axes(f"{world.name}: velocity misfit |v_pred - v_obs| (mm/yr)")
@@ -249,7 +326,17 @@ def misfit_map(world, path, omega_obs, omega_pred):
 
 
 def budget_chart(path, fit):
-    """Per plate, each term's share of the driving torque (stacked bars)."""
+    """Per plate, each term's share of the driving torque (stacked bars).
+
+    Parameters
+    ----------
+    path : str or Path
+    fit : FitResult
+
+    Returns
+    -------
+    Path
+    """
     plt = _plt()
     plates = [p["plate"] for p in fit.plates]
     labels = list(fit.coefficients)
@@ -272,7 +359,22 @@ def budget_chart(path, fit):
 
 
 def torque_chart(path, world, terms, coefficients, omega):
-    """Per plate, the magnitude of each term's torque at the given coefficients (log)."""
+    """Per plate, the magnitude of each term's torque at the given coefficients (log).
+
+    Parameters
+    ----------
+    path : str or Path
+    world : World
+    terms : list of ForceTerm
+    coefficients : sequence of float
+        One per term.
+    omega : ndarray, shape (P, 3)
+        rad/s, for the velocity-dependent terms.
+
+    Returns
+    -------
+    Path
+    """
     plt = _plt()
     P = len(world.plates)
     fig, ax = plt.subplots(figsize=(max(8, 0.6 * P), 4.5))
@@ -335,7 +437,18 @@ class MapInputs:
 
 @dataclass(frozen=True)
 class MapKind:
-    """One kind of figure: what it shows, which inputs it needs and allows, how to draw."""
+    """One kind of figure: what it shows, which inputs it needs and allows, how to draw.
+
+    Attributes
+    ----------
+    shows : str
+        What the figure shows (for --help).
+    needs, allows : tuple of str
+        Inputs among ``motions``, ``predicted``, ``fit``, ``hypothesis`` that the kind
+        needs, and that it can use.
+    draw : callable
+        ``draw(inputs: MapInputs, path) -> path``.
+    """
 
     shows: str
     needs: tuple

@@ -67,6 +67,15 @@ def xyz_to_lonlat(xyz) -> tuple[np.ndarray, np.ndarray]:
     """Longitude in [-180, 180] and latitude in [-90, 90], degrees, of vectors ``(..., 3)``.
 
     The vectors need not be unit length.
+
+    Parameters
+    ----------
+    xyz : array_like, shape (..., 3)
+
+    Returns
+    -------
+    lon, lat : ndarray, shape (...)
+        Degrees.
     """
     xyz = np.asarray(xyz, dtype=float)
     x, y, z = xyz[..., 0], xyz[..., 1], xyz[..., 2]
@@ -76,13 +85,31 @@ def xyz_to_lonlat(xyz) -> tuple[np.ndarray, np.ndarray]:
 
 
 def normalize(v) -> np.ndarray:
-    """``v / |v|`` along the last axis."""
+    """``v / |v|`` along the last axis.
+
+    Parameters
+    ----------
+    v : array_like, shape (..., 3)
+
+    Returns
+    -------
+    ndarray, shape (..., 3)
+    """
     v = np.asarray(v, dtype=float)
     return v / np.linalg.norm(v, axis=-1, keepdims=True)
 
 
 def cross(a, b) -> np.ndarray:
-    """Row-wise cross product of ``(N, 3)`` arrays (faster than ``np.cross`` for long rows)."""
+    """Row-wise cross product of ``(N, 3)`` arrays (faster than ``np.cross`` for long rows).
+
+    Parameters
+    ----------
+    a, b : ndarray, shape (N, 3)
+
+    Returns
+    -------
+    ndarray, shape (N, 3)
+    """
     a = np.asarray(a, dtype=float)
     b = np.asarray(b, dtype=float)
     if a.ndim != 2 or b.ndim != 2 or a.shape != b.shape:
@@ -93,12 +120,32 @@ def cross(a, b) -> np.ndarray:
 
 
 def dot(a, b) -> np.ndarray:
-    """Row-wise dot product of ``(..., 3)`` arrays."""
+    """Row-wise dot product of ``(..., 3)`` arrays.
+
+    Parameters
+    ----------
+    a, b : array_like, shape (..., 3)
+
+    Returns
+    -------
+    ndarray, shape (...)
+    """
     return np.einsum("...i,...i->...", a, b)
 
 
 def angle_between(a, b) -> np.ndarray:
-    """Angle in radians between unit vectors, accurate at 0 and pi."""
+    """Angle in radians between unit vectors, accurate at 0 and pi.
+
+    Parameters
+    ----------
+    a, b : array_like, shape (..., 3)
+        Unit vectors.
+
+    Returns
+    -------
+    ndarray, shape (...)
+        Radians, from ``atan2(|a x b|, a . b)``.
+    """
     return np.arctan2(np.linalg.norm(np.cross(a, b), axis=-1), dot(a, b))
 
 
@@ -167,6 +214,11 @@ def arc_pole(a, b) -> tuple[np.ndarray, np.ndarray]:
     tangent vector pointing to the left of the direction of travel. Zero-length arcs get
     ``n = 0`` and ``theta = 0``, so they add nothing to any integral.
 
+    Parameters
+    ----------
+    a, b : array_like, shape (..., 3)
+        Unit vectors: the start and end of each arc.
+
     Returns
     -------
     n : ndarray, shape (..., 3)
@@ -181,7 +233,17 @@ def arc_pole(a, b) -> tuple[np.ndarray, np.ndarray]:
 
 
 def arc_first_moment(a, b) -> np.ndarray:
-    """``int r ds`` along the arcs ``a -> b`` on the unit sphere: ``tan(theta/2) (a + b)``."""
+    """``int r ds`` along the arcs ``a -> b`` on the unit sphere: ``tan(theta/2) (a + b)``.
+
+    Parameters
+    ----------
+    a, b : array_like, shape (..., 3)
+        Unit vectors: the start and end of each arc.
+
+    Returns
+    -------
+    ndarray, shape (..., 3)
+    """
     s = np.linalg.norm(np.cross(a, b), axis=-1)
     return (s / (1.0 + dot(a, b)))[..., None] * (np.asarray(a) + np.asarray(b))
 
@@ -192,6 +254,15 @@ def arc_second_moment(a, b) -> np.ndarray:
     With ``r(t) = a cos t + u sin t`` and ``u = n x a``, the integral over ``0 <= t <= theta``
     is ``a a^T (theta/2 + sin 2theta/4) + u u^T (theta/2 - sin 2theta/4)
     + (a u^T + u a^T) sin^2(theta)/2``.
+
+    Parameters
+    ----------
+    a, b : array_like, shape (..., 3)
+        Unit vectors: the start and end of each arc.
+
+    Returns
+    -------
+    ndarray, shape (..., 3, 3)
     """
     n, theta = arc_pole(a, b)
     u = np.cross(n, a)
@@ -211,6 +282,18 @@ def slerp_points(a, b, fractions) -> np.ndarray:
 
     ``a``, ``b`` and ``fractions`` broadcast against each other (``a``, ``b`` with a trailing
     axis of 3).
+
+    Parameters
+    ----------
+    a, b : array_like, shape (..., 3)
+        Unit vectors: the arcs' ends.
+    fractions : array_like, shape (...)
+        0 at ``a``, 1 at ``b``.
+
+    Returns
+    -------
+    ndarray, shape (..., 3)
+        Unit vectors.
     """
     n, theta = arc_pole(a, b)
     u = np.cross(n, a)
@@ -220,6 +303,13 @@ def slerp_points(a, b, fractions) -> np.ndarray:
 
 def densify_arcs(a, b, max_angle: float):
     """Split arcs ``a -> b`` ``(E, 3)`` into pieces no longer than ``max_angle`` radians.
+
+    Parameters
+    ----------
+    a, b : ndarray, shape (E, 3)
+        Unit vectors.
+    max_angle : float
+        Longest piece, radians.
 
     Returns
     -------
@@ -251,6 +341,16 @@ def arc_lat_range(a, b) -> tuple[np.ndarray, np.ndarray]:
 
     A great-circle arc can rise above both of its end points; its highest point is where the
     arc meets the meridian plane of its pole, ``e = z - (z.n) n`` (normalised).
+
+    Parameters
+    ----------
+    a, b : array_like, shape (..., 3)
+        Unit vectors: the start and end of each arc.
+
+    Returns
+    -------
+    lat_min, lat_max : ndarray, shape (...)
+        Radians.
     """
     n, _ = arc_pole(a, b)
     lat_a = np.arcsin(np.clip(a[..., 2], -1, 1))
@@ -280,6 +380,16 @@ def arc_lonlat_box(a, b):
     (``hi - lo = |dlon| < 180``, possibly outside [-180, 180]) and ``dlon`` is the signed
     change of longitude along it. Longitude is monotone along an arc that passes no pole,
     so the box is exact there; near a pole the caller must widen it.
+
+    Parameters
+    ----------
+    a, b : ndarray, shape (E, 3)
+        Unit vectors.
+
+    Returns
+    -------
+    lo, hi, dlon, lat_lo, lat_hi : ndarray, shape (E,)
+        Degrees.
     """
     lon_a, _ = xyz_to_lonlat(a)
     lon_b, _ = xyz_to_lonlat(b)
@@ -295,6 +405,15 @@ def arcs_cross(a1, b1, a2, b2) -> np.ndarray:
     circle; the two circles then meet at ``+/- x``, and the arcs cross when both contain the
     same one of the two (the one on the side of each arc's midpoint direction).
     Touching at an end point does not count. All arcs shorter than pi.
+
+    Parameters
+    ----------
+    a1, b1, a2, b2 : array_like, shape (..., 3)
+        Unit vectors: two sets of arcs, broadcast against each other.
+
+    Returns
+    -------
+    ndarray of bool, shape (...)
     """
     n1 = np.cross(a1, b1)
     n2 = np.cross(a2, b2)
@@ -309,7 +428,20 @@ def arcs_cross(a1, b1, a2, b2) -> np.ndarray:
 
 
 def point_arc_distance(p, a, b) -> np.ndarray:
-    """Angular distance (radians) from points ``p`` to the arcs ``a -> b`` (broadcasting)."""
+    """Angular distance (radians) from points ``p`` to the arcs ``a -> b`` (broadcasting).
+
+    Parameters
+    ----------
+    p : array_like, shape (..., 3)
+        Unit vectors.
+    a, b : array_like, shape (..., 3)
+        The arcs' ends.
+
+    Returns
+    -------
+    ndarray, shape (...)
+        Radians: to the nearest point of the arc, an end point included.
+    """
     n, _ = arc_pole(a, b)
     # foot of the perpendicular from p on the great circle
     f = p - dot(p, n)[..., None] * n
@@ -326,7 +458,17 @@ def point_arc_distance(p, a, b) -> np.ndarray:
 # rings and polygons
 # ----------------------------------------------------------------------------------------
 def ring_next(ring_start) -> np.ndarray:
-    """Index of the next vertex of every vertex (cyclic within each ring), shape (V,)."""
+    """Index of the next vertex of every vertex (cyclic within each ring), shape (V,).
+
+    Parameters
+    ----------
+    ring_start : array_like of int, shape (R + 1,)
+        Offsets of the rings in the concatenated vertices.
+
+    Returns
+    -------
+    ndarray of int, shape (V,)
+    """
     ring_start = np.asarray(ring_start)
     nxt = np.arange(1, ring_start[-1] + 1)
     nxt[ring_start[1:] - 1] = ring_start[:-1]
@@ -334,7 +476,17 @@ def ring_next(ring_start) -> np.ndarray:
 
 
 def ring_index(ring_start) -> np.ndarray:
-    """Ring number of every vertex, shape (V,)."""
+    """Ring number of every vertex, shape (V,).
+
+    Parameters
+    ----------
+    ring_start : array_like of int, shape (R + 1,)
+        Offsets of the rings in the concatenated vertices.
+
+    Returns
+    -------
+    ndarray of int, shape (V,)
+    """
     ring_start = np.asarray(ring_start)
     return np.repeat(np.arange(len(ring_start) - 1), np.diff(ring_start))
 
@@ -487,7 +639,18 @@ def drag_tensor(area, second) -> np.ndarray:
 
 
 def ring_perimeter(xyz, ring_start) -> np.ndarray:
-    """Length (radians on the unit sphere) of each ring, shape (R,)."""
+    """Length (radians on the unit sphere) of each ring, shape (R,).
+
+    Parameters
+    ----------
+    xyz : ndarray, shape (V, 3)
+        Vertices of all rings, concatenated (unit vectors).
+    ring_start : array_like of int, shape (R + 1,)
+
+    Returns
+    -------
+    ndarray, shape (R,)
+    """
     nxt = ring_next(ring_start)
     theta = angle_between(xyz, np.asarray(xyz)[nxt])
     return np.add.reduceat(theta, np.asarray(ring_start)[:-1])
@@ -502,6 +665,16 @@ def points_left_of_rings(points, xyz, ring_start, left_area=None) -> np.ndarray:
     is ``L - 4 pi`` exactly when ``p`` is on the left. Cost is ``points x vertices``; use
     :class:`torque.locate.PlateLocator` for many points. The test is ill-conditioned only
     for a point on the ring itself.
+
+    Parameters
+    ----------
+    points : ndarray, shape (n_points, 3)
+        Unit vectors.
+    xyz : ndarray, shape (V, 3)
+        Vertices of all rings, concatenated.
+    ring_start : array_like of int, shape (R + 1,)
+    left_area : ndarray, shape (R,), optional
+        Each ring's left area, if already known (see :func:`ring_left_area`).
 
     Returns
     -------
@@ -523,6 +696,11 @@ def points_left_of_rings(points, xyz, ring_start, left_area=None) -> np.ndarray:
 
 def polyline_moments(a, b):
     """Closed-form line integrals along arcs ``a -> b`` ``(E, 3)`` on the unit sphere.
+
+    Parameters
+    ----------
+    a, b : ndarray, shape (E, 3)
+        Unit vectors: the arcs' ends.
 
     Returns
     -------

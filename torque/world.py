@@ -27,7 +27,20 @@ BOUNDARY_KINDS = ("ridge", "subduction", "transform", "collision", "unclassified
 
 @dataclass(frozen=True)
 class Problem:
-    """One thing wrong (``severity="error"``) or doubtful (``"warning"``) in a world."""
+    """One thing wrong (``severity="error"``) or doubtful (``"warning"``) in a world.
+
+    Attributes
+    ----------
+    severity : {"error", "warning"}
+    message : str
+    file : str, optional
+        The file it is in.
+    feature : int, optional
+        The feature's index in the file.
+    plate : str, optional
+    lon, lat : float, optional
+        Roughly where, degrees.
+    """
 
     severity: str
     message: str
@@ -38,6 +51,8 @@ class Problem:
     lat: float | None = None
 
     def as_dict(self) -> dict:
+        """The fields that are set, as a dict (for JSON).
+        """
         return {k: v for k, v in self.__dict__.items() if v is not None}
 
     def __str__(self) -> str:
@@ -56,7 +71,16 @@ class Problem:
 
 @dataclass(frozen=True)
 class Plate:
-    """A plate: its name, position in the world and the feature it came from."""
+    """A plate: its name, position in the world and the feature it came from.
+
+    Attributes
+    ----------
+    name : str
+    index : int
+        Its position in ``World.plates`` (and in every (P, ...) array).
+    feature : int
+        The feature of the plates file it came from.
+    """
 
     name: str
     index: int
@@ -71,6 +95,21 @@ class Boundary:
     plates on either side as the line is walked, seen from outside the sphere.
     ``properties`` keeps the feature's other numeric properties (per-boundary overrides
     such as ``slab_depth_km``).
+
+    Attributes
+    ----------
+    kind : str
+        ``ridge``, ``subduction``, ``transform``, ``collision`` or ``unclassified``.
+    left, right : str
+        Plate names.
+    xyz : ndarray, shape (K, 3)
+        Unit vectors of the polyline's vertices.
+    feature : int, optional
+        The feature of the boundaries file it came from.
+    subducting : str, optional
+        The sinking plate of a subduction zone.
+    properties : dict
+        Numeric per-line overrides.
     """
 
     kind: str
@@ -115,7 +154,18 @@ class BoundarySet:
 
     @classmethod
     def from_boundaries(cls, boundaries, plate_index: dict) -> "BoundarySet":
-        """Columns of a sequence of :class:`Boundary` (``plate_index``: name -> index)."""
+        """Columns of a sequence of :class:`Boundary` (``plate_index``: name -> index).
+
+        Parameters
+        ----------
+        boundaries : sequence of Boundary
+        plate_index : dict
+            ``{name: index}``; a name not in it gets index -1.
+
+        Returns
+        -------
+        BoundarySet
+        """
         if not boundaries:
             return cls(np.zeros((0, 3)), np.zeros((0, 3)), np.zeros(0, np.int64),
                        np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0, str))
@@ -128,7 +178,17 @@ class BoundarySet:
                    np.array([x.kind for x in boundaries]))
 
     def of_kind(self, kind: str) -> "BoundarySet":
-        """The arcs of the lines of one kind (``line`` still indexes all the lines)."""
+        """The arcs of the lines of one kind (``line`` still indexes all the lines).
+
+        Parameters
+        ----------
+        kind : str
+            A boundary kind.
+
+        Returns
+        -------
+        BoundarySet
+        """
         keep = self.kind[self.line] == kind
         return BoundarySet(self.a[keep], self.b[keep], self.line[keep], self.left,
                            self.right, self.kind)
@@ -204,6 +264,22 @@ class World:
 
     Use :func:`load_world` to read one from a world file, or :func:`world_from_rings` to
     build one in code.
+
+    Attributes
+    ----------
+    plates : tuple of Plate
+    geometry : PlateGeometry
+        Every ring of every plate, plate on the left.
+    boundaries : tuple of Boundary
+    radius_m : float
+    boundaries_derived : bool
+        Whether the boundaries are the plates' shared edges (no boundaries file).
+    paths : dict
+        Resolved paths of the world file (``world``) and of its data files, by key.
+    problems : tuple of Problem
+        What reading found wrong or doubtful.
+    name : str
+    winding : {"auto", "strict"}
     """
 
     plates: tuple
@@ -235,6 +311,16 @@ class World:
         return [p.name for p in self.plates]
 
     def plate(self, name: str) -> Plate:
+        """The plate of a name; InputError listing the plates if there is none.
+
+        Parameters
+        ----------
+        name : str
+
+        Returns
+        -------
+        Plate
+        """
         try:
             return self.plates[self.plate_index[name]]
         except KeyError:
@@ -273,11 +359,31 @@ class World:
         return self.drag_tensor * self.radius_m ** 2
 
     def locate(self, lon_deg, lat_deg) -> np.ndarray:
-        """Plate index holding each point (lon/lat in degrees)."""
+        """Plate index holding each point (lon/lat in degrees).
+
+        Parameters
+        ----------
+        lon_deg, lat_deg : array_like, shape (N,)
+
+        Returns
+        -------
+        ndarray of int, shape (N,)
+            Index into ``plates`` (-1 where no plate holds the point).
+        """
         return self.geometry.locator.locate_lonlat(lon_deg, lat_deg)
 
     def locate_xyz(self, xyz) -> np.ndarray:
-        """Plate index holding each unit vector ``(N, 3)``."""
+        """Plate index holding each unit vector ``(N, 3)``.
+
+        Parameters
+        ----------
+        xyz : array_like, shape (N, 3)
+            Unit vectors.
+
+        Returns
+        -------
+        ndarray of int, shape (N,)
+        """
         return self.geometry.locator.locate(xyz)
 
     # -- validity -------------------------------------------------------------------------
@@ -343,7 +449,16 @@ def geometry_from_rings(rings, ring_plate, ring_is_hole, ring_polygon, n_plates:
 
 
 def as_written(geometry: PlateGeometry) -> PlateGeometry:
-    """The same rings walked as the file wrote them (undoing ``winding = "auto"``)."""
+    """The same rings walked as the file wrote them (undoing ``winding = "auto"``).
+
+    Parameters
+    ----------
+    geometry : PlateGeometry
+
+    Returns
+    -------
+    PlateGeometry
+    """
     rev = geometry.ring_reversed
     if rev is None or not rev.any():
         return geometry
@@ -365,6 +480,11 @@ def derive_boundaries(geometry: PlateGeometry, plate_names) -> tuple[list, list]
     Returns ``(boundaries, problems)``; edges that no other plate shares are reported as
     warnings (a gap, an overlap, or a vertex of one plate in the middle of another plate's
     edge: give both plates the same vertices).
+
+    Parameters
+    ----------
+    geometry : PlateGeometry
+    plate_names : sequence of str
     """
     xyz, rs = geometry.xyz, geometry.ring_start
     q = np.round(xyz * 1e11).astype(np.int64)      # ~1e-9 degrees

@@ -72,7 +72,16 @@ class Context:
         return grid
 
     def drag_tensor(self, region: str) -> np.ndarray:
-        """``int (I - r r^T) dA`` over the region of each plate (unit sphere), (P, 3, 3)."""
+        """``int (I - r r^T) dA`` over the region of each plate (unit sphere), (P, 3, 3).
+
+        Parameters
+        ----------
+        region : {"all", "ocean", "continent"}
+
+        Returns
+        -------
+        ndarray, shape (P, 3, 3)
+        """
         return self.data.drag_tensor(region)
 
     @property
@@ -101,25 +110,72 @@ class Context:
 
     # -- grids ----------------------------------------------------------------------------
     def node_xyz(self, grid):
-        """Unit vectors of the nodes of a regular grid, shape (nlat, nlon, 3)."""
+        """Unit vectors of the nodes of a regular grid, shape (nlat, nlon, 3).
+
+        Parameters
+        ----------
+        grid : RegularGrid
+
+        Returns
+        -------
+        ndarray, shape (nlat, nlon, 3)
+        """
         LON, LAT = np.meshgrid(grid.lon, grid.lat)
         return sphere.lonlat_to_xyz(LON, LAT)
 
     def node_plates(self, grid) -> np.ndarray:
-        """Plate index of every grid node, shape (nlat, nlon)."""
+        """Plate index of every grid node, shape (nlat, nlon).
+
+        Parameters
+        ----------
+        grid : RegularGrid
+
+        Returns
+        -------
+        ndarray of int, shape (nlat, nlon)
+        """
         return self.data.node_plates(grid)
 
     def node_continental(self, grid) -> np.ndarray:
-        """Whether each grid node lies on a continent (all False without continents)."""
+        """Whether each grid node lies on a continent (all False without continents).
+
+        Parameters
+        ----------
+        grid : RegularGrid
+
+        Returns
+        -------
+        ndarray of bool, shape (nlat, nlon)
+        """
         return self.data.node_continental(grid)
 
     # -- boundaries -----------------------------------------------------------------------
     def lines(self, kind: str) -> list:
-        """Indices of the world's boundary lines of a kind."""
+        """Indices of the world's boundary lines of a kind.
+
+        Parameters
+        ----------
+        kind : str
+
+        Returns
+        -------
+        list of int
+        """
         return [k for k, b in enumerate(self.world.boundaries) if b.kind == kind]
 
     def pieces(self, kind: str, spacing_km: float | None = None) -> Pieces:
-        """Pieces of the boundaries of a kind, no longer than ``spacing_km``."""
+        """Pieces of the boundaries of a kind, no longer than ``spacing_km``.
+
+        Parameters
+        ----------
+        kind : str
+        spacing_km : float, optional
+            Default :attr:`PIECE_KM`.
+
+        Returns
+        -------
+        Pieces
+        """
         arcs = self.world.boundary_set.of_kind(kind)
         step = (spacing_km or self.PIECE_KM) * 1e3 / self.R
         pa, pb, piece = sphere.densify_arcs(arcs.a, arcs.b, step)
@@ -128,7 +184,15 @@ class Context:
                       sphere.slerp_points(pa, pb, 0.5))
 
     def require_lines(self, kind: str, term: str):
-        """InputError unless the world has boundaries of ``kind`` (for term ``term``)."""
+        """InputError unless the world has boundaries of ``kind`` (for term ``term``).
+
+        Parameters
+        ----------
+        kind : str
+            A boundary kind.
+        term : str
+            The term's label, for the message.
+        """
         if not self.lines(kind):
             raise InputError(f"the {term!r} term needs {kind} boundaries, and the world has "
                              "none", file=self.world.paths.get("world"),
@@ -136,7 +200,16 @@ class Context:
                              "the term")
 
     def plate_ids(self, names) -> np.ndarray:
-        """Plate indices of plate names."""
+        """Plate indices of plate names.
+
+        Parameters
+        ----------
+        names : sequence of str
+
+        Returns
+        -------
+        ndarray of int
+        """
         idx = self.world.plate_index
         return np.array([idx[n] for n in names], dtype=np.int64)
 
@@ -145,6 +218,21 @@ class Context:
 
         The torque of a force per unit length ``f`` (constant along a piece) is
         ``R^2 int r x f ds = R^2 m x f`` on the unit sphere.
+
+        Parameters
+        ----------
+        pieces : Pieces
+        force_n_m : ndarray, shape (N,)
+            Force per metre of each piece, N/m.
+        sign : float or ndarray, shape (N,)
+            +1 along the piece's pole (into its left plate), -1 against.
+        plate : ndarray of int, shape (N,)
+            The plate each force acts on.
+
+        Returns
+        -------
+        ndarray, shape (P, 3)
+            N m.
         """
         P = self.world.geometry.n_plates
         f = (force_n_m * sign)[:, None] * pieces.n
