@@ -29,7 +29,16 @@ from .locate import PlateLocator, arc_boxes
 
 @dataclass(frozen=True, eq=False)
 class Continents:
-    """Continental regions: rings with the continent on the left (see :mod:`torque.sphere`)."""
+    """Continental regions: rings with the continent on the left (see :mod:`torque.sphere`).
+
+    Attributes
+    ----------
+    xyz : ndarray, shape (V, 3)
+    ring_start : ndarray of int, shape (R + 1,)
+    ring_is_hole : ndarray of bool, shape (R,)
+    ring_polygon : ndarray of int, shape (R,)
+    source : str
+    """
 
     xyz: np.ndarray
     ring_start: np.ndarray
@@ -56,12 +65,26 @@ class Continents:
         return PlateLocator(xyz, start, plate, is_hole, 2)
 
     def contains(self, xyz) -> np.ndarray:
-        """Whether each unit vector ``(N, 3)`` lies on a continent."""
+        """Whether each unit vector ``(N, 3)`` lies on a continent.
+
+        Parameters
+        ----------
+        xyz : array_like, shape (N, 3)
+
+        Returns
+        -------
+        ndarray of bool, shape (N,)
+        """
         return self.locator.locate(xyz) == 0
 
 
 def clip_moments(world, continents: Continents):
     """Exact area, first and second moments of the continental part of every plate.
+
+    Parameters
+    ----------
+    world : World
+    continents : Continents
 
     Returns
     -------

@@ -148,7 +148,16 @@ class WorldData:
     # -- derived once ---------------------------------------------------------------------
     def node_plates(self, grid) -> np.ndarray:
         """Plate index of every node of a regular grid, shape (nlat, nlon), located once
-        per grid."""
+        per grid.
+
+        Parameters
+        ----------
+        grid : RegularGrid
+
+        Returns
+        -------
+        ndarray of int, shape (nlat, nlon)
+        """
         key = ("plates", id(grid))
         if key not in self._node_cache:
             self._node_cache[key] = (grid, self.world.geometry.locator.locate_grid(
@@ -157,7 +166,16 @@ class WorldData:
 
     def node_continental(self, grid) -> np.ndarray:
         """Whether each node of a regular grid lies on a continent, shape (nlat, nlon)
-        (all False without continents)."""
+        (all False without continents).
+
+        Parameters
+        ----------
+        grid : RegularGrid
+
+        Returns
+        -------
+        ndarray of bool, shape (nlat, nlon)
+        """
         if self.continents is None:
             return np.zeros((len(grid.lat), len(grid.lon)), bool)
         key = ("continental", id(grid))
@@ -200,7 +218,18 @@ class WorldData:
 
     def synthesised(self, key, make):
         """``make()`` the first time for ``key``, then the same result (synthesised ages
-        depend only on the world, the motions and the grid step, not on the hypothesis)."""
+        depend only on the world, the motions and the grid step, not on the hypothesis).
+
+        Parameters
+        ----------
+        key : hashable
+        make : callable
+            ``make()`` gives the result.
+
+        Returns
+        -------
+        object
+        """
         if key not in self._synth_cache:
             self._synth_cache[key] = make()
         return self._synth_cache[key]

@@ -20,7 +20,13 @@ MAX_AGE_MYR = 300.0
 @dataclass(frozen=True, eq=False)
 class RegularGrid:
     """Nodes of a regular lon/lat grid: increasing longitudes (degrees, spanning less than
-    360) and latitudes (degrees)."""
+    360) and latitudes (degrees).
+
+    Attributes
+    ----------
+    lon, lat : ndarray
+        Node coordinates, degrees, increasing.
+    """
 
     lon: np.ndarray
     lat: np.ndarray
@@ -60,26 +66,60 @@ class RegularGrid:
 @dataclass(frozen=True, eq=False)
 class AgeGrid(RegularGrid):
     """Sea-floor ages (Myr) on a regular grid, ``age_myr`` of shape (nlat, nlon), NaN where
-    there is no oceanic lithosphere."""
+    there is no oceanic lithosphere.
+
+    Attributes
+    ----------
+    lon, lat : ndarray
+    age_myr : ndarray, shape (nlat, nlon)
+    source : str
+        Where it came from, for messages.
+    """
 
     age_myr: np.ndarray = None
     source: str = "<memory>"
 
     def sample(self, lon_deg, lat_deg) -> np.ndarray:
-        """Bilinear ages at points (degrees), NaN outside the grid or next to a NaN node."""
+        """Bilinear ages at points (degrees), NaN outside the grid or next to a NaN node.
+
+        Parameters
+        ----------
+        lon_deg, lat_deg : array_like, shape (N,)
+
+        Returns
+        -------
+        ndarray, shape (N,)
+        """
         return self._sample(self.age_myr, lon_deg, lat_deg)
 
 
 @dataclass(frozen=True, eq=False)
 class FlowGrid(RegularGrid):
-    """Horizontal mantle velocity (mm/yr) on a regular grid, each of shape (nlat, nlon)."""
+    """Horizontal mantle velocity (mm/yr) on a regular grid, each of shape (nlat, nlon).
+
+    Attributes
+    ----------
+    lon, lat : ndarray
+    ve_mm_yr, vn_mm_yr : ndarray, shape (nlat, nlon)
+        East and north velocity.
+    source : str
+    """
 
     ve_mm_yr: np.ndarray = None
     vn_mm_yr: np.ndarray = None
     source: str = "<memory>"
 
     def sample(self, lon_deg, lat_deg):
-        """Bilinear east and north velocity (mm/yr) at points."""
+        """Bilinear east and north velocity (mm/yr) at points.
+
+        Parameters
+        ----------
+        lon_deg, lat_deg : array_like, shape (N,)
+
+        Returns
+        -------
+        ve, vn : ndarray, shape (N,)
+        """
         return (self._sample(self.ve_mm_yr, lon_deg, lat_deg),
                 self._sample(self.vn_mm_yr, lon_deg, lat_deg))
 
@@ -88,6 +128,19 @@ def bilinear(glon, glat, values, lon_deg, lat_deg, global_lon: bool) -> np.ndarr
     """Bilinear interpolation on a regular grid (``values`` shape (nlat, nlon)).
 
     Longitudes wrap when the grid is global; points outside the grid give NaN.
+
+    Parameters
+    ----------
+    glon, glat : ndarray
+        Grid axes, degrees, increasing.
+    values : ndarray, shape (nlat, nlon)
+    lon_deg, lat_deg : array_like, shape (N,)
+    global_lon : bool
+        Whether longitudes wrap.
+
+    Returns
+    -------
+    ndarray, shape (N,)
     """
     lon = np.asarray(lon_deg, dtype=float)
     lat = np.asarray(lat_deg, dtype=float)

@@ -27,7 +27,21 @@ COMMON_KEYS = {
 
 @dataclass(frozen=True)
 class ForceSpec:
-    """One force entry of a hypothesis."""
+    """One force entry of a hypothesis.
+
+    Attributes
+    ----------
+    kind : str
+        A key of :data:`torque.forces.KINDS`.
+    label : str
+        The term's name in outputs.
+    coefficient : float or None
+        The fixed value, or None when free.
+    bounds : tuple of float
+        ``(low, high)`` of a free coefficient.
+    options : dict
+        The kind's own keys, defaults filled in.
+    """
 
     kind: str
     label: str
@@ -40,12 +54,34 @@ class ForceSpec:
         return self.coefficient is None
 
     def option(self, key, default=None):
+        """One of the entry's options, or ``default``.
+
+        Parameters
+        ----------
+        key : str
+        default : object, optional
+
+        Returns
+        -------
+        object
+        """
         return self.options.get(key, default)
 
 
 @dataclass(frozen=True)
 class Hypothesis:
-    """A driving-force hypothesis: physics and force entries."""
+    """A driving-force hypothesis: physics and force entries.
+
+    Attributes
+    ----------
+    name : str
+    physics : Physics
+    forces : tuple of ForceSpec
+    source : str, optional
+        The file it was read from.
+    spread : dict
+        ``{physics key: ("normal", sd) or ("uniform", (low, high))}``.
+    """
 
     name: str
     physics: Physics
@@ -67,7 +103,20 @@ def _number(v) -> bool:
 
 
 def parse_force(entry: dict, index: int, file=None) -> ForceSpec:
-    """One ``[[force]]`` table, checked against the keys of its kind."""
+    """One ``[[force]]`` table, checked against the keys of its kind.
+
+    Parameters
+    ----------
+    entry : dict
+        The table.
+    index : int
+        Its position among the entries (0-based), for messages.
+    file : str or Path, optional
+
+    Returns
+    -------
+    ForceSpec
+    """
     from .forces import KINDS
 
     where = f"[[force]] {index + 1}"
@@ -120,7 +169,21 @@ def parse_force(entry: dict, index: int, file=None) -> ForceSpec:
 
 
 def hypothesis_from_dict(cfg: dict, name: str = "hypothesis", file=None) -> Hypothesis:
-    """A hypothesis from the same structure as the TOML file, e.g. for use in notebooks."""
+    """A hypothesis from the same structure as the TOML file, e.g. for use in notebooks.
+
+    Parameters
+    ----------
+    cfg : dict
+        Keys ``name``, ``physics``, ``force`` (a list of tables), ``spread``.
+    name : str
+        The name when ``cfg`` has none.
+    file : str or Path, optional
+        Named in messages and kept as ``source``.
+
+    Returns
+    -------
+    Hypothesis
+    """
     unknown = sorted(set(cfg) - set(TOP_KEYS))
     if unknown:
         raise InputError(f"unknown key(s) {', '.join(map(repr, unknown))}", file=file,
@@ -152,7 +215,20 @@ def hypothesis_from_dict(cfg: dict, name: str = "hypothesis", file=None) -> Hypo
 
 def parse_spread(table: dict, physics, file=None) -> dict:
     """Physics parameters given as distributions: ``{key: {"normal": sd}}`` or
-    ``{key: {"uniform": [low, high]}}`` (the hypothesis file's ``[spread]`` table)."""
+    ``{key: {"uniform": [low, high]}}`` (the hypothesis file's ``[spread]`` table).
+
+    Parameters
+    ----------
+    table : dict
+    physics : Physics
+        Whose numbers may be given a spread.
+    file : str or Path, optional
+
+    Returns
+    -------
+    dict
+        ``{key: ("normal", sd)}`` or ``{key: ("uniform", (low, high))}``.
+    """
     names = {f.name for f in dataclasses.fields(physics)} - {"model"}
     out = {}
     for key, spec in table.items():
@@ -175,7 +251,16 @@ def parse_spread(table: dict, physics, file=None) -> dict:
 
 
 def slab_depth_km(hypothesis: Hypothesis) -> float:
-    """The depth (km) the hypothesis' first slab entry gives its slabs, else the default."""
+    """The depth (km) the hypothesis' first slab entry gives its slabs, else the default.
+
+    Parameters
+    ----------
+    hypothesis : Hypothesis
+
+    Returns
+    -------
+    float
+    """
     from .forces.slab import DEFAULT_DEPTH_KM
     return next((f.options.get("depth_km") for f in hypothesis.forces
                  if f.kind == "slab" and "depth_km" in f.options), DEFAULT_DEPTH_KM)

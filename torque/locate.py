@@ -248,7 +248,16 @@ class PlateLocator:
         return plate
 
     def locate_lonlat(self, lon_deg, lat_deg) -> np.ndarray:
-        """:meth:`locate` for longitudes and latitudes in degrees (any matching shapes)."""
+        """:meth:`locate` for longitudes and latitudes in degrees (any matching shapes).
+
+        Parameters
+        ----------
+        lon_deg, lat_deg : array_like, shape (N,)
+
+        Returns
+        -------
+        ndarray of int, shape (N,)
+        """
         shape = np.broadcast(np.asarray(lon_deg), np.asarray(lat_deg)).shape
         return self.locate(sphere.lonlat_to_xyz(lon_deg, lat_deg).reshape(-1, 3)).reshape(shape)
 
@@ -351,6 +360,16 @@ def arc_boxes(a, b):
 
     Use in a frame that keeps arcs off the poles (``PlateLocator.frame``). Returns the boxes
     and the arc each belongs to.
+
+    Parameters
+    ----------
+    a, b : ndarray, shape (E, 3)
+        Unit vectors, in the frame of the boxes.
+
+    Returns
+    -------
+    boxes : ndarray of shapely Polygon
+    owner : ndarray of int
     """
     lo, hi, _, la, lb = sphere.arc_lonlat_box(a, b)
     owner = np.arange(len(a))

@@ -47,7 +47,18 @@ class BoundarySamples:
 
 
 def sample_boundaries(boundaries, spacing_rad: float) -> BoundarySamples:
-    """Split every boundary into pieces of at most ``spacing_rad`` and sample their midpoints."""
+    """Split every boundary into pieces of at most ``spacing_rad`` and sample their midpoints.
+
+    Parameters
+    ----------
+    boundaries : sequence of Boundary
+    spacing_rad : float
+        Longest piece, radians.
+
+    Returns
+    -------
+    BoundarySamples
+    """
     arcs = BoundarySet.from_boundaries(boundaries, {})
     pa, pb, piece = sphere.densify_arcs(arcs.a, arcs.b, spacing_rad)
     n, theta = sphere.arc_pole(pa, pb)
@@ -62,6 +73,11 @@ class BoundaryMotion:
     ``opening_mm_yr`` is the boundary-normal component (positive apart), ``along_mm_yr`` the
     along-strike one, ``obliquity_deg`` the angle between the relative velocity and the
     opening direction (0 pure opening, 90 pure strike-slip, 180 pure closing).
+
+    Attributes
+    ----------
+    samples : BoundarySamples
+    opening_mm_yr, along_mm_yr : ndarray, shape (N,)
     """
 
     samples: BoundarySamples
@@ -78,7 +94,20 @@ class BoundaryMotion:
 
 
 def boundary_motion(world, omega, samples: BoundarySamples) -> BoundaryMotion:
-    """Relative motion at boundary samples for plate angular velocities ``omega`` (P, 3)."""
+    """Relative motion at boundary samples for plate angular velocities ``omega`` (P, 3).
+
+    Parameters
+    ----------
+    world : World
+    omega : ndarray, shape (P, 3)
+        rad/s.
+    samples : BoundarySamples
+        Of ``world.boundaries``.
+
+    Returns
+    -------
+    BoundaryMotion
+    """
     bs = world.boundary_set
     left, right = bs.left[samples.line], bs.right[samples.line]
     v = np.cross(omega[right] - omega[left], samples.xyz) * world.radius_m * M_S_TO_MM_YR
@@ -95,6 +124,12 @@ def classify(world, motion: BoundaryMotion, ages=None):
     opens and a subduction zone if it closes. The sinking plate of a subduction zone is the
     one with the older sea floor ``AGE_PROBE_KM`` inside it (a side with no age, i.e.
     continental, does not sink); without ages on either side it is left unresolved (None).
+
+    Parameters
+    ----------
+    world : World
+    motion : BoundaryMotion
+    ages : AgeGrid, optional
 
     Returns
     -------
@@ -136,7 +171,19 @@ def classify(world, motion: BoundaryMotion, ages=None):
 
 
 def with_kinds(world, kinds, sinking, only_unclassified: bool = True) -> list:
-    """Copies of the world's boundaries with new kinds (by default only where unclassified)."""
+    """Copies of the world's boundaries with new kinds (by default only where unclassified).
+
+    Parameters
+    ----------
+    world : World
+    kinds : sequence of str
+    sinking : sequence of str or None
+    only_unclassified : bool
+
+    Returns
+    -------
+    list of Boundary
+    """
     out = []
     for b, k, s in zip(world.boundaries, kinds, sinking):
         if only_unclassified and b.kind != "unclassified":

@@ -53,7 +53,19 @@ class Row:
 
 
 def cross_validation(system: System, omega_obs, weighting="velocity") -> float:
-    """Leave-one-plate-out RMS velocity misfit (mm/yr), area-weighted over the plates."""
+    """Leave-one-plate-out RMS velocity misfit (mm/yr), area-weighted over the plates.
+
+    Parameters
+    ----------
+    system : System
+    omega_obs : array_like, shape (P, 3)
+    weighting : {"velocity", "area", "none"}
+
+    Returns
+    -------
+    float
+        mm/yr; NaN if a refit fails.
+    """
     P = system.n_plates
     sq, area = 0.0, 0.0
     for p in range(P):

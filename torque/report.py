@@ -70,6 +70,15 @@ def _tables(run: dict) -> list:
 
 
 def write_markdown(path, run: dict) -> None:
+    """The report's summary as Markdown (tables, figure links), atomically.
+
+    Parameters
+    ----------
+    path : str or Path
+    run : dict
+        ``world``, ``summary``, ``truth``, ``rank`` rows, ``fits`` (FitResult by
+        hypothesis), ``figures`` (title, relative path).
+    """
     lines = [f"# torque report: {run['world']}", "", f"> **Caution.** {CAUTION}", ""]
     lines += [f"- {s}" for s in run.get("summary", [])] + [""]
     for title, header, rows, note in _tables(run):
@@ -86,7 +95,16 @@ def write_markdown(path, run: dict) -> None:
 
 
 def write_html(path, run: dict, base: Path) -> None:
-    """One file: the figures are embedded as data URIs, nothing else is linked."""
+    """One file: the figures are embedded as data URIs, nothing else is linked.
+
+    Parameters
+    ----------
+    path : str or Path
+    run : dict
+        As for :func:`write_markdown`.
+    base : Path
+        The folder the figures' paths are relative to.
+    """
     e = html.escape
     parts = ["<!DOCTYPE html>", "<html lang=\"en\"><head><meta charset=\"utf-8\">",
              f"<title>torque report: {e(run['world'])}</title>",

@@ -41,7 +41,24 @@ def _progress(n, desc):
 
 def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
               weighting: str = "velocity") -> dict:
-    """Refit on ``n`` sets of plates drawn with replacement."""
+    """Refit on ``n`` sets of plates drawn with replacement.
+
+    Parameters
+    ----------
+    system : System
+    omega_obs : ndarray, shape (P, 3)
+        Observed Euler vectors, rad/s.
+    n : int
+        Number of resamples.
+    seed : int
+    weighting : {"velocity", "area", "none"}
+
+    Returns
+    -------
+    dict
+        ``members``, ``failed``, ``method``, ``seed`` and, per free coefficient, ``mean``,
+        ``std``, ``p2_5``, ``median``, ``p97_5``.
+    """
     rng = np.random.default_rng(seed)
     P = system.n_plates
     out, failed = [], 0
@@ -65,6 +82,23 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
     Vectorised: the torque columns are linear in the motions, so every member's least
     squares problem is formed at once and solved by batched normal equations; members whose
     solution breaks a bound are refitted one by one with bounds.
+
+    Parameters
+    ----------
+    system : System
+    omega_obs : ndarray, shape (P, 3)
+        Observed Euler vectors, rad/s.
+    cov : ndarray, shape (P, 3, 3)
+        Covariance of each observed Euler vector, (rad/s)^2.
+    n : int
+    seed : int
+    weighting : {"velocity", "area", "none"}
+
+    Returns
+    -------
+    dict
+        ``members``, ``failed``, ``method``, ``seed`` and, per free coefficient, ``mean``,
+        ``std``, ``p2_5``, ``median``, ``p97_5``.
     """
     if cov is None:
         raise InputError("a Monte Carlo over motions needs their covariance: add the cov_xx "
@@ -103,6 +137,25 @@ def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
 
     ``build_system(physics) -> System`` rebuilds the terms for one draw. Draws that are not
     physical (say, a negative thickness) are redrawn up to 10 times, then counted failed.
+
+    Parameters
+    ----------
+    build_system : callable
+        ``build_system(physics) -> System``.
+    physics : Physics
+        The central values.
+    spread : dict
+        From :func:`torque.hypothesis.parse_spread`.
+    omega_obs : ndarray, shape (P, 3)
+    n : int
+    seed : int
+    weighting : {"velocity", "area", "none"}
+
+    Returns
+    -------
+    dict
+        ``members``, ``failed``, ``method``, ``seed`` and, per free coefficient, ``mean``,
+        ``std``, ``p2_5``, ``median``, ``p97_5``.
     """
     if not spread:
         raise InputError("a Monte Carlo over physics needs a [spread] table in the hypothesis")

@@ -26,7 +26,15 @@ _OFFSET_SEARCH_KM = 200.0   # boundary offsets up to this are measured, beyond i
 
 @dataclass(frozen=True)
 class CheckReport:
-    """What ``torque check`` reports."""
+    """What ``torque check`` reports.
+
+    Attributes
+    ----------
+    world : World
+    plates : list of dict
+        Per plate: exact area, perimeter, centroid, vertices, neighbours.
+    problems : list of Problem
+    """
 
     world: World
     plates: list
@@ -37,6 +45,8 @@ class CheckReport:
         return not any(p.severity == "error" for p in self.problems)
 
     def as_dict(self) -> dict:
+        """The report as ``torque check --json`` prints it (see the contract).
+        """
         w = self.world
         kinds = {}
         for b in w.boundaries:
@@ -103,6 +113,14 @@ def require_valid(world: World) -> World:
     Usable means: reading found no error, and the plates tile the sphere (exact area sum
     and grid coverage, see :func:`tiling_problems`). ``torque check`` runs these and the
     slower checks, and lists every problem.
+
+    Parameters
+    ----------
+    world : World
+
+    Returns
+    -------
+    World
     """
     errs = world.errors or [p for p in tiling_problems(world) if p.severity == "error"]
     if errs:
@@ -115,7 +133,16 @@ def require_valid(world: World) -> World:
 
 
 def tiling_problems(world: World) -> list:
-    """Errors where the plates do not tile the sphere: area sum, gaps and overlaps."""
+    """Errors where the plates do not tile the sphere: area sum, gaps and overlaps.
+
+    Parameters
+    ----------
+    world : World
+
+    Returns
+    -------
+    list of Problem
+    """
     g = world.geometry
     probs = []
     total = g.moments[0].sum()
@@ -181,6 +208,12 @@ def ring_crossings(geometry, frame=None):
     frame that keeps every arc away from the poles); each candidate is then tested exactly
     with :func:`torque.sphere.arcs_cross`.
 
+    Parameters
+    ----------
+    geometry : PlateGeometry
+    frame : scipy Rotation, optional
+        The rotated frame (default: the locator's).
+
     Returns
     -------
     pairs : ndarray of int, shape (K, 2)
@@ -234,6 +267,10 @@ def boundary_offsets(world: World):
     midpoints; distances to them are exact point-to-arc distances. A tight search settles
     the vertices that lie on their plates' edges; only the others are searched again, far
     enough to measure offsets up to ``_OFFSET_SEARCH_KM``.
+
+    Parameters
+    ----------
+    world : World
 
     Returns
     -------

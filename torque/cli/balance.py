@@ -25,7 +25,12 @@ WEIGHTING = dict(choices=("velocity", "area", "none"), default="velocity",
 
 
 def add_parser(sub) -> None:
-    """Add the ``fit``, ``predict`` and ``rank`` commands to the subparsers ``sub``."""
+    """Add the ``fit``, ``predict`` and ``rank`` commands to the subparsers ``sub``.
+
+    Parameters
+    ----------
+    sub : argparse subparsers
+    """
     p = sub.add_parser("fit", help="estimate the free coefficients from observed motions",
                        description="Fit the free coefficients of a hypothesis to observed "
                        "Euler vectors (mantle at rest, e.g. no-net-rotation), in torque space "
@@ -95,7 +100,18 @@ class Problem:
 
     @classmethod
     def build(cls, data, hypothesis, motions=None) -> "Problem":
-        """Build every term of ``hypothesis`` on the inputs ``data``."""
+        """Build every term of ``hypothesis`` on the inputs ``data``.
+
+        Parameters
+        ----------
+        data : Inputs
+        hypothesis : Hypothesis
+        motions : Motions, optional
+
+        Returns
+        -------
+        Problem
+        """
         omega = motions.for_world(data.world) if motions is not None else None
         terms = build_terms(data.context(hypothesis, omega))
         return cls(data, hypothesis, motions, omega, terms,
@@ -103,7 +119,16 @@ class Problem:
 
     def rebuild(self, physics):
         """The balance for other physics (a Monte Carlo draw); the world's data, located
-        and clipped once, are shared."""
+        and clipped once, are shared.
+
+        Parameters
+        ----------
+        physics : Physics
+
+        Returns
+        -------
+        System
+        """
         hyp = dataclasses.replace(self.hypothesis, physics=physics)
         return assemble(self.inputs.world, hyp,
                         build_terms(self.inputs.context(hyp, self.omega)))
@@ -120,7 +145,18 @@ def _problem(args, motions_path=None) -> Problem:
 
 
 def run_fit(args) -> int:
-    """Run ``torque fit``."""
+    """Run ``torque fit``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+
+    Returns
+    -------
+    int
+        The exit status (0).
+    """
     output_suffix(args.output, (".json",))
     pb = _problem(args, args.motions)
     if args.monte_carlo and pb.motions.cov is None:
@@ -169,7 +205,18 @@ def _require_sample_memory(system, args):
 
 
 def run_predict(args) -> int:
-    """Run ``torque predict``."""
+    """Run ``torque predict``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+
+    Returns
+    -------
+    int
+        The exit status (0).
+    """
     output_suffix(args.output, (".csv",))
     pb = _problem(args, args.motions)
     s = pb.system
@@ -196,7 +243,18 @@ def run_predict(args) -> int:
 
 
 def run_rank(args) -> int:
-    """Run ``torque rank``: every hypothesis on one set of inputs, read once."""
+    """Run ``torque rank``: every hypothesis on one set of inputs, read once.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+
+    Returns
+    -------
+    int
+        The exit status (0).
+    """
     if args.output:
         output_suffix(args.output, (".csv",))
     if args.json:

@@ -19,12 +19,34 @@ class Parser(argparse.ArgumentParser):
     """An argument parser whose usage errors exit 2 with a short message, no traceback."""
 
     def error(self, message):
+        """Print the usage and the message on stderr, and exit with status 2.
+
+        Parameters
+        ----------
+        message : str
+        """
         self.print_usage(sys.stderr)
         self.exit(EXIT_BAD_INPUT, f"torque: error: {message}\n")
 
 
 def arg_type(convert, noun, ok, rule):
-    """An argparse type: ``convert`` the text, then require ``ok`` of the value."""
+    """An argparse type: ``convert`` the text, then require ``ok`` of the value.
+
+    Parameters
+    ----------
+    convert : callable
+        Text to value (raising ValueError).
+    noun : str
+        What the value is, for the message ("a number").
+    ok : callable
+        ``ok(value) -> bool``.
+    rule : str
+        What is wrong when ``ok`` fails.
+
+    Returns
+    -------
+    callable
+    """
     def parse(text: str):
         try:
             value = convert(text)
@@ -50,6 +72,18 @@ def inputs(args, path=None, *, valid: bool = True) -> Inputs:
     passes already loaded :class:`~torque.io.Inputs`) is used when it is of the same world
     file; otherwise the world is read here and, with ``valid``, refused if it has errors
     (:func:`torque.validate.require_valid`).
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+    path : str or Path, optional
+        The world file (default ``args.world``).
+    valid : bool
+
+    Returns
+    -------
+    Inputs
     """
     path = Path(path if path is not None else args.world)
     pre = getattr(args, "preloaded", None)
@@ -60,6 +94,18 @@ def inputs(args, path=None, *, valid: bool = True) -> Inputs:
 
 def motions_for(path, world):
     """``(Motions, omega)``: a motions file and its angular velocities (rad/s) in world
-    plate order."""
+    plate order.
+
+    Parameters
+    ----------
+    path : str or Path
+        A motions CSV.
+    world : World
+
+    Returns
+    -------
+    motions : Motions
+    omega : ndarray, shape (P, 3)
+    """
     motions = read_motions(path)
     return motions, motions.for_world(world)

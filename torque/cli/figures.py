@@ -10,7 +10,14 @@ from .common import EXIT_OK, inputs, motions_for
 
 def add_parser(sub, main) -> None:
     """Add the ``map`` and ``demo`` commands to the subparsers ``sub``; ``main`` is the
-    command line's entry point, which the demo runs its steps through."""
+    command line's entry point, which the demo runs its steps through.
+
+    Parameters
+    ----------
+    sub : argparse subparsers
+    main : callable
+        :func:`torque.cli.main`.
+    """
     p = sub.add_parser("map", help="maps and charts",
                        description="Draw a map or chart (PNG, SVG or PDF). Kinds: "
                        + "; ".join(f"{k}: {v.shows}" for k, v in KINDS.items()) + ".")
@@ -35,7 +42,18 @@ def add_parser(sub, main) -> None:
 
 
 def run_map(args) -> int:
-    """Run ``torque map``: check the inputs against the kind's needs, read them, draw."""
+    """Run ``torque map``: check the inputs against the kind's needs, read them, draw.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+
+    Returns
+    -------
+    int
+        The exit status (0).
+    """
     output_suffix(args.output, (".png", ".svg", ".pdf"))
     kind = KINDS[args.kind]
     given = {k for k in ("motions", "predicted", "fit", "hypothesis") if getattr(args, k)}
@@ -60,7 +78,20 @@ def run_map(args) -> int:
 
 
 def run_demo(args, main) -> int:
-    """Run ``torque demo``."""
+    """Run ``torque demo``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+    main : callable
+        :func:`torque.cli.main`.
+
+    Returns
+    -------
+    int
+        The exit status (0).
+    """
     from ..demo import run
     run(main, args.outdir, force=args.force)
     return EXIT_OK

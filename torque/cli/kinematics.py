@@ -21,7 +21,12 @@ FIELD_SUFFIXES = (".csv", ".geojson", ".json", ".nc")
 
 
 def add_parser(sub) -> None:
-    """Add the ``frame``, ``field`` and ``boundaries`` commands to the subparsers ``sub``."""
+    """Add the ``frame``, ``field`` and ``boundaries`` commands to the subparsers ``sub``.
+
+    Parameters
+    ----------
+    sub : argparse subparsers
+    """
     p = sub.add_parser("frame", help="change the reference frame of a set of motions",
                        description="Express plate motions in the no-net-rotation frame (the "
                        "frame in which the surface integral of r x v vanishes, computed "
@@ -63,7 +68,18 @@ def add_parser(sub) -> None:
 
 
 def run_frame(args) -> int:
-    """Run ``torque frame``."""
+    """Run ``torque frame``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+
+    Returns
+    -------
+    int
+        The exit status (0).
+    """
     output_suffix(args.output, (".csv",))
     world = inputs(args, args.world).world
     motions = read_motions(args.motions)
@@ -90,7 +106,18 @@ def run_frame(args) -> int:
 
 
 def run_field(args) -> int:
-    """Run ``torque field``."""
+    """Run ``torque field``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+
+    Returns
+    -------
+    int
+        The exit status (0).
+    """
     suffix = output_suffix(args.output, FIELD_SUFFIXES)
     world = inputs(args).world
     _, omega = motions_for(args.motions, world)
@@ -124,7 +151,18 @@ def run_field(args) -> int:
 
 
 def run_boundaries(args) -> int:
-    """Run ``torque boundaries``."""
+    """Run ``torque boundaries``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+
+    Returns
+    -------
+    int
+        The exit status (0).
+    """
     output_suffix(args.output, (".csv",))
     if args.geojson:
         output_suffix(args.geojson, (".geojson", ".json"))

@@ -16,7 +16,12 @@ DEFAULT_COOLING_AGES = (1, 2, 5, 10, 20, 30, 40, 50, 60, 80, 100, 120, 150, 200)
 
 
 def add_parser(sub) -> None:
-    """Add the ``cooling`` and ``torques`` commands to the subparsers ``sub``."""
+    """Add the ``cooling`` and ``torques`` commands to the subparsers ``sub``.
+
+    Parameters
+    ----------
+    sub : argparse subparsers
+    """
     p = sub.add_parser("cooling", help="table of the lithosphere cooling model",
                        description="Sea-floor depth, surface heat flow, ridge push and slab "
                        "pull (per metre of trench, for the hypothesis' slab depth or 660 km) "
@@ -41,7 +46,16 @@ def add_parser(sub) -> None:
 
 
 def parse_ages(text_: str) -> list:
-    """``--ages A,B,...``: ages in Myr, each in (0, 300]."""
+    """``--ages A,B,...``: ages in Myr, each in (0, 300].
+
+    Parameters
+    ----------
+    text_ : str
+
+    Returns
+    -------
+    list of float
+    """
     try:
         ages = [float(a) for a in text_.split(",") if a.strip()]
     except ValueError:
@@ -54,7 +68,18 @@ def parse_ages(text_: str) -> list:
 
 
 def run_cooling(args) -> int:
-    """Run ``torque cooling``."""
+    """Run ``torque cooling``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+
+    Returns
+    -------
+    int
+        The exit status (0).
+    """
     if args.output:
         output_suffix(args.output, (".csv",))
     hyp = load_hypothesis(args.physics) if args.physics else Hypothesis("defaults", Physics(), ())
@@ -72,7 +97,18 @@ def run_cooling(args) -> int:
 
 
 def run_torques(args) -> int:
-    """Run ``torque torques``."""
+    """Run ``torque torques``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+
+    Returns
+    -------
+    int
+        The exit status (0).
+    """
     from ..forces import build_terms
 
     output_suffix(args.output, (".csv",))

@@ -13,13 +13,31 @@ from .common import CAUTION
 
 
 def pole(omega) -> str:
-    """An Euler vector (rad/s, shape (3,)) as ``pole LAT N, LON E, rate R deg/Myr``."""
+    """An Euler vector (rad/s, shape (3,)) as ``pole LAT N, LON E, rate R deg/Myr``.
+
+    Parameters
+    ----------
+    omega : array_like, shape (3,)
+
+    Returns
+    -------
+    str
+    """
     lat, lon, rate = vector_to_pole(omega)
     return f"pole {float(lat):.4f} N, {float(lon):.4f} E, rate {float(rate):.6f} deg/Myr"
 
 
 def check(report) -> str:
-    """Human summary of a :class:`torque.validate.CheckReport`."""
+    """Human summary of a :class:`torque.validate.CheckReport`.
+
+    Parameters
+    ----------
+    report : CheckReport
+
+    Returns
+    -------
+    str
+    """
     d = report.as_dict()
     R = d["radius_m"]
     lines = [f"world {d['world']!r}: radius {R / 1e3:.1f} km, {len(d['plates'])} plates, "
@@ -49,7 +67,20 @@ def check(report) -> str:
 
 
 def cooling(physics, depth_km, rows) -> str:
-    """The table of ``torque cooling``."""
+    """The table of ``torque cooling``.
+
+    Parameters
+    ----------
+    physics : Physics
+    depth_km : float
+        The slab depth of the slab pull column.
+    rows : list of dict
+        From :func:`torque.hypothesis.cooling_table`.
+
+    Returns
+    -------
+    str
+    """
     lines = [f"{physics.model} cooling model; slab pull for a slab reaching {depth_km:g} km",
              f"{'age Myr':>8} {'depth m':>9} {'heat flow mW/m2':>16} {'ridge push N/m':>15} "
              f"{'slab pull N/m':>14}"]
@@ -60,7 +91,17 @@ def cooling(physics, depth_km, rows) -> str:
 
 
 def torques(terms, omega) -> str:
-    """One line per force term of ``torque torques``, with its notes."""
+    """One line per force term of ``torque torques``, with its notes.
+
+    Parameters
+    ----------
+    terms : list of ForceTerm
+    omega : ndarray, shape (P, 3) or None
+
+    Returns
+    -------
+    str
+    """
     lines = []
     for t in terms:
         mag = np.linalg.norm(t.torque(omega), axis=1)
@@ -71,7 +112,17 @@ def torques(terms, omega) -> str:
 
 
 def fit(d: dict) -> str:
-    """The coefficient table and misfit of ``torque fit`` (from the fit's dict)."""
+    """The coefficient table and misfit of ``torque fit`` (from the fit's dict).
+
+    Parameters
+    ----------
+    d : dict
+        :meth:`torque.diagnostics.FitResult.as_dict`.
+
+    Returns
+    -------
+    str
+    """
     lines = [f"hypothesis {d['hypothesis']!r}: velocity-space fit (preferred) and "
              "torque-space fit",
              f"{'term':<16} {'value':>12} {'stderr':>10} {'torque-space':>13} {'unit':<8}"]
@@ -94,7 +145,17 @@ def fit(d: dict) -> str:
 
 
 def rank(rows, tests) -> str:
-    """The ranking table of ``torque rank`` and its F-tests."""
+    """The ranking table of ``torque rank`` and its F-tests.
+
+    Parameters
+    ----------
+    rows : list of Row
+    tests : list of dict
+
+    Returns
+    -------
+    str
+    """
     wn = max(10, *(len(r.name) for r in rows))
     lines = [f"{'rank':>4}  {'hypothesis':<{wn}} {'rms mm/yr':>9} {'VR %':>7} {'k':>2} "
              f"{'AIC':>10} {'BIC':>10} {'CV mm/yr':>9}"]

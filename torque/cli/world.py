@@ -11,7 +11,12 @@ from .common import EXIT_BAD_INPUT, EXIT_OK, inputs
 
 
 def add_parser(sub) -> None:
-    """Add the ``check`` command to the subparsers ``sub``."""
+    """Add the ``check`` command to the subparsers ``sub``.
+
+    Parameters
+    ----------
+    sub : argparse subparsers
+    """
     p = sub.add_parser("check", help="validate a world and summarise its plates",
                        description="Read a world file, check that its plates tile the sphere "
                        "and that its rings and boundaries are sound, and summarise each plate. "
@@ -22,7 +27,18 @@ def add_parser(sub) -> None:
 
 
 def run_check(args) -> int:
-    """Run ``torque check``; exit status 2 when the world has errors."""
+    """Run ``torque check``; exit status 2 when the world has errors.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line.
+
+    Returns
+    -------
+    int
+        0, or 2 when the world has errors.
+    """
     report = check_world(inputs(args, valid=False))
     print(dumps(report.as_dict()) if args.json else text.check(report))
     if not report.ok:

@@ -84,7 +84,18 @@ SPREAD = {"expansivity": {"normal": 0.2e-5}, "plate_thickness_km": {"uniform": [
 
 
 def generators(n: int, seed: int = SEED) -> np.ndarray:
-    """Well-spread but irregular points: a Fibonacci lattice, jittered, then normalised."""
+    """Well-spread but irregular points: a Fibonacci lattice, jittered, then normalised.
+
+    Parameters
+    ----------
+    n : int
+    seed : int
+
+    Returns
+    -------
+    ndarray, shape (n, 3)
+        Unit vectors.
+    """
     rng = np.random.default_rng(seed)
     k = np.arange(n) + 0.5
     z = 1.0 - 2.0 * k / n
@@ -99,6 +110,16 @@ def voronoi_regions(gen: np.ndarray):
     seen from outside (scipy sorts them, but not always in that sense).
 
     Returns the ``SphericalVoronoi`` and the list of oriented regions.
+
+    Parameters
+    ----------
+    gen : ndarray, shape (n, 3)
+        Unit vectors.
+
+    Returns
+    -------
+    sv : scipy.spatial.SphericalVoronoi
+    regions : list of list of int
     """
     sv = SphericalVoronoi(gen)
     sv.sort_vertices_of_regions()
@@ -112,7 +133,17 @@ def voronoi_regions(gen: np.ndarray):
 
 
 def plate_rings(gen: np.ndarray):
-    """Counter-clockwise lon/lat rings (closed) of the Voronoi cells of ``gen``."""
+    """Counter-clockwise lon/lat rings (closed) of the Voronoi cells of ``gen``.
+
+    Parameters
+    ----------
+    gen : ndarray, shape (n, 3)
+
+    Returns
+    -------
+    list of list
+        ``[lon, lat]`` rings, degrees.
+    """
     sv, regions = voronoi_regions(gen)
     rings = []
     for region in regions:
@@ -125,7 +156,17 @@ def plate_rings(gen: np.ndarray):
 
 
 def continent_rings(seed: int = SEED + 7):
-    """Jittered caps, counter-clockwise, closed (lon/lat)."""
+    """Jittered caps, counter-clockwise, closed (lon/lat).
+
+    Parameters
+    ----------
+    seed : int
+
+    Returns
+    -------
+    list of list
+        ``[lon, lat]`` rings, degrees.
+    """
     from pyproj import Geod
     geod = Geod(a=6371e3, b=6371e3)
     rng = np.random.default_rng(seed)
@@ -143,14 +184,36 @@ def continent_rings(seed: int = SEED + 7):
 
 
 def seed_motions(n: int, seed: int = SEED + 1) -> np.ndarray:
-    """Invented Euler vectors (lat, lon, rate) to start the classification from."""
+    """Invented Euler vectors (lat, lon, rate) to start the classification from.
+
+    Parameters
+    ----------
+    n : int
+    seed : int
+
+    Returns
+    -------
+    ndarray, shape (n, 3)
+        lat, lon (degrees) and rate (deg/Myr).
+    """
     rng = np.random.default_rng(seed)
     return np.c_[np.degrees(np.arcsin(rng.uniform(-1, 1, n))), rng.uniform(-180, 180, n),
                  rng.uniform(0.2, 1.0, n)]
 
 
 def write(outdir: Path) -> dict:
-    """Write the demo world, its data and hypotheses into ``outdir``; return the truth."""
+    """Write the demo world, its data and hypotheses into ``outdir``; return the truth.
+
+    Parameters
+    ----------
+    outdir : Path
+        Made if missing.
+
+    Returns
+    -------
+    dict
+        The truth (also written to ``truth.json``).
+    """
     outdir.mkdir(parents=True, exist_ok=True)
     (outdir / "hypotheses").mkdir(exist_ok=True)
     rings = plate_rings(generators(len(PLATE_NAMES)))

@@ -41,7 +41,18 @@ KINDS = _registry()
 
 
 def build_terms(ctx: Context) -> list:
-    """The :class:`ForceTerm` of every force entry of the hypothesis, in order."""
+    """The :class:`ForceTerm` of every force entry of the hypothesis, in order.
+
+    Parameters
+    ----------
+    ctx : Context
+        A hypothesis on a world's data.
+
+    Returns
+    -------
+    list of ForceTerm
+        One per force entry, in order.
+    """
     return [KINDS[spec.kind].build(ctx, spec) for spec in ctx.hypothesis.forces]
 
 

@@ -45,7 +45,20 @@ def ridge_distance_ages(xyz, ridge_xyz, half_rate_m_s: float, radius_m: float,
 
 
 def synthesise_ages(ctx):
-    """The synthesised :class:`AgeGrid` and notes on how it was made."""
+    """The synthesised :class:`AgeGrid` and notes on how it was made.
+
+    Parameters
+    ----------
+    ctx : Context
+        Needs motions (``ctx.omega``) and ridge boundaries.
+
+    Returns
+    -------
+    grid : AgeGrid
+        On a ``ctx.SYNTH_STEP_DEG`` cell-centred grid, NaN where no age.
+    notes : tuple of str
+        How it was made, per plate.
+    """
     world = ctx.world
     if ctx.omega is None:
         raise InputError("no age grid in the world, and no motions to make one from ridges "

@@ -53,7 +53,17 @@ class ForceTerm:
         return bool(np.any(self.resisting != 0))
 
     def torque(self, omega=None) -> np.ndarray:
-        """Torque (N m, shape (P, 3)) at coefficient 1 for angular velocities ``omega``."""
+        """Torque (N m, shape (P, 3)) at coefficient 1 for angular velocities ``omega``.
+
+        Parameters
+        ----------
+        omega : array_like, shape (P, 3), optional
+            rad/s; needed for a velocity-dependent term.
+
+        Returns
+        -------
+        ndarray, shape (P, 3)
+        """
         if omega is None:
             if self.velocity_dependent:
                 raise ValueError(f"term {self.label!r} depends on plate motion")
@@ -62,6 +72,21 @@ class ForceTerm:
 
 
 def empty_term(ctx, spec, unit, notes=()):
+    """A term of zero torque to fill in: every kind's ``build`` starts here.
+
+    Parameters
+    ----------
+    ctx : Context
+    spec : ForceSpec
+    unit : str
+        Of the coefficient.
+    notes : sequence of str
+
+    Returns
+    -------
+    ForceTerm
+        ``driving`` (P, 3) and ``resisting`` (P, 3, P, 3) of zeros.
+    """
     P = ctx.world.geometry.n_plates
     return ForceTerm(spec.label, spec.kind, spec, unit, np.zeros((P, 3)),
                      np.zeros((P, 3, P, 3)), tuple(notes))
@@ -74,6 +99,16 @@ class Pieces:
     ``line`` indexes ``ctx.world.boundaries``; ``n`` is the left-hand unit normal (pointing
     into the left plate); ``m`` is ``int r ds`` over the piece; ``theta`` its length
     (radians); ``mid`` its midpoint.
+
+    Attributes
+    ----------
+    a, b : ndarray, shape (N, 3)
+        Ends of each piece.
+    line : ndarray of int, shape (N,)
+    n : ndarray, shape (N, 3)
+    m : ndarray, shape (N, 3)
+    theta : ndarray, shape (N,)
+    mid : ndarray, shape (N, 3)
     """
 
     a: np.ndarray

@@ -20,11 +20,32 @@ DEFAULTS = {"region": "all"}
 
 
 def default_label(options) -> str:
+    """The term's label when the entry gives none (the kind protocol, see :mod:`torque.forces`).
+
+    Parameters
+    ----------
+    options : dict
+        The entry's options.
+
+    Returns
+    -------
+    str
+    """
     return f"{KIND}_{options.get('region', 'all')}"
 
 
 def resisting_blocks(ctx, region) -> np.ndarray:
-    """``-R^4 D`` on the diagonal blocks, shape (P, 3, P, 3)."""
+    """``-R^4 D`` on the diagonal blocks, shape (P, 3, P, 3).
+
+    Parameters
+    ----------
+    ctx : Context
+    region : {"all", "ocean", "continent"}
+
+    Returns
+    -------
+    ndarray, shape (P, 3, P, 3)
+    """
     D = ctx.drag_tensor(region)
     P = D.shape[0]
     out = np.zeros((P, 3, P, 3))
@@ -33,13 +54,36 @@ def resisting_blocks(ctx, region) -> np.ndarray:
 
 
 def region_notes(ctx, spec) -> list:
-    """What the user should know about the continent clipping behind a regional term."""
+    """What the user should know about the continent clipping behind a regional term.
+
+    Parameters
+    ----------
+    ctx : Context
+    spec : ForceSpec
+        The force entry, its options' defaults filled in.
+
+    Returns
+    -------
+    list of str
+    """
     if spec.options["region"] == "all":
         return []
     return [f"{spec.label}: {w}" for w in ctx.clip_warnings]
 
 
 def build(ctx, spec) -> ForceTerm:
+    """The :class:`~torque.forces.base.ForceTerm` of one force entry of this kind.
+
+    Parameters
+    ----------
+    ctx : Context
+    spec : ForceSpec
+        The force entry, its options' defaults filled in.
+
+    Returns
+    -------
+    ForceTerm
+    """
     blocks = resisting_blocks(ctx, spec.options["region"])
     term = empty_term(ctx, spec, UNIT, region_notes(ctx, spec))
     term.resisting[:] = blocks

@@ -20,11 +20,34 @@ KEYS = {"region": '"all" (default), "ocean" or "continent"'}
 
 
 def default_label(options) -> str:
+    """The term's label when the entry gives none (the kind protocol, see :mod:`torque.forces`).
+
+    Parameters
+    ----------
+    options : dict
+        The entry's options.
+
+    Returns
+    -------
+    str
+    """
     region = options.get("region", "all")
     return KIND if region == "all" else f"{KIND}_{region}"
 
 
 def build(ctx, spec) -> ForceTerm:
+    """The :class:`~torque.forces.base.ForceTerm` of one force entry of this kind.
+
+    Parameters
+    ----------
+    ctx : Context
+    spec : ForceSpec
+        The force entry, its options' defaults filled in.
+
+    Returns
+    -------
+    ForceTerm
+    """
     region = spec.options["region"]
     grid = ctx.flow
     plate = ctx.node_plates(grid)

@@ -80,11 +80,32 @@ class ResistanceKind:
     DEFAULTS = DEFAULTS
 
     def default_label(self, options) -> str:
-        """The term's label when the entry gives none: the kind."""
+        """The term's label when the entry gives none: the kind.
+
+        Parameters
+        ----------
+        options : dict
+            The entry's options.
+
+        Returns
+        -------
+        str
+        """
         return self.KIND
 
     def build(self, ctx, spec) -> ForceTerm:
-        """The :class:`ForceTerm` of one force entry of this kind."""
+        """The :class:`ForceTerm` of one force entry of this kind.
+
+        Parameters
+        ----------
+        ctx : Context
+        spec : ForceSpec
+            The force entry, its options' defaults filled in.
+
+        Returns
+        -------
+        ForceTerm
+        """
         return build_resistance(ctx, spec, self.boundary_kind)
 
 

@@ -37,10 +37,37 @@ DEFAULTS = {"form": "distributed"}
 
 
 def default_label(options) -> str:
+    """The term's label when the entry gives none (the kind protocol, see :mod:`torque.forces`).
+
+    Parameters
+    ----------
+    options : dict
+        The entry's options.
+
+    Returns
+    -------
+    str
+    """
     return KIND
 
 
 def edge_force_per_length(ctx, spec, line) -> float:
+    """Ridge push (N/m) of one ridge line in the edge form: the entry's
+    ``force_per_length``, else the cooling model at the line's ``ridge_age_myr`` or the
+    entry's ``age_myr``, else its old-age limit.
+
+    Parameters
+    ----------
+    ctx : Context
+    spec : ForceSpec
+        The force entry, its options' defaults filled in.
+    line : int
+        Index into ``ctx.world.boundaries``.
+
+    Returns
+    -------
+    float
+    """
     props = ctx.world.boundaries[line].properties
     if "force_per_length" in spec.options:
         return float(spec.options["force_per_length"])
@@ -51,6 +78,18 @@ def edge_force_per_length(ctx, spec, line) -> float:
 
 
 def build(ctx, spec) -> ForceTerm:
+    """The :class:`~torque.forces.base.ForceTerm` of one force entry of this kind.
+
+    Parameters
+    ----------
+    ctx : Context
+    spec : ForceSpec
+        The force entry, its options' defaults filled in.
+
+    Returns
+    -------
+    ForceTerm
+    """
     if spec.options["form"] == "edge":
         return _edge(ctx, spec)
     return _distributed(ctx, spec)
@@ -98,6 +137,23 @@ def body_force_torque(grid, F, plate, ocean, n_plates, radius_m) -> np.ndarray:
 
     ``r x grad F dA = (F_lambda n_hat / cos(phi) - F_phi e_hat) dA_cell`` on the unit sphere
     (``e_hat``, ``n_hat`` east and north), times ``R^2`` for the physical torque.
+
+    Parameters
+    ----------
+    grid : AgeGrid
+        The nodes' grid.
+    F : ndarray, shape (nlat, nlon)
+        Ridge push (N/m) at each node.
+    plate : ndarray of int, shape (nlat, nlon)
+    ocean : ndarray of bool, shape (nlat, nlon)
+        Nodes that carry the force.
+    n_plates : int
+    radius_m : float
+
+    Returns
+    -------
+    ndarray, shape (P, 3)
+        N m.
     """
     lam = np.radians(grid.lon)
     phi = np.radians(grid.lat)

@@ -32,11 +32,36 @@ DEFAULT_DEPTH_KM = 660.0
 
 
 def default_label(options) -> str:
+    """The term's label when the entry gives none (the kind protocol, see :mod:`torque.forces`).
+
+    Parameters
+    ----------
+    options : dict
+        The entry's options.
+
+    Returns
+    -------
+    str
+    """
     return KIND
 
 
 def trench_geometry(ctx, label):
-    """Pieces of all subduction lines, with the sinking and the overriding plate of each."""
+    """Pieces of all subduction lines, with the sinking and the overriding plate of each.
+
+    Parameters
+    ----------
+    ctx : Context
+    label : str
+        The term's label, for the message when there is no subduction zone.
+
+    Returns
+    -------
+    pieces : Pieces
+    sub_left : ndarray of bool, shape (N,)
+        Whether the left plate sinks at each piece.
+    sinking, overriding : ndarray of int, shape (N,)
+    """
     ctx.require_lines("subduction", label)
     pcs = ctx.pieces("subduction")
     bnd, bs = ctx.world.boundaries, ctx.world.boundary_set
@@ -48,7 +73,23 @@ def trench_geometry(ctx, label):
 
 
 def slab_buoyancy(ctx, spec, pcs, sub_left) -> tuple[np.ndarray, list]:
-    """Force per metre of trench (N/m) on every piece, and notes."""
+    """Force per metre of trench (N/m) on every piece, and notes.
+
+    Parameters
+    ----------
+    ctx : Context
+    spec : ForceSpec
+        The force entry, its options' defaults filled in.
+    pcs : Pieces
+        Of the subduction lines.
+    sub_left : ndarray of bool, shape (N,)
+
+    Returns
+    -------
+    F : ndarray, shape (N,)
+        N/m.
+    notes : list of str
+    """
     if "force_per_length" in spec.options:
         return np.full(len(pcs.theta), float(spec.options["force_per_length"])), []
     bnd = ctx.world.boundaries
@@ -83,6 +124,18 @@ def slab_buoyancy(ctx, spec, pcs, sub_left) -> tuple[np.ndarray, list]:
 
 
 def build(ctx, spec) -> ForceTerm:
+    """The :class:`~torque.forces.base.ForceTerm` of one force entry of this kind.
+
+    Parameters
+    ----------
+    ctx : Context
+    spec : ForceSpec
+        The force entry, its options' defaults filled in.
+
+    Returns
+    -------
+    ForceTerm
+    """
     pcs, sub_left, sinking, _ = trench_geometry(ctx, spec.label)
     F, notes = slab_buoyancy(ctx, spec, pcs, sub_left)
     # n points into the left plate; toward the overriding plate is -n if the left one sinks

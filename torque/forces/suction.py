@@ -20,10 +20,33 @@ KEYS = dict(SLAB_KEYS)
 
 
 def default_label(options) -> str:
+    """The term's label when the entry gives none (the kind protocol, see :mod:`torque.forces`).
+
+    Parameters
+    ----------
+    options : dict
+        The entry's options.
+
+    Returns
+    -------
+    str
+    """
     return KIND
 
 
 def build(ctx, spec) -> ForceTerm:
+    """The :class:`~torque.forces.base.ForceTerm` of one force entry of this kind.
+
+    Parameters
+    ----------
+    ctx : Context
+    spec : ForceSpec
+        The force entry, its options' defaults filled in.
+
+    Returns
+    -------
+    ForceTerm
+    """
     pcs, sub_left, _, overriding = trench_geometry(ctx, spec.label)
     F, notes = slab_buoyancy(ctx, spec, pcs, sub_left)
     # toward the sinking plate: +n if it is on the left

@@ -30,7 +30,16 @@ def _umask_mode() -> int:
 
 
 def check_input_file(path) -> Path:
-    """``path`` as a Path, or InputError when it is missing or is a folder."""
+    """``path`` as a Path, or InputError when it is missing or is a folder.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    Path
+    """
     path = Path(path)
     if path.is_dir():
         raise InputError("is a directory, not a file", file=path)
@@ -43,6 +52,15 @@ def read_text(path, encoding: str = "utf-8-sig") -> str:
     """The text of a file, or InputError naming it when it is missing or unreadable.
 
     A byte-order mark is accepted (``utf-8-sig``), as spreadsheet programs write one.
+
+    Parameters
+    ----------
+    path : str or Path
+    encoding : str
+
+    Returns
+    -------
+    str
     """
     path = check_input_file(path)
     try:
@@ -55,7 +73,16 @@ def read_text(path, encoding: str = "utf-8-sig") -> str:
 
 
 def read_csv_rows(path) -> list:
-    """The non-blank rows of a CSV file (lists of strings), or InputError naming the file."""
+    """The non-blank rows of a CSV file (lists of strings), or InputError naming the file.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    list of list of str
+    """
     text = read_text(path)
     if "\x00" in text:
         raise InputError("is not a CSV text file (it holds NUL bytes; a binary file?)",
@@ -68,7 +95,17 @@ def read_csv_rows(path) -> list:
 
 
 def read_json(path):
-    """Parse a JSON file, or InputError naming it and saying what is wrong."""
+    """Parse a JSON file, or InputError naming it and saying what is wrong.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    object
+        The parsed document.
+    """
     text = read_text(path)
     try:
         return json.loads(text)
@@ -84,6 +121,14 @@ def check_output_path(path) -> Path:
 
     Refused: a path that is a folder, and a path under something that is not a folder.
     A missing parent folder is made when the file is written.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    Path
     """
     path = Path(path)
     if path.is_dir():
@@ -101,6 +146,19 @@ def atomic_write(path, mode: str = "w", **kwargs):
     """Open a temporary file beside ``path`` and move it into place only on success.
 
     On any exception the temporary file is removed and ``path`` is untouched.
+
+    Parameters
+    ----------
+    path : str or Path
+        The file to write (its folder is made if missing).
+    mode : str
+        As for :func:`open` (``"w"`` or ``"wb"``).
+    **kwargs
+        Passed to :func:`open` (``newline``, ``encoding``).
+
+    Yields
+    ------
+    file object
     """
     path = check_output_path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
@@ -119,7 +177,18 @@ def atomic_write(path, mode: str = "w", **kwargs):
 
 
 def atomic_path(path):
-    """Context manager yielding a temporary *path* (for writers that want a file name)."""
+    """Context manager yielding a temporary *path* (for writers that want a file name).
+
+    Parameters
+    ----------
+    path : str or Path
+        The file to write.
+
+    Returns
+    -------
+    context manager
+        Yields the temporary path, renamed to ``path`` when the block ends without error.
+    """
     return _AtomicPath(Path(path))
 
 
@@ -146,7 +215,16 @@ class _AtomicPath:
 
 
 def read_toml(path) -> dict:
-    """Parse a TOML file, or InputError naming the file and the line."""
+    """Parse a TOML file, or InputError naming the file and the line.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    dict
+    """
     path = Path(path)
     text = read_text(path)
     try:

@@ -29,12 +29,30 @@ def _finite(obj):
 
 
 def dumps(obj) -> str:
-    """JSON text (strict: no NaN tokens) of results holding numpy values."""
+    """JSON text (strict: no NaN tokens) of results holding numpy values.
+
+    Parameters
+    ----------
+    obj : dict, list or number
+        May hold numpy arrays and scalars.
+
+    Returns
+    -------
+    str
+    """
     return json.dumps(_finite(obj), indent=2, allow_nan=False)
 
 
 def write_json(path, obj, end: str = "") -> None:
-    """Write results as strict JSON (see :func:`dumps`) followed by ``end``, atomically."""
+    """Write results as strict JSON (see :func:`dumps`) followed by ``end``, atomically.
+
+    Parameters
+    ----------
+    path : str or Path
+    obj : dict, list or number
+    end : str
+        Text after the JSON (a newline, say).
+    """
     with atomic_write(path) as fh:
         fh.write(dumps(obj) + end)
 

@@ -26,6 +26,18 @@ def features(doc, path, what: str) -> list:
     properties; InputError naming the file and the feature otherwise.
 
     ``what`` names what the features should be, for messages ("plate polygons").
+
+    Parameters
+    ----------
+    doc : object
+        The parsed JSON.
+    path : str or Path
+        Named in messages.
+    what : str
+
+    Returns
+    -------
+    list of dict
     """
     if not isinstance(doc, dict) or doc.get("type") != "FeatureCollection":
         raise InputError(f"expected a GeoJSON FeatureCollection of {what}", file=path)
@@ -103,6 +115,11 @@ def _clean_ring(lonlat, path, i, name, add):
 def read_plates(path, winding: str = "auto"):
     """Read plate polygons from GeoJSON.
 
+    Parameters
+    ----------
+    path : str or Path
+    winding : {"auto", "strict"}
+
     Returns
     -------
     plates : tuple of Plate
@@ -118,6 +135,20 @@ def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"
     """:func:`read_plates` for GeoJSON features already in memory (``path`` names them).
 
     ``noun`` names what the polygons are in messages ("plate", "continent").
+
+    Parameters
+    ----------
+    feats : list of dict
+        GeoJSON features with ``properties.plate``.
+    path : str or Path
+    winding : {"auto", "strict"}
+    noun : str
+
+    Returns
+    -------
+    plates : tuple of Plate
+    geometry : PlateGeometry
+    problems : list of Problem
     """
     problems: list = []
 
@@ -183,7 +214,19 @@ def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"
 
 
 def read_boundaries(path, plate_names) -> tuple[list, list]:
-    """Read boundary lines from GeoJSON; returns ``(boundaries, problems)``."""
+    """Read boundary lines from GeoJSON; returns ``(boundaries, problems)``.
+
+    Parameters
+    ----------
+    path : str or Path
+    plate_names : sequence of str
+        The world's plates (a line naming another is a problem).
+
+    Returns
+    -------
+    boundaries : list of Boundary
+    problems : list of Problem
+    """
     path = Path(path)
     feats = features(read_json(path), path, "boundary lines")
     names = set(plate_names)
@@ -268,6 +311,15 @@ def read_continents(path, winding: str = "auto") -> Continents:
 
     Continents must not overlap one another. ``winding`` is the world's key: ``"auto"``
     takes the smaller region of each ring, ``"strict"`` the rings as written (RFC 7946).
+
+    Parameters
+    ----------
+    path : str or Path
+    winding : {"auto", "strict"}
+
+    Returns
+    -------
+    Continents
     """
     path = Path(path)
     feats = features(read_json(path), path, "continent polygons")
@@ -296,7 +348,16 @@ def read_continents(path, winding: str = "auto") -> Continents:
 
 
 def write_points_geojson(path, lon, lat, properties: dict) -> None:
-    """Write points with per-point properties as a GeoJSON FeatureCollection."""
+    """Write points with per-point properties as a GeoJSON FeatureCollection.
+
+    Parameters
+    ----------
+    path : str or Path
+    lon, lat : array_like, shape (N,)
+        Degrees.
+    properties : dict
+        ``{name: array of N values}``.
+    """
     names = list(properties)
     cols = [np.asarray(properties[n]).tolist() for n in names]
     feats = []
@@ -309,7 +370,13 @@ def write_points_geojson(path, lon, lat, properties: dict) -> None:
 
 
 def write_boundaries_geojson(path, boundaries) -> None:
-    """Write boundary lines in the contract's format."""
+    """Write boundary lines in the contract's format.
+
+    Parameters
+    ----------
+    path : str or Path
+    boundaries : sequence of Boundary
+    """
     feats = []
     for b in boundaries:
         lon, lat = sphere.xyz_to_lonlat(b.xyz)
@@ -325,6 +392,12 @@ def write_boundaries_geojson(path, boundaries) -> None:
 
 
 def write_feature_collection(path, features) -> None:
-    """Write GeoJSON features (dicts) as a FeatureCollection, atomically."""
+    """Write GeoJSON features (dicts) as a FeatureCollection, atomically.
+
+    Parameters
+    ----------
+    path : str or Path
+    features : iterable of dict
+    """
     with atomic_write(path) as fh:
         json.dump({"type": "FeatureCollection", "features": list(features)}, fh, indent=1)

@@ -30,6 +30,15 @@ def read_ages(path) -> AgeGrid:
     ``lat``/``latitude``/``y``; the age variable ``age_myr`` or ``age``, or else the only
     2-D variable. CSV: one row per grid node, header ``lon,lat,age_myr``, empty or ``nan``
     age for no ocean; the nodes must form a full regular grid.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    AgeGrid
+        Longitudes in [-180, 180), increasing; ages in Myr, NaN for no ocean.
     """
     path = check_input_file(path)
     if path.suffix.lower() == ".csv":
@@ -120,7 +129,16 @@ def _normalise_axes(lon, lat, arrays, path):
 
 def read_flow(path) -> FlowGrid:
     """Read a mantle flow grid: NetCDF with 1-D lon, lat and 2-D east and north velocity in
-    mm/yr, named ``ve_mm_yr``/``vn_mm_yr`` (or ``east``/``north``, ``ve``/``vn``)."""
+    mm/yr, named ``ve_mm_yr``/``vn_mm_yr`` (or ``east``/``north``, ``ve``/``vn``).
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    FlowGrid
+    """
     path = check_input_file(path)
     lon, lat, (ve, vn) = _open_grid(path, [("ve_mm_yr", "east", "ve"),
                                            ("vn_mm_yr", "north", "vn")])
@@ -146,7 +164,13 @@ def _read_csv(path):
 
 
 def write_netcdf(path, dataset) -> None:
-    """Write an xarray Dataset to NetCDF-4 (h5netcdf engine), atomically."""
+    """Write an xarray Dataset to NetCDF-4 (h5netcdf engine), atomically.
+
+    Parameters
+    ----------
+    path : str or Path
+    dataset : xarray.Dataset
+    """
     with atomic_path(path) as tmp:
         dataset.to_netcdf(tmp, engine="h5netcdf")
 
@@ -174,7 +198,23 @@ def write_age_grid(path, grid: AgeGrid, title: str) -> None:
 
 
 def field_dataset(world, lon, lat, plate, ve, vn, grid=None):
-    """An xarray Dataset of a velocity field, CF-style (on the grid if one is given)."""
+    """An xarray Dataset of a velocity field, CF-style (on the grid if one is given).
+
+    Parameters
+    ----------
+    world : World
+    lon, lat : ndarray, shape (N,)
+        Degrees.
+    plate : ndarray of int, shape (N,)
+    ve, vn : ndarray, shape (N,)
+        mm/yr.
+    grid : tuple of ndarray, optional
+        ``(lon, lat)`` axes when the points are a lat x lon grid.
+
+    Returns
+    -------
+    xarray.Dataset
+    """
     import xarray as xr
 
     names = world.plate_names

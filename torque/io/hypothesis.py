@@ -32,7 +32,16 @@ def load_hypothesis(path) -> Hypothesis:
 
 
 def toml_value(v) -> str:
-    """A number, string or list as TOML text."""
+    """A number, string or list as TOML text.
+
+    Parameters
+    ----------
+    v : str, number or list
+
+    Returns
+    -------
+    str
+    """
     if isinstance(v, str):
         return json.dumps(v)
     if isinstance(v, list):
@@ -66,6 +75,15 @@ def hypothesis_toml(name: str, forces, spread=None, comment: str | None = None) 
 
 
 def write_hypothesis(path, name: str, forces, spread=None, comment=None) -> None:
-    """Write a hypothesis file (see :func:`hypothesis_toml`), atomically."""
+    """Write a hypothesis file (see :func:`hypothesis_toml`), atomically.
+
+    Parameters
+    ----------
+    path : str or Path
+    name : str
+    forces : sequence of dict
+    spread : dict, optional
+    comment : str, optional
+    """
     with atomic_write(path) as fh:
         fh.write(hypothesis_toml(name, forces, spread, comment))

@@ -68,7 +68,18 @@ class Inputs(WorldData):
         return read_ages(path) if key == "ages" else read_flow(path)
 
     def context(self, hypothesis, omega=None) -> Context:
-        """A :class:`~torque.forces.context.Context` of a hypothesis on these inputs."""
+        """A :class:`~torque.forces.context.Context` of a hypothesis on these inputs.
+
+        Parameters
+        ----------
+        hypothesis : Hypothesis
+        omega : ndarray, shape (P, 3), optional
+            rad/s, world plate order.
+
+        Returns
+        -------
+        Context
+        """
         return Context(self, hypothesis, omega)
 
 

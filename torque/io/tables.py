@@ -41,16 +41,44 @@ class Table:
         return len(self.rows)
 
     def has(self, *names) -> bool:
-        """Whether the header names every one of ``names``."""
+        """Whether the header names every one of ``names``.
+
+        Parameters
+        ----------
+        *names : str
+
+        Returns
+        -------
+        bool
+        """
         return all(n in self.header for n in names)
 
     @staticmethod
     def line(i: int) -> int:
-        """The line number of data row ``i`` (the header is line 1)."""
+        """The line number of data row ``i`` (the header is line 1).
+
+        Parameters
+        ----------
+        i : int
+
+        Returns
+        -------
+        int
+        """
         return i + 2
 
     def text(self, name: str) -> list:
-        """The column ``name`` as stripped strings (``""`` where a row is short)."""
+        """The column ``name`` as stripped strings (``""`` where a row is short).
+
+        Parameters
+        ----------
+        name : str
+            A column of the header.
+
+        Returns
+        -------
+        list of str
+        """
         c = self.header.index(name)
         return [r[c].strip() if c < len(r) else "" for r in self.rows]
 
@@ -128,6 +156,10 @@ def read_table(path, required, *, comments: bool = False, empty: str | None = No
 
 def read_points(path):
     """Read a CSV with columns ``lon,lat`` (degrees).
+
+    Parameters
+    ----------
+    path : str or Path
 
     Returns
     -------
