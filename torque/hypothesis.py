@@ -183,6 +183,15 @@ def hypothesis_from_dict(cfg: dict, name: str = "hypothesis", file=None) -> Hypo
     Returns
     -------
     Hypothesis
+
+    Examples
+    --------
+    >>> h = hypothesis_from_dict({"name": "ridge and drag", "force": [
+    ...     {"kind": "ridge", "coefficient": 1.0}, {"kind": "drag", "region": "ocean"}]})
+    >>> h.labels, h.free_labels
+    (['ridge', 'drag_ocean'], ['drag_ocean'])
+    >>> h.physics.model, h.forces[1].bounds
+    ('plate', (0.0, inf))
     """
     unknown = sorted(set(cfg) - set(TOP_KEYS))
     if unknown:

@@ -306,6 +306,14 @@ class Cooling:
         -------
         ndarray
             N/m.
+
+        Examples
+        --------
+        With the default (GDH1) physics, a few 10^12 N per metre of ridge:
+
+        >>> c = Cooling(Physics())
+        >>> [round(float(c.ridge_push_n_m(t)) / 1e12, 2) for t in (10.0, 80.0, 200.0)]
+        [0.39, 2.01, 2.3]
         """
         p = self.p
         I0, I1 = self._layer_integrals(age_myr)

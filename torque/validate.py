@@ -402,6 +402,15 @@ def check_world(world) -> CheckReport:
     boundaries lie on the shared edge of their two plates (to 1 km) with left and right
     the right way round; continents (if any) do not overlap, and none of their edges runs
     along a plate edge (where clipping would depend on rounding).
+
+    Examples
+    --------
+    >>> from torque.io import world_from_rings
+    >>> w = world_from_rings({"Upper": [[(0, 0), (120, 0), (240, 0)]],
+    ...                       "Lower": [[(0, 0), (240, 0), (120, 0)]]}, winding="strict")
+    >>> report = check_world(w)
+    >>> report.ok, [p["plate"] for p in report.plates], report.problems
+    (True, ['Upper', 'Lower'], [])
     """
     data = world if isinstance(world, WorldData) else WorldData(world)
     world = data.world

@@ -33,9 +33,13 @@ class Inputs(WorldData):
 
     Examples
     --------
-    >>> inputs = Inputs.load("polygons_demo/world.toml")    # doctest: +SKIP
-    >>> inputs.ages.age_myr.shape                            # doctest: +SKIP
+    >>> inputs = Inputs.load("polygons_demo/world.toml")
+    >>> inputs
+    Inputs(World('Orrery', 14 plates, 36 boundary lines, radius 6371 km), data: continents, ages)
+    >>> inputs.ages.age_myr.shape          # read on first use, then kept
     (360, 720)
+    >>> inputs.ages is inputs.ages
+    True
     """
 
     @classmethod
@@ -102,6 +106,19 @@ def compute_torques(world, hypothesis, omega=None, **data) -> list:
     -------
     list of ForceTerm
         One per force entry of the hypothesis, in order.
+
+    Examples
+    --------
+    >>> from torque.io import Inputs, load_hypothesis, read_motions
+    >>> inputs = Inputs.load("polygons_demo/world.toml")
+    >>> hyp = load_hypothesis("polygons_demo/hypotheses/continental_drag.toml")
+    >>> omega = read_motions("polygons_demo/motions.csv").for_world(inputs.world)
+    >>> terms = compute_torques(inputs, hyp, omega)
+    >>> [(t.label, t.unit, t.velocity_dependent) for t in terms]   # doctest: +NORMALIZE_WHITESPACE
+    [('ridge', '1', False), ('slab', '1', False), ('drag_ocean', 'Pa s/m', True),
+     ('drag_continent', 'Pa s/m', True)]
+    >>> terms[0].torque().shape            # N m on each of the 14 plates
+    (14, 3)
     """
     if not isinstance(world, WorldData):
         world = Inputs(world, **data)

@@ -43,6 +43,15 @@ def load_world(path) -> World:
     InputError
         For files that cannot be read at all: missing files, malformed TOML or JSON,
         unknown keys, features of the wrong type.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> w = load_world("polygons_demo/world.toml")
+    >>> len(w.plates), w.plate_names[:2]
+    (14, ['Vessane', 'Orlum'])
+    >>> round(float(w.area_m2.sum() / (4 * np.pi * w.radius_m ** 2)), 12)   # exact areas
+    1.0
     """
     path = Path(path)
     cfg = read_toml(path)
