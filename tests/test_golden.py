@@ -39,6 +39,16 @@ COMMANDS = [
                         "--spacing-km", "500", "-o", "out/boundaries.csv"]),
     ("rank.csv", ["rank", "demo/world.toml", "demo/motions.csv",
                   "demo/hypotheses/ridge_drag.toml", HYP, "-o", "out/rank.csv"]),
+    # every resampling, and every hypothesis on one world (recorded with the code from
+    # before issue 11's redesign, which reads the world's data once for all of them)
+    ("fit_uncertainty.json", ["fit", "demo/world.toml", "demo/hypotheses/continental_drag.toml",
+                              "demo/motions.csv", "-o", "out/fit_uncertainty.json",
+                              "--bootstrap", "200", "--monte-carlo", "1000",
+                              "--physics-samples", "20", "--seed", "1"]),
+    ("rank_all.json", ["rank", "demo/world.toml", "demo/motions.csv",
+                       *[f"demo/hypotheses/{h}.toml" for h in (
+                           "boundary_resistance", "continental_drag", "ridge_drag",
+                           "ridge_slab_drag", "slab_drag")], "--json", "out/rank_all.json"]),
 ]
 
 
