@@ -37,13 +37,15 @@ from ..forces.context import Context
 from ..grids import MAX_AGE_MYR, AgeGrid
 from ..hypothesis import hypothesis_from_dict
 from ..io import (load_world, read_continents, write_age_grid, write_boundaries_geojson,
-                  write_feature_collection, write_hypothesis, write_json, write_motions)
+                  write_feature_collection, write_hypothesis, write_json, write_motions,
+                  write_world_file)
 from ..margins import boundary_motion, classify, sample_boundaries
 from ..validate import require_valid
 from ..world import Boundary
 
 BUNDLED = Path(__file__).resolve().parents[2] / "polygons_demo"
 SEED = 20261202
+WORLD_COMMENT = "Orrery: an invented Earth-sized planet for the torque demo. All data synthetic."
 PLATE_NAMES = [
     "Vessane", "Orlum", "Tharrik", "Quessa", "Bruvel", "Ilvane", "Sarpenna",
     "Kelvor", "Nimbril", "Drastel", "Ulmera", "Phaxon", "Corrindel", "Yorrow",
@@ -225,23 +227,71 @@ def write(outdir: Path) -> dict:
               "geometry": {"type": "Polygon", "coordinates": [r]}}
              for i, r in enumerate(continent_rings())]
     write_feature_collection(outdir / "continents.geojson", conts)
-    (outdir / "world.toml").write_text(
-        "# Orrery: an invented Earth-sized planet for the torque demo. All data synthetic.\n"
-        'name = "Orrery"\nradius_km = 6371.0\nplates = "plates.geojson"\n'
-        'continents = "continents.geojson"\n')
+    keys = {"name": "Orrery", "radius_km": 6371.0, "plates": "plates.geojson",
+            "continents": "continents.geojson"}
+    write_world_file(outdir / "world.toml", keys, WORLD_COMMENT)
     world = require_valid(load_world(outdir / "world.toml"))
     continents = read_continents(outdir / "continents.geojson")
     names = world.plate_names
 
-    # continental share of each plate decides, without ages, which side sinks
-    cont_share = (WorldData(world, continents=continents).continental_part.area
-                  / world.geometry.moments[0])
-
     s = seed_motions(len(names))
-    omega = pole_to_vector(s[:, 0], s[:, 1], s[:, 2])
     truth_hyp = hypothesis_from_dict({"force": [
         {**{k: v for k, v in f.items() if k != "bounds"}, "coefficient": TRUE[_label(f)]}
         for f in HYPOTHESES[TRUTH_HYPOTHESIS][1]]})
+    world, ages, omega, history = _settle(world, continents, truth_hyp,
+                                          pole_to_vector(s[:, 0], s[:, 1], s[:, 2]))
+
+    write_boundaries_geojson(outdir / "boundaries.geojson", world.boundaries)
+    write_age_grid(outdir / "ages.nc", ages, "Orrery sea-floor ages (synthetic demo data)")
+    write_world_file(outdir / "world.toml", {**keys, "boundaries": "boundaries.geojson",
+                                             "ages": "ages.nc"}, WORLD_COMMENT)
+
+    rng = np.random.default_rng(SEED + 2)
+    sigma = NOISE_DEG_MYR * np.pi / 180 / 3.15576e13
+    observed = omega + sigma * rng.standard_normal(omega.shape)
+    cov = np.broadcast_to(sigma ** 2 * np.eye(3), (len(names), 3, 3)).copy()
+    write_motions(outdir / "motions.csv", Motions(tuple(names), observed, cov))
+    write_motions(outdir / "true_motions.csv", Motions(tuple(names), omega))
+
+    for key, (title, forces) in HYPOTHESES.items():
+        write_hypothesis(outdir / "hypotheses" / f"{key}.toml", title, forces,
+                         SPREAD if key == TRUTH_HYPOTHESIS else None,
+                         f"Demo hypothesis (synthetic planet): {title}")
+    truth = {
+        "note": "Synthetic demo data. The motions in motions.csv were made by the forward "
+                "model of the hypothesis below from these coefficients, plus Gaussian noise.",
+        "hypothesis": HYPOTHESES[TRUTH_HYPOTHESIS][0],
+        "hypothesis_file": f"hypotheses/{TRUTH_HYPOTHESIS}.toml",
+        "true_coefficients": TRUE,
+        "noise_deg_myr_per_component": NOISE_DEG_MYR,
+        "noise_seed": SEED + 2,
+        "frame": "mantle at rest (the forward model's frame)",
+        "classification_iterations": len(history),
+    }
+    write_json(outdir / "truth.json", truth, end="\n")
+    return truth
+
+
+def _settle(world, continents, truth_hyp, omega):
+    """Boundary kinds, ages and motions that agree with one another.
+
+    Kinds come from the motions (classification), ages from the ridges and spreading rates,
+    motions from the forward model of the true hypothesis; iterated until the kinds repeat
+    (at most six times).
+
+    Returns
+    -------
+    world : World
+        With classified boundaries.
+    ages : AgeGrid
+    omega : ndarray, shape (P, 3)
+        The forward model's Euler vectors, rad/s.
+    history : list of list of str
+        The kinds after each iteration.
+    """
+    # continental share of each plate decides, without ages, which side sinks
+    cont_share = (WorldData(world, continents=continents).continental_part.area
+                  / world.geometry.moments[0])
     ages = None
     history = []
     for _ in range(6):
@@ -268,37 +318,7 @@ def write(outdir: Path) -> dict:
         history.append([b.kind for b in bnd])
         if len(history) > 1 and history[-1] == history[-2]:
             break
-
-    write_boundaries_geojson(outdir / "boundaries.geojson", world.boundaries)
-    write_age_grid(outdir / "ages.nc", ages, "Orrery sea-floor ages (synthetic demo data)")
-    text = (outdir / "world.toml").read_text()
-    (outdir / "world.toml").write_text(text + 'boundaries = "boundaries.geojson"\n'
-                                       'ages = "ages.nc"\n')
-
-    rng = np.random.default_rng(SEED + 2)
-    sigma = NOISE_DEG_MYR * np.pi / 180 / 3.15576e13
-    observed = omega + sigma * rng.standard_normal(omega.shape)
-    cov = np.broadcast_to(sigma ** 2 * np.eye(3), (len(names), 3, 3)).copy()
-    write_motions(outdir / "motions.csv", Motions(tuple(names), observed, cov))
-    write_motions(outdir / "true_motions.csv", Motions(tuple(names), omega))
-
-    for key, (title, forces) in HYPOTHESES.items():
-        write_hypothesis(outdir / "hypotheses" / f"{key}.toml", title, forces,
-                         SPREAD if key == TRUTH_HYPOTHESIS else None,
-                         f"Demo hypothesis (synthetic planet): {title}")
-    truth = {
-        "note": "Synthetic demo data. The motions in motions.csv were made by the forward "
-                "model of the hypothesis below from these coefficients, plus Gaussian noise.",
-        "hypothesis": HYPOTHESES[TRUTH_HYPOTHESIS][0],
-        "hypothesis_file": f"hypotheses/{TRUTH_HYPOTHESIS}.toml",
-        "true_coefficients": TRUE,
-        "noise_deg_myr_per_component": NOISE_DEG_MYR,
-        "noise_seed": SEED + 2,
-        "frame": "mantle at rest (the forward model's frame)",
-        "classification_iterations": len(history),
-    }
-    write_json(outdir / "truth.json", truth, end="\n")
-    return truth
+    return world, ages, omega, history
 
 
 def _label(f):

@@ -46,16 +46,7 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
     dict
         ``outdir``, the ``best`` hypothesis' name and the run time in ``seconds``.
     """
-    outdir = Path(outdir)
-    if outdir.exists() and not outdir.is_dir():
-        raise InputError("exists and is not a folder", file=outdir)
-    check_output_path(outdir / "report.html")     # refuses a folder under a file
-    if outdir.is_dir() and any(outdir.iterdir()) and not force:
-        raise InputError("the folder holds other files; torque demo writes only into an empty "
-                         "folder", file=outdir,
-                         hint="choose a new folder, or pass --force to overwrite torque's own "
-                         "output names there (nothing is ever deleted)")
-    outdir.mkdir(parents=True, exist_ok=True)
+    outdir = _output_folder(outdir, force)
     t0 = time.perf_counter()
     src = BUNDLED
     if not (src / "world.toml").is_file():
@@ -100,18 +91,7 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
     figures = draw_maps(outdir, inputs, motions, outdir / "predicted.csv", best_hyp,
                         outdir / "fits" / f"{best}.json")
 
-    fit = fits[best]
-    summary = [
-        f"{len(fit.plates)} plates on the invented planet Orrery; every number here comes "
-        "from synthetic data made by the forward model (truth.json).",
-        f"best hypothesis: {rows[0]['name']} (RMS velocity misfit "
-        f"{rows[0]['rms_velocity_mm_yr']:.2f} mm/yr, variance reduction "
-        f"{100 * rows[0]['variance_reduction']:.2f} %).",
-        "true coefficients: " + ", ".join(f"{k} {v:g}" for k, v in
-                                          truth["true_coefficients"].items()) + ".",
-        "fitted: " + ", ".join(f"{k} {c.value:.4g} ± {c.stderr:.2g}"
-                               for k, c in fit.coefficients.items() if c.free) + ".",
-    ]
+    summary = _summary(fits[best], rows, truth)
     by_hypothesis = {f.hypothesis: f for f in fits.values()}
     run_info = {"world": "Orrery (synthetic demo)", "summary": summary, "truth": truth,
                 "rank": rows, "fits": {r["name"]: by_hypothesis[r["name"]] for r in rows},
@@ -123,18 +103,52 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
     for line in summary[1:]:
         echo(f"  {line}")
     echo(f"  world and data:   {src}")
-    for name, what in (("check.json", "world check"), ("cooling.csv", "cooling table"),
-                       ("torques.csv", "torques of the best hypothesis"),
-                       ("fits/", "fits of every hypothesis"), ("rank.csv", "ranking"),
-                       ("predicted.csv", "predicted Euler vectors"),
-                       ("field.nc", "velocity field"),
-                       ("boundary_motion.csv", "relative motion along boundaries"),
-                       ("maps/", "maps and charts"), ("report.html", "report (one file)"),
-                       ("report.md", "report summary")):
+    for name, what in WHAT_IS_WHERE:
         echo(f"  {what + ':':<34}{outdir / name}")
     echo("  caution: synthetic data; results of this tool are model-dependent research "
          "estimates, not for hazard or engineering use")
     return {"outdir": str(outdir), "best": rows[0]["name"], "seconds": elapsed}
+
+
+#: What the demo writes where, for its closing lines.
+WHAT_IS_WHERE = (
+    ("check.json", "world check"), ("cooling.csv", "cooling table"),
+    ("torques.csv", "torques of the best hypothesis"), ("fits/", "fits of every hypothesis"),
+    ("rank.csv", "ranking"), ("predicted.csv", "predicted Euler vectors"),
+    ("field.nc", "velocity field"), ("boundary_motion.csv", "relative motion along boundaries"),
+    ("maps/", "maps and charts"), ("report.html", "report (one file)"),
+    ("report.md", "report summary"))
+
+
+def _output_folder(outdir, force: bool) -> Path:
+    """The demo's output folder, made; InputError if it is a file, lies under one, or
+    holds other files (unless ``force``)."""
+    outdir = Path(outdir)
+    if outdir.exists() and not outdir.is_dir():
+        raise InputError("exists and is not a folder", file=outdir)
+    check_output_path(outdir / "report.html")     # refuses a folder under a file
+    if outdir.is_dir() and any(outdir.iterdir()) and not force:
+        raise InputError("the folder holds other files; torque demo writes only into an empty "
+                         "folder", file=outdir,
+                         hint="choose a new folder, or pass --force to overwrite torque's own "
+                         "output names there (nothing is ever deleted)")
+    outdir.mkdir(parents=True, exist_ok=True)
+    return outdir
+
+
+def _summary(fit, rows, truth) -> list:
+    """The report's and the terminal's summary lines: the best fit against the truth."""
+    return [
+        f"{len(fit.plates)} plates on the invented planet Orrery; every number here comes "
+        "from synthetic data made by the forward model (truth.json).",
+        f"best hypothesis: {rows[0]['name']} (RMS velocity misfit "
+        f"{rows[0]['rms_velocity_mm_yr']:.2f} mm/yr, variance reduction "
+        f"{100 * rows[0]['variance_reduction']:.2f} %).",
+        "true coefficients: " + ", ".join(f"{k} {v:g}" for k, v in
+                                          truth["true_coefficients"].items()) + ".",
+        "fitted: " + ", ".join(f"{k} {c.value:.4g} ± {c.stderr:.2g}"
+                               for k, c in fit.coefficients.items() if c.free) + ".",
+    ]
 
 
 def draw_maps(outdir, inputs, motions_path, predicted_path, hyp_path, fit_path) -> list:

@@ -28,7 +28,7 @@ from .hypothesis import hypothesis_toml, load_hypothesis, write_hypothesis
 from .inputs import Inputs, compute_torques
 from .motions import read_motions, write_motions
 from .tables import Table, read_points, read_table, write_csv
-from .world import load_world, world_from_rings
+from .world import load_world, world_from_rings, write_world_file
 
 __all__ = ["Inputs", "Table", "atomic_path", "atomic_write", "compute_torques", "dumps",
            "field_dataset", "hypothesis_toml", "load_hypothesis", "load_world",
@@ -36,4 +36,4 @@ __all__ = ["Inputs", "Table", "atomic_path", "atomic_write", "compute_torques", 
            "read_continents", "read_flow", "read_fit", "read_motions", "read_plates",
            "read_points", "read_table", "read_toml", "world_from_rings", "write_age_grid",
            "write_boundaries_geojson", "write_csv", "write_feature_collection", "write_hypothesis", "write_json",
-           "write_motions", "write_netcdf", "write_points_geojson"]
+           "write_motions", "write_netcdf", "write_points_geojson", "write_world_file"]

@@ -9,7 +9,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..world import EARTH_RADIUS_KM, World, derive_boundaries
-from .files import read_toml
+from .files import atomic_write, read_toml
 from .geojson import plates_from_features, read_boundaries, read_plates
 
 WORLD_KEYS = {
@@ -138,3 +138,24 @@ def world_from_rings(plates: dict, boundaries=(), radius_km: float = EARTH_RADIU
         problems = problems + more
     return World(pl, geometry, bnd, radius_km * 1e3, derived, {}, tuple(problems), name,
                  winding)
+
+
+def write_world_file(path, keys: dict, comment: str | None = None) -> None:
+    """Write a world file (TOML), atomically.
+
+    Parameters
+    ----------
+    path : str or Path
+    keys : dict
+        Keys of :data:`WORLD_KEYS` and their values (strings and numbers), in order.
+    comment : str, optional
+        A first line, written as a TOML comment.
+    """
+    from .hypothesis import toml_value
+    unknown = sorted(set(keys) - set(WORLD_KEYS))
+    if unknown:
+        raise ValueError(f"not world file keys: {unknown}")
+    lines = ([f"# {comment}"] if comment else []) + [f"{k} = {toml_value(v)}"
+                                                     for k, v in keys.items()]
+    with atomic_write(path) as fh:
+        fh.write("\n".join(lines) + "\n")
