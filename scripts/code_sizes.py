@@ -1,7 +1,8 @@
 """Sizes of the package's files and functions (lines), for keeping the edges readable.
 
-Prints the largest files and the largest functions of ``torque/``, and how many public
-functions and classes lack a numpydoc ``Parameters`` (or ``Attributes``) section::
+Prints the largest files (lines) and the largest functions (lines of code, docstring left
+out) of ``torque/``, and how many public functions and classes lack a numpydoc
+``Parameters`` (or ``Attributes``) section::
 
     python scripts/code_sizes.py [--most N]
 """
@@ -46,10 +47,25 @@ def sizes():
         rel = path.relative_to(PACKAGE.parent).as_posix()
         text = path.read_text()
         tree = ast.parse(text)
-        files.append((len(text.splitlines()), rel))
+        lines = text.splitlines()
+        doc_lines = set()
+        for node in ast.walk(tree):
+            body = getattr(node, "body", None)
+            if (isinstance(body, list) and body and isinstance(body[0], ast.Expr)
+                    and isinstance(body[0].value, ast.Constant)
+                    and isinstance(body[0].value.value, str)):
+                doc_lines.update(range(body[0].lineno, body[0].end_lineno + 1))
+        code = sum(1 for i, l in enumerate(lines, 1)
+                   if i not in doc_lines and l.strip() and not l.strip().startswith("#"))
+        files.append((len(lines), code, rel))
         for node in ast.walk(tree):
             if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)):
-                funcs.append((node.end_lineno - node.lineno + 1, f"{rel}:{node.name}"))
+                # lines of code: the docstring does not count
+                first = node.body[0]
+                doc = (first.end_lineno - first.lineno + 1
+                       if isinstance(first, ast.Expr) and isinstance(first.value, ast.Constant)
+                       and isinstance(first.value.value, str) else 0)
+                funcs.append((node.end_lineno - node.lineno + 1 - doc, f"{rel}:{node.name}"))
         for node, name in public_api(tree):
             doc = ast.get_docstring(node) or ""
             if not doc or (needs_parameters(node) and not re.search(
@@ -64,12 +80,13 @@ def main(argv=None):
     ap.add_argument("--undocumented", action="store_true", help="list them")
     args = ap.parse_args(argv)
     files, funcs, undocumented = sizes()
-    print(f"{len(files)} files, {sum(n for n, _ in files)} lines, {len(funcs)} functions; "
+    print(f"{len(files)} files, {sum(f[0] for f in files)} lines ({sum(f[1] for f in files)} of "
+          f"code: no docstrings, comments or blank lines), {len(funcs)} functions; "
           f"{len(undocumented)} public functions and classes without a numpydoc "
           "Parameters/Attributes section")
-    print("largest files:")
-    for n, name in files[:args.most]:
-        print(f"  {n:5d}  {name}")
+    print("largest files (lines, lines of code):")
+    for n, code, name in files[:args.most]:
+        print(f"  {n:5d} {code:5d}  {name}")
     print("largest functions:")
     for n, name in funcs[:args.most]:
         print(f"  {n:5d}  {name}")

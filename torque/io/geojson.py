@@ -236,74 +236,90 @@ def read_boundaries(path, plate_names) -> tuple[list, list]:
         problems.append(Problem(sev, msg, str(path), i, None, lon, lat))
 
     for i, f in enumerate(feats):
-        props, geom = f["properties"], f["geometry"]
-        where = f"feature {i}"
-        kind = props.get("kind")
-        if kind not in BOUNDARY_KINDS:
-            raise InputError(f"kind {kind!r} is not a boundary kind", file=path, where=where,
-                             hint=f"use one of {', '.join(BOUNDARY_KINDS)}")
-        left, right = props.get("left"), props.get("right")
-        if not isinstance(left, str) or not isinstance(right, str):
-            raise InputError("properties.left and properties.right must name the plates on "
-                             "either side", file=path, where=where)
-        ok = True
-        for side, nm in (("left", left), ("right", right)):
-            if nm not in names:
-                add("error", f"{side} plate {nm!r} is not a plate of the world", i)
+        kind, left, right, sub, extra, ok = _boundary_properties(
+            f["properties"], names, path, i, add)
+        for xyz in _line_parts(f["geometry"], path, i, add):
+            if xyz is None:
                 ok = False
-        if left == right:
-            add("error", f"left and right are the same plate {left!r}", i)
-            ok = False
-        sub = props.get("subducting")
-        if kind == "subduction":
-            if sub not in (left, right):
-                add("error", f"a subduction boundary must name its sinking plate in "
-                    f"properties.subducting (one of {left!r}, {right!r}); got {sub!r}", i)
-                ok = False
-        elif sub is not None:
-            add("warning", f"'subducting' is ignored on a {kind} boundary", i)
-            sub = None
-        extra = {k: v for k, v in props.items()
-                 if k not in ("kind", "left", "right", "subducting", "name")}
-        for k, v in extra.items():
-            if not isinstance(v, (int, float)) or isinstance(v, bool) or not np.isfinite(v):
-                raise InputError(f"property {k!r} must be a finite number, got {v!r}",
-                                 file=path, where=where)
-        gtype, coords = geom.get("type"), geom.get("coordinates")
-        if gtype == "LineString":
-            parts = [coords]
-        elif gtype == "MultiLineString":
-            parts = coords
-        else:
-            raise InputError(f"geometry type {gtype!r} is not a boundary line; use LineString "
-                             "or MultiLineString", file=path, where=where)
-        if not isinstance(parts, list) or not parts:
-            raise InputError("line coordinates must be a non-empty list", file=path,
-                             where=where)
-        for part in parts:
-            if not isinstance(part, list):
-                raise InputError("a line must be a list of [lon, lat] positions", file=path,
-                                 where=where)
-            ll = _coords_array(part, path, where)
-            if not _check_coordinates(ll, path, i, None,
-                                      lambda s, m, *a: add(s, m, i)):
-                ok = False
-                continue
-            xyz = sphere.lonlat_to_xyz(ll[:, 0], ll[:, 1])
-            keep = np.r_[True, np.any(np.abs(np.diff(xyz, axis=0)) > 1e-15, axis=1)]
-            xyz = xyz[keep]
-            if len(xyz) < 2:
-                add("error", "a boundary line needs at least 2 distinct vertices", i)
-                ok = False
-                continue
-            if np.any(sphere.dot(xyz[:-1], xyz[1:]) < -1.0 + 1e-12):
-                add("error", "two consecutive vertices are antipodal; insert a vertex "
-                    "between them", i)
-                ok = False
-                continue
-            if ok:
+            elif ok:
                 out.append(Boundary(kind, left, right, xyz, i, sub, extra))
     return out, problems
+
+
+def _boundary_properties(props, names, path, i, add):
+    """Kind, plates, sinking plate and numeric overrides of boundary feature ``i``, and
+    whether they are usable (problems go to ``add``; unreadable ones raise InputError)."""
+    where = f"feature {i}"
+    kind = props.get("kind")
+    if kind not in BOUNDARY_KINDS:
+        raise InputError(f"kind {kind!r} is not a boundary kind", file=path, where=where,
+                         hint=f"use one of {', '.join(BOUNDARY_KINDS)}")
+    left, right = props.get("left"), props.get("right")
+    if not isinstance(left, str) or not isinstance(right, str):
+        raise InputError("properties.left and properties.right must name the plates on "
+                         "either side", file=path, where=where)
+    ok = True
+    for side, nm in (("left", left), ("right", right)):
+        if nm not in names:
+            add("error", f"{side} plate {nm!r} is not a plate of the world", i)
+            ok = False
+    if left == right:
+        add("error", f"left and right are the same plate {left!r}", i)
+        ok = False
+    sub = props.get("subducting")
+    if kind == "subduction":
+        if sub not in (left, right):
+            add("error", f"a subduction boundary must name its sinking plate in "
+                f"properties.subducting (one of {left!r}, {right!r}); got {sub!r}", i)
+            ok = False
+    elif sub is not None:
+        add("warning", f"'subducting' is ignored on a {kind} boundary", i)
+        sub = None
+    extra = {k: v for k, v in props.items()
+             if k not in ("kind", "left", "right", "subducting", "name")}
+    for k, v in extra.items():
+        if not isinstance(v, (int, float)) or isinstance(v, bool) or not np.isfinite(v):
+            raise InputError(f"property {k!r} must be a finite number, got {v!r}",
+                             file=path, where=where)
+    return kind, left, right, sub, extra, ok
+
+
+def _line_parts(geom, path, i, add) -> list:
+    """Unit vectors ``(K, 3)`` of each part of a boundary feature's line, None for a part
+    that cannot be used (the problem goes to ``add``)."""
+    where = f"feature {i}"
+    gtype, coords = geom.get("type"), geom.get("coordinates")
+    if gtype == "LineString":
+        parts = [coords]
+    elif gtype == "MultiLineString":
+        parts = coords
+    else:
+        raise InputError(f"geometry type {gtype!r} is not a boundary line; use LineString "
+                         "or MultiLineString", file=path, where=where)
+    if not isinstance(parts, list) or not parts:
+        raise InputError("line coordinates must be a non-empty list", file=path, where=where)
+    out = []
+    for part in parts:
+        if not isinstance(part, list):
+            raise InputError("a line must be a list of [lon, lat] positions", file=path,
+                             where=where)
+        ll = _coords_array(part, path, where)
+        if not _check_coordinates(ll, path, i, None, lambda s, m, *a: add(s, m, i)):
+            out.append(None)
+            continue
+        xyz = sphere.lonlat_to_xyz(ll[:, 0], ll[:, 1])
+        keep = np.r_[True, np.any(np.abs(np.diff(xyz, axis=0)) > 1e-15, axis=1)]
+        xyz = xyz[keep]
+        if len(xyz) < 2:
+            add("error", "a boundary line needs at least 2 distinct vertices", i)
+            out.append(None)
+        elif np.any(sphere.dot(xyz[:-1], xyz[1:]) < -1.0 + 1e-12):
+            add("error", "two consecutive vertices are antipodal; insert a vertex between "
+                "them", i)
+            out.append(None)
+        else:
+            out.append(xyz)
+    return out
 
 
 def read_continents(path, winding: str = "auto") -> Continents:
