@@ -140,6 +140,9 @@ class BoundarySet:
         Plate index on either side of each line (-1 for a name that is not a plate).
     kind : ndarray of str, shape (L,)
         Kind of each line.
+
+    The arcs' poles and lengths (:attr:`pole`, :attr:`theta`) are computed on first use
+    and kept.
     """
 
     a: np.ndarray
@@ -193,6 +196,16 @@ class BoundarySet:
         return BoundarySet(self.a[keep], self.b[keep], self.line[keep], self.left,
                            self.right, self.kind)
 
+    @cached_property
+    def pole(self) -> np.ndarray:
+        """Unit pole of each arc (pointing into its left plate), shape (E, 3)."""
+        return sphere.arc_pole(self.a, self.b)[0]
+
+    @cached_property
+    def theta(self) -> np.ndarray:
+        """Length of each arc on the unit sphere (radians), shape (E,)."""
+        return sphere.arc_pole(self.a, self.b)[1]
+
     @property
     def arc_left(self) -> np.ndarray:
         """Plate index on the left of each arc, shape (E,)."""
@@ -205,8 +218,7 @@ class BoundarySet:
 
     def length(self) -> np.ndarray:
         """Length of each line on the unit sphere (radians), shape (L,)."""
-        return np.bincount(self.line, weights=sphere.angle_between(self.a, self.b),
-                           minlength=len(self.kind))
+        return np.bincount(self.line, weights=self.theta, minlength=len(self.kind))
 
 
 @dataclass(frozen=True, eq=False)
