@@ -21,7 +21,8 @@ from torque.diagnostics import FitResult, analyse
 from torque.errors import InputError, ModelError
 from torque.euler import RAD_S_PER_DEG_MYR
 from torque.hypothesis import hypothesis_from_dict
-from torque.io import dumps, load_hypothesis, load_world, read_fit, read_motions, write_json
+from torque.maps import MapInputs
+from torque.io import Inputs, dumps, load_hypothesis, load_world, read_fit, read_motions, write_json
 
 from .conftest import here
 
@@ -41,8 +42,12 @@ def demo_fit():
 
 def test_reprs_are_short_and_name_what_matters(demo_fit):
     world, motions, terms, system, report = demo_fit
+    inputs = Inputs.load(DEMO / "world.toml")
     texts = [repr(x) for x in (world, world.geometry, motions, *terms, system, report,
-                               report.preferred)]
+                               report.preferred, report.result(), world.boundary_set,
+                               inputs, inputs.continental_part, MapInputs(inputs, motions.omega),
+                               inputs.context(load_hypothesis(DEMO / "hypotheses" /
+                                                              "ridge_drag.toml")))]
     for t in texts:
         assert len(t) < 300 and "array(" not in t, t
     assert "14 plates" in repr(world) and "'Orrery'" in repr(world)

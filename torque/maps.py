@@ -424,6 +424,11 @@ class MapInputs:
     fit_path: str | None = None
     hypothesis: object = None
 
+    def __repr__(self) -> str:
+        given = [k for k in ("observed", "predicted", "fit", "hypothesis")
+                 if getattr(self, k) is not None]
+        return f"MapInputs({self.inputs!r}, given: {', '.join(given) or 'none'})"
+
     @property
     def world(self):
         """The world."""

@@ -98,6 +98,9 @@ class Problem:
     terms: list
     system: object
 
+    def __repr__(self) -> str:
+        return f"Problem({self.system!r}, motions {'given' if self.omega is not None else 'none'})"
+
     @classmethod
     def build(cls, data, hypothesis, motions=None) -> "Problem":
         """Build every term of ``hypothesis`` on the inputs ``data``.
