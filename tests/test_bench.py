@@ -26,7 +26,7 @@ def test_synthetic_world_passes_check(tmp_path):
     bench = _bench()
     import synthetic_world as sw
 
-    from torque.validate import check_world
+    from torque import check_world   # reads the continents file too
     from torque.io import load_world
     world = sw.world(12, 2_000)
     path = bench.write_world(world, sw.ages(4.0), sw.flow(6.0), sw.continents(), tmp_path)

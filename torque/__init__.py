@@ -20,12 +20,11 @@ from .diagnostics import FitResult, analyse
 from .errors import InputError, ModelError
 from .euler import Motions, to_no_net_rotation, velocity_field
 from .hypothesis import hypothesis_from_dict
-from .io import (Inputs, compute_torques, load_hypothesis, load_world, read_motions,
-                 world_from_rings, write_motions)
+from .io import (Inputs, check_world, compute_torques, load_hypothesis, load_world,
+                 read_motions, world_from_rings, write_motions)
 from .lithosphere import Cooling, Physics
 from .locate import PlateLocator
 from .rank import rank
-from .validate import check_world
 from .world import Boundary, Plate, World
 
 __all__ = ["Boundary", "Cooling", "FIT_METHODS", "FitResult", "Inputs", "InputError",

@@ -68,8 +68,8 @@ def plate_colours(world) -> list:
     """
     n = len(world.plates)
     nbr = [set() for _ in range(n)]
-    for b in world.boundaries:
-        i, j = world.plate_index[b.left], world.plate_index[b.right]
+    bs = world.boundary_set
+    for i, j in zip(bs.left.tolist(), bs.right.tolist()):
         nbr[i].add(j)
         nbr[j].add(i)
     colour = [-1] * n

@@ -84,8 +84,10 @@ def synthesise_ages(ctx):
     w = samples.length
     age = grid.age_myr
     notes = []
+    bs = sub.boundary_set
+    left, right = bs.left[samples.line], bs.right[samples.line]
     for p in world.plates:
-        mine = np.array([b.left == p.name or b.right == p.name for b in bnd])[samples.line]
+        mine = (left == p.index) | (right == p.index)
         if not mine.any():
             notes.append(f"{p.name}: no ridge, no synthesised age")
             continue

@@ -25,12 +25,13 @@ from .geojson import (read_boundaries, read_continents, read_plates, write_bound
                       write_feature_collection, write_points_geojson)
 from .grids import (field_dataset, read_ages, read_flow, write_age_grid, write_netcdf)
 from .hypothesis import hypothesis_toml, load_hypothesis, write_hypothesis
-from .inputs import Inputs, compute_torques
+from .inputs import Inputs, check_world, compute_torques
 from .motions import read_motions, write_motions
 from .tables import Table, read_points, read_table, write_csv
 from .world import load_world, world_from_rings, write_world_file
 
-__all__ = ["Inputs", "Table", "atomic_path", "atomic_write", "compute_torques", "dumps",
+__all__ = ["Inputs", "Table", "atomic_path", "atomic_write", "check_world", "compute_torques",
+           "dumps",
            "field_dataset", "hypothesis_toml", "load_hypothesis", "load_world",
            "output_suffix", "read_ages", "read_boundaries", "read_coefficients",
            "read_continents", "read_flow", "read_fit", "read_motions", "read_plates",

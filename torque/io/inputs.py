@@ -13,6 +13,7 @@ from pathlib import Path
 from ..data import WorldData
 from ..forces import build_terms
 from ..forces.context import Context
+from ..validate import check_world as _check_world
 from ..validate import require_valid
 from .geojson import read_continents
 from .grids import read_ages, read_flow
@@ -123,3 +124,20 @@ def compute_torques(world, hypothesis, omega=None, **data) -> list:
     if not isinstance(world, WorldData):
         world = Inputs(world, **data)
     return build_terms(Context(world, hypothesis, omega))
+
+
+def check_world(world):
+    """Run every check on a world, reading its continents file if it names one.
+
+    Parameters
+    ----------
+    world : World or WorldData
+        A bare world is wrapped in :class:`Inputs`, so that the continents its ``paths``
+        name are read and checked too (:func:`torque.validate.check_world` itself reads no
+        file).
+
+    Returns
+    -------
+    CheckReport
+    """
+    return _check_world(world if isinstance(world, WorldData) else Inputs(world))
