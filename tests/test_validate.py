@@ -34,24 +34,6 @@ def test_check_json_has_the_contract_keys(voronoi_world_file, cli):
     assert d["boundaries"]["derived"] is True
 
 
-def test_derived_boundaries_are_the_shared_edges(voronoi_world_file):
-    # A Voronoi tiling of n cells has 3n - 6 edges (Euler's formula, V - E + F = 2 with
-    # every vertex of degree 3); each is shared by exactly two cells.
-    path, _ = voronoi_world_file
-    w = load_world(path)
-    assert len(w.boundaries) == 3 * 12 - 6
-    pairs = {frozenset((b.left, b.right)) for b in w.boundaries}
-    assert len(pairs) == len(w.boundaries)
-    # walking each line as written, its left plate is on the left
-    for b in w.boundaries:
-        n, theta = sphere.arc_pole(b.xyz[0], b.xyz[1])
-        m = sphere.slerp_points(b.xyz[0], b.xyz[1], 0.5)
-        off = 0.01 * theta
-        got = w.locate_xyz(np.stack([np.cos(off) * m + np.sin(off) * n,
-                                     np.cos(off) * m - np.sin(off) * n]))
-        assert [w.plates[i].name for i in got] == [b.left, b.right]
-
-
 def test_human_summary(voronoi_world_file, cli):
     path, _ = voronoi_world_file
     status, out, _ = cli("check", path)

@@ -187,7 +187,7 @@ def step_toward(xyz, tangent, angle) -> np.ndarray:
         Unit vectors.
     tangent : array_like, shape (..., 3)
         Unit vectors perpendicular to ``xyz``.
-    angle : float or array_like
+    angle : float or array_like, shape (...)
         Radians on the unit sphere (distance / radius).
 
     Returns
@@ -201,6 +201,7 @@ def step_toward(xyz, tangent, angle) -> np.ndarray:
     >>> np.round(p, 12).tolist()
     [0.0, 0.0, 1.0]
     """
+    angle = np.asarray(angle, float)[..., None]      # one angle per point, or one for all
     return np.cos(angle) * np.asarray(xyz, float) + np.sin(angle) * np.asarray(tangent, float)
 
 

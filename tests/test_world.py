@@ -1,0 +1,67 @@
+"""The data model: derived boundaries, the columnar BoundarySet, ring orientation.
+
+Sources: Euler's formula for a polyhedral tiling of the sphere (V - E + F = 2); line
+lengths from GeographicLib through pyproj.Geod (Karney 2013, J. Geodesy 87).
+"""
+
+import numpy as np
+import pytest
+from pyproj import Geod
+
+from torque import sphere
+from torque.io import load_world
+from torque.world import BoundarySet, as_written
+
+from .worlds import voronoi_world
+
+
+def test_derived_boundaries_are_the_shared_edges(voronoi_world_file):
+    # A Voronoi tiling of n cells has 3n - 6 edges (Euler's formula, V - E + F = 2 with
+    # every vertex of degree 3); each is shared by exactly two cells.
+    path, _ = voronoi_world_file
+    w = load_world(path)
+    assert len(w.boundaries) == 3 * 12 - 6
+    pairs = {frozenset((b.left, b.right)) for b in w.boundaries}
+    assert len(pairs) == len(w.boundaries)
+    # walking each line as written, its left plate is on the left
+    for b in w.boundaries:
+        n, theta = sphere.arc_pole(b.xyz[0], b.xyz[1])
+        m = sphere.slerp_points(b.xyz[0], b.xyz[1], 0.5)
+        off = 0.01 * theta
+        got = w.locate_xyz(np.stack([np.cos(off) * m + np.sin(off) * n,
+                                     np.cos(off) * m - np.sin(off) * n]))
+        assert [w.plates[i].name for i in got] == [b.left, b.right]
+
+
+def test_boundary_set_holds_every_arc_once_with_its_plates():
+    w = voronoi_world(12, 3)
+    bs = w.boundary_set
+    assert len(bs.kind) == len(w.boundaries)
+    assert len(bs.line) == sum(len(b.xyz) - 1 for b in w.boundaries)
+    names = np.array(w.plate_names)
+    assert names[bs.left].tolist() == [b.left for b in w.boundaries]
+    assert names[bs.right].tolist() == [b.right for b in w.boundaries]
+    # line lengths against GeographicLib on a unit sphere
+    geod = Geod(a=1.0, b=1.0)
+    for k, b in enumerate(w.boundaries):
+        lon, lat = sphere.xyz_to_lonlat(b.xyz)
+        _, _, d = geod.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
+        assert bs.length()[k] == pytest.approx(d.sum(), rel=1e-12)
+    # every arc's pole points into its left plate
+    mid = sphere.slerp_points(bs.a, bs.b, 0.5)
+    got = w.locate_xyz(sphere.step_toward(mid, bs.pole, 0.01 * bs.theta))
+    assert np.array_equal(got, bs.arc_left)
+    sub = bs.of_kind("unclassified")
+    assert len(sub.line) == len(bs.line) and len(bs.of_kind("ridge").line) == 0
+    empty = BoundarySet.from_boundaries((), {})
+    assert len(empty.line) == 0 and empty.length().shape == (0,)
+
+
+def test_as_written_undoes_the_automatic_winding():
+    # a plate written clockwise (against RFC 7946) is turned round under "auto"; the
+    # rings as written are those of the file again
+    w = voronoi_world(6, 1)
+    g = w.geometry
+    assert g.ring_reversed is not None
+    back = as_written(g)
+    assert np.array_equal(back.xyz, g.xyz) == (not g.ring_reversed.any())
