@@ -237,6 +237,9 @@ class PlateGeometry:
         Rings that ``winding = "auto"`` walks the other way from the file (None: unknown,
         or none reversed). Kept so that a failed tiling can say whether the rings as
         written would have tiled.
+    spike_xyz : ndarray, shape (K, 3), optional
+        Vertices of zero-width spikes removed from the outlines (see
+        :func:`remove_spikes`), so that boundary lines along them can be trimmed.
     """
 
     xyz: np.ndarray
@@ -246,6 +249,7 @@ class PlateGeometry:
     ring_polygon: np.ndarray
     n_plates: int
     ring_reversed: np.ndarray | None = None
+    spike_xyz: np.ndarray | None = None
 
     def __repr__(self) -> str:
         return (f"PlateGeometry({self.n_plates} plates, {len(self.ring_start) - 1} rings, "
@@ -404,6 +408,85 @@ class World:
         return [p for p in self.problems if p.severity == "error"]
 
 
+#: Two vertices closer than this (radians, about 6 mm on the Earth) are the same vertex when
+#: an outline is checked for zero-width spikes.
+SAME_VERTEX_RAD = 1e-9
+
+
+def remove_spikes(xyz, tol_rad: float = SAME_VERTEX_RAD):
+    """Remove zero-width spikes from a ring: stretches where it runs out along some arcs and
+    straight back along the same arcs (A -> B -> A), as digitised outlines sometimes do.
+
+    A spike encloses no area, but its two sides are boundary for line forces and its
+    retraced arcs cross one another to rounding, so it is taken out: every apex ``B`` of an
+    ``A -> B -> A`` turn is removed together with the repeated ``A``, repeatedly, so a spike
+    of several arcs goes entirely. Repeated consecutive vertices go too.
+
+    Parameters
+    ----------
+    xyz : ndarray, shape (n, 3)
+        Unit vectors of a ring without its closing vertex.
+    tol_rad : float
+        Vertices closer than this are the same.
+
+    Returns
+    -------
+    kept : ndarray of int, shape (m,)
+        Indices into ``xyz`` of the vertices that remain, in order.
+    apexes : list of int
+        Indices of the spikes' removed tips, in order of removal.
+    length_rad : float
+        Length of the outline removed (both sides of every spike), radians.
+
+    Examples
+    --------
+    A square with a two-arc spike out of its first corner:
+
+    >>> ll = [(0, 0), (1, 1), (2, 2), (1, 1), (0, 0), (10, 0), (10, 10), (0, 10)]
+    >>> kept, apexes, _ = remove_spikes(sphere.lonlat_to_xyz(*np.array(ll, float).T))
+    >>> kept.tolist(), apexes
+    ([0, 5, 6, 7], [2, 1])
+    """
+    xyz = np.asarray(xyz, float)
+    n = len(xyz)
+    tol2 = tol_rad ** 2          # on chords: cos(1e-9) is 1 to double precision
+
+    def same(i, j):
+        d = xyz[i] - xyz[j]
+        return float(d @ d) <= tol2
+
+    nxt = np.roll(np.arange(n), -1)
+    prv = np.roll(np.arange(n), 1)
+    if not (np.any(np.sum((xyz[prv] - xyz[nxt]) ** 2, axis=1) <= tol2)
+            or np.any(np.sum((xyz - xyz[nxt]) ** 2, axis=1) <= tol2)):
+        return np.arange(n), [], 0.0             # the common case: nothing to do
+    out, apexes, length = [], [], 0.0
+    for k in range(n):           # a stack walk, only for the rare ring that has a spike
+        if out and same(out[-1], k):
+            continue
+        if len(out) >= 2 and same(out[-2], k):
+            apex = out.pop()
+            apexes.append(apex)
+            length += 2.0 * float(sphere.angle_between(xyz[apex], xyz[k]))
+            continue
+        out.append(k)
+    changed = True
+    while changed and len(out) >= 3:             # the ring closes: look across the seam
+        if same(out[-1], out[0]):
+            out.pop()
+        elif same(out[-2], out[0]):
+            apex = out.pop()
+            apexes.append(apex)
+            length += 2.0 * float(sphere.angle_between(xyz[apex], xyz[out[0]]))
+        elif same(out[-1], out[1]):
+            apex = out.pop(0)
+            apexes.append(apex)
+            length += 2.0 * float(sphere.angle_between(xyz[apex], xyz[out[0]]))
+        else:
+            changed = False
+    return np.array(out, dtype=np.int64), apexes, length
+
+
 # Two regions whose areas differ by less than this (steradians, about 0.5 km^2 on the
 # Earth) are a tie: an exact hemisphere, for which "the smaller region" is rounding noise.
 WINDING_TIE_SR = 1e-8
@@ -433,7 +516,7 @@ def _orient(rings, is_hole, winding):
 
 
 def geometry_from_rings(rings, ring_plate, ring_is_hole, ring_polygon, n_plates: int,
-                        winding: str = "auto") -> PlateGeometry:
+                        winding: str = "auto", spike_xyz=None) -> PlateGeometry:
     """Orient rings and concatenate them into a :class:`PlateGeometry`.
 
     Parameters
@@ -446,6 +529,8 @@ def geometry_from_rings(rings, ring_plate, ring_is_hole, ring_polygon, n_plates:
     n_plates : int
     winding : {"auto", "strict"}
         How to read each ring's orientation (see :func:`_orient`).
+    spike_xyz : ndarray, shape (K, 3), optional
+        Vertices of spikes removed from the rings.
 
     Returns
     -------
@@ -457,7 +542,47 @@ def geometry_from_rings(rings, ring_plate, ring_is_hole, ring_polygon, n_plates:
     ring_start = np.r_[0, np.cumsum([len(r) for r in rings])].astype(np.int64)
     return PlateGeometry(xyz, ring_start, np.asarray(ring_plate, dtype=np.int64),
                          np.asarray(ring_is_hole, dtype=bool),
-                         np.asarray(ring_polygon, np.int64), n_plates, flipped)
+                         np.asarray(ring_polygon, np.int64), n_plates, flipped,
+                         None if spike_xyz is None or not len(spike_xyz)
+                         else np.asarray(spike_xyz, float).reshape(-1, 3))
+
+
+def trim_along_spikes(boundaries, spike_xyz, tol_rad: float = SAME_VERTEX_RAD):
+    """Boundary lines without the vertices that ran along removed outline spikes.
+
+    Parameters
+    ----------
+    boundaries : sequence of Boundary
+    spike_xyz : ndarray, shape (K, 3)
+        Removed spike vertices (``PlateGeometry.spike_xyz``).
+    tol_rad : float
+
+    Returns
+    -------
+    boundaries : list of Boundary
+        Lines with fewer than 2 vertices left are dropped.
+    trimmed : list of (int, int)
+        For every line changed, its index and how many vertices went.
+    """
+    if spike_xyz is None or not len(spike_xyz):
+        return list(boundaries), []
+    tol2 = tol_rad ** 2          # on chords, as in remove_spikes
+    out, trimmed = [], []
+    for k, b in enumerate(boundaries):
+        d2 = np.sum((b.xyz[:, None, :] - spike_xyz[None, :, :]) ** 2, axis=2)
+        on_spike = np.any(d2 <= tol2, axis=1)
+        if not on_spike.any():
+            out.append(b)
+            continue
+        xyz = b.xyz[~on_spike]
+        if len(xyz):
+            keep = np.r_[True, np.sum((xyz[1:] - xyz[:-1]) ** 2, axis=1) > tol2]
+            xyz = xyz[keep]
+        trimmed.append((k, int(on_spike.sum())))
+        if len(xyz) >= 2:
+            out.append(Boundary(b.kind, b.left, b.right, xyz, b.feature, b.subducting,
+                                dict(b.properties)))
+    return out, trimmed
 
 
 def as_written(geometry: PlateGeometry) -> PlateGeometry:
@@ -479,7 +604,7 @@ def as_written(geometry: PlateGeometry) -> PlateGeometry:
     for r in np.nonzero(rev)[0]:
         xyz[s[r]:s[r + 1]] = xyz[s[r]:s[r + 1]][::-1]
     return PlateGeometry(xyz, s, geometry.ring_plate, geometry.ring_is_hole,
-                         geometry.ring_polygon, geometry.n_plates)
+                         geometry.ring_polygon, geometry.n_plates, None, geometry.spike_xyz)
 
 
 def derive_boundaries(geometry: PlateGeometry, plate_names) -> tuple[list, list]:

@@ -17,18 +17,21 @@ from __future__ import annotations
 import numpy as np
 
 from .. import sphere
-from ..errors import InputError
 from .base import ForceTerm, empty_term
 
 KIND = "slab"
 UNIT = "1"
 KEYS = {
     "depth_km": "depth reached by the slab, km (default 660)",
-    "age_myr": "slab age at the trench, Myr, where neither the line nor the age field says",
+    "age_myr": "slab age at the trench, Myr, where neither the line nor the age field says "
+               "(default 60)",
     "force_per_length": "N/m: overrides the cooling model's slab buoyancy",
 }
 POSITIVE = ("depth_km", "age_myr", "force_per_length")
 DEFAULT_DEPTH_KM = 660.0
+#: Slab age (Myr) where neither the line, the age field nor the entry gives one: about the
+#: mean age of sea floor entering trenches today (common practice, no source; from memory).
+DEFAULT_AGE_MYR = 60.0
 
 
 def default_label(options) -> str:
@@ -72,7 +75,7 @@ def trench_geometry(ctx, label):
     return pcs, sub_left, sinking, overriding
 
 
-def slab_buoyancy(ctx, spec, pcs, sub_left) -> tuple[np.ndarray, list]:
+def slab_buoyancy(ctx, spec, pcs, sub_left, sinking) -> tuple[np.ndarray, list]:
     """Force per metre of trench (N/m) on every piece, and notes.
 
     Parameters
@@ -83,6 +86,8 @@ def slab_buoyancy(ctx, spec, pcs, sub_left) -> tuple[np.ndarray, list]:
     pcs : Pieces
         Of the subduction lines.
     sub_left : ndarray of bool, shape (N,)
+    sinking : ndarray of int, shape (N,)
+        The sinking plate at each piece (named in the notes).
 
     Returns
     -------
@@ -108,19 +113,28 @@ def slab_buoyancy(ctx, spec, pcs, sub_left) -> tuple[np.ndarray, list]:
         lon, lat = sphere.xyz_to_lonlat(probe)
         age = np.where(need, grid.sample(lon, lat), age)
         need = ~np.isfinite(age)
-    if need.any() and "age_myr" in spec.options:
-        age = np.where(need, float(spec.options["age_myr"]), age)
-        notes.append(f"{spec.label}: entry age {spec.options['age_myr']:g} Myr used on "
-                     f"{int(need.sum())} of {len(age)} trench pieces")
-        need = ~np.isfinite(age)
     if need.any():
-        k = int(pcs.line[np.nonzero(need)[0][0]])
-        raise InputError(f"no slab age for subduction line {k} (feature "
-                         f"{bnd[k].feature}): no 'slab_age_myr' on the line, no age in the "
-                         f"age field there, and no 'age_myr' in the {spec.label!r} entry",
-                         file=ctx.hypothesis.source,
-                         hint="give one of these, or 'force_per_length'")
+        entry = float(spec.options.get("age_myr", DEFAULT_AGE_MYR))
+        age = np.where(need, entry, age)
+        names = np.array(ctx.world.plate_names, dtype=object)[np.unique(sinking[need])]
+        shown = ", ".join(names[:6]) + (f" and {len(names) - 6} more" if len(names) > 6 else "")
+        notes.append(f"{spec.label}: {'entry' if 'age_myr' in spec.options else 'default'} "
+                     f"age {entry:g} Myr used on {int(need.sum())} of {len(age)} trench "
+                     f"pieces, where {_why_no_age(ctx, grid)} (sinking plate(s) {shown})")
     return ctx.cooling.slab_pull_lookup(age, depth), notes
+
+
+def _why_no_age(ctx, grid) -> str:
+    """Why the age field gives no age at a trench, in words."""
+    if ctx.data.ages is not None:
+        return (f"the age grid has no age {ctx.TRENCH_PROBE_KM:g} km inside the sinking plate "
+                "(continental or outside its ocean)")
+    if grid is not None:
+        return ("ages are synthesised from ridges and the sinking plate has no opening ridge "
+                "(or none near)")
+    if ctx.omega is None:
+        return "the world has no age grid, and no motions were given to synthesise ages"
+    return "the world has no age grid and no ridges to synthesise ages from"
 
 
 def build(ctx, spec) -> ForceTerm:
@@ -137,7 +151,7 @@ def build(ctx, spec) -> ForceTerm:
     ForceTerm
     """
     pcs, sub_left, sinking, _ = trench_geometry(ctx, spec.label)
-    F, notes = slab_buoyancy(ctx, spec, pcs, sub_left)
+    F, notes = slab_buoyancy(ctx, spec, pcs, sub_left, sinking)
     # n points into the left plate; toward the overriding plate is -n if the left one sinks
     sign = np.where(sub_left, -1.0, 1.0)
     term = empty_term(ctx, spec, UNIT, notes)

@@ -47,8 +47,8 @@ def build(ctx, spec) -> ForceTerm:
     -------
     ForceTerm
     """
-    pcs, sub_left, _, overriding = trench_geometry(ctx, spec.label)
-    F, notes = slab_buoyancy(ctx, spec, pcs, sub_left)
+    pcs, sub_left, sinking, overriding = trench_geometry(ctx, spec.label)
+    F, notes = slab_buoyancy(ctx, spec, pcs, sub_left, sinking)
     # toward the sinking plate: +n if it is on the left
     sign = np.where(sub_left, 1.0, -1.0)
     term = empty_term(ctx, spec, UNIT, notes)

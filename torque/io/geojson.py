@@ -17,7 +17,8 @@ from .. import sphere
 from ..continents import Continents
 from ..errors import InputError
 from ..locate import PlateLocator
-from ..world import BOUNDARY_KINDS, Boundary, Plate, Problem, geometry_from_rings
+from ..world import (BOUNDARY_KINDS, EARTH_RADIUS_KM, Boundary, Plate, Problem,
+                     geometry_from_rings, remove_spikes)
 from .files import atomic_write, read_json
 
 
@@ -89,7 +90,7 @@ def _check_coordinates(lonlat, path, i, name, add) -> bool:
     return True
 
 
-def _clean_ring(lonlat, path, i, name, add):
+def _clean_ring(lonlat, path, i, name, add, spikes=None):
     """Unit vectors of a ring without its closing vertex and repeated vertices, or None."""
     xyz = sphere.lonlat_to_xyz(lonlat[:, 0], lonlat[:, 1])
     # Points at a pole are the same whatever their longitude.
@@ -97,6 +98,15 @@ def _clean_ring(lonlat, path, i, name, add):
     xyz, ll = xyz[keep], lonlat[keep]
     if len(xyz) > 1 and np.all(np.abs(xyz[0] - xyz[-1]) <= 1e-15):
         xyz, ll = xyz[:-1], ll[:-1]
+    kept, apexes, length = remove_spikes(xyz)
+    if apexes:
+        add("warning", f"a zero-width spike was removed: the outline ran out and back along "
+            f"the same {len(apexes)} arc(s) (about {length * EARTH_RADIUS_KM:,.0f} km of outline "
+            "on an Earth-sized sphere, no area); boundary lines along it are trimmed", i, name,
+            *ll[apexes[0]])
+        if spikes is not None:
+            spikes.append(xyz[apexes])
+        xyz, ll = xyz[kept], ll[kept]
     if len(xyz) < 3:
         add("error", f"a ring has {len(xyz)} distinct vertices; a polygon needs at least 3",
             i, name, *(lonlat[0] if len(lonlat) else (None, None)))
@@ -157,6 +167,7 @@ def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"
                                 None if lon is None else float(lon),
                                 None if lat is None else float(lat)))
 
+    spikes: list = []
     plates, seen = [], {}
     rings, ring_plate, ring_hole, ring_poly = [], [], [], []
     n_poly = 0
@@ -193,7 +204,7 @@ def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"
                 ll = _coords_array(ring, path, f"feature {i} (plate {name!r})")
                 if not _check_coordinates(ll, path, i, name, add):
                     continue
-                xyz = _clean_ring(ll, path, i, name, add)
+                xyz = _clean_ring(ll, path, i, name, add, spikes)
                 if xyz is None:
                     continue
                 rings.append(xyz)
@@ -209,8 +220,17 @@ def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"
         raise InputError(f"no usable {noun} polygon in the file"
                          + (f": {detail}" if detail else ""), file=path)
     geometry = geometry_from_rings(rings, ring_plate, ring_hole, ring_poly, len(plates),
-                                   winding)
+                                   winding, np.concatenate(spikes) if spikes else None)
     return tuple(plates), geometry, problems
+
+
+#: The properties of a boundary line that the tool interprets (per-line overrides); any other
+#: property (a name, a class code of the source) is kept and passed through to outputs.
+NUMERIC_LINE_KEYS = {
+    "slab_depth_km": "depth the slab reaches, km (slab pull and suction)",
+    "slab_age_myr": "age of the sinking plate at the trench, Myr",
+    "ridge_age_myr": "age at which the edge form of ridge push is evaluated, Myr",
+}
 
 
 def read_boundaries(path, plate_names) -> tuple[list, list]:
@@ -275,12 +295,15 @@ def _boundary_properties(props, names, path, i, add):
     elif sub is not None:
         add("warning", f"'subducting' is ignored on a {kind} boundary", i)
         sub = None
-    extra = {k: v for k, v in props.items()
-             if k not in ("kind", "left", "right", "subducting", "name")}
-    for k, v in extra.items():
-        if not isinstance(v, (int, float)) or isinstance(v, bool) or not np.isfinite(v):
-            raise InputError(f"property {k!r} must be a finite number, got {v!r}",
-                             file=path, where=where)
+    # every other property passes through to outputs; only the documented numeric
+    # overrides are interpreted, and checked
+    extra = {k: v for k, v in props.items() if k not in ("kind", "left", "right", "subducting")}
+    for k in NUMERIC_LINE_KEYS:
+        v = extra.get(k)
+        if v is not None and (not isinstance(v, (int, float)) or isinstance(v, bool)
+                              or not np.isfinite(v) or v <= 0):
+            raise InputError(f"property {k!r} must be a positive number, got {v!r}",
+                             file=path, where=where, hint=NUMERIC_LINE_KEYS[k])
     return kind, left, right, sub, extra, ok
 
 

@@ -8,7 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
-from ..world import EARTH_RADIUS_KM, World, derive_boundaries
+from ..world import EARTH_RADIUS_KM, Problem, World, derive_boundaries, trim_along_spikes
 from .files import atomic_write, read_toml
 from .geojson import plates_from_features, read_boundaries, read_plates
 
@@ -87,6 +87,13 @@ def load_world(path) -> World:
     names = [p.name for p in plates]
     if "boundaries" in paths:
         boundaries, more = read_boundaries(paths["boundaries"], names)
+        features = [b.feature for b in boundaries]
+        boundaries, trimmed = trim_along_spikes(boundaries, geometry.spike_xyz)
+        left = {b.feature for b in boundaries}
+        more += [Problem("warning", f"{n} vertex(es) that ran along a removed outline spike "
+                         "were trimmed from this line"
+                         + ("" if features[k] in left else "; nothing of it is left"),
+                         paths["boundaries"], features[k]) for k, n in trimmed]
         derived = False
     else:
         boundaries, more = derive_boundaries(geometry, names)
