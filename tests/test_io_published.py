@@ -102,3 +102,19 @@ def test_a_slab_without_any_age_takes_the_default_and_says_why():
         {"force": [{"kind": "slab", "age_myr": 60.0}]}))
     np.testing.assert_array_equal(term.driving, given.driving)
     assert "entry age 60 Myr" in given.notes[0]
+
+
+def test_motions_relative_to_a_fixed_plate_are_flagged(tmp_path, cli):
+    # published motions often hold one plate fixed; drag needs the mantle's frame
+    from .conftest import here
+    demo = here().parent / "polygons_demo"
+    rel = tmp_path / "rel.csv"
+    assert cli("frame", demo / "motions.csv", "--world", demo / "world.toml",
+               "--to", "plate:Vessane", "-o", rel)[0] == 0
+    hyp = demo / "hypotheses" / "ridge_drag.toml"
+    status, _, err = cli("fit", demo / "world.toml", hyp, rel, "-o", tmp_path / "f.json")
+    assert status == 0
+    assert "plate 'Vessane' is exactly at rest" in err and "torque frame --to nnr" in err
+    status, _, err = cli("fit", demo / "world.toml", hyp, demo / "motions.csv",
+                         "-o", tmp_path / "g.json")
+    assert status == 0 and "at rest" not in err

@@ -45,10 +45,12 @@ References
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import linalg, optimize
+from threadpoolctl import threadpool_limits
 
 from .errors import InputError, ModelError
 
@@ -478,6 +480,39 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None) -> Fit:
     active = tuple(free_labels[i] for i in np.nonzero(res.active_mask)[0])
     return Fit(system, "velocity", values, stderr, cov, rss, dof, active,
                {"evaluations": int(res.nfev), "status": int(res.status)})
+
+
+def small_solves():
+    """A context in which BLAS runs on one thread.
+
+    The balance solves many small dense systems (3P x 3P, a few hundred rows): threads cost
+    more than they give there, and on a busy machine a threaded BLAS can take a hundred
+    times longer per solve. Fits, predictions, ranking and resampling run inside this.
+
+    Returns
+    -------
+    threadpoolctl.threadpool_limits
+        A context manager.
+    """
+    return threadpool_limits(limits=1, user_api="blas")
+
+
+def on_one_blas_thread(func):
+    """Decorate a function to run inside :func:`small_solves`.
+
+    Parameters
+    ----------
+    func : callable
+
+    Returns
+    -------
+    callable
+    """
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        with small_solves():
+            return func(*args, **kwargs)
+    return wrapper
 
 
 # ----------------------------------------------------------------------------------------

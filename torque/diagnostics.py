@@ -24,7 +24,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-from .balance import FIT_METHODS, PREFERRED_FIT, Fit, System, predict
+from .balance import FIT_METHODS, PREFERRED_FIT, Fit, System, on_one_blas_thread, predict
 from .errors import InputError
 from .euler import M_S_TO_MM_YR, RAD_S_PER_DEG_MYR, vector_to_pole
 
@@ -519,6 +519,7 @@ class Report:
                          self.preferred_fit)
 
 
+@on_one_blas_thread
 def analyse(system: System, omega_obs, weighting: str = "velocity",
             methods=None) -> Report:
     """Fit a hypothesis by every fit method, predict, and propagate the uncertainty.

@@ -364,6 +364,12 @@ class Motions:
             cov = 0.5 * (cov + np.swapaxes(cov, 1, 2))
         return self.with_omega(omega, cov)
 
+    @property
+    def plates_at_rest(self) -> list:
+        """Plates whose Euler vector is exactly zero: motions given relative to a fixed plate
+        have one (a frame where the mantle is at rest almost never has)."""
+        return [p for p, w in zip(self.plates, self.omega) if not np.any(w)]
+
     def relative_to(self, plate: str) -> "Motions":
         """Motions in the frame where ``plate`` is fixed.
 

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .balance import System, fit_torque, predict
+from .balance import System, fit_torque, on_one_blas_thread, predict
 from .diagnostics import analyse, f_test, information_criteria, velocity_misfit
 from .errors import InputError
 
@@ -81,6 +81,7 @@ def cross_validation(system: System, omega_obs, weighting="velocity") -> float:
     return float(np.sqrt(sq / area))
 
 
+@on_one_blas_thread
 def rank(systems, omega_obs, weighting="velocity"):
     """Fit every hypothesis and rank them.
 

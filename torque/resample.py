@@ -13,7 +13,7 @@ import dataclasses
 import numpy as np
 from scipy import optimize
 
-from .balance import System, fit_torque, plate_weights
+from .balance import System, fit_torque, on_one_blas_thread, plate_weights
 from .errors import InputError
 
 PERCENTILES = (2.5, 50.0, 97.5)
@@ -39,6 +39,7 @@ def _progress(n, desc):
     return tqdm(total=n, desc=desc, disable=None if n >= 200 else True, leave=False)
 
 
+@on_one_blas_thread
 def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
               weighting: str = "velocity") -> dict:
     """Refit on ``n`` sets of plates drawn with replacement.
@@ -75,6 +76,7 @@ def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
                     method="bootstrap over plates", seed=seed)
 
 
+@on_one_blas_thread
 def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
                         weighting: str = "velocity") -> dict:
     """Refit for ``n`` draws of the observed Euler vectors from their covariance.
@@ -131,6 +133,7 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
                     refitted_with_bounds=int(len(broke)))
 
 
+@on_one_blas_thread
 def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
                         seed: int = 0, weighting: str = "velocity") -> dict:
     """Refit for ``n`` draws of the physics parameters from their distributions.

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import dataclasses
+import sys
 from contextlib import ExitStack
 
 import numpy as np
@@ -17,7 +18,7 @@ from ..io import (atomic_path, atomic_write, dumps, load_hypothesis, output_suff
 from ..rank import rank
 from ..resample import bootstrap, monte_carlo_motions, monte_carlo_physics
 from . import text
-from .common import EXIT_OK, count, inputs
+from .common import EXIT_OK, count, frame_warning, inputs
 
 WEIGHTING = dict(choices=("velocity", "area", "none"), default="velocity",
                  help="weighting of the plates' torque equations in the torque-space fit "
@@ -170,6 +171,7 @@ def run_fit(args) -> int:
         raise InputError("a Monte Carlo over physics needs a [spread] table",
                          file=args.hypothesis, hint="add one, or leave out --physics-samples")
     _require_sample_memory(pb.system, args)
+    warn_frame(pb.motions)
     rep = analyse(pb.system, pb.omega, args.weighting)
     unc = {}
     if args.bootstrap:
@@ -188,6 +190,18 @@ def run_fit(args) -> int:
     print(text.fit(result.as_dict()))
     print(f"wrote {args.output}")
     return EXIT_OK
+
+
+def warn_frame(motions) -> None:
+    """Print :func:`~torque.cli.common.frame_warning` on stderr, if there is one.
+
+    Parameters
+    ----------
+    motions : Motions
+    """
+    message = frame_warning(motions)
+    if message:
+        print(f"warning: {message}", file=sys.stderr)
 
 
 def _require_sample_memory(system, args):
@@ -264,6 +278,7 @@ def run_rank(args) -> int:
         output_suffix(args.json, (".json",))
     data = inputs(args)
     motions = read_motions(args.motions)
+    warn_frame(motions)
     systems = [Problem.build(data, load_hypothesis(h), motions).system
                for h in args.hypotheses]
     names = [s.name for s in systems]

@@ -109,3 +109,23 @@ def motions_for(path, world):
     """
     motions = read_motions(path)
     return motions, motions.for_world(world)
+
+
+def frame_warning(motions) -> str | None:
+    """A warning when observed motions are evidently relative to a fixed plate (one plate
+    exactly at rest), since drag is taken relative to the mantle; None otherwise.
+
+    Parameters
+    ----------
+    motions : Motions
+
+    Returns
+    -------
+    str or None
+    """
+    rest = motions.plates_at_rest
+    if len(rest) != 1:
+        return None
+    return (f"{motions.source}: plate {rest[0]!r} is exactly at rest, so these motions look "
+            f"relative to it; drag acts relative to the mantle, so fit motions in a frame "
+            f"where the mantle is at rest (torque frame --to nnr, or a hotspot frame)")
