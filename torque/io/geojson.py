@@ -18,7 +18,7 @@ from ..continents import Continents
 from ..errors import InputError
 from ..locate import PlateLocator
 from ..world import (BOUNDARY_KINDS, EARTH_RADIUS_KM, Boundary, Plate, Problem,
-                     geometry_from_rings, remove_spikes)
+                     SAME_VERTEX_RAD, geometry_from_rings, remove_spikes)
 from .files import atomic_write, read_json
 
 
@@ -90,15 +90,16 @@ def _check_coordinates(lonlat, path, i, name, add) -> bool:
     return True
 
 
-def _clean_ring(lonlat, path, i, name, add, spikes=None):
+def _clean_ring(lonlat, path, i, name, add, spikes=None, tol_rad=SAME_VERTEX_RAD):
     """Unit vectors of a ring without its closing vertex and repeated vertices, or None."""
     xyz = sphere.lonlat_to_xyz(lonlat[:, 0], lonlat[:, 1])
     # Points at a pole are the same whatever their longitude.
-    keep = np.r_[True, np.any(np.abs(np.diff(xyz, axis=0)) > 1e-15, axis=1)]
+    # vertices closer than the tolerance are one vertex (a digitiser's repeated point)
+    keep = np.r_[True, np.sum(np.diff(xyz, axis=0) ** 2, axis=1) > tol_rad ** 2]
     xyz, ll = xyz[keep], lonlat[keep]
-    if len(xyz) > 1 and np.all(np.abs(xyz[0] - xyz[-1]) <= 1e-15):
+    if len(xyz) > 1 and np.sum((xyz[0] - xyz[-1]) ** 2) <= tol_rad ** 2:
         xyz, ll = xyz[:-1], ll[:-1]
-    kept, apexes, length = remove_spikes(xyz)
+    kept, apexes, length = remove_spikes(xyz, tol_rad)
     if apexes:
         add("warning", f"a zero-width spike was removed: the outline ran out and back along "
             f"the same {len(apexes)} arc(s) (about {length * EARTH_RADIUS_KM:,.0f} km of outline "
@@ -122,13 +123,15 @@ def _clean_ring(lonlat, path, i, name, add, spikes=None):
     return xyz
 
 
-def read_plates(path, winding: str = "auto"):
+def read_plates(path, winding: str = "auto", tol_rad: float = SAME_VERTEX_RAD):
     """Read plate polygons from GeoJSON.
 
     Parameters
     ----------
     path : str or Path
     winding : {"auto", "strict"}
+    tol_rad : float
+        Vertices closer than this (radians on the unit sphere) are one vertex.
 
     Returns
     -------
@@ -138,10 +141,11 @@ def read_plates(path, winding: str = "auto"):
     """
     path = Path(path)
     return plates_from_features(features(read_json(path), path, "plate polygons"), path,
-                                winding)
+                                winding, tol_rad=tol_rad)
 
 
-def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"):
+def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate",
+                         tol_rad: float = SAME_VERTEX_RAD):
     """:func:`read_plates` for GeoJSON features already in memory (``path`` names them).
 
     ``noun`` names what the polygons are in messages ("plate", "continent").
@@ -153,6 +157,8 @@ def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"
     path : str or Path
     winding : {"auto", "strict"}
     noun : str
+    tol_rad : float
+        Vertices closer than this (radians on the unit sphere) are one vertex.
 
     Returns
     -------
@@ -204,7 +210,7 @@ def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"
                 ll = _coords_array(ring, path, f"feature {i} (plate {name!r})")
                 if not _check_coordinates(ll, path, i, name, add):
                     continue
-                xyz = _clean_ring(ll, path, i, name, add, spikes)
+                xyz = _clean_ring(ll, path, i, name, add, spikes, tol_rad)
                 if xyz is None:
                     continue
                 rings.append(xyz)

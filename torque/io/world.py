@@ -21,7 +21,10 @@ WORLD_KEYS = {
     "ages": "sea-floor age grid (NetCDF or CSV lon,lat,age_myr)",
     "mantle_flow": "mantle velocity grid (NetCDF)",
     "winding": '"auto" (default) or "strict"',
+    "vertex_tolerance_m": "vertices closer than this are one vertex (default 5 m)",
 }
+#: Vertices closer than this are one vertex (a digitiser's repeated point): a few metres.
+DEFAULT_VERTEX_TOLERANCE_M = 5.0
 DATA_KEYS = ("plates", "boundaries", "continents", "ages", "mantle_flow")
 
 
@@ -83,12 +86,18 @@ def load_world(path) -> World:
                                  file=path)
             paths[key] = str(p)
 
-    plates, geometry, problems = read_plates(paths["plates"], winding)
+    tol_m = cfg.get("vertex_tolerance_m", DEFAULT_VERTEX_TOLERANCE_M)
+    if (not isinstance(tol_m, (int, float)) or isinstance(tol_m, bool)
+            or not np.isfinite(tol_m) or not 0 < tol_m <= 1000):
+        raise InputError(f"vertex_tolerance_m must be a number of metres in (0, 1000], got "
+                         f"{tol_m!r}", file=path)
+    tol_rad = float(tol_m) / (float(radius_km) * 1e3)
+    plates, geometry, problems = read_plates(paths["plates"], winding, tol_rad)
     names = [p.name for p in plates]
     if "boundaries" in paths:
         boundaries, more = read_boundaries(paths["boundaries"], names)
         features = [b.feature for b in boundaries]
-        boundaries, trimmed = trim_along_spikes(boundaries, geometry.spike_xyz)
+        boundaries, trimmed = trim_along_spikes(boundaries, geometry.spike_xyz, tol_rad)
         left = {b.feature for b in boundaries}
         more += [Problem("warning", f"{n} vertex(es) that ran along a removed outline spike "
                          "were trimmed from this line"
@@ -104,7 +113,8 @@ def load_world(path) -> World:
 
 
 def world_from_rings(plates: dict, boundaries=(), radius_km: float = EARTH_RADIUS_KM,
-                     winding: str = "auto", name: str = "world") -> World:
+                     winding: str = "auto", name: str = "world",
+                     vertex_tolerance_m: float = DEFAULT_VERTEX_TOLERANCE_M) -> World:
     """Build a world in code.
 
     Parameters
@@ -115,6 +125,11 @@ def world_from_rings(plates: dict, boundaries=(), radius_km: float = EARTH_RADIU
         degrees (closed or not).
     boundaries : sequence of Boundary, optional
         Without them, the shared edges are used (kind ``unclassified``).
+    radius_km : float
+    winding : {"auto", "strict"}
+    name : str
+    vertex_tolerance_m : float
+        Vertices closer than this are one vertex.
 
     Examples
     --------
@@ -135,7 +150,8 @@ def world_from_rings(plates: dict, boundaries=(), radius_km: float = EARTH_RADIU
         gtype = "Polygon" if np.ndim(poly[0][0]) == 1 else "MultiPolygon"
         feats.append({"type": "Feature", "properties": {"plate": nm},
                       "geometry": {"type": gtype, "coordinates": poly}})
-    pl, geometry, problems = plates_from_features(feats, "<plates in memory>", winding)
+    pl, geometry, problems = plates_from_features(
+        feats, "<plates in memory>", winding, tol_rad=vertex_tolerance_m / (radius_km * 1e3))
     names = [x.name for x in pl]
     if boundaries:
         bnd, derived = tuple(boundaries), False

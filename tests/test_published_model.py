@@ -1,0 +1,164 @@
+"""The whole job on a published global plate model, and on a rotated, jittered twin of it.
+
+The model is ../shared/data/global-plates-2003/ (Bird 2003, G-cubed 4, 1027, with neutral
+plate identifiers; see its ATTRIBUTION.md): 52 plates, vertices as digitised, one zero-width
+spike, a boundary file with text attributes, and motions relative to plate G01.
+
+Sources: plate areas from GeographicLib through pyproj.Geod on a sphere (Karney 2013,
+J. Geodesy 87); the no-net-rotation condition int r x v dA = 0 checked by an independent
+quadrature on a lon/lat grid (cell areas R^2 cos(lat) dlat dlon); rotation invariance of
+every exact quantity (torques and predictions rotate with the world).
+"""
+
+import csv
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+from pyproj import Geod
+from scipy.spatial.transform import Rotation
+
+import torque
+from torque import sphere
+from torque.diagnostics import analyse
+from torque.euler import RAD_S_PER_DEG_MYR
+from torque.hypothesis import hypothesis_from_dict
+from torque.io import read_motions
+
+MODEL = Path(__file__).resolve().parents[2] / "shared" / "data" / "global-plates-2003"
+pytestmark = pytest.mark.skipif(not (MODEL / "world.toml").is_file(),
+                                reason=f"the published model is not at {MODEL}")
+HYP = {"force": [{"kind": "ridge", "form": "edge", "coefficient": 1.0},
+                 {"kind": "slab"}, {"kind": "drag"}]}
+
+
+@pytest.fixture(scope="module")
+def job(tmp_path_factory):
+    """Every command of the job on the model; the folder of outputs."""
+    from torque.cli import main
+    out = tmp_path_factory.mktemp("published")
+    world = MODEL / "world.toml"
+    (out / "h.toml").write_text('name = "ridge, slab and drag"\n[[force]]\nkind = "ridge"\n'
+                                'coefficient = 1.0\n[[force]]\nkind = "slab"\n'
+                                '[[force]]\nkind = "drag"\n')
+    (out / "rd.toml").write_text('name = "ridge and drag"\n[[force]]\nkind = "ridge"\n'
+                                 'coefficient = 1.0\n[[force]]\nkind = "drag"\n')
+    steps = [["frame", MODEL / "motions_G01_fixed.csv", "--world", world, "--to", "nnr",
+              "-o", out / "nnr.csv"],
+             ["field", world, out / "nnr.csv", "--step", "2", "-o", out / "field.csv"],
+             ["boundaries", world, out / "nnr.csv", "-o", out / "b.csv"],
+             ["torques", world, out / "h.toml", "--motions", out / "nnr.csv",
+              "-o", out / "t.csv"],
+             ["fit", world, out / "h.toml", out / "nnr.csv", "-o", out / "fit.json"],
+             ["predict", world, out / "h.toml", "--coefficients", out / "fit.json",
+              "--motions", out / "nnr.csv", "-o", out / "p.csv"],
+             ["rank", world, out / "nnr.csv", out / "h.toml", out / "rd.toml",
+              "-o", out / "r.csv"]]
+    for argv in steps:
+        assert main([str(a) for a in argv]) == 0, argv
+    return out
+
+
+def test_check_repairs_the_spike_and_passes(cli):
+    status, out, err = cli("check", MODEL / "world.toml")
+    assert status == 0, err
+    assert out.count("a zero-width spike was removed") == 1 and "plate 'G31'" in out
+    assert "no problems found" not in out and "error:" not in out
+
+
+def test_plate_areas_agree_with_geographiclib():
+    world = torque.load_world(MODEL / "world.toml")
+    geod = Geod(a=world.radius_m, b=world.radius_m)
+    feats = json.loads((MODEL / "plates.geojson").read_text())["features"]
+    for f in feats:
+        lon, lat = np.array(f["geometry"]["coordinates"][0]).T
+        ref, _ = geod.polygon_area_perimeter(lon, lat)      # the outline as published
+        got = world.area_m2[world.plate_index[f["properties"]["plate"]]]
+        assert got == pytest.approx(abs(ref), rel=1e-8), f["properties"]["plate"]
+    assert world.area_m2.sum() == pytest.approx(4 * np.pi * world.radius_m ** 2, rel=1e-12)
+
+
+def test_no_net_rotation_by_an_independent_quadrature(job):
+    world = torque.load_world(MODEL / "world.toml")
+    before = read_motions(MODEL / "motions_G01_fixed.csv").for_world(world)
+    after = read_motions(job / "nnr.csv").for_world(world)
+    step = 0.25
+    lon = np.arange(-180 + step / 2, 180, step)
+    lat = np.arange(-90 + step / 2, 90, step)
+    LON, LAT = np.meshgrid(lon, lat)
+    r = sphere.lonlat_to_xyz(LON.ravel(), LAT.ravel())
+    dA = (np.cos(np.radians(LAT)) * np.radians(step) ** 2).ravel()
+    plate = world.locate_xyz(r)
+
+    def moment(omega):             # int r x (w x r) dA on the unit sphere
+        v = np.cross(omega[plate], r)
+        return (np.cross(r, v) * dA[:, None]).sum(axis=0)
+    m0, m1 = moment(before), moment(after)
+    assert np.linalg.norm(m1) < 3e-3 * np.linalg.norm(m0)
+
+
+def test_the_whole_job_gives_numbers_in_the_fields_units(job):
+    fit = json.loads((job / "fit.json").read_text())
+    slab, drag = fit["coefficients"]["slab"], fit["coefficients"]["drag_all"]
+    assert 0 <= slab["value"] <= 1 and drag["value"] > 0
+    # a basal drag coefficient C = eta / h for an asthenosphere of 1e18-1e21 Pa s and
+    # 100-200 km (common practice, no source)
+    assert 1e18 / 200e3 / 10 < drag["value"] < 1e21 / 100e3 * 10
+    assert len(fit["plates"]) == 52
+    rank = list(csv.reader((job / "r.csv").read_text().splitlines()))
+    assert len(rank) == 3 and rank[1][1] == "ridge, slab and drag"
+    field = np.genfromtxt(job / "field.csv", delimiter=",", names=True, dtype=None,
+                          encoding="utf-8")
+    assert 0 < np.median(np.hypot(field["ve_mm_yr"], field["vn_mm_yr"])) < 200
+
+
+@pytest.fixture(scope="module")
+def twin(tmp_path_factory):
+    """The model rotated by a random rotation, every vertex jittered by up to 1e-7 degrees
+    (so neighbours no longer share vertices exactly); the world file and the rotation."""
+    rng = np.random.default_rng(12)
+    Q = Rotation.random(random_state=7).as_matrix()
+    out = tmp_path_factory.mktemp("twin")
+
+    def move(coords):
+        ll = np.asarray(coords, float)
+        xyz = sphere.lonlat_to_xyz(*ll.T) @ Q.T
+        lon, lat = sphere.xyz_to_lonlat(xyz)
+        lon = lon + rng.uniform(-1e-7, 1e-7, len(lon))
+        lat = np.clip(lat + rng.uniform(-1e-7, 1e-7, len(lat)), -90, 90)
+        return np.c_[lon, lat].tolist()
+    for name in ("plates", "boundaries"):
+        doc = json.loads((MODEL / f"{name}.geojson").read_text())
+        for f in doc["features"]:
+            g = f["geometry"]
+            g["coordinates"] = ([move(r) for r in g["coordinates"]] if g["type"] == "Polygon"
+                                else move(g["coordinates"]))
+        (out / f"{name}.geojson").write_text(json.dumps(doc))
+    (out / "world.toml").write_text((MODEL / "world.toml").read_text())
+    return out / "world.toml", Q
+
+
+def test_the_twin_checks_and_its_results_rotate_with_it(twin, cli):
+    path, Q = twin
+    status, out, err = cli("check", path)
+    assert status == 0, err
+    hyp = hypothesis_from_dict(HYP)
+    world0 = torque.load_world(MODEL / "world.toml")
+    nnr = torque.to_no_net_rotation(world0, read_motions(MODEL / "motions_G01_fixed.csv"))[0]
+    results = []
+    for world_path, Qw in ((MODEL / "world.toml", np.eye(3)), (path, Q)):
+        inputs = torque.Inputs.load(world_path)
+        terms = torque.compute_torques(inputs, hyp)    # no motions: exact line integrals
+        system = torque.assemble(inputs.world, hyp, terms)
+        omega = nnr.for_world(inputs.world) @ Qw.T     # the same motions, turned with it
+        results.append((system, analyse(system, omega)))
+    (s0, r0), (s1, r1) = results
+    # the torques rotate with the world: T' = Q T (vertices jittered by 1e-7 degrees)
+    for k in range(len(s0.labels)):
+        b0 = s0.b[k].reshape(-1, 3) @ Q.T
+        np.testing.assert_allclose(s1.b[k].reshape(-1, 3), b0, atol=1e-6 * np.abs(b0).max())
+    np.testing.assert_allclose(r1.preferred.values, r0.preferred.values, rtol=1e-5)
+    np.testing.assert_allclose(r1.omega_pred, r0.omega_pred @ Q.T,
+                               atol=1e-5 * np.abs(r0.omega_pred).max())
+    assert np.abs(r0.omega_pred).max() > 0.1 * RAD_S_PER_DEG_MYR
