@@ -59,7 +59,7 @@ def test_boundary_off_the_shared_edge_is_a_warning_with_distance(write_world, cl
         line_feature([[0, 0.1], [60, 0.1]], kind="transform", left="Upper", right="Lower")])
     status, out, _ = cli("check", path, "--json")
     assert status == 0
-    (p,) = json.loads(out)["problems"]
+    (p,) = [q for q in json.loads(out)["problems"] if "from the edge" in q["message"]]
     assert p["severity"] == "warning" and "11.1 km" in p["message"]
 
 
@@ -270,3 +270,24 @@ def test_continents_are_checked(write_world, cli, tmp_path):
     assert status == 0
     assert [p["severity"] for p in probs] == ["warning"]
     assert "run along plate edges" in probs[0]["message"]
+
+
+def test_a_shared_edge_without_boundary_lines_is_reported(write_world, cli):
+    # Half the equator has a ridge, the other half nothing: 20,015 km (pi R) of the edge the
+    # two hemispheres share carry no boundary force (length of a half great circle).
+    half = [[0, 0], [90, 0], [180, 0]]
+    path = hemispheres_file(write_world, [line_feature(half, kind="ridge", left="Upper",
+                                                       right="Lower")])
+    status, out, err = cli("check", path, "--json")
+    assert status == 0
+    probs = [p for p in json.loads(out)["problems"] if "no boundary line" in p["message"]]
+    assert len(probs) == 1 and "'Upper' and 'Lower'" in probs[0]["message"]
+    km = float(probs[0]["message"].split(" km")[0].replace(",", ""))
+    assert km == pytest.approx(np.pi * 6371.0, rel=2e-3)
+    assert probs[0]["lon"] > 180 or probs[0]["lon"] < 0     # on the uncovered half
+    # the whole equator covered: nothing to report
+    full = hemispheres_file(write_world, [line_feature(half + [[270, 0], [360, 0]],
+                                                       kind="ridge", left="Upper",
+                                                       right="Lower")])
+    status, out, err = cli("check", full, "--json")
+    assert not [p for p in json.loads(out)["problems"] if "no boundary line" in p["message"]]

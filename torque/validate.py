@@ -319,6 +319,86 @@ def boundary_offsets(world: World):
     return owner, xyz, dist
 
 
+#: Stretches of shared plate edge with no boundary line, shorter than this, are not reported
+#: (line ends at junctions leave short gaps of no consequence).
+UNCOVERED_MIN_KM = 20.0
+
+
+def uncovered_edges(world: World, piece_km: float = 25.0):
+    """Stretches of plate edge that no boundary line runs along.
+
+    Every plate edge is split into pieces of at most ``piece_km``; a piece is covered when
+    its midpoint lies within ``BOUNDARY_TOL_KM`` of a boundary line (exact point-to-arc
+    distances to candidates from a k-d tree). The plate across an uncovered piece is found
+    by stepping off its midpoint, so neighbours need not share vertices.
+
+    Parameters
+    ----------
+    world : World
+    piece_km : float
+
+    Returns
+    -------
+    pairs : dict
+        ``{(plate_i, plate_j): (length_rad, xyz)}`` with ``i < j``: the uncovered length of
+        the edge the two plates share (radians on the unit sphere), and a point on it.
+    """
+    R = world.radius_m
+    tol = BOUNDARY_TOL_KM * 1e3 / R
+    a, b, plate = world.geometry.edges
+    pa, pb, piece = sphere.densify_arcs(a, b, piece_km * 1e3 / R)
+    n, theta = sphere.arc_pole(pa, pb)
+    mid = sphere.slerp_points(pa, pb, 0.5)
+    bs = world.boundary_set
+    if not len(bs.line):
+        covered = np.zeros(len(mid), bool)
+    else:
+        la, lb, _ = sphere.densify_arcs(bs.a, bs.b, np.radians(0.1))
+        half = 0.5 * np.linalg.norm(la - lb, axis=1).max()
+        tree = cKDTree(sphere.normalize(la + lb))
+        cand = tree.query_ball_point(mid, r=2 * np.sin(tol / 2) + half + 1e-12)
+        counts = np.array([len(c) for c in cand], dtype=np.int64)
+        v = np.repeat(np.arange(len(mid)), counts)
+        e = (np.concatenate([np.asarray(c, dtype=np.int64) for c in cand]) if len(v)
+             else np.zeros(0, np.int64))
+        dist = np.full(len(mid), np.inf)
+        np.minimum.at(dist, v, sphere.point_arc_distance(mid[v], la[e], lb[e]))
+        covered = dist <= tol
+    out = {}
+    todo = np.nonzero(~covered & (theta > 0))[0]
+    if not len(todo):
+        return out
+    # across the edge: the pole points into the piece's own plate
+    step = np.minimum(theta[todo] / 4, 1e3 / R)
+    other = world.locate_xyz(sphere.step_toward(mid[todo], -n[todo], step))
+    own = plate[piece[todo]]
+    for i, j, t, x in zip(own, other, theta[todo], mid[todo]):
+        if j < 0 or i == j:
+            continue
+        key = (int(min(i, j)), int(max(i, j)))
+        length, at = out.get(key, (0.0, x))
+        out[key] = (length + 0.5 * t, at)          # each shared edge is walked twice
+    return out
+
+
+def _coverage_problems(world: World) -> list:
+    if world.boundaries_derived:
+        return []
+    R_km = world.radius_m / 1e3
+    probs = []
+    for (i, j), (length, at) in sorted(uncovered_edges(world).items(),
+                                       key=lambda kv: -kv[1][0]):
+        if length * R_km < UNCOVERED_MIN_KM:
+            continue
+        lon, lat = sphere.xyz_to_lonlat(at)
+        names = world.plate_names
+        probs.append(Problem(
+            "warning", f"{length * R_km:,.0f} km of the edge between {names[i]!r} and "
+            f"{names[j]!r} has no boundary line: no boundary force acts there",
+            world.paths.get("boundaries"), None, None, float(lon), float(lat)))
+    return probs
+
+
 def _boundary_problems(world: World) -> list:
     if world.boundaries_derived or not world.boundaries:
         return []
@@ -418,5 +498,6 @@ def check_world(world) -> CheckReport:
     probs += tiling_problems(world)
     probs += _crossing_problems(world)
     probs += _boundary_problems(world)
+    probs += _coverage_problems(world)
     probs += _continent_problems(data)
     return CheckReport(world, _plate_summary(world), probs)

@@ -547,14 +547,20 @@ def geometry_from_rings(rings, ring_plate, ring_is_hole, ring_polygon, n_plates:
                          else np.asarray(spike_xyz, float).reshape(-1, 3))
 
 
-def trim_along_spikes(boundaries, spike_xyz, tol_rad: float = SAME_VERTEX_RAD):
+def trim_along_spikes(boundaries, geometry, plate_index, tol_rad: float = SAME_VERTEX_RAD):
     """Boundary lines without the vertices that ran along removed outline spikes.
+
+    A vertex of a line is trimmed when it is a removed spike vertex and does not lie on the
+    remaining edges of both of the line's plates (a spike's tip may also be a junction of
+    other plates' edges, where their lines rightly end).
 
     Parameters
     ----------
     boundaries : sequence of Boundary
-    spike_xyz : ndarray, shape (K, 3)
-        Removed spike vertices (``PlateGeometry.spike_xyz``).
+    geometry : PlateGeometry
+        With the removed spike vertices in ``spike_xyz``.
+    plate_index : dict
+        ``{name: index}``.
     tol_rad : float
 
     Returns
@@ -564,13 +570,21 @@ def trim_along_spikes(boundaries, spike_xyz, tol_rad: float = SAME_VERTEX_RAD):
     trimmed : list of (int, int)
         For every line changed, its index and how many vertices went.
     """
+    spike_xyz = geometry.spike_xyz
     if spike_xyz is None or not len(spike_xyz):
         return list(boundaries), []
     tol2 = tol_rad ** 2          # on chords, as in remove_spikes
+    ea, eb, eplate = geometry.edges
     out, trimmed = [], []
     for k, b in enumerate(boundaries):
         d2 = np.sum((b.xyz[:, None, :] - spike_xyz[None, :, :]) ** 2, axis=2)
         on_spike = np.any(d2 <= tol2, axis=1)
+        sides = [plate_index.get(b.left, -1), plate_index.get(b.right, -1)]
+        for v in np.nonzero(on_spike)[0]:
+            on_both = all((eplate == p).any() and sphere.point_arc_distance(
+                b.xyz[v], ea[eplate == p], eb[eplate == p]).min() <= tol_rad for p in sides)
+            if on_both:
+                on_spike[v] = False       # on the edge the two plates share: a junction
         if not on_spike.any():
             out.append(b)
             continue

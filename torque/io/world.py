@@ -97,7 +97,8 @@ def load_world(path) -> World:
     if "boundaries" in paths:
         boundaries, more = read_boundaries(paths["boundaries"], names)
         features = [b.feature for b in boundaries]
-        boundaries, trimmed = trim_along_spikes(boundaries, geometry.spike_xyz, tol_rad)
+        boundaries, trimmed = trim_along_spikes(boundaries, geometry,
+                                                {n: i for i, n in enumerate(names)}, tol_rad)
         left = {b.feature for b in boundaries}
         more += [Problem("warning", f"{n} vertex(es) that ran along a removed outline spike "
                          "were trimmed from this line"
