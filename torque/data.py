@@ -98,7 +98,7 @@ class WorldData:
         """Continental regions (:class:`~torque.continents.Continents`), or None."""
         return self._data("continents")
 
-    @cached_property
+    @property
     def ages(self):
         """The sea-floor age grid (:class:`~torque.grids.AgeGrid`) checked against the
         plates, or None.
@@ -106,13 +106,16 @@ class WorldData:
         Raises
         ------
         InputError
-            If the grid does not cover the sphere, or (with continents) an oceanic node has
-            no age.
+            If the grid does not cover the sphere.
         """
+        return self.checked_ages[0]
+
+    @cached_property
+    def checked_ages(self):
+        """``(AgeGrid or None, notes)``: the age grid checked once, with notes on what a
+        user should know (nodes without an age outside the continents get no force)."""
         grid = self._data("ages")
-        if grid is not None:
-            self._check_ages(grid)
-        return grid
+        return (grid, self._check_ages(grid)) if grid is not None else (None, ())
 
     @cached_property
     def flow(self):
@@ -127,23 +130,27 @@ class WorldData:
                              f"{grid.lat[0]:g} to {grid.lat[-1]:g})", file=grid.source)
         return grid
 
-    def _check_ages(self, grid):
+    def _check_ages(self, grid) -> tuple:
         if not grid.covers_sphere():
             raise InputError("the age grid does not cover the plates (it must span all "
                              f"longitudes and reach within a grid step of both poles; it spans "
                              f"lon {grid.lon[0]:g} to {grid.lon[-1]:g}, lat {grid.lat[0]:g} to "
                              f"{grid.lat[-1]:g})", file=grid.source)
         if self.continents is None:
-            return
-        plate = self.node_plates(grid)
+            return ()
         nan = ~np.isfinite(grid.age_myr) & ~self.node_continental(grid)
-        if nan.any():
-            j, i = np.argwhere(nan)[0]
-            name = self.world.plates[int(plate[j, i])].name
-            raise InputError(f"{int(nan.sum())} age node(s) are NaN outside the continents, "
-                             f"the first in plate {name!r} at lon {grid.lon[i]:g}, lat "
-                             f"{grid.lat[j]:g}", file=grid.source,
-                             hint="give every oceanic node an age, or extend the continents")
+        if not nan.any():
+            return ()
+        # no-data nodes in the ocean (a gap in the grid, or land the continents file does
+        # not hold): they get no force, and the user is told how many and where
+        plate = self.node_plates(grid)
+        j, i = np.argwhere(nan)[0]
+        name = self.world.plates[int(plate[j, i])].name
+        share = float((grid.cell_areas() * nan).sum() / (4 * np.pi))
+        return (f"{int(nan.sum())} age node(s) outside the continents have no age "
+                f"({100 * share:.2g} % of the sphere), the first in plate {name!r} at lon "
+                f"{grid.lon[i]:g}, lat {grid.lat[j]:g}: no ridge push acts there "
+                f"({grid.source})",)
 
     # -- derived once ---------------------------------------------------------------------
     def node_plates(self, grid) -> np.ndarray:

@@ -93,9 +93,9 @@ class Context:
     def ages(self):
         """``(AgeGrid, notes)``: the world's grid, else one synthesised from ridges and
         spreading rates (with notes saying how)."""
-        grid = self.data.ages
+        grid, notes = self.data.checked_ages
         if grid is not None:
-            return grid, ()
+            return grid, notes
         from .ages_synth import synthesise_ages
         key = ("ages", None if self.omega is None else np.asarray(self.omega).tobytes(),
                self.SYNTH_STEP_DEG)
