@@ -37,6 +37,8 @@ class BoundarySamples:
         Unit vector pointing into the left plate (the arc's pole).
     length : ndarray, shape (N,)
         Length of line each sample stands for (radians on the unit sphere).
+    start, end : ndarray, shape (N, 3)
+        Ends of the piece each sample stands for (consecutive pieces of a line meet).
     """
 
     line: np.ndarray
@@ -44,6 +46,8 @@ class BoundarySamples:
     tangent: np.ndarray
     normal: np.ndarray
     length: np.ndarray
+    start: np.ndarray | None = None
+    end: np.ndarray | None = None
 
 
 def sample_boundaries(boundaries, spacing_rad: float) -> BoundarySamples:
@@ -63,7 +67,7 @@ def sample_boundaries(boundaries, spacing_rad: float) -> BoundarySamples:
     pa, pb, piece = sphere.densify_arcs(arcs.a, arcs.b, spacing_rad)
     n, theta = sphere.arc_pole(pa, pb)
     mid = sphere.slerp_points(pa, pb, 0.5)
-    return BoundarySamples(arcs.line[piece], mid, np.cross(n, mid), n, theta)
+    return BoundarySamples(arcs.line[piece], mid, np.cross(n, mid), n, theta, pa, pb)
 
 
 @dataclass(frozen=True, eq=False)
@@ -192,3 +196,128 @@ def with_kinds(world, kinds, sinking, only_unclassified: bool = True) -> list:
             out.append(Boundary(k, b.left, b.right, b.xyz, b.feature,
                                 s if k == "subduction" else None, dict(b.properties)))
     return out
+
+
+#: Stretches of a line shorter than this (km) take the kind of their neighbours when lines
+#: are classified piece by piece, so that a kind does not flicker along a line.
+MIN_RUN_KM = 50.0
+
+
+def _side_ages(world, samples, ages):
+    """Ages (Myr) ``AGE_PROBE_KM`` inside the left and the right plate at every sample."""
+    off = AGE_PROBE_KM * 1e3 / world.radius_m
+    out = []
+    for sign in (1.0, -1.0):
+        lon, lat = sphere.xyz_to_lonlat(sphere.step_toward(samples.xyz, sign * samples.normal,
+                                                           off))
+        out.append(ages.sample(lon, lat))
+    return out
+
+
+def _runs(kind, line, length, min_len):
+    """Runs of equal kind within each line, short runs merged into a neighbour.
+
+    Returns ``(start, stop, kind)`` lists over sample indices (stop exclusive).
+    """
+    runs = []
+    cuts = np.r_[0, np.nonzero((kind[1:] != kind[:-1]) | (line[1:] != line[:-1]))[0] + 1,
+                 len(kind)]
+    for a, b in zip(cuts[:-1], cuts[1:]):
+        runs.append([int(a), int(b), str(kind[a])])
+    changed = True
+    while changed:                  # merge the shortest short run into its longer neighbour
+        changed = False
+        lens = [length[a:b].sum() for a, b, _ in runs]
+        order = np.argsort(lens)
+        for r in order:
+            if lens[r] >= min_len:
+                break
+            a, b, k = runs[r]
+            nbrs = [q for q in (r - 1, r + 1) if 0 <= q < len(runs)
+                    and line[runs[q][0]] == line[a]]
+            if not nbrs:
+                continue
+            q = max(nbrs, key=lambda q: lens[q])
+            lo, hi = min(runs[q][0], a), max(runs[q][1], b)
+            runs[q] = [lo, hi, runs[q][2]]
+            del runs[r]
+            # neighbours of one kind that now touch become one run
+            merged = [runs[0]]
+            for x in runs[1:]:
+                y = merged[-1]
+                if x[2] == y[2] and line[x[0]] == line[y[0]] and x[0] == y[1]:
+                    y[1] = x[1]
+                else:
+                    merged.append(x)
+            runs = merged
+            changed = True
+            break
+    return runs
+
+
+def classify_pieces(world, motion: BoundaryMotion, ages=None, min_run_km: float = MIN_RUN_KM):
+    """Kinds of the world's unclassified boundaries, piece by piece, lines split where their
+    kind changes.
+
+    Each sample takes the kind of its own relative motion: a transform within
+    :data:`TRANSFORM_WITHIN_DEG` of pure strike-slip, else a ridge where it opens and a
+    convergent boundary where it closes. Runs shorter than ``min_run_km`` take the kind of
+    their longer neighbour. Along a convergent run the plate with the older sea floor
+    ``AGE_PROBE_KM`` inside it sinks (a subduction zone); where neither side has sea floor
+    it is a collision; without ages the sinking plate is left unresolved (None).
+
+    Parameters
+    ----------
+    world : World
+    motion : BoundaryMotion
+        At samples of ``world.boundaries`` (with their piece ends, from
+        :func:`sample_boundaries`).
+    ages : AgeGrid, optional
+    min_run_km : float
+
+    Returns
+    -------
+    boundaries : list of Boundary
+        Lines already classified, as they were; every unclassified line cut into runs of one
+        kind (its properties copied to each piece).
+    sample_line : ndarray of int, shape (N,)
+        The new line of every sample.
+    """
+    s = motion.samples
+    obliq = motion.obliquity_deg
+    kind = np.where(np.abs(obliq - 90.0) <= TRANSFORM_WITHIN_DEG, "transform",
+                    np.where(motion.opening_mm_yr > 0, "ridge", "convergent"))
+    given = np.array([b.kind != "unclassified" for b in world.boundaries])
+    kind = np.where(given[s.line], "given", kind)
+    runs = _runs(kind, s.line, s.length, min_run_km / (world.radius_m / 1e3))
+    al = ar = None
+    if ages is not None:
+        al, ar = _side_ages(world, s, ages)
+    out, sample_line, done = [], np.empty(len(s.line), np.int64), set()
+    for a, b, k in runs:
+        src = int(s.line[a])
+        old = world.boundaries[src]
+        if k == "given":
+            if src not in done:
+                done.add(src)
+                out.append(old)
+            sample_line[a:b] = len(out) - 1
+            continue
+        sink = None
+        if k == "convergent":
+            k = "subduction"
+            if al is not None:
+                w = s.length[a:b]
+                mean = [np.nansum(w * x[a:b]) / w[np.isfinite(x[a:b])].sum()
+                        if np.isfinite(x[a:b]).any() else np.nan for x in (al, ar)]
+                if not np.isfinite(mean).any():
+                    k = "collision"               # closing with no sea floor on either side
+                elif not np.isfinite(mean[1]) or (np.isfinite(mean[0]) and mean[0] > mean[1]):
+                    sink = old.left
+                else:
+                    sink = old.right
+        xyz = np.concatenate([s.start[a:a + 1], s.end[a:b]])
+        out.append(Boundary(k, old.left, old.right, xyz, old.feature, sink,
+                            dict(old.properties)))
+        sample_line[a:b] = len(out) - 1
+    return out, sample_line

@@ -3,6 +3,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 
 from ..errors import InputError, require_memory
@@ -11,8 +13,12 @@ from ..euler import (grid_lonlat, net_rotation, speed_azimuth, to_no_net_rotatio
 from ..io import (field_dataset, output_suffix, read_motions, read_points,
                   write_boundaries_geojson, write_csv, write_motions, write_netcdf,
                   write_points_geojson)
-from ..margins import (TRANSFORM_WITHIN_DEG, boundary_motion, classify, sample_boundaries,
-                       with_kinds)
+from ..data import WorldData
+from ..forces.context import Context
+from ..hypothesis import Hypothesis
+from ..lithosphere import Physics
+from ..margins import (MIN_RUN_KM, TRANSFORM_WITHIN_DEG, boundary_motion, classify_pieces,
+                       sample_boundaries)
 from ..sphere import xyz_to_lonlat
 from . import text
 from .common import EXIT_OK, inputs, motions_for, positive
@@ -60,7 +66,12 @@ def add_parser(sub) -> None:
     p.add_argument("--spacing-km", type=positive, default=50.0,
                    help="sample spacing along the lines, km (default 50)")
     p.add_argument("--classify", action="store_true",
-                   help="give 'unclassified' lines a kind from their motion")
+                   help="give 'unclassified' lines kinds from their motion, piece by piece, "
+                   "splitting a line where its kind changes (the output's 'line' then "
+                   "numbers the lines after splitting)")
+    p.add_argument("--min-run-km", type=positive, default=MIN_RUN_KM, metavar="KM",
+                   help=f"with --classify: stretches shorter than this take their "
+                   f"neighbours' kind (default {MIN_RUN_KM:g})")
     p.add_argument("--geojson", metavar="FILE",
                    help="also write the (classified) boundaries as GeoJSON")
     p.add_argument("-o", "--output", required=True, help="output CSV")
@@ -150,6 +161,18 @@ def run_field(args) -> int:
     return EXIT_OK
 
 
+def _ages_for_classification(data, motion, omega):
+    """Ages synthesised from the ridges a first classification finds (no age grid): the
+    sinking plate of a convergent boundary is then the one with the older sea floor."""
+    first, _ = classify_pieces(data.world, motion)
+    world = dataclasses.replace(data.world, boundaries=tuple(first), boundaries_derived=False)
+    if not any(b.kind == "ridge" for b in first):
+        return None
+    ctx = Context(WorldData(world, continents=data.continents),
+                  Hypothesis("classification", Physics(), ()), omega)
+    return ctx.ages[0]
+
+
 def run_boundaries(args) -> int:
     """Run ``torque boundaries``.
 
@@ -181,13 +204,15 @@ def run_boundaries(args) -> int:
     samples = sample_boundaries(world.boundaries, args.spacing_km * 1e3 / world.radius_m)
     motion = boundary_motion(world, omega, samples)
     boundaries = list(world.boundaries)
-    unresolved = []
+    line = samples.line
+    unresolved, synthesised = [], False
     if args.classify:
-        kinds, sinking = classify(world, motion, data.ages)
-        boundaries = with_kinds(world, kinds, sinking)
+        ages = data.ages
+        if ages is None:
+            ages, synthesised = _ages_for_classification(data, motion, omega), True
+        boundaries, line = classify_pieces(world, motion, ages, args.min_run_km)
         unresolved = [k for k, b in enumerate(boundaries)
                       if b.kind == "subduction" and b.subducting is None]
-    line = samples.line
     lon, lat = xyz_to_lonlat(samples.xyz)
     write_csv(args.output, {
         "lon": lon, "lat": lat, "line": line,
@@ -206,8 +231,12 @@ def run_boundaries(args) -> int:
     print(f"{len(lon):,} samples on {len(boundaries)} lines; kinds: "
           + ", ".join(f"{k} {n}" for k, n in sorted(kinds.items())))
     if args.classify:
-        print(f"classified by mean motion: transform within {TRANSFORM_WITHIN_DEG:g} deg of "
-              "pure strike-slip, else ridge (opening) or subduction (closing)")
+        print(f"classified piece by piece ({args.spacing_km:g} km) and split where the kind "
+              f"changes (runs under {args.min_run_km:g} km take their neighbours' kind): transform "
+              f"within {TRANSFORM_WITHIN_DEG:g} deg of pure strike-slip, else ridge (opening), "
+              "subduction (closing, the older sea floor sinks) or collision (closing, no sea "
+              "floor on either side)" + ("; sea-floor ages synthesised from the ridges found "
+                                         "and the motions" if synthesised else ""))
         if unresolved:
             print(f"sinking plate unresolved (no sea-floor ages on either side) for "
                   f"{len(unresolved)} subduction line(s): {', '.join(map(str, unresolved))}; "
