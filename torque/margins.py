@@ -198,6 +198,10 @@ def with_kinds(world, kinds, sinking, only_unclassified: bool = True) -> list:
     return out
 
 
+#: Sea floor on the two sides of a convergent boundary whose mean ages differ by less than
+#: this (Myr) is of one age: which side sinks is left unresolved, not guessed.
+SAME_AGE_MYR = 1.0
+
 #: Stretches of a line shorter than this (km) take the kind of their neighbours when lines
 #: are classified piece by piece, so that a kind does not flicker along a line.
 MIN_RUN_KM = 50.0
@@ -264,7 +268,8 @@ def classify_pieces(world, motion: BoundaryMotion, ages=None, min_run_km: float 
     convergent boundary where it closes. Runs shorter than ``min_run_km`` take the kind of
     their longer neighbour. Along a convergent run the plate with the older sea floor
     ``AGE_PROBE_KM`` inside it sinks (a subduction zone); where neither side has sea floor
-    it is a collision; without ages the sinking plate is left unresolved (None).
+    it is a collision; without ages, or with sea floor of one age (within
+    :data:`SAME_AGE_MYR`) on both sides, the sinking plate is left unresolved (None).
 
     Parameters
     ----------
@@ -312,10 +317,10 @@ def classify_pieces(world, motion: BoundaryMotion, ages=None, min_run_km: float 
                         if np.isfinite(x[a:b]).any() else np.nan for x in (al, ar)]
                 if not np.isfinite(mean).any():
                     k = "collision"               # closing with no sea floor on either side
-                elif not np.isfinite(mean[1]) or (np.isfinite(mean[0]) and mean[0] > mean[1]):
+                elif not np.isfinite(mean[1]) or mean[0] > mean[1] + SAME_AGE_MYR:
                     sink = old.left
-                else:
-                    sink = old.right
+                elif not np.isfinite(mean[0]) or mean[1] > mean[0] + SAME_AGE_MYR:
+                    sink = old.right              # (sea floor of one age: not guessed)
         xyz = np.concatenate([s.start[a:a + 1], s.end[a:b]])
         out.append(Boundary(k, old.left, old.right, xyz, old.feature, sink,
                             dict(old.properties)))
