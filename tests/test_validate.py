@@ -291,3 +291,16 @@ def test_a_shared_edge_without_boundary_lines_is_reported(write_world, cli):
                                                        right="Lower")])
     status, out, err = cli("check", full, "--json")
     assert not [p for p in json.loads(out)["problems"] if "no boundary line" in p["message"]]
+
+
+def test_every_command_gives_the_same_verdict_on_a_crossing_ring(write_world, tmp_path, cli):
+    # A ring that crosses itself (it holds a bow tie, so the tiling's area sum still holds
+    # when its neighbour is the rest of the sphere): check and every other command refuse it.
+    bowtie = [[0, 0], [10, 10], [10, 0], [0, 10], [0, 0]]
+    path = write_world([plate_feature("Bow", [bowtie]),
+                        plate_feature("Rest", [[[0, 0], [0, 10], [10, 0], [10, 10], [0, 0]]])])
+    status, out, err = cli("check", path)
+    assert status == 2 and "crosses itself" in out
+    (tmp_path / "m.csv").write_text("plate,lat,lon,rate\nBow,0,0,1\nRest,0,0,0\n")
+    status, out, err = cli("field", path, tmp_path / "m.csv", "-o", tmp_path / "f.csv")
+    assert status == 2 and "crosses itself" in err and not (tmp_path / "f.csv").exists()

@@ -110,9 +110,10 @@ def _clusters(xyz, radius_deg=_CLUSTER_DEG, most=10):
 def require_valid(world: World) -> World:
     """``world``, or :class:`~torque.errors.InputError` unless it is usable.
 
-    Usable means: reading found no error, and the plates tile the sphere (exact area sum
-    and grid coverage, see :func:`tiling_problems`). ``torque check`` runs these and the
-    slower checks, and lists every problem.
+    Usable means: reading found no error, the plates tile the sphere (exact area sum and
+    grid coverage, see :func:`tiling_problems`) and no ring crosses itself
+    (:func:`ring_crossings`): the errors ``torque check`` reports. ``torque check`` also
+    runs the checks that can only warn, and lists every problem.
 
     Parameters
     ----------
@@ -122,7 +123,10 @@ def require_valid(world: World) -> World:
     -------
     World
     """
-    errs = world.errors or [p for p in tiling_problems(world) if p.severity == "error"]
+    # the same verdict as torque check on everything that makes a world unusable: reading,
+    # the tiling, and rings that cross themselves
+    errs = world.errors or [p for p in _crossing_problems(world) + tiling_problems(world)
+                            if p.severity == "error"]
     if errs:
         shown = "; ".join(str(e) for e in errs[:5])
         more = f" (and {len(errs) - 5} more)" if len(errs) > 5 else ""
