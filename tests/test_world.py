@@ -65,3 +65,22 @@ def test_as_written_undoes_the_automatic_winding():
     assert g.ring_reversed is not None
     back = as_written(g)
     assert np.array_equal(back.xyz, g.xyz) == (not g.ring_reversed.any())
+
+
+def test_t_junctions_and_nearly_shared_vertices_still_give_boundaries():
+    # The southern hemisphere's outline has a vertex at lon 60 that the northern one lacks
+    # (a T-junction), and the northern one's vertices are 1e-7 degrees (about 1 cm) off the
+    # southern ones: the shared edge is still the whole equator, 2 pi R long.
+    from torque.io import world_from_rings
+    north = [(0, 1e-7), (120, -1e-7), (240, 1e-7)]
+    south = [(0, 0), (240, 0), (120, 0), (60, 0)]
+    w = world_from_rings({"Upper": [north], "Lower": [south]}, winding="strict")
+    assert [p for p in w.problems if "shared with no other" in p.message] == []
+    total = sum(float(sphere.angle_between(b.xyz[:-1], b.xyz[1:]).sum())
+                for b in w.boundaries)
+    assert total == pytest.approx(2 * np.pi, rel=1e-9)
+    assert {(b.left, b.right) for b in w.boundaries} == {("Upper", "Lower")}
+    # with the tolerance below the offsets, the stretches are reported instead
+    strict = world_from_rings({"Upper": [north], "Lower": [south]}, winding="strict",
+                              vertex_tolerance_m=1e-3)
+    assert any("shared with no other" in p.message for p in strict.problems)

@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 from functools import cached_property
 
 import numpy as np
+from scipy.spatial import cKDTree
 
 from . import sphere
 from .errors import InputError
@@ -621,11 +622,66 @@ def as_written(geometry: PlateGeometry) -> PlateGeometry:
                          geometry.ring_polygon, geometry.n_plates, None, geometry.spike_xyz)
 
 
-def derive_boundaries(geometry: PlateGeometry, plate_names) -> tuple[list, list]:
+def _vertex_ids(xyz, tol_rad: float) -> np.ndarray:
+    """One id per group of vertices closer than ``tol_rad`` (chains of them too)."""
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import connected_components
+    pairs = cKDTree(xyz).query_pairs(r=tol_rad, output_type="ndarray")
+    n = len(xyz)
+    graph = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(n, n))
+    return connected_components(graph, directed=False)[1].astype(np.int64)
+
+
+def _with_t_junctions(geometry: PlateGeometry, tol_rad: float):
+    """The rings with a vertex added to every edge that another plate's vertex lies on
+    (within ``tol_rad``, away from the edge's ends): a T-junction then becomes a shared
+    vertex.
+
+    Returns
+    -------
+    xyz : ndarray, shape (V', 3)
+    ring_start : ndarray of int, shape (R + 1,)
+    ring_plate : ndarray of int, shape (R,)
+    """
+    xyz, rs = geometry.xyz, geometry.ring_start
+    a, b, plate = geometry.edges
+    vplate = plate                                  # a vertex's plate is its edge's
+    pa, pb, piece = sphere.densify_arcs(a, b, np.radians(0.5))
+    half = 0.5 * np.linalg.norm(pa - pb, axis=1).max()
+    tree = cKDTree(sphere.normalize(pa + pb))
+    cand = tree.query_ball_point(xyz, r=half + 2 * tol_rad)
+    counts = np.array([len(c) for c in cand], dtype=np.int64)
+    v = np.repeat(np.arange(len(xyz)), counts)
+    e = piece[np.concatenate([np.asarray(c, dtype=np.int64) for c in cand])] if len(v) \
+        else np.zeros(0, np.int64)
+    keep = vplate[v] != plate[e]                     # another plate's edge
+    v, e = v[keep], e[keep]
+    on = sphere.point_arc_distance(xyz[v], a[e], b[e]) <= tol_rad
+    inner = (sphere.angle_between(xyz[v], a[e]) > tol_rad) & (
+        sphere.angle_between(xyz[v], b[e]) > tol_rad)
+    v, e = v[on & inner], e[on & inner]
+    if not len(v):
+        return xyz, rs, geometry.ring_plate
+    # insert each point after its edge's start, in order along the edge
+    pair = np.unique(np.c_[e, v], axis=0)            # a vertex once per edge
+    e, v = pair[:, 0], pair[:, 1]
+    t = sphere.angle_between(a[e], xyz[v])
+    order = np.lexsort((t, e))
+    e, v = e[order], v[order]
+    new_xyz = np.insert(xyz, e + 1, xyz[v], axis=0)
+    ring = sphere.ring_index(rs)[e]
+    added = np.bincount(ring, minlength=len(rs) - 1)
+    new_rs = rs + np.r_[0, np.cumsum(added)]
+    return new_xyz, new_rs, geometry.ring_plate
+
+
+def derive_boundaries(geometry: PlateGeometry, plate_names,
+                      tol_rad: float = SAME_VERTEX_RAD) -> tuple[list, list]:
     """Boundaries of kind ``unclassified`` from the edges that two plates share.
 
-    Two plates share an edge when one walks it from vertex u to v and the other from v to u
-    (vertices matched to 1e-9 degrees). Runs of consecutive shared edges become polylines,
+    Two plates share an edge when one walks it from vertex u to v and the other from v to u,
+    vertices closer than ``tol_rad`` being one vertex; a vertex of one plate that lies on an
+    edge of its neighbour (a T-junction) splits that edge first. Runs of consecutive shared edges become polylines,
     walked as in the ring of the plate that comes first, which is then their left plate.
 
     Returns ``(boundaries, problems)``; edges that no other plate shares are reported as
@@ -636,14 +692,14 @@ def derive_boundaries(geometry: PlateGeometry, plate_names) -> tuple[list, list]
     ----------
     geometry : PlateGeometry
     plate_names : sequence of str
+    tol_rad : float
+        Vertices closer than this (radians) are one vertex.
     """
-    xyz, rs = geometry.xyz, geometry.ring_start
-    q = np.round(xyz * 1e11).astype(np.int64)      # ~1e-9 degrees
-    _, vid = np.unique(q, axis=0, return_inverse=True)
-    vid = vid.ravel().astype(np.int64)
+    xyz, rs, ring_plate = _with_t_junctions(geometry, tol_rad)
+    vid = _vertex_ids(xyz, tol_rad)
     nv = int(vid.max()) + 1
     nxt = sphere.ring_next(rs)
-    plate = geometry.ring_plate[sphere.ring_index(rs)]
+    plate = ring_plate[sphere.ring_index(rs)]
     fwd = vid * nv + vid[nxt]
     rev = vid[nxt] * nv + vid
     order = np.argsort(fwd, kind="stable")
@@ -656,7 +712,7 @@ def derive_boundaries(geometry: PlateGeometry, plate_names) -> tuple[list, list]
     for r in range(len(rs) - 1):
         s, e = rs[r], rs[r + 1]
         nb = neighbour[s:e]
-        p = int(geometry.ring_plate[r])
+        p = int(ring_plate[r])
         # rotate so that a run does not wrap past the ring's start
         change = np.nonzero(nb != np.roll(nb, 1))[0]
         shift = int(change[0]) if change.size else 0

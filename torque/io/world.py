@@ -106,7 +106,7 @@ def load_world(path) -> World:
                          paths["boundaries"], features[k]) for k, n in trimmed]
         derived = False
     else:
-        boundaries, more = derive_boundaries(geometry, names)
+        boundaries, more = derive_boundaries(geometry, names, tol_rad)
         derived = True
     name = cfg.get("name", path.stem)
     return World(tuple(plates), geometry, tuple(boundaries), float(radius_km) * 1e3, derived,
@@ -157,7 +157,8 @@ def world_from_rings(plates: dict, boundaries=(), radius_km: float = EARTH_RADIU
     if boundaries:
         bnd, derived = tuple(boundaries), False
     else:
-        bnd, more = derive_boundaries(geometry, names)
+        bnd, more = derive_boundaries(geometry, names,
+                                      vertex_tolerance_m / (radius_km * 1e3))
         bnd, derived = tuple(bnd), True
         problems = problems + more
     return World(pl, geometry, bnd, radius_km * 1e3, derived, {}, tuple(problems), name,
