@@ -236,3 +236,47 @@ def test_published_layouts_read_the_same_field(tmp_path, layout):
     x, y = rng.uniform(-180, 180, 500), rng.uniform(-78, 78, 500)
     np.testing.assert_allclose(g.sample(x, y), _smooth(x, y), atol=0.02)
     assert np.isnan(g.sample(np.array([10.0]), np.array([85.0])))[0]
+
+
+def test_continents_from_the_age_grids_no_data_nodes(tmp_path, cli):
+    # continents = "from-ages": a block of no-data nodes is a continent, and its area in
+    # the plate is the exact area of the block's cells, R^2 dlon (sin lat2 - sin lat1)
+    # (the area of a lon/lat box on a sphere); a single no-data node in the ocean is a gap,
+    # not a continent: it gets no force, and a note says so.
+    import xarray as xr
+
+    from torque import Inputs, compute_torques
+    from torque.hypothesis import hypothesis_from_dict
+    from .conftest import feature_collection, plate_feature
+    north = [[0, 0], [120, 0], [240, 0], [0, 0]]
+    (tmp_path / "plates.geojson").write_text(__import__("json").dumps(feature_collection(
+        [plate_feature("Upper", [north]), plate_feature("Lower", [north[::-1]])])))
+    lon = np.arange(-179.5, 180, 1.0)
+    lat = np.arange(-89.5, 90, 1.0)
+    age = np.full((len(lat), len(lon)), 50.0)
+    block = (lat[:, None] > 10) & (lat[:, None] < 30) & (lon > 0) & (lon < 20)
+    age[block] = np.nan                          # 20 x 20 nodes: lon 0-20, lat 10-30
+    age[120, 300] = np.nan                       # one node, lat 30.5, lon 120.5: a gap
+    xr.Dataset({"age": (("lat", "lon"), age)}, coords={"lon": lon, "lat": lat}).to_netcdf(
+        tmp_path / "ages.nc", engine="h5netcdf")
+    (tmp_path / "world.toml").write_text('plates = "plates.geojson"\nages = "ages.nc"\n'
+                                         'continents = "from-ages"\nwinding = "strict"\n')
+    inputs = Inputs.load(tmp_path / "world.toml")
+    part = inputs.continental_part
+    exact = np.radians(20.0) * (np.sin(np.radians(30.0)) - np.sin(np.radians(10.0)))
+    assert part.area[inputs.world.plate_index["Upper"]] == pytest.approx(exact, rel=1e-12)
+    assert part.area[inputs.world.plate_index["Lower"]] == 0.0
+    hyp = hypothesis_from_dict({"force": [{"kind": "ridge", "coefficient": 1.0},
+                                          {"kind": "drag", "region": "ocean"},
+                                          {"kind": "drag", "region": "continent"},
+                                          {"kind": "drag", "label": "all"}]})
+    ridge, ocean, cont, whole = compute_torques(inputs, hyp)
+    assert any("1 age node(s) outside the continents have no age" in n for n in ridge.notes)
+    np.testing.assert_allclose(ocean.resisting + cont.resisting, whole.resisting,
+                               atol=1e-12 * np.abs(whole.resisting).max())
+    status, out, err = cli("check", tmp_path / "world.toml")
+    assert status == 0 and "no-data nodes of the age grid" in out
+    # an age grid is needed
+    (tmp_path / "w2.toml").write_text('plates = "plates.geojson"\ncontinents = "from-ages"\n')
+    status, out, err = cli("check", tmp_path / "w2.toml")
+    assert status == 2 and "needs an age grid" in err

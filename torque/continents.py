@@ -208,3 +208,127 @@ def _reference_point(pts):
         if len(pts) == 0 or sphere.dot(pts, -q).max() < np.cos(1e-3):
             return q
     return q
+
+
+#: Groups of no-data nodes smaller than this (nodes, neighbours along lon and lat) are gaps
+#: in the ocean's ages, not continents.
+MIN_CONTINENT_NODES = 4
+
+
+@dataclass(frozen=True, eq=False)
+class MaskContinents:
+    """Continental regions as the no-data nodes of an age grid (``continents =
+    "from-ages"``): where the grid has no sea-floor age there is no oceanic lithosphere.
+
+    Groups of fewer than :data:`MIN_CONTINENT_NODES` neighbouring no-data nodes are gaps in
+    the ocean, not continents: they get no force (the age check counts them). The moments of
+    a plate's continental part are sums over the grid's cells (a discretisation, first order
+    in the grid step), unlike the exact clipping of continent polygons.
+
+    Attributes
+    ----------
+    grid : AgeGrid
+    mask : ndarray of bool, shape (nlat, nlon)
+        Continental nodes.
+    source : str
+    """
+
+    grid: object
+    mask: np.ndarray
+    source: str = "from-ages"
+
+    def __repr__(self) -> str:
+        return (f"MaskContinents({self.source!r}, {int(self.mask.sum()):,} of "
+                f"{self.mask.size:,} nodes)")
+
+    @classmethod
+    def from_ages(cls, grid) -> "MaskContinents":
+        """The continental mask of an age grid.
+
+        Parameters
+        ----------
+        grid : AgeGrid
+
+        Returns
+        -------
+        MaskContinents
+        """
+        from scipy import ndimage
+        nodata = ~np.isfinite(grid.age_myr)
+        labels, n = ndimage.label(nodata)
+        if grid.global_lon and n:                  # a group across the antimeridian is one
+            for a, b in set(zip(labels[:, 0][nodata[:, 0] & nodata[:, -1]],
+                                labels[:, -1][nodata[:, 0] & nodata[:, -1]])):
+                labels[labels == b] = a
+        sizes = np.bincount(labels.ravel())
+        big = sizes >= MIN_CONTINENT_NODES
+        big[0] = False
+        return cls(grid, big[labels], f"no-data nodes of {grid.source}")
+
+    def on_grid(self, lon_deg, lat_deg) -> np.ndarray:
+        """Whether the nodes of a regular grid lie on a continent (the nearest age node's).
+
+        Parameters
+        ----------
+        lon_deg, lat_deg : ndarray
+            The grid's axes, degrees.
+
+        Returns
+        -------
+        ndarray of bool, shape (nlat, nlon)
+        """
+        g = self.grid
+        i = _nearest(g.lon, np.asarray(lon_deg, float), wrap=g.global_lon)
+        j = _nearest(g.lat, np.asarray(lat_deg, float), wrap=False)
+        return self.mask[np.ix_(j, i)]
+
+    def contains(self, xyz) -> np.ndarray:
+        """Whether each unit vector ``(N, 3)`` lies on a continent (nearest node).
+
+        Parameters
+        ----------
+        xyz : array_like, shape (N, 3)
+
+        Returns
+        -------
+        ndarray of bool, shape (N,)
+        """
+        lon, lat = sphere.xyz_to_lonlat(np.asarray(xyz, float))
+        g = self.grid
+        return self.mask[_nearest(g.lat, lat, False), _nearest(g.lon, lon, g.global_lon)]
+
+    def moments(self, node_plates, n_plates: int):
+        """Area, first and second moments of each plate's continental part: sums over the
+        cells of the continental nodes.
+
+        Parameters
+        ----------
+        node_plates : ndarray of int, shape (nlat, nlon)
+            The plate of every node of the age grid.
+        n_plates : int
+
+        Returns
+        -------
+        area : ndarray, shape (P,)
+        first : ndarray, shape (P, 3)
+        second : ndarray, shape (P, 3, 3)
+        """
+        g = self.grid
+        LON, LAT = np.meshgrid(g.lon, g.lat)
+        r = sphere.lonlat_to_xyz(LON[self.mask], LAT[self.mask])
+        dA = g.cell_areas()[self.mask]
+        p = node_plates[self.mask]
+        area = np.bincount(p, weights=dA, minlength=n_plates)
+        first = np.stack([np.bincount(p, weights=dA * r[:, k], minlength=n_plates)
+                          for k in range(3)], axis=1)
+        rr = np.einsum("ni,nj->nij", r, r) * dA[:, None, None]
+        second = np.stack([np.bincount(p, weights=rr[:, i, j], minlength=n_plates)
+                           for i in range(3) for j in range(3)], axis=1).reshape(-1, 3, 3)
+        return area, first, second
+
+
+def _nearest(axis, x, wrap: bool) -> np.ndarray:
+    """Index of the nearest node of an evenly spaced, increasing axis (longitudes wrapped)."""
+    step = axis[1] - axis[0]
+    k = np.rint((x - axis[0]) / step).astype(np.int64)
+    return np.mod(k, len(axis)) if wrap else np.clip(k, 0, len(axis) - 1)

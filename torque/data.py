@@ -20,7 +20,7 @@ from functools import cached_property
 import numpy as np
 
 from . import sphere
-from .continents import clip_moments
+from .continents import MaskContinents, clip_moments
 from .errors import InputError
 
 
@@ -76,6 +76,7 @@ class WorldData:
         self.world = world
         self._given = {"continents": continents, "ages": ages, "flow": flow}
         self._node_cache: dict = {}
+        self._loaded: dict = {}
         self._synth_cache: dict = {}
 
     def __repr__(self) -> str:
@@ -89,8 +90,11 @@ class WorldData:
         return None
 
     def _data(self, key: str):
-        given = self._given[key]
-        return given if given is not None else self._read(key)
+        """The data of ``key``: given, else read (once)."""
+        if key not in self._loaded:
+            given = self._given[key]
+            self._loaded[key] = given if given is not None else self._read(key)
+        return self._loaded[key]
 
     # -- the data -------------------------------------------------------------------------
     @cached_property
@@ -187,8 +191,10 @@ class WorldData:
             return np.zeros((len(grid.lat), len(grid.lon)), bool)
         key = ("continental", id(grid))
         if key not in self._node_cache:
-            self._node_cache[key] = (grid, self.continents.locator.locate_grid(
-                grid.lon, grid.lat) == 0)
+            c = self.continents
+            self._node_cache[key] = (grid, c.on_grid(grid.lon, grid.lat)
+                                     if isinstance(c, MaskContinents)
+                                     else c.locator.locate_grid(grid.lon, grid.lat) == 0)
         return self._node_cache[key][1]
 
     @cached_property
@@ -197,6 +203,12 @@ class WorldData:
         P = self.world.geometry.n_plates
         if self.continents is None:
             return ContinentalPart(np.zeros(P), np.zeros((P, 3)), np.zeros((P, 3, 3)))
+        if isinstance(self.continents, MaskContinents):
+            c = self.continents
+            area, first, second = c.moments(self.node_plates(c.grid), P)
+            return ContinentalPart(area, first, second, (
+                f"continents are the no-data nodes of the age grid ({c.source}): the "
+                "continental and oceanic parts of plates are sums over its cells",))
         area, first, second, warnings = clip_moments(self.world, self.continents)
         return ContinentalPart(area, first, second, tuple(warnings))
 

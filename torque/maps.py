@@ -104,7 +104,7 @@ def draw_plates(ax, world, continents=None, labels=True):
     edges_lat = np.r_[lat - 0.25, lat[-1] + 0.25]
     ax.pcolormesh(edges_lon, edges_lat, idx, cmap=ListedColormap(cols), vmin=-0.5,
                   vmax=len(cols) - 0.5, transform=ccrs.PlateCarree(), rasterized=True)
-    if continents is not None:
+    if continents is not None and hasattr(continents, "ring_start"):
         rs = continents.ring_start
         for r in range(len(rs) - 1):
             ring = continents.xyz[rs[r]:rs[r + 1]]

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from ..continents import MaskContinents
 from ..data import WorldData
 from ..forces import build_terms
 from ..forces.context import Context
@@ -17,7 +18,7 @@ from ..validate import check_world as _check_world
 from ..validate import require_valid
 from .geojson import read_continents
 from .grids import read_ages, read_flow
-from .world import load_world
+from .world import FROM_AGES, load_world
 
 _PATH_KEYS = {"continents": "continents", "ages": "ages", "flow": "mantle_flow"}
 
@@ -69,6 +70,8 @@ class Inputs(WorldData):
         if path is None:
             return None
         if key == "continents":
+            if path == FROM_AGES:
+                return MaskContinents.from_ages(self._data("ages"))
             return read_continents(path, self.world.winding)
         return read_ages(path) if key == "ages" else read_flow(path)
 

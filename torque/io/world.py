@@ -17,12 +17,16 @@ WORLD_KEYS = {
     "radius_km": "planet radius in km (default 6371.0)",
     "plates": "GeoJSON file of plate polygons (required)",
     "boundaries": "GeoJSON file of boundary lines",
-    "continents": "GeoJSON file of continental regions",
+    "continents": 'GeoJSON file of continental regions, or "from-ages": the age grid\'s '
+                  'no-data nodes',
     "ages": "sea-floor age grid (NetCDF or CSV lon,lat,age_myr)",
     "mantle_flow": "mantle velocity grid (NetCDF)",
     "winding": '"auto" (default) or "strict"',
     "vertex_tolerance_m": "vertices closer than this are one vertex (default 5 m)",
 }
+#: The value of the world key ``continents`` that takes the age grid's no-data nodes as the
+#: continental region.
+FROM_AGES = "from-ages"
 #: Vertices closer than this are one vertex (a digitiser's repeated point): a few metres.
 DEFAULT_VERTEX_TOLERANCE_M = 5.0
 DATA_KEYS = ("plates", "boundaries", "continents", "ages", "mantle_flow")
@@ -74,6 +78,12 @@ def load_world(path) -> World:
         raise InputError(f"winding must be \"auto\" or \"strict\", got {winding!r}", file=path)
     paths = {"world": str(path)}
     for key in DATA_KEYS:
+        if key == "continents" and cfg.get(key) == FROM_AGES:
+            if "ages" not in cfg:
+                raise InputError('continents = "from-ages" needs an age grid: add \'ages\'',
+                                 file=path)
+            paths[key] = FROM_AGES
+            continue
         if key in cfg:
             if not isinstance(cfg[key], str):
                 raise InputError(f"{key} must be a file name (a string)", file=path)
