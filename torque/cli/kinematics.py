@@ -20,6 +20,7 @@ from ..lithosphere import Physics
 from ..margins import (MIN_RUN_KM, TRANSFORM_WITHIN_DEG, boundary_motion, classify_pieces,
                        sample_boundaries)
 from ..sphere import xyz_to_lonlat
+from ..world import Boundary
 from . import text
 from .common import EXIT_OK, inputs, motions_for, positive
 
@@ -224,7 +225,12 @@ def run_boundaries(args) -> int:
         "opening_mm_yr": motion.opening_mm_yr, "along_mm_yr": motion.along_mm_yr,
         "obliquity_deg": motion.obliquity_deg})
     if args.geojson:
-        write_boundaries_geojson(args.geojson, boundaries)
+        # a convergent stretch whose sinking plate is unresolved is no valid subduction
+        # zone: it is written unclassified, with what is known, so that check accepts it
+        write_boundaries_geojson(args.geojson, [
+            Boundary("unclassified", b.left, b.right, b.xyz, b.feature, None,
+                     {**b.properties, "motion": "convergent, sinking plate unresolved"})
+            if k in unresolved else b for k, b in enumerate(boundaries)])
     kinds = {}
     for b in boundaries:
         kinds[b.kind] = kinds.get(b.kind, 0) + 1
@@ -238,8 +244,10 @@ def run_boundaries(args) -> int:
               "floor on either side)" + ("; sea-floor ages synthesised from the ridges found "
                                          "and the motions" if synthesised else ""))
         if unresolved:
-            print(f"sinking plate unresolved (no sea-floor ages on either side) for "
-                  f"{len(unresolved)} subduction line(s): {', '.join(map(str, unresolved))}; "
-                  "give the world an age grid, or set 'subducting' by hand")
+            print(f"sinking plate unresolved (no sea-floor ages, or sea floor of one age, on "
+                  f"both sides) for {len(unresolved)} convergent line(s): "
+                  f"{', '.join(map(str, unresolved))}; give the world an age grid, or set "
+                  "'subducting' by hand" + ("; --geojson writes them 'unclassified'"
+                                            if args.geojson else ""))
     print(f"wrote {args.output}" + (f" and {args.geojson}" if args.geojson else ""))
     return EXIT_OK
