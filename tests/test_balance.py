@@ -287,3 +287,11 @@ def test_predict_without_coefficients_for_free_terms(demo_files, cli):
                d / "p.csv", "need values", "--coefficients")
 
 
+
+
+def test_small_solves_run_on_one_blas_thread():
+    # threadpoolctl reports the BLAS thread count inside the fits' context
+    from threadpoolctl import threadpool_info
+    with balance.small_solves():
+        blas = [i for i in threadpool_info() if i["user_api"] == "blas"]
+    assert blas and all(i["num_threads"] == 1 for i in blas)
