@@ -304,3 +304,16 @@ def test_every_command_gives_the_same_verdict_on_a_crossing_ring(write_world, tm
     (tmp_path / "m.csv").write_text("plate,lat,lon,rate\nBow,0,0,1\nRest,0,0,0\n")
     status, out, err = cli("field", path, tmp_path / "m.csv", "-o", tmp_path / "f.csv")
     assert status == 2 and "crosses itself" in err and not (tmp_path / "f.csv").exists()
+
+
+def test_a_touch_within_the_vertex_tolerance_is_no_crossing():
+    # A vertex 1e-7 degrees (about 1 cm) past the ring's own bottom edge makes two edges
+    # cross it within 1 cm of that vertex: a pinch of rounding size, not a crossing, under
+    # the default 5 m tolerance; with a tolerance of 0.1 mm it is a crossing.
+    from torque.io import world_from_rings
+    from torque.validate import ring_crossings
+    ring = [(0, 0), (10, 0), (10, 10), (5, -1e-7), (0, 10)]
+    loose = world_from_rings({"A": [ring]})
+    assert len(ring_crossings(loose.geometry, tol_rad=loose.tolerance_rad)) == 0
+    tight = world_from_rings({"A": [ring]}, vertex_tolerance_m=1e-4)
+    assert len(ring_crossings(tight.geometry, tol_rad=tight.tolerance_rad)) == 2

@@ -205,7 +205,7 @@ def _written_winding_tiles(g) -> bool:
     return len(w.locator.coverage_problems()[0]) == 0
 
 
-def ring_crossings(geometry, frame=None):
+def ring_crossings(geometry, frame=None, tol_rad: float = 0.0):
     """Pairs of edges of the same polygon part that cross each other.
 
     Candidate pairs come from an STR-tree of the edges' exact lon/lat boxes (in a rotated
@@ -217,6 +217,10 @@ def ring_crossings(geometry, frame=None):
     geometry : PlateGeometry
     frame : scipy Rotation, optional
         The rotated frame (default: the locator's).
+    tol_rad : float
+        Arcs that meet within this (radians) of one of their end points touch, and do not
+        count as crossing (``World.tolerance_rad``, from the world file's
+        ``vertex_tolerance_m``).
 
     Returns
     -------
@@ -238,13 +242,23 @@ def ring_crossings(geometry, frame=None):
     pairs = np.unique(np.stack([i, j], axis=1), axis=0)
     if len(pairs) == 0:
         return pairs.reshape(0, 2)
-    hit = sphere.arcs_cross(a[pairs[:, 0]], b[pairs[:, 0]], a[pairs[:, 1]], b[pairs[:, 1]])
+    p, q = pairs[:, 0], pairs[:, 1]
+    hit = sphere.arcs_cross(a[p], b[p], a[q], b[q])
+    if tol_rad > 0 and hit.any():
+        # arcs that meet within the tolerance of an end point touch there: rounding, or
+        # a digitiser's near-repeated vertex, not a crossing
+        p, q, pairs = p[hit], q[hit], pairs[hit]
+        x = sphere.normalize(np.cross(np.cross(a[p], b[p]), np.cross(a[q], b[q])))
+        x *= np.sign(sphere.dot(x, a[p] + b[p]))[:, None]
+        near_end = np.min([sphere.angle_between(x, e) for e in (a[p], b[p], a[q], b[q])],
+                          axis=0) <= tol_rad
+        return pairs[~near_end]
     return pairs[hit]
 
 
 def _crossing_problems(world: World) -> list:
     g = world.geometry
-    pairs = ring_crossings(g)
+    pairs = ring_crossings(g, tol_rad=world.tolerance_rad)
     probs = []
     seen = set()
     for i, j in pairs[:50]:

@@ -24,6 +24,9 @@ from .errors import InputError
 
 EARTH_RADIUS_KM = 6371.0
 BOUNDARY_KINDS = ("ridge", "subduction", "transform", "collision", "unclassified")
+#: Two vertices closer than this (radians, about 6 mm on the Earth) are the same vertex, for
+#: worlds built without a stated tolerance (world files state one in metres).
+SAME_VERTEX_RAD = 1e-9
 
 
 @dataclass(frozen=True)
@@ -297,6 +300,9 @@ class World:
         What reading found wrong or doubtful.
     name : str
     winding : {"auto", "strict"}
+    tolerance_rad : float
+        Vertices closer than this (radians) are one vertex (the world file's
+        ``vertex_tolerance_m`` over the radius).
     """
 
     plates: tuple
@@ -308,6 +314,7 @@ class World:
     problems: tuple = ()
     name: str = "world"
     winding: str = "auto"
+    tolerance_rad: float = SAME_VERTEX_RAD
 
     def __repr__(self) -> str:
         return (f"World({self.name!r}, {len(self.plates)} plates, {len(self.boundaries)} "
@@ -407,11 +414,6 @@ class World:
     @property
     def errors(self) -> list:
         return [p for p in self.problems if p.severity == "error"]
-
-
-#: Two vertices closer than this (radians, about 6 mm on the Earth) are the same vertex when
-#: an outline is checked for zero-width spikes.
-SAME_VERTEX_RAD = 1e-9
 
 
 def remove_spikes(xyz, tol_rad: float = SAME_VERTEX_RAD):

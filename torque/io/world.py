@@ -120,7 +120,7 @@ def load_world(path) -> World:
         derived = True
     name = cfg.get("name", path.stem)
     return World(tuple(plates), geometry, tuple(boundaries), float(radius_km) * 1e3, derived,
-                 paths, tuple(problems + more), str(name), winding)
+                 paths, tuple(problems + more), str(name), winding, tol_rad)
 
 
 def world_from_rings(plates: dict, boundaries=(), radius_km: float = EARTH_RADIUS_KM,
@@ -172,7 +172,7 @@ def world_from_rings(plates: dict, boundaries=(), radius_km: float = EARTH_RADIU
         bnd, derived = tuple(bnd), True
         problems = problems + more
     return World(pl, geometry, bnd, radius_km * 1e3, derived, {}, tuple(problems), name,
-                 winding)
+                 winding, vertex_tolerance_m / (radius_km * 1e3))
 
 
 def write_world_file(path, keys: dict, comment: str | None = None) -> None:
