@@ -10,12 +10,11 @@ from dataclasses import dataclass
 
 import numpy as np
 import shapely
-from scipy.spatial import cKDTree
 
 from . import sphere
 from .data import WorldData
 from .errors import InputError
-from .locate import arc_boxes
+from .locate import ArcIndex, arc_boxes
 from .world import Problem, World
 
 AREA_RTOL = 1e-9            # total area against 4 pi R^2
@@ -302,10 +301,8 @@ def boundary_offsets(world: World):
     idx = world.plate_index
     tol = BOUNDARY_TOL_KM * 1e3 / world.radius_m
     a, b, plate = g.edges
-    pa, pb, piece = sphere.densify_arcs(a, b, np.radians(0.1))
-    piece_plate = plate[piece]
-    half = 0.5 * np.linalg.norm(pa - pb, axis=1).max()
-    tree = cKDTree(sphere.normalize(pa + pb))
+    edges = ArcIndex(a, b)
+    pa, pb, piece_plate = edges.pa, edges.pb, plate[edges.owner]
 
     usable = [k for k, bd in enumerate(world.boundaries)
               if bd.left in idx and bd.right in idx]
@@ -317,11 +314,8 @@ def boundary_offsets(world: World):
     right = np.array([idx[bd.right] for bd in world.boundaries])[owner]
 
     def measure(which, reach):
-        cand = tree.query_ball_point(xyz[which], r=2 * np.sin(reach / 2) + half + 1e-12)
-        counts = np.array([len(c) for c in cand], dtype=np.int64)
-        v = np.repeat(which, counts)
-        e = np.concatenate([np.asarray(c, dtype=np.int64) for c in cand]) if len(v) \
-            else np.zeros(0, np.int64)
+        v, e = edges.pairs(xyz[which], reach)
+        v = which[v]
         dist = np.full((2, len(xyz)), np.inf)
         for side, want in enumerate((left, right)):
             sel = piece_plate[e] == want[v]
@@ -368,20 +362,7 @@ def uncovered_edges(world: World, piece_km: float = 25.0):
     n, theta = sphere.arc_pole(pa, pb)
     mid = sphere.slerp_points(pa, pb, 0.5)
     bs = world.boundary_set
-    if not len(bs.line):
-        covered = np.zeros(len(mid), bool)
-    else:
-        la, lb, _ = sphere.densify_arcs(bs.a, bs.b, np.radians(0.1))
-        half = 0.5 * np.linalg.norm(la - lb, axis=1).max()
-        tree = cKDTree(sphere.normalize(la + lb))
-        cand = tree.query_ball_point(mid, r=2 * np.sin(tol / 2) + half + 1e-12)
-        counts = np.array([len(c) for c in cand], dtype=np.int64)
-        v = np.repeat(np.arange(len(mid)), counts)
-        e = (np.concatenate([np.asarray(c, dtype=np.int64) for c in cand]) if len(v)
-             else np.zeros(0, np.int64))
-        dist = np.full(len(mid), np.inf)
-        np.minimum.at(dist, v, sphere.point_arc_distance(mid[v], la[e], lb[e]))
-        covered = dist <= tol
+    covered = ArcIndex(bs.a, bs.b).distance(mid, tol) <= tol
     out = {}
     todo = np.nonzero(~covered & (theta > 0))[0]
     if not len(todo):

@@ -17,10 +17,13 @@ from dataclasses import dataclass, field
 from functools import cached_property
 
 import numpy as np
+from scipy.sparse import coo_matrix
+from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
 from . import sphere
 from .errors import InputError
+from .locate import ArcIndex, PlateLocator
 
 EARTH_RADIUS_KM = 6371.0
 BOUNDARY_KINDS = ("ridge", "subduction", "transform", "collision", "unclassified")
@@ -273,7 +276,6 @@ class PlateGeometry:
 
     @cached_property
     def locator(self):
-        from .locate import PlateLocator
         return PlateLocator(self.xyz, self.ring_start, self.ring_plate, self.ring_is_hole,
                             self.n_plates)
 
@@ -626,8 +628,6 @@ def as_written(geometry: PlateGeometry) -> PlateGeometry:
 
 def _vertex_ids(xyz, tol_rad: float) -> np.ndarray:
     """One id per group of vertices closer than ``tol_rad`` (chains of them too)."""
-    from scipy.sparse import coo_matrix
-    from scipy.sparse.csgraph import connected_components
     pairs = cKDTree(xyz).query_pairs(r=tol_rad, output_type="ndarray")
     n = len(xyz)
     graph = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(n, n))
@@ -648,14 +648,9 @@ def _with_t_junctions(geometry: PlateGeometry, tol_rad: float):
     xyz, rs = geometry.xyz, geometry.ring_start
     a, b, plate = geometry.edges
     vplate = plate                                  # a vertex's plate is its edge's
-    pa, pb, piece = sphere.densify_arcs(a, b, np.radians(0.5))
-    half = 0.5 * np.linalg.norm(pa - pb, axis=1).max()
-    tree = cKDTree(sphere.normalize(pa + pb))
-    cand = tree.query_ball_point(xyz, r=half + 2 * tol_rad)
-    counts = np.array([len(c) for c in cand], dtype=np.int64)
-    v = np.repeat(np.arange(len(xyz)), counts)
-    e = piece[np.concatenate([np.asarray(c, dtype=np.int64) for c in cand])] if len(v) \
-        else np.zeros(0, np.int64)
+    index = ArcIndex(a, b, np.radians(0.5))
+    v, e = index.pairs(xyz, 2 * tol_rad)
+    e = index.owner[e]
     keep = vplate[v] != plate[e]                     # another plate's edge
     v, e = v[keep], e[keep]
     on = sphere.point_arc_distance(xyz[v], a[e], b[e]) <= tol_rad
