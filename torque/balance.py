@@ -404,7 +404,8 @@ def _misfit_vector(system: System, omega_pred, omega_obs) -> np.ndarray:
     return (system.radius_m ** 2 * np.einsum("pji,pj->pi", L, dw)).ravel()
 
 
-def fit_velocity(system: System, omega_obs, start: Fit | None = None) -> Fit:
+def fit_velocity(system: System, omega_obs, start: Fit | None = None,
+                 free_frame: bool = False) -> Fit:
     """Free coefficients minimising the area-integrated squared velocity misfit.
 
     Parameters
@@ -414,6 +415,12 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None) -> Fit:
         Observed Euler vectors, rad/s, mantle at rest.
     start : Fit, optional
         The torque-space fit to start from (made if not given).
+    free_frame : bool
+        Also estimate the rotation ``w`` of the observations' frame relative to the
+        mantle: the observed motions are then compared with ``predicted + w``. The misfit
+        is linear in ``w`` (its Jacobian is ``R^2 L_p^T`` per plate), so ``w`` is fitted
+        jointly and exactly; it is returned in ``info["frame_rotation"]`` (rad/s) with its
+        covariance in ``info["frame_cov"]``.
 
     Returns
     -------
@@ -432,6 +439,11 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None) -> Fit:
     typical = h / np.linalg.norm(G[:, free], axis=0)
     scale = np.where(np.abs(x0) > 0, np.abs(x0), typical)
     fixed_c = system.fixed
+    k_free = int(free.sum())
+    omega_obs = np.asarray(omega_obs, float)
+    # the frame's rotation, scaled by the size of the observed motions
+    w_scale = float(np.sqrt(np.mean(np.sum(omega_obs ** 2, axis=1)))) or 1.0
+    frame_block = R2 * np.swapaxes(L, 1, 2) * w_scale                 # (P, 3, 3): d r / d w
 
     def coeffs(x):
         c = fixed_c.copy()
@@ -445,41 +457,58 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None) -> Fit:
         w = linalg.lu_solve(lu, -(c @ system.b))
         return c, lu, w
 
+    def frame(x):
+        return x[k_free:] * w_scale if free_frame else np.zeros(3)
+
     def residual(x):
-        _, _, w = solve(x)
-        return _misfit_vector(system, w.reshape(-1, 3), omega_obs)
+        _, _, w = solve(x[:k_free])
+        return _misfit_vector(system, w.reshape(-1, 3) + frame(x), omega_obs)
 
     def jacobian(x):
-        _, lu, w = solve(x)
+        _, lu, w = solve(x[:k_free])
         # d w / d c_k = -M^{-1} (A_k w + b_k), for the free k
         rhs = (system.A[free] @ w + system.b[free]).T                 # (3P, k)
         dw = -linalg.lu_solve(lu, rhs) * scale                        # (3P, k)
         dw = dw.reshape(-1, 3, dw.shape[1])
-        return (R2 * np.einsum("pji,pjk->pik", L, dw)).reshape(-1, dw.shape[2])
+        J = (R2 * np.einsum("pji,pjk->pik", L, dw)).reshape(-1, dw.shape[2])
+        return np.hstack([J, frame_block.reshape(-1, 3)]) if free_frame else J
 
     M0 = np.tensordot(start.values, system.A, axes=1)
     _check_determined(system, M0)
     lo, hi = (system.bounds[free] / scale[:, None]).T
     x_start = np.clip(x0 / scale, lo, hi)
+    if free_frame:
+        # the best frame for the starting coefficients: the misfit is linear in it
+        D = system.D
+        _, _, w0 = solve(x_start)
+        gap = omega_obs - w0.reshape(-1, 3)
+        w_start = np.linalg.solve(D.sum(0), np.einsum("pij,pj->i", D, gap)) / w_scale
+        x_start = np.r_[x_start, w_start]
+        lo, hi = np.r_[lo, [-np.inf] * 3], np.r_[hi, [np.inf] * 3]
     res = optimize.least_squares(residual, x_start, jac=jacobian, bounds=(lo, hi),
                                  method="trf", x_scale="jac", xtol=1e-15, ftol=1e-15,
                                  gtol=1e-15, max_nfev=200)
-    x = res.x * scale
-    J = jacobian(res.x) / scale
+    x = res.x[:k_free] * scale
+    units = np.r_[scale, [w_scale] * (3 if free_frame else 0)]
+    J = jacobian(res.x) / units
     rss = float(res.fun @ res.fun)
     n, k = J.shape
     dof = max(n - k, 1)
     try:
-        cov = rss / dof * np.linalg.inv(J.T @ J)
+        cov_all = rss / dof * np.linalg.inv(J.T @ J)
     except np.linalg.LinAlgError:
-        cov = np.full((k, k), np.nan)
+        cov_all = np.full((k, k), np.nan)
+    cov = cov_all[:k_free, :k_free]
     values = system.full_coefficients(x)
     stderr = np.zeros(len(values))
     stderr[free] = np.sqrt(np.clip(np.diag(cov), 0, None))
     free_labels = [l for l, f in zip(system.labels, system.free) if f]
-    active = tuple(free_labels[i] for i in np.nonzero(res.active_mask)[0])
-    return Fit(system, "velocity", values, stderr, cov, rss, dof, active,
-               {"evaluations": int(res.nfev), "status": int(res.status)})
+    active = tuple(free_labels[i] for i in np.nonzero(res.active_mask[:k_free])[0])
+    info = {"evaluations": int(res.nfev), "status": int(res.status)}
+    if free_frame:
+        info["frame_rotation"] = frame(res.x)
+        info["frame_cov"] = cov_all[k_free:, k_free:]
+    return Fit(system, "velocity", values, stderr, cov, rss, dof, active, info)
 
 
 def small_solves():
@@ -533,19 +562,23 @@ class FitMethod:
         start from another's result.
     describes : str
         One line for the documentation.
+    frames : bool
+        Whether ``run`` takes ``free_frame=True`` and then estimates the rotation of the
+        observations' frame relative to the mantle (``Fit.info["frame_rotation"]``).
     """
 
     name: str
     run: object
     describes: str
+    frames: bool = False
 
 
 def _run_torque(system, omega_obs, earlier, weighting):
     return fit_torque(system, omega_obs, weighting)
 
 
-def _run_velocity(system, omega_obs, earlier, weighting):
-    return fit_velocity(system, omega_obs, earlier.get("torque"))
+def _run_velocity(system, omega_obs, earlier, weighting, free_frame=False):
+    return fit_velocity(system, omega_obs, earlier.get("torque"), free_frame)
 
 
 #: Fit methods in the order :func:`torque.diagnostics.analyse` runs them. A new method is
@@ -554,6 +587,6 @@ FIT_METHODS = {
     "torque": FitMethod("torque", _run_torque, "bounded linear least squares of the "
                         "weighted torque balance"),
     "velocity": FitMethod("velocity", _run_velocity, "nonlinear least squares of the "
-                          "area-integrated velocity misfit (preferred)"),
+                          "area-integrated velocity misfit (preferred)", frames=True),
 }
 PREFERRED_FIT = "velocity"

@@ -303,6 +303,11 @@ class FitResult:
         How the terms were computed where a user should know.
     preferred_fit : str
         The method whose values are ``Coefficient.value``.
+    frame : dict, optional
+        With a free mantle frame: the mantle's rotation in the frame of the observations
+        (``rotation``: pole ``lat``, ``lon`` and ``rate``; ``vector_deg_myr`` and
+        ``stderr_deg_myr``, Cartesian), and the net rotation of the lithosphere relative
+        to the mantle, observed and predicted (poles).
 
     Examples
     --------
@@ -321,6 +326,7 @@ class FitResult:
     uncertainty: dict = field(default_factory=dict)
     notes: tuple = ()
     preferred_fit: str = PREFERRED_FIT
+    frame: dict | None = None
 
     def __repr__(self) -> str:
         free = [l for l, c in self.coefficients.items() if c.free]
@@ -370,6 +376,8 @@ class FitResult:
             "uncertainty": self.uncertainty,
         }
         out["notes"] = list(self.notes)
+        if self.frame is not None:
+            out["frame"] = self.frame
         return out
 
     @classmethod
@@ -407,7 +415,8 @@ class FitResult:
                                        num("torque_space_stderr"))
         return cls(str(doc.get("hypothesis", "")), coefs, tuple(doc["plates"]),
                    dict(doc.get("misfit") or {}), dict(doc.get("uncertainty") or {}),
-                   tuple(doc.get("notes") or ()), str(doc.get("preferred_fit", PREFERRED_FIT)))
+                   tuple(doc.get("notes") or ()), str(doc.get("preferred_fit", PREFERRED_FIT)),
+                   doc.get("frame") if isinstance(doc.get("frame"), dict) else None)
 
 
 @dataclass(frozen=True, eq=False)
@@ -427,6 +436,10 @@ class Report:
     uncertainty : dict
         Resampled spreads (see :mod:`torque.resample`).
     preferred_fit : str
+    frame : dict, optional
+        With a free frame: ``rotation`` (3,) rad/s, the mantle's rotation in the frame of
+        the observations; its ``cov`` (3, 3); and the observations as given
+        (``observed_frame``). ``omega_obs`` is then in the mantle's frame.
     """
 
     system: System
@@ -436,6 +449,7 @@ class Report:
     pole_cov: np.ndarray
     uncertainty: dict = field(default_factory=dict)
     preferred_fit: str = PREFERRED_FIT
+    frame: dict | None = None
 
     def __repr__(self) -> str:
         return (f"Report({self.system.name!r}, {self.system.n_plates} plates, "
@@ -509,19 +523,44 @@ class Report:
             })
         n = 3 * s.n_plates
         k = s.n_free
-        ic = information_criteria(glob["velocity_rss_m4_s2"], n, k)
-        misfit = {**glob, "n": n, "free_coefficients": k, **ic,
+        # a free frame is three more parameters
+        ic = information_criteria(glob["velocity_rss_m4_s2"], n,
+                                  k + (3 if self.frame is not None else 0))
+        extra = {"frame_parameters": 3} if self.frame is not None else {}
+        misfit = {**glob, "n": n, "free_coefficients": k, **extra, **ic,
                   "torque_space_rss": tf.rss,
                   "torque_space_weighting": tf.info.get("weighting"),
                   "active_bounds": list(pref.active_bounds)}
         return FitResult(s.name, {l: Coefficient(**c) for l, c in coefs.items()},
                          tuple(plates), misfit, self.uncertainty, tuple(notes),
-                         self.preferred_fit)
+                         self.preferred_fit, self._frame_dict())
+
+    def _frame_dict(self):
+        """The free frame's rotation and the net rotations, as reported (None if fixed)."""
+        if self.frame is None:
+            return None
+        s = self.system
+        w = np.asarray(self.frame["rotation"], float)
+        se = np.sqrt(np.clip(np.diag(self.frame["cov"]), 0, None))
+
+        def pole(v):
+            lat, lon, rate = vector_to_pole(v)
+            return {"lat": float(lat), "lon": float(lon), "rate": float(rate)}
+
+        def net(omega):          # the rotation whose removal zeroes int r x v dA
+            return np.linalg.solve(s.D.sum(0), np.einsum("pij,pj->i", s.D, omega))
+        return {"free": True,
+                "rotation": pole(w),
+                "vector_deg_myr": (w / RAD_S_PER_DEG_MYR).tolist(),
+                "stderr_deg_myr": (se / RAD_S_PER_DEG_MYR).tolist(),
+                "means": "the mantle's rotation in the frame of the observed motions",
+                "net_rotation_observed": pole(net(self.omega_obs)),
+                "net_rotation_predicted": pole(net(self.omega_pred))}
 
 
 @on_one_blas_thread
 def analyse(system: System, omega_obs, weighting: str = "velocity",
-            methods=None) -> Report:
+            methods=None, free_frame: bool = False) -> Report:
     """Fit a hypothesis by every fit method, predict, and propagate the uncertainty.
 
     Parameters
@@ -534,6 +573,11 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
     methods : sequence of str, optional
         Names in :data:`torque.balance.FIT_METHODS` to run, in registry order (default
         all); the preferred one must be among them.
+    free_frame : bool
+        Estimate the rotation of the observations' frame relative to the mantle together
+        with the coefficients (three more parameters), rather than take the observations
+        to be in the mantle's frame. The report's ``omega_obs`` is then in the mantle's
+        frame, and ``frame`` holds the rotation and its covariance.
 
     Returns
     -------
@@ -554,10 +598,24 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
     omega_obs = np.asarray(omega_obs, float)
     names = list(FIT_METHODS) if methods is None else [m for m in FIT_METHODS
                                                        if m in methods]
+    if free_frame and not FIT_METHODS[PREFERRED_FIT].frames:
+        raise ValueError(f"the preferred fit {PREFERRED_FIT!r} cannot fit a free frame")
     fits = {}
     for name in names:
-        fits[name] = FIT_METHODS[name].run(system, omega_obs, fits, weighting)
+        extra = {"free_frame": True} if free_frame and FIT_METHODS[name].frames else {}
+        fits[name] = FIT_METHODS[name].run(system, omega_obs, fits, weighting, **extra)
+    frame = None
+    if free_frame:
+        # the observations in the mantle's frame; the methods that cannot fit a frame run
+        # again there, so that every fit reports coefficients of the same balance
+        info = fits[PREFERRED_FIT].info
+        frame = {"rotation": info["frame_rotation"], "cov": info["frame_cov"],
+                 "observed_frame": omega_obs}
+        omega_obs = omega_obs - info["frame_rotation"]
+        for name in names:
+            if not FIT_METHODS[name].frames:
+                fits[name] = FIT_METHODS[name].run(system, omega_obs, fits, weighting)
     pref = fits[PREFERRED_FIT]
     pred = predict(system, pref.values)
     cov = pole_covariance(system, pref.values, pref.cov, pred)
-    return Report(system, fits, omega_obs, pred, cov)
+    return Report(system, fits, omega_obs, pred, cov, frame=frame)

@@ -82,7 +82,7 @@ def cross_validation(system: System, omega_obs, weighting="velocity") -> float:
 
 
 @on_one_blas_thread
-def rank(systems, omega_obs, weighting="velocity"):
+def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False):
     """Fit every hypothesis and rank them.
 
     Parameters
@@ -93,6 +93,10 @@ def rank(systems, omega_obs, weighting="velocity"):
         Observed Euler vectors (rad/s), mantle at rest.
     weighting : {"velocity", "area", "none"}
         Of the torque-space fits.
+    free_frame : bool
+        Fit the rotation of the observations' frame relative to the mantle with each
+        hypothesis (three more parameters in the information criteria; see
+        :func:`torque.diagnostics.analyse`).
 
     Returns
     -------
@@ -103,14 +107,16 @@ def rank(systems, omega_obs, weighting="velocity"):
     """
     rows, rss, specs = [], {}, {}
     for s in systems:
-        rep = analyse(s, omega_obs, weighting)
+        rep = analyse(s, omega_obs, weighting, free_frame=free_frame)
         _, glob = rep.misfit()
         n = 3 * s.n_plates
-        ic = information_criteria(glob["velocity_rss_m4_s2"], n, s.n_free)
+        ic = information_criteria(glob["velocity_rss_m4_s2"], n,
+                                  s.n_free + (3 if free_frame else 0))
         coefs = {l: float(v) for l, v, f in zip(s.labels, rep.preferred.values, s.free) if f}
+        # with a free frame, cross-validate in the mantle frame the full fit found
         rows.append(Row(s.name, glob["rms_velocity_mm_yr"], glob["variance_reduction"],
                         s.n_free, ic["aic"], ic["aicc"], ic["bic"],
-                        cross_validation(s, omega_obs, weighting), coefs))
+                        cross_validation(s, rep.omega_obs, weighting), coefs))
         rss[s.name] = glob["velocity_rss_m4_s2"]
         specs[s.name] = s
     rows.sort(key=lambda r: r.aic)
@@ -118,7 +124,9 @@ def rank(systems, omega_obs, weighting="velocity"):
     for a in systems:
         for b in systems:
             if a is not b and _nested(a, b):
-                t = f_test(rss[a.name], a.n_free, rss[b.name], b.n_free, 3 * a.n_plates)
+                extra = 3 if free_frame else 0
+                t = f_test(rss[a.name], a.n_free + extra, rss[b.name], b.n_free + extra,
+                           3 * a.n_plates)
                 tests.append({"smaller": a.name, "bigger": b.name, **t})
     return rows, tests
 

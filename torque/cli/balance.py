@@ -20,6 +20,9 @@ from ..resample import bootstrap, monte_carlo_motions, monte_carlo_physics
 from . import text
 from .common import EXIT_OK, count, frame_warning, inputs
 
+FREE_FRAME = ("estimate the rotation of the motions' frame relative to the mantle together "
+              "with the coefficients (three more parameters), instead of taking the motions "
+              "to be in the mantle's frame")
 WEIGHTING = dict(choices=("velocity", "area", "none"), default="velocity",
                  help="weighting of the plates' torque equations in the torque-space fit "
                  "(default velocity: by the inverse square root of each plate's drag tensor)")
@@ -49,6 +52,7 @@ def add_parser(sub) -> None:
     p.add_argument("--physics-samples", type=count, default=0, metavar="N",
                    help="refit on N draws of the physics from the hypothesis' [spread] table")
     p.add_argument("--seed", type=count, default=0, help="random seed (default 0)")
+    p.add_argument("--free-frame", action="store_true", help=FREE_FRAME)
     p.set_defaults(func=run_fit)
 
     p = sub.add_parser("predict", help="Euler vectors that balance the torques",
@@ -74,6 +78,7 @@ def add_parser(sub) -> None:
     p.add_argument("-o", "--output", help="output CSV")
     p.add_argument("--json", metavar="FILE", help="also write rows and F-tests as JSON")
     p.add_argument("--weighting", **WEIGHTING)
+    p.add_argument("--free-frame", action="store_true", help=FREE_FRAME)
     p.set_defaults(func=run_rank)
 
 
@@ -171,8 +176,9 @@ def run_fit(args) -> int:
         raise InputError("a Monte Carlo over physics needs a [spread] table",
                          file=args.hypothesis, hint="add one, or leave out --physics-samples")
     _require_sample_memory(pb.system, args)
-    warn_frame(pb.motions)
-    rep = analyse(pb.system, pb.omega, args.weighting)
+    if not args.free_frame:
+        warn_frame(pb.motions)
+    rep = analyse(pb.system, pb.omega, args.weighting, free_frame=args.free_frame)
     unc = {}
     if args.bootstrap:
         unc["bootstrap"] = bootstrap(pb.system, pb.omega, args.bootstrap, args.seed,
@@ -278,7 +284,8 @@ def run_rank(args) -> int:
         output_suffix(args.json, (".json",))
     data = inputs(args)
     motions = read_motions(args.motions)
-    warn_frame(motions)
+    if not args.free_frame:
+        warn_frame(motions)
     systems = [Problem.build(data, load_hypothesis(h), motions).system
                for h in args.hypotheses]
     names = [s.name for s in systems]
@@ -288,7 +295,8 @@ def run_rank(args) -> int:
         raise InputError(f"hypotheses share the name(s) {', '.join(map(repr, dup))} "
                          f"(files {', '.join(files)})", file=files[0],
                          hint="give each a different 'name'")
-    rows, tests = rank(systems, motions.for_world(data.world), args.weighting)
+    rows, tests = rank(systems, motions.for_world(data.world), args.weighting,
+                       free_frame=args.free_frame)
     print(text.rank(rows, tests))
     # both outputs or neither: the CSV goes into place only once the JSON has
     with ExitStack() as stack:

@@ -139,6 +139,15 @@ def fit(d: dict) -> str:
                  f"BIC {m['bic']:.2f}")
     if m["active_bounds"]:
         lines.append(f"at a bound: {', '.join(m['active_bounds'])}")
+    f = d.get("frame")
+    if f:
+        r, se = f["rotation"], max(f["stderr_deg_myr"])
+        o, p = f["net_rotation_observed"], f["net_rotation_predicted"]
+        lines.append(f"free mantle frame: the mantle turns about {r['lat']:.2f} N, "
+                     f"{r['lon']:.2f} E at {r['rate']:.4f} deg/Myr (standard error up to "
+                     f"{se:.2g} per component) in the frame of the motions; net rotation of "
+                     f"the lithosphere observed {o['rate']:.4f}, predicted {p['rate']:.4f} "
+                     "deg/Myr")
     lines += [f"note: {note}" for note in d.get("notes", [])]
     lines.append(CAUTION)
     return "\n".join(lines)
