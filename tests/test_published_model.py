@@ -54,7 +54,7 @@ def job(tmp_path_factory):
              ["predict", world, out / "h.toml", "--coefficients", out / "fit.json",
               "--motions", out / "nnr.csv", "-o", out / "p.csv"],
              ["rank", world, out / "nnr.csv", out / "h.toml", out / "rd.toml",
-              "-o", out / "r.csv"]]
+              "--allow-synthetic-ages", "-o", out / "r.csv"]]
     for argv in steps:
         assert main([str(a) for a in argv]) == 0, argv
     return out
@@ -181,7 +181,7 @@ def test_the_whole_job_runs_on_the_twin(twin, tmp_path, cli):
                  ["fit", path, hyp, m, "-o", tmp_path / "fit.json"],
                  ["predict", path, hyp, "--coefficients", tmp_path / "fit.json",
                   "--motions", m, "-o", tmp_path / "p.csv"],
-                 ["rank", path, m, hyp, "-o", tmp_path / "r.csv"]):
+                 ["rank", path, m, hyp, "--allow-synthetic-ages", "-o", tmp_path / "r.csv"]):
         status, out, err = cli(*argv)
         assert status == 0, (argv[0], err)
 
@@ -211,3 +211,15 @@ def test_classification_agrees_with_the_published_classes_better_piece_by_piece(
              for k in (whole, piece)]
     assert share[0] == pytest.approx(0.600, abs=0.005)
     assert share[1] == pytest.approx(0.777, abs=0.005)
+
+
+def test_ages_synthesised_from_the_fitted_motions_are_flagged(job, cli):
+    # no age grid: the ages come from the motions being fitted (issue 13, item 6)
+    world = MODEL / "world.toml"
+    status, out, err = cli("fit", world, job / "h.toml", job / "nnr.csv",
+                           "-o", job / "fit2.json")
+    assert status == 0 and "partly circular" in err
+    assert any(n.startswith("circular:") for n in json.loads(
+        (job / "fit2.json").read_text())["notes"])
+    status, out, err = cli("rank", world, job / "nnr.csv", job / "h.toml", job / "rd.toml")
+    assert status == 2 and "partly circular" in err and "--allow-synthetic-ages" in err

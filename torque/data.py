@@ -252,3 +252,9 @@ class WorldData:
         if key not in self._synth_cache:
             self._synth_cache[key] = make()
         return self._synth_cache[key]
+
+    @property
+    def used_synthesised_ages(self) -> bool:
+        """Whether a force term used sea-floor ages synthesised from the motions (no age
+        grid): fitting those motions is then partly circular."""
+        return any(k[0] == "ages" for k in self._synth_cache)

@@ -79,6 +79,9 @@ def add_parser(sub) -> None:
     p.add_argument("--json", metavar="FILE", help="also write rows and F-tests as JSON")
     p.add_argument("--weighting", **WEIGHTING)
     p.add_argument("--free-frame", action="store_true", help=FREE_FRAME)
+    p.add_argument("--allow-synthetic-ages", action="store_true",
+                   help="rank even when sea-floor ages are synthesised from the motions being "
+                   "fitted (the comparison is then partly circular)")
     p.set_defaults(func=run_rank)
 
 
@@ -179,6 +182,9 @@ def run_fit(args) -> int:
     if not args.free_frame:
         warn_frame(pb.motions)
     rep = analyse(pb.system, pb.omega, args.weighting, free_frame=args.free_frame)
+    circular = pb.inputs.used_synthesised_ages
+    if circular:
+        print(f"warning: {CIRCULAR}", file=sys.stderr)
     unc = {}
     if args.bootstrap:
         unc["bootstrap"] = bootstrap(pb.system, pb.omega, args.bootstrap, args.seed,
@@ -191,11 +197,17 @@ def run_fit(args) -> int:
         unc["monte_carlo_physics"] = monte_carlo_physics(
             pb.rebuild, pb.hypothesis.physics, pb.hypothesis.spread, pb.omega,
             args.physics_samples, args.seed, args.weighting)
-    result = dataclasses.replace(rep, uncertainty=unc).result(pb.notes())
+    result = dataclasses.replace(rep, uncertainty=unc).result(
+        pb.notes() + ([f"circular: {CIRCULAR}"] if circular else []))
     write_json(args.output, result.as_dict())
     print(text.fit(result.as_dict()))
     print(f"wrote {args.output}")
     return EXIT_OK
+
+
+CIRCULAR = ("sea-floor ages were synthesised from the same motions that are fitted, so the "
+            "fit is partly circular (the ages, and so ridge push and slab pull, depend on "
+            "the motions); give the world an age grid")
 
 
 def warn_frame(motions) -> None:
@@ -288,6 +300,13 @@ def run_rank(args) -> int:
         warn_frame(motions)
     systems = [Problem.build(data, load_hypothesis(h), motions).system
                for h in args.hypotheses]
+    if data.used_synthesised_ages:
+        if not args.allow_synthetic_ages:
+            raise InputError(CIRCULAR + "; ranking hypotheses on such ages can favour the "
+                             "ones the synthesis flatters", file=args.world,
+                             hint="add 'ages' to the world file, or pass "
+                             "--allow-synthetic-ages to rank anyway")
+        print(f"warning: {CIRCULAR}", file=sys.stderr)
     names = [s.name for s in systems]
     dup = sorted({n for n in names if names.count(n) > 1})
     if dup:
