@@ -405,7 +405,7 @@ def _misfit_vector(system: System, omega_pred, omega_obs) -> np.ndarray:
 
 
 def fit_velocity(system: System, omega_obs, start: Fit | None = None,
-                 free_frame: bool = False) -> Fit:
+                 free_frame: bool = False, plates=None) -> Fit:
     """Free coefficients minimising the area-integrated squared velocity misfit.
 
     Parameters
@@ -421,6 +421,9 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         is linear in ``w`` (its Jacobian is ``R^2 L_p^T`` per plate), so ``w`` is fitted
         jointly and exactly; it is returned in ``info["frame_rotation"]`` (rad/s) with its
         covariance in ``info["frame_cov"]``.
+    plates : array of int, optional
+        Count only these plates' misfits (for the bootstrap and cross-validation); a plate
+        may be repeated, and then counts as often. The balance is still solved for all.
 
     Returns
     -------
@@ -444,6 +447,10 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     # the frame's rotation, scaled by the size of the observed motions
     w_scale = float(np.sqrt(np.mean(np.sum(omega_obs ** 2, axis=1)))) or 1.0
     frame_block = R2 * np.swapaxes(L, 1, 2) * w_scale                 # (P, 3, 3): d r / d w
+    # each plate's misfit counts as often as it is drawn (all once by default)
+    count = (np.ones(system.n_plates) if plates is None
+             else np.bincount(np.asarray(plates), minlength=system.n_plates).astype(float))
+    row_weight = np.repeat(np.sqrt(count), 3)
 
     def coeffs(x):
         c = fixed_c.copy()
@@ -462,7 +469,7 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
 
     def residual(x):
         _, _, w = solve(x[:k_free])
-        return _misfit_vector(system, w.reshape(-1, 3) + frame(x), omega_obs)
+        return row_weight * _misfit_vector(system, w.reshape(-1, 3) + frame(x), omega_obs)
 
     def jacobian(x):
         _, lu, w = solve(x[:k_free])
@@ -471,7 +478,8 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         dw = -linalg.lu_solve(lu, rhs) * scale                        # (3P, k)
         dw = dw.reshape(-1, 3, dw.shape[1])
         J = (R2 * np.einsum("pji,pjk->pik", L, dw)).reshape(-1, dw.shape[2])
-        return np.hstack([J, frame_block.reshape(-1, 3)]) if free_frame else J
+        J = np.hstack([J, frame_block.reshape(-1, 3)]) if free_frame else J
+        return row_weight[:, None] * J
 
     M0 = np.tensordot(start.values, system.A, axes=1)
     _check_determined(system, M0)
@@ -492,7 +500,7 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     units = np.r_[scale, [w_scale] * (3 if free_frame else 0)]
     J = jacobian(res.x) / units
     rss = float(res.fun @ res.fun)
-    n, k = J.shape
+    n, k = 3 * int(count.sum()), J.shape[1]
     dof = max(n - k, 1)
     try:
         cov_all = rss / dof * np.linalg.inv(J.T @ J)

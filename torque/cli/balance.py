@@ -20,6 +20,10 @@ from ..resample import bootstrap, monte_carlo_motions, monte_carlo_physics
 from . import text
 from .common import EXIT_OK, count, frame_warning, inputs
 
+RESAMPLE_FIT = dict(choices=("velocity", "torque"), default="velocity",
+                    help="how resampled members (bootstrap, Monte Carlo, cross-validation) are "
+                    "refitted: the preferred velocity-space fit (default), or the faster "
+                    "torque-space fit, whose spread is biased by the noise in its regressors")
 FREE_FRAME = ("estimate the rotation of the motions' frame relative to the mantle together "
               "with the coefficients (three more parameters), instead of taking the motions "
               "to be in the mantle's frame")
@@ -53,6 +57,7 @@ def add_parser(sub) -> None:
                    help="refit on N draws of the physics from the hypothesis' [spread] table")
     p.add_argument("--seed", type=count, default=0, help="random seed (default 0)")
     p.add_argument("--free-frame", action="store_true", help=FREE_FRAME)
+    p.add_argument("--resample-fit", **RESAMPLE_FIT)
     p.set_defaults(func=run_fit)
 
     p = sub.add_parser("predict", help="Euler vectors that balance the torques",
@@ -79,6 +84,7 @@ def add_parser(sub) -> None:
     p.add_argument("--json", metavar="FILE", help="also write rows and F-tests as JSON")
     p.add_argument("--weighting", **WEIGHTING)
     p.add_argument("--free-frame", action="store_true", help=FREE_FRAME)
+    p.add_argument("--resample-fit", **RESAMPLE_FIT)
     p.add_argument("--allow-synthetic-ages", action="store_true",
                    help="rank even when sea-floor ages are synthesised from the motions being "
                    "fitted (the comparison is then partly circular)")
@@ -187,16 +193,16 @@ def run_fit(args) -> int:
         print(f"warning: {CIRCULAR}", file=sys.stderr)
     unc = {}
     if args.bootstrap:
-        unc["bootstrap"] = bootstrap(pb.system, pb.omega, args.bootstrap, args.seed,
-                                     args.weighting)
+        unc["bootstrap"] = bootstrap(pb.system, rep.omega_obs, args.bootstrap, args.seed,
+                                     args.weighting, args.resample_fit)
     if args.monte_carlo:
         unc["monte_carlo_motions"] = monte_carlo_motions(
-            pb.system, pb.omega, pb.motions.cov_for_world(pb.inputs.world), args.monte_carlo,
-            args.seed, args.weighting)
+            pb.system, rep.omega_obs, pb.motions.cov_for_world(pb.inputs.world),
+            args.monte_carlo, args.seed, args.weighting, args.resample_fit)
     if args.physics_samples:
         unc["monte_carlo_physics"] = monte_carlo_physics(
-            pb.rebuild, pb.hypothesis.physics, pb.hypothesis.spread, pb.omega,
-            args.physics_samples, args.seed, args.weighting)
+            pb.rebuild, pb.hypothesis.physics, pb.hypothesis.spread, rep.omega_obs,
+            args.physics_samples, args.seed, args.weighting, args.resample_fit)
     result = dataclasses.replace(rep, uncertainty=unc).result(
         pb.notes() + ([f"circular: {CIRCULAR}"] if circular else []))
     write_json(args.output, result.as_dict())
@@ -315,7 +321,7 @@ def run_rank(args) -> int:
                          f"(files {', '.join(files)})", file=files[0],
                          hint="give each a different 'name'")
     rows, tests = rank(systems, motions.for_world(data.world), args.weighting,
-                       free_frame=args.free_frame)
+                       free_frame=args.free_frame, fit=args.resample_fit)
     print(text.rank(rows, tests))
     # both outputs or neither: the CSV goes into place only once the JSON has
     with ExitStack() as stack:
