@@ -39,7 +39,9 @@ def test_harness_runs_on_a_tiny_world(tmp_path):
     table = bench.run("tiny", tmp_path)
     assert "| exact moments |" in table and "Tiny run." in table
     result = json.loads((tmp_path / "bench.json").read_text())
-    assert {"exact moments", "prediction", "Monte Carlo over motions"} <= set(result["stages"])
+    assert {"exact moments", "prediction", "Monte Carlo over motions (torque-space refits)",
+            "Monte Carlo over motions (velocity-space refits, the default)"} <= set(
+        result["stages"])
     assert all(s["seconds"] > 0 for s in result["stages"].values())
     # the grid baseline converges towards the exact drag tensors (its error is finite and
     # well under 100 % even on a 6 degree grid: common practice, no source)
