@@ -141,3 +141,21 @@ def test_the_demo_monte_carlo_interval_holds_the_truth():
         c = mc["coefficients"][label]
         assert c["p2_5"] < truth[label] < c["p97_5"], label
         assert c["p2_5"] < value < c["p97_5"], label
+
+
+def test_intervals_are_printed_and_disagreeing_fits_flagged(tmp_path, cli):
+    from torque.cli.text import fits_disagree
+    from .conftest import here
+    demo = here().parent / "polygons_demo"
+    status, out, err = cli("fit", demo / "world.toml",
+                           demo / "hypotheses" / "continental_drag.toml", demo / "motions.csv",
+                           "--bootstrap", "30", "--monte-carlo", "40", "-o", tmp_path / "f.json")
+    assert status == 0, err
+    assert "bootstrap (30 members, velocity-space refits): 95 % intervals slab" in out
+    assert "monte carlo motions (40 members, velocity-space refits)" in out
+    # two fits 3 combined standard errors apart are flagged; 1 apart are not
+    coef = {"value": 1.0, "stderr": 0.3, "free": True, "torque_space_value": 1.0 + 3 * 0.5,
+            "torque_space_stderr": 0.4}
+    assert len(fits_disagree({"coefficients": {"c": coef}})) == 1
+    coef["torque_space_value"] = 1.5
+    assert fits_disagree({"coefficients": {"c": coef}}) == []

@@ -148,9 +148,41 @@ def fit(d: dict) -> str:
                      f"{se:.2g} per component) in the frame of the motions; net rotation of "
                      f"the lithosphere observed {o['rate']:.4f}, predicted {p['rate']:.4f} "
                      "deg/Myr")
+    for method, u in (d.get("uncertainty") or {}).items():
+        spans = ", ".join(f"{label} {c['p2_5']:.4g} to {c['p97_5']:.4g}"
+                          for label, c in u["coefficients"].items())
+        lines.append(f"{method.replace('_', ' ')} ({u['members']} members, {u.get('fit', 'torque')}"
+                     f"-space refits): 95 % intervals {spans}")
+    lines += [f"warning: {w}" for w in fits_disagree(d)]
     lines += [f"note: {note}" for note in d.get("notes", [])]
     lines.append(CAUTION)
     return "\n".join(lines)
+
+
+def fits_disagree(d: dict) -> list:
+    """Free coefficients whose velocity-space and torque-space values differ by more than
+    twice their combined standard error.
+
+    Parameters
+    ----------
+    d : dict
+        :meth:`torque.diagnostics.FitResult.as_dict`.
+
+    Returns
+    -------
+    list of str
+    """
+    out = []
+    for label, c in d["coefficients"].items():
+        if not c["free"]:
+            continue
+        se = (c["stderr"] ** 2 + (c.get("torque_space_stderr") or 0.0) ** 2) ** 0.5
+        gap = abs(c["value"] - c["torque_space_value"])
+        if se > 0 and gap > 2 * se:
+            out.append(f"{label}: the velocity-space ({c['value']:.4g}) and torque-space "
+                       f"({c['torque_space_value']:.4g}) fits differ by {gap / se:.1f} times "
+                       "their combined standard error; the velocity-space value is preferred")
+    return out
 
 
 def rank(rows, tests) -> str:
