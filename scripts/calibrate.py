@@ -34,7 +34,8 @@ from torque.euler import RAD_S_PER_DEG_MYR  # noqa: E402
 DEMO = ROOT / "polygons_demo"
 
 
-def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False) -> dict:
+def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False,
+              gls: bool = False) -> dict:
     """Coverage and bias of both fits over ``n`` noisy realisations of the demo.
 
     Parameters
@@ -44,6 +45,9 @@ def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False) -> dict:
     seed : int
     free_frame : bool
         Add a random rotation (up to 0.5 deg/Myr) to each realisation and fit it.
+    gls : bool
+        Fit the chi-square with the noise's covariance (generalised least squares) instead
+        of the area-integrated velocity misfit.
 
     Returns
     -------
@@ -61,6 +65,7 @@ def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False) -> dict:
     sigma = truth["noise_deg_myr_per_component"] * RAD_S_PER_DEG_MYR
     free = [l for l, f in zip(system.labels, system.free) if f]
     want = np.array([truth["true_coefficients"][l] for l in free])
+    cov = np.broadcast_to(sigma ** 2 * np.eye(3), (len(true), 3, 3))
     rng = np.random.default_rng(seed)
     err = {"velocity": [], "torque": []}
     se = {"velocity": [], "torque": []}
@@ -72,7 +77,8 @@ def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False) -> dict:
             if free_frame:
                 spin = rng.normal(size=3)
                 spin *= rng.uniform(0, 0.5) * RAD_S_PER_DEG_MYR / np.linalg.norm(spin)
-            rep = analyse(system, obs + spin, free_frame=free_frame)
+            rep = analyse(system, obs + spin, free_frame=free_frame,
+                          obs_cov=cov if gls else None)
             for name, fit in (("velocity", rep.velocity_fit), ("torque", rep.torque_fit)):
                 err[name].append(fit.values[system.free] - want)
                 se[name].append(fit.stderr[system.free])
@@ -80,7 +86,7 @@ def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False) -> dict:
                 fse = np.sqrt(np.diag(rep.frame["cov"]))
                 frame_z.append(np.abs(rep.frame["rotation"] - spin) / fse)
     out = {"realisations": n, "noise_deg_myr": truth["noise_deg_myr_per_component"],
-           "free_frame": free_frame, "fits": {}}
+           "free_frame": free_frame, "gls": gls, "fits": {}}
     for name in err:
         e, s = np.array(err[name]), np.array(se[name])
         out["fits"][name] = {l: {"coverage": float(np.mean(np.abs(e[:, i]) <= 1.96 * s[:, i])),
@@ -99,10 +105,12 @@ def main():
     ap.add_argument("--realisations", type=int, default=200)
     ap.add_argument("--seed", type=int, default=0)
     ap.add_argument("--free-frame", action="store_true")
+    ap.add_argument("--gls", action="store_true", help="fit the chi-square (GLS)")
     args = ap.parse_args()
-    res = calibrate(args.realisations, args.seed, args.free_frame)
+    res = calibrate(args.realisations, args.seed, args.free_frame, args.gls)
     print(f"{res['realisations']} realisations, noise {res['noise_deg_myr']} deg/Myr per "
-          f"component{', free frame' if res['free_frame'] else ''}")
+          f"component{', free frame' if res['free_frame'] else ''}"
+          f"{', chi-square (GLS)' if res['gls'] else ''}")
     print("| fit | coefficient | coverage of the 95 % interval | bias / standard error |")
     print("|---|---|---|---|")
     for name, coefs in res["fits"].items():

@@ -33,3 +33,10 @@ def test_a_free_frame_recovers_the_added_rotation():
     assert res["frame"]["coverage_per_component"] >= 0.8
     for label, c in res["fits"]["velocity"].items():
         assert abs(c["bias_se"]) < 0.4, label
+
+
+def test_the_chi_square_fit_covers_the_truth():
+    res = _calibrate(n=60, seed=5, gls=True)
+    for label, c in res["fits"]["velocity"].items():
+        assert abs(c["bias_se"]) < 0.3, label
+        assert 0.85 <= c["coverage"] <= 1.0, label

@@ -405,7 +405,7 @@ def _misfit_vector(system: System, omega_pred, omega_obs) -> np.ndarray:
 
 
 def fit_velocity(system: System, omega_obs, start: Fit | None = None,
-                 free_frame: bool = False, plates=None) -> Fit:
+                 free_frame: bool = False, plates=None, obs_cov=None) -> Fit:
     """Free coefficients minimising the area-integrated squared velocity misfit.
 
     Parameters
@@ -424,6 +424,11 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     plates : array of int, optional
         Count only these plates' misfits (for the bootstrap and cross-validation); a plate
         may be repeated, and then counts as often. The balance is still solved for all.
+    obs_cov : ndarray, shape (P, 3, 3), optional
+        Covariance of each observed Euler vector, (rad/s)^2. Given, the fit minimises the
+        chi-square ``sum_p dw_p^T C_p^-1 dw_p`` (generalised least squares) instead of the
+        area-integrated velocity misfit, and ``Fit.info`` holds ``chi_square``,
+        ``reduced_chi_square`` and ``dof``.
 
     Returns
     -------
@@ -446,7 +451,15 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     omega_obs = np.asarray(omega_obs, float)
     # the frame's rotation, scaled by the size of the observed motions
     w_scale = float(np.sqrt(np.mean(np.sum(omega_obs ** 2, axis=1)))) or 1.0
-    frame_block = R2 * np.swapaxes(L, 1, 2) * w_scale                 # (P, 3, 3): d r / d w
+    if obs_cov is not None:
+        # whiten each plate's misfit by its observation covariance: U U^T = C^-1, r = U^T dw
+        C = np.asarray(obs_cov, float)
+        C = C + 1e-12 * np.trace(C, axis1=1, axis2=2).max() * np.eye(3)
+        U = np.linalg.cholesky(np.linalg.inv(C))
+        block = np.swapaxes(U, 1, 2)                                   # r_p = block_p dw_p
+    else:
+        block = R2 * np.swapaxes(L, 1, 2)
+    frame_block = block * w_scale                                      # (P, 3, 3): d r / d w
     # each plate's misfit counts as often as it is drawn (all once by default)
     count = (np.ones(system.n_plates) if plates is None
              else np.bincount(np.asarray(plates), minlength=system.n_plates).astype(float))
@@ -469,6 +482,9 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
 
     def residual(x):
         _, _, w = solve(x[:k_free])
+        if obs_cov is not None:
+            dw = w.reshape(-1, 3) + frame(x) - omega_obs
+            return row_weight * np.einsum("pij,pj->pi", block, dw).ravel()
         return row_weight * _misfit_vector(system, w.reshape(-1, 3) + frame(x), omega_obs)
 
     def jacobian(x):
@@ -477,7 +493,10 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         rhs = (system.A[free] @ w + system.b[free]).T                 # (3P, k)
         dw = -linalg.lu_solve(lu, rhs) * scale                        # (3P, k)
         dw = dw.reshape(-1, 3, dw.shape[1])
-        J = (R2 * np.einsum("pji,pjk->pik", L, dw)).reshape(-1, dw.shape[2])
+        if obs_cov is not None:
+            J = np.einsum("pij,pjk->pik", block, dw).reshape(-1, dw.shape[2])
+        else:
+            J = (R2 * np.einsum("pji,pjk->pik", L, dw)).reshape(-1, dw.shape[2])
         J = np.hstack([J, frame_block.reshape(-1, 3)]) if free_frame else J
         return row_weight[:, None] * J
 
@@ -513,6 +532,8 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     free_labels = [l for l, f in zip(system.labels, system.free) if f]
     active = tuple(free_labels[i] for i in np.nonzero(res.active_mask[:k_free])[0])
     info = {"evaluations": int(res.nfev), "status": int(res.status)}
+    if obs_cov is not None:
+        info.update(misfit="chi-square", chi_square=rss, dof=dof, reduced_chi_square=rss / dof)
     if free_frame:
         info["frame_rotation"] = frame(res.x)
         info["frame_cov"] = cov_all[k_free:, k_free:]
@@ -573,20 +594,25 @@ class FitMethod:
     frames : bool
         Whether ``run`` takes ``free_frame=True`` and then estimates the rotation of the
         observations' frame relative to the mantle (``Fit.info["frame_rotation"]``).
+    covariance : bool
+        Whether ``run`` takes ``obs_cov=`` (the observations' covariance, (P, 3, 3)) and
+        then minimises the chi-square.
     """
 
     name: str
     run: object
     describes: str
     frames: bool = False
+    covariance: bool = False
 
 
 def _run_torque(system, omega_obs, earlier, weighting):
     return fit_torque(system, omega_obs, weighting)
 
 
-def _run_velocity(system, omega_obs, earlier, weighting, free_frame=False):
-    return fit_velocity(system, omega_obs, earlier.get("torque"), free_frame)
+def _run_velocity(system, omega_obs, earlier, weighting, free_frame=False, obs_cov=None):
+    return fit_velocity(system, omega_obs, earlier.get("torque"), free_frame,
+                        obs_cov=obs_cov)
 
 
 #: Fit methods in the order :func:`torque.diagnostics.analyse` runs them. A new method is
@@ -595,6 +621,8 @@ FIT_METHODS = {
     "torque": FitMethod("torque", _run_torque, "bounded linear least squares of the "
                         "weighted torque balance"),
     "velocity": FitMethod("velocity", _run_velocity, "nonlinear least squares of the "
-                          "area-integrated velocity misfit (preferred)", frames=True),
+                          "area-integrated velocity misfit, or of the chi-square with the "
+                          "observations' covariance (preferred)", frames=True,
+                          covariance=True),
 }
 PREFERRED_FIT = "velocity"

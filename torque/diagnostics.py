@@ -527,6 +527,10 @@ class Report:
         ic = information_criteria(glob["velocity_rss_m4_s2"], n,
                                   k + (3 if self.frame is not None else 0))
         extra = {"frame_parameters": 3} if self.frame is not None else {}
+        if pref.info.get("misfit") == "chi-square":
+            extra.update(misfit_measure="chi-square with the observations' covariance",
+                         chi_square=pref.info["chi_square"], dof=pref.info["dof"],
+                         reduced_chi_square=pref.info["reduced_chi_square"])
         misfit = {**glob, "n": n, "free_coefficients": k, **extra, **ic,
                   "torque_space_rss": tf.rss,
                   "torque_space_weighting": tf.info.get("weighting"),
@@ -560,7 +564,7 @@ class Report:
 
 @on_one_blas_thread
 def analyse(system: System, omega_obs, weighting: str = "velocity",
-            methods=None, free_frame: bool = False) -> Report:
+            methods=None, free_frame: bool = False, obs_cov=None) -> Report:
     """Fit a hypothesis by every fit method, predict, and propagate the uncertainty.
 
     Parameters
@@ -578,6 +582,9 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
         with the coefficients (three more parameters), rather than take the observations
         to be in the mantle's frame. The report's ``omega_obs`` is then in the mantle's
         frame, and ``frame`` holds the rotation and its covariance.
+    obs_cov : ndarray, shape (P, 3, 3), optional
+        The observations' covariance, (rad/s)^2: the methods that can (the velocity-space
+        fit) then minimise the chi-square (generalised least squares).
 
     Returns
     -------
@@ -603,6 +610,8 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
     fits = {}
     for name in names:
         extra = {"free_frame": True} if free_frame and FIT_METHODS[name].frames else {}
+        if obs_cov is not None and FIT_METHODS[name].covariance:
+            extra["obs_cov"] = obs_cov
         fits[name] = FIT_METHODS[name].run(system, omega_obs, fits, weighting, **extra)
     frame = None
     if free_frame:

@@ -58,6 +58,10 @@ def add_parser(sub) -> None:
     p.add_argument("--seed", type=count, default=0, help="random seed (default 0)")
     p.add_argument("--free-frame", action="store_true", help=FREE_FRAME)
     p.add_argument("--resample-fit", **RESAMPLE_FIT)
+    p.add_argument("--misfit", choices=("area", "chi-square"), default="area",
+                   help="what the velocity-space fit minimises: the area-integrated velocity "
+                   "misfit (default), or the chi-square with the motions' covariance columns "
+                   "(generalised least squares)")
     p.set_defaults(func=run_fit)
 
     p = sub.add_parser("predict", help="Euler vectors that balance the torques",
@@ -187,7 +191,15 @@ def run_fit(args) -> int:
     _require_sample_memory(pb.system, args)
     if not args.free_frame:
         warn_frame(pb.motions)
-    rep = analyse(pb.system, pb.omega, args.weighting, free_frame=args.free_frame)
+    obs_cov = None
+    if args.misfit == "chi-square":
+        obs_cov = pb.motions.cov_for_world(pb.inputs.world)
+        if obs_cov is None:
+            raise InputError("a chi-square misfit needs the motions' covariance: the file has "
+                             "no cov_xx ... cov_zz columns", file=args.motions,
+                             hint="add them in (deg/Myr)^2, or leave out --misfit chi-square")
+    rep = analyse(pb.system, pb.omega, args.weighting, free_frame=args.free_frame,
+                  obs_cov=obs_cov)
     circular = pb.inputs.used_synthesised_ages
     if circular:
         print(f"warning: {CIRCULAR}", file=sys.stderr)

@@ -134,6 +134,10 @@ def fit(d: dict) -> str:
             lines.append(f"{label:<16} {c['value']:12.4e} {'fixed':>10} {'':>13} "
                          f"{c['unit']:<8}")
     m = d["misfit"]
+    if "chi_square" in m:
+        lines.append(f"chi-square {m['chi_square']:.1f} on {m['dof']} degrees of freedom "
+                     f"(reduced {m['reduced_chi_square']:.2f}): the fit minimised it, with "
+                     "the motions' covariance")
     lines.append(f"RMS velocity misfit {m['rms_velocity_mm_yr']:.3f} mm/yr, variance "
                  f"reduction {100 * m['variance_reduction']:.2f} %, AIC {m['aic']:.2f}, "
                  f"BIC {m['bic']:.2f}")

@@ -1,0 +1,89 @@
+"""The velocity-space fit as generalised least squares with the observations' covariance
+(issue 13, item 2).
+
+Sources: Draper and Smith (1998), Applied Regression Analysis, 3rd ed., ch. 9: the
+weighted (generalised) least-squares estimate of a model linear in one parameter,
+y = c g + e with Cov(e) = C, is c = g^T C^-1 y / g^T C^-1 g with variance
+1 / g^T C^-1 g; with C a multiple of the identity it is the ordinary least-squares estimate,
+here computed independently with scipy.optimize.least_squares.
+"""
+
+import numpy as np
+import pytest
+from scipy import optimize
+
+import torque
+from torque import balance
+from torque.euler import RAD_S_PER_DEG_MYR
+from torque.hypothesis import hypothesis_from_dict
+from torque.world import Boundary
+
+from .conftest import here
+from .worlds import hemispheres
+
+DEMO = here().parent / "polygons_demo"
+
+
+def test_one_driving_coefficient_has_the_weighted_least_squares_solution():
+    # Slab pull (free) against fixed drag: the predicted motions are c g with g fixed, so
+    # the chi-square's minimum is the textbook weighted least-squares estimate.
+    trench = Boundary("subduction", "Upper", "Lower",
+                      torque.sphere.lonlat_to_xyz(np.array([0.0, 60.0, 120.0]), np.zeros(3)),
+                      subducting="Lower")
+    world = hemispheres([trench])
+    hyp = hypothesis_from_dict({"force": [
+        {"kind": "slab", "force_per_length": 3e13},
+        {"kind": "drag", "coefficient": 5e14}]})
+    system = torque.assemble(world, hyp, torque.compute_torques(world, hyp))
+    g = balance.predict(system, [1.0, 5e14]).ravel()         # motions per unit coefficient
+    rng = np.random.default_rng(1)
+    A = rng.normal(size=(2, 3, 3)) * 0.02 * RAD_S_PER_DEG_MYR
+    C = A @ np.swapaxes(A, 1, 2) + (0.01 * RAD_S_PER_DEG_MYR) ** 2 * np.eye(3)
+    y = 0.3 * g + rng.normal(size=6) * 0.01 * RAD_S_PER_DEG_MYR
+    Ci = np.zeros((6, 6))
+    Ci[:3, :3], Ci[3:, 3:] = np.linalg.inv(C[0]), np.linalg.inv(C[1])
+    want = (g @ Ci @ y) / (g @ Ci @ g)
+    fit = balance.fit_velocity(system, y.reshape(2, 3), obs_cov=C)
+    assert fit.values[0] == pytest.approx(want, rel=1e-8)
+    assert fit.info["chi_square"] == pytest.approx(
+        (y - want * g) @ Ci @ (y - want * g), rel=1e-8)
+    # its variance, 1 / g^T C^-1 g, scaled by the reduced chi-square as for any fit
+    var = 1 / (g @ Ci @ g) * fit.info["reduced_chi_square"]
+    assert fit.stderr[0] == pytest.approx(np.sqrt(var), rel=1e-6)
+
+
+def test_with_an_isotropic_covariance_it_is_ordinary_least_squares():
+    inputs = torque.Inputs.load(DEMO / "world.toml")
+    hyp = torque.load_hypothesis(DEMO / "hypotheses" / "continental_drag.toml")
+    obs = torque.read_motions(DEMO / "motions.csv").for_world(inputs.world)
+    system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, obs))
+    cov = np.broadcast_to((0.01 * RAD_S_PER_DEG_MYR) ** 2 * np.eye(3), (14, 3, 3))
+    gls = balance.fit_velocity(system, obs, obs_cov=cov)
+    free = system.free
+    scale = np.abs(gls.values[free])
+
+    def residual(x):                   # in units of the noise, so the tolerances make sense
+        pred = balance.predict(system, system.full_coefficients(x * scale))
+        return (pred - obs).ravel() / (0.01 * RAD_S_PER_DEG_MYR)
+    ols = optimize.least_squares(residual, np.ones(free.sum()) * 0.9, xtol=1e-14,
+                                 ftol=1e-14, gtol=1e-14)
+    np.testing.assert_allclose(gls.values[free], ols.x * scale, rtol=1e-6)
+
+
+def test_the_command_line_reports_the_chi_square(tmp_path, cli):
+    status, out, err = cli("fit", DEMO / "world.toml",
+                           DEMO / "hypotheses" / "continental_drag.toml", DEMO / "motions.csv",
+                           "--misfit", "chi-square", "-o", tmp_path / "f.json")
+    assert status == 0, err
+    d = torque.io.read_fit(tmp_path / "f.json").misfit
+    assert d["dof"] == 3 * 14 - 3
+    # the demo's noise is the covariance stated in its motions: a reduced chi-square near 1
+    # (its standard deviation is sqrt(2 / 39) = 0.23; common practice, no source)
+    assert 0.5 < d["reduced_chi_square"] < 2.0
+    assert "chi-square" in out and "reduced" in out
+    (tmp_path / "m.csv").write_text("plate,lat,lon,rate\n" + "".join(
+        f"{p},0,0,0.1\n" for p in torque.load_world(DEMO / "world.toml").plate_names))
+    status, out, err = cli("fit", DEMO / "world.toml",
+                           DEMO / "hypotheses" / "continental_drag.toml", tmp_path / "m.csv",
+                           "--misfit", "chi-square", "-o", tmp_path / "g.json")
+    assert status == 2 and "needs the motions' covariance" in err
