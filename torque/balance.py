@@ -441,24 +441,13 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     L = np.linalg.cholesky(system.D)
     R2 = system.radius_m ** 2
     x0 = start.values[free]
-    # natural size of each free coefficient: its value, else what balances the fixed terms
-    G = system.columns(omega_obs)
-    h = np.linalg.norm(G[:, ~free] @ system.fixed[~free])
-    typical = h / np.linalg.norm(G[:, free], axis=0)
-    scale = np.where(np.abs(x0) > 0, np.abs(x0), typical)
+    scale = _coefficient_scales(system, omega_obs, x0)
     fixed_c = system.fixed
     k_free = int(free.sum())
     omega_obs = np.asarray(omega_obs, float)
     # the frame's rotation, scaled by the size of the observed motions
     w_scale = float(np.sqrt(np.mean(np.sum(omega_obs ** 2, axis=1)))) or 1.0
-    if obs_cov is not None:
-        # whiten each plate's misfit by its observation covariance: U U^T = C^-1, r = U^T dw
-        C = np.asarray(obs_cov, float)
-        C = C + 1e-12 * np.trace(C, axis1=1, axis2=2).max() * np.eye(3)
-        U = np.linalg.cholesky(np.linalg.inv(C))
-        block = np.swapaxes(U, 1, 2)                                   # r_p = block_p dw_p
-    else:
-        block = R2 * np.swapaxes(L, 1, 2)
+    block = _whitening(obs_cov) if obs_cov is not None else R2 * np.swapaxes(L, 1, 2)
     frame_block = block * w_scale                                      # (P, 3, 3): d r / d w
     # each plate's misfit counts as often as it is drawn (all once by default)
     count = (np.ones(system.n_plates) if plates is None
@@ -517,14 +506,8 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
                                  gtol=1e-15, max_nfev=200)
     x = res.x[:k_free] * scale
     units = np.r_[scale, [w_scale] * (3 if free_frame else 0)]
-    J = jacobian(res.x) / units
     rss = float(res.fun @ res.fun)
-    n, k = 3 * int(count.sum()), J.shape[1]
-    dof = max(n - k, 1)
-    try:
-        cov_all = rss / dof * np.linalg.inv(J.T @ J)
-    except np.linalg.LinAlgError:
-        cov_all = np.full((k, k), np.nan)
+    cov_all, dof = _covariance(jacobian(res.x) / units, rss, 3 * int(count.sum()))
     cov = cov_all[:k_free, :k_free]
     values = system.full_coefficients(x)
     stderr = np.zeros(len(values))
@@ -538,6 +521,34 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         info["frame_rotation"] = frame(res.x)
         info["frame_cov"] = cov_all[k_free:, k_free:]
     return Fit(system, "velocity", values, stderr, cov, rss, dof, active, info)
+
+
+def _coefficient_scales(system, omega_obs, x0) -> np.ndarray:
+    """Natural size of each free coefficient: its starting value, else what balances the
+    fixed terms (the optimiser works in these units)."""
+    free = system.free
+    G = system.columns(omega_obs)
+    h = np.linalg.norm(G[:, ~free] @ system.fixed[~free])
+    typical = h / np.linalg.norm(G[:, free], axis=0)
+    return np.where(np.abs(x0) > 0, np.abs(x0), typical)
+
+
+def _whitening(obs_cov) -> np.ndarray:
+    """Blocks ``U_p^T`` (P, 3, 3) with ``U U^T = C^-1``: ``|U^T dw|^2 = dw^T C^-1 dw``
+    (a vanishing covariance is kept factorisable by a jitter relative to the largest)."""
+    C = np.asarray(obs_cov, float)
+    C = C + 1e-12 * np.trace(C, axis1=1, axis2=2).max() * np.eye(3)
+    return np.swapaxes(np.linalg.cholesky(np.linalg.inv(C)), 1, 2)
+
+
+def _covariance(J, rss: float, n: int):
+    """Covariance of least-squares estimates, ``rss / dof (J^T J)^-1``, and the dof."""
+    k = J.shape[1]
+    dof = max(n - k, 1)
+    try:
+        return rss / dof * np.linalg.inv(J.T @ J), dof
+    except np.linalg.LinAlgError:
+        return np.full((k, k), np.nan), dof
 
 
 def small_solves():
