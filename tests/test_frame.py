@@ -79,3 +79,30 @@ def test_the_frame_is_reported_and_counted(demo, tmp_path, cli):
                            DEMO / "hypotheses" / "ridge_drag.toml",
                            DEMO / "hypotheses" / "continental_drag.toml", "--free-frame")
     assert status == 0, err
+
+
+def test_a_given_mantle_rotation_is_removed_before_fitting(demo, tmp_path, cli):
+    # motions in any frame plus the mantle's known rotation in that frame give the same fit
+    # as the motions in the mantle's frame
+    system, _, obs, _ = demo
+    a = analyse(system, obs)
+    b = analyse(system, obs + SPIN, mantle_rotation=SPIN)
+    np.testing.assert_allclose(b.preferred.values, a.preferred.values, rtol=1e-9)
+    result = b.result()
+    assert result.frame["free"] is False and result.misfit["frame_parameters"] == 0
+    assert result.misfit["aic"] == pytest.approx(a.result().misfit["aic"], rel=1e-9)
+    rel = tmp_path / "rel.csv"
+    torque.write_motions(rel, torque.read_motions(DEMO / "motions.csv").add_rotation(SPIN))
+    lat, lon, rate = torque.euler.vector_to_pole(SPIN)
+    status, out, err = cli("fit", DEMO / "world.toml",
+                           DEMO / "hypotheses" / "continental_drag.toml", rel,
+                           "--mantle-rotation", f"{lat:.12f},{lon:.12f},{rate:.12f}",
+                           "-o", tmp_path / "f.json")
+    assert status == 0, err
+    assert "given mantle frame" in out
+    got = torque.io.read_fit(tmp_path / "f.json").coefficients["slab"].value
+    assert got == pytest.approx(a.preferred.values[1], rel=1e-6)
+    status, out, err = cli("fit", DEMO / "world.toml",
+                           DEMO / "hypotheses" / "continental_drag.toml", rel,
+                           "--mantle-rotation", "north", "-o", tmp_path / "g.json")
+    assert status == 2 and "LAT,LON,RATE" in err

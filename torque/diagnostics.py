@@ -523,10 +523,10 @@ class Report:
             })
         n = 3 * s.n_plates
         k = s.n_free
-        # a free frame is three more parameters
-        ic = information_criteria(glob["velocity_rss_m4_s2"], n,
-                                  k + (3 if self.frame is not None else 0))
-        extra = {"frame_parameters": 3} if self.frame is not None else {}
+        # a free frame is three more parameters (a given one none)
+        n_frame = 3 if self.frame is not None and not self.frame.get("given") else 0
+        ic = information_criteria(glob["velocity_rss_m4_s2"], n, k + n_frame)
+        extra = {"frame_parameters": n_frame} if self.frame is not None else {}
         if pref.info.get("misfit") == "chi-square":
             extra.update(misfit_measure="chi-square with the observations' covariance",
                          chi_square=pref.info["chi_square"], dof=pref.info["dof"],
@@ -553,18 +553,20 @@ class Report:
 
         def net(omega):          # the rotation whose removal zeroes int r x v dA
             return np.linalg.solve(s.D.sum(0), np.einsum("pij,pj->i", s.D, omega))
-        return {"free": True,
+        return {"free": not self.frame.get("given", False),
                 "rotation": pole(w),
                 "vector_deg_myr": (w / RAD_S_PER_DEG_MYR).tolist(),
                 "stderr_deg_myr": (se / RAD_S_PER_DEG_MYR).tolist(),
-                "means": "the mantle's rotation in the frame of the observed motions",
+                "means": "the mantle's rotation in the frame of the observed motions"
+                         + (", as given" if self.frame.get("given") else ", fitted"),
                 "net_rotation_observed": pole(net(self.omega_obs)),
                 "net_rotation_predicted": pole(net(self.omega_pred))}
 
 
 @on_one_blas_thread
 def analyse(system: System, omega_obs, weighting: str = "velocity",
-            methods=None, free_frame: bool = False, obs_cov=None) -> Report:
+            methods=None, free_frame: bool = False, obs_cov=None,
+            mantle_rotation=None) -> Report:
     """Fit a hypothesis by every fit method, predict, and propagate the uncertainty.
 
     Parameters
@@ -585,6 +587,10 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
     obs_cov : ndarray, shape (P, 3, 3), optional
         The observations' covariance, (rad/s)^2: the methods that can (the velocity-space
         fit) then minimise the chi-square (generalised least squares).
+    mantle_rotation : array_like, shape (3,), optional
+        A known rotation of the mantle in the frame of the observations (rad/s), say an
+        absolute reference frame: it is removed from the observations before fitting, and
+        reported in ``frame`` (not with ``free_frame``).
 
     Returns
     -------
@@ -605,6 +611,14 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
     omega_obs = np.asarray(omega_obs, float)
     names = list(FIT_METHODS) if methods is None else [m for m in FIT_METHODS
                                                        if m in methods]
+    given_frame = None
+    if mantle_rotation is not None:
+        if free_frame:
+            raise ValueError("give the mantle's rotation, or fit it (free_frame), not both")
+        w = np.asarray(mantle_rotation, float).reshape(3)
+        given_frame = {"rotation": w, "cov": np.zeros((3, 3)), "observed_frame": omega_obs,
+                       "given": True}
+        omega_obs = omega_obs - w
     if free_frame and not FIT_METHODS[PREFERRED_FIT].frames:
         raise ValueError(f"the preferred fit {PREFERRED_FIT!r} cannot fit a free frame")
     fits = {}
@@ -627,4 +641,4 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
     pref = fits[PREFERRED_FIT]
     pred = predict(system, pref.values)
     cov = pole_covariance(system, pref.values, pref.cov, pred)
-    return Report(system, fits, omega_obs, pred, cov, frame=frame)
+    return Report(system, fits, omega_obs, pred, cov, frame=frame or given_frame)

@@ -11,7 +11,7 @@ import numpy as np
 from ..balance import assemble, predict
 from ..diagnostics import analyse
 from ..errors import InputError, require_memory
-from ..euler import Motions, net_rotation
+from ..euler import Motions, net_rotation, pole_to_vector
 from ..forces import build_terms
 from ..io import (atomic_path, atomic_write, dumps, load_hypothesis, output_suffix,
                   read_coefficients, read_motions, write_csv, write_json, write_motions)
@@ -56,7 +56,12 @@ def add_parser(sub) -> None:
     p.add_argument("--physics-samples", type=count, default=0, metavar="N",
                    help="refit on N draws of the physics from the hypothesis' [spread] table")
     p.add_argument("--seed", type=count, default=0, help="random seed (default 0)")
-    p.add_argument("--free-frame", action="store_true", help=FREE_FRAME)
+    frame = p.add_mutually_exclusive_group()
+    frame.add_argument("--free-frame", action="store_true", help=FREE_FRAME)
+    frame.add_argument("--mantle-rotation", metavar="LAT,LON,RATE",
+                       help="the mantle's rotation in the frame of the motions (pole in "
+                       "degrees, rate in deg/Myr), e.g. of an absolute reference frame: "
+                       "removed from the motions before fitting")
     p.add_argument("--resample-fit", **RESAMPLE_FIT)
     p.add_argument("--misfit", choices=("area", "chi-square"), default="area",
                    help="what the velocity-space fit minimises: the area-integrated velocity "
@@ -189,7 +194,8 @@ def run_fit(args) -> int:
         raise InputError("a Monte Carlo over physics needs a [spread] table",
                          file=args.hypothesis, hint="add one, or leave out --physics-samples")
     _require_sample_memory(pb.system, args)
-    if not args.free_frame:
+    mantle = _mantle_rotation(args.mantle_rotation)
+    if not args.free_frame and mantle is None:
         warn_frame(pb.motions)
     obs_cov = None
     if args.misfit == "chi-square":
@@ -199,7 +205,7 @@ def run_fit(args) -> int:
                              "no cov_xx ... cov_zz columns", file=args.motions,
                              hint="add them in (deg/Myr)^2, or leave out --misfit chi-square")
     rep = analyse(pb.system, pb.omega, args.weighting, free_frame=args.free_frame,
-                  obs_cov=obs_cov)
+                  obs_cov=obs_cov, mantle_rotation=mantle)
     circular = pb.inputs.used_synthesised_ages
     if circular:
         print(f"warning: {CIRCULAR}", file=sys.stderr)
@@ -226,6 +232,21 @@ def run_fit(args) -> int:
 CIRCULAR = ("sea-floor ages were synthesised from the same motions that are fitted, so the "
             "fit is partly circular (the ages, and so ridge push and slab pull, depend on "
             "the motions); give the world an age grid")
+
+
+def _mantle_rotation(text):
+    """``--mantle-rotation LAT,LON,RATE`` as an Euler vector (rad/s), or None."""
+    if text is None:
+        return None
+    try:
+        lat, lon, rate = (float(x) for x in text.split(","))
+    except ValueError:
+        raise InputError(f"--mantle-rotation must be LAT,LON,RATE (degrees, degrees, "
+                         f"deg/Myr), got {text!r}") from None
+    if not (np.isfinite([lat, lon, rate]).all() and -90 <= lat <= 90):
+        raise InputError(f"--mantle-rotation {text}: the pole's latitude must be in "
+                         "[-90, 90] and every number finite")
+    return pole_to_vector(lat, lon, rate)
 
 
 def warn_frame(motions) -> None:

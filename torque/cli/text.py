@@ -147,7 +147,8 @@ def fit(d: dict) -> str:
     if f:
         r, se = f["rotation"], max(f["stderr_deg_myr"])
         o, p = f["net_rotation_observed"], f["net_rotation_predicted"]
-        lines.append(f"free mantle frame: the mantle turns about {r['lat']:.2f} N, "
+        lines.append(f"{'free' if f['free'] else 'given'} mantle frame: the mantle turns "
+                     f"about {r['lat']:.2f} N, "
                      f"{r['lon']:.2f} E at {r['rate']:.4f} deg/Myr (standard error up to "
                      f"{se:.2g} per component) in the frame of the motions; net rotation of "
                      f"the lithosphere observed {o['rate']:.4f}, predicted {p['rate']:.4f} "
