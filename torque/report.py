@@ -56,7 +56,7 @@ def _tables(run: dict) -> list:
                          fit.hypothesis == run["truth"]["hypothesis"] else ""])
         out.append((f"Fitted coefficients: {fit.hypothesis}",
                     ["term", "value (velocity space)", "std. error", "torque space", "unit",
-                     "true"], rows, None))
+                     "true"], rows, _fit_note(fit)))
     best = run["fits"][run["rank"][0]["name"]]
     rows = [[p["plate"], f"{p['observed']['lat']:.2f}, {p['observed']['lon']:.2f}",
              _fmt(p["observed"]["rate"]),
@@ -67,6 +67,29 @@ def _tables(run: dict) -> list:
                 ["plate", "observed pole (lat, lon)", "rate deg/Myr", "predicted pole",
                  "rate deg/Myr", "pole distance deg", "RMS misfit mm/yr"], rows, None))
     return out
+
+
+def _fit_note(fit):
+    """What a reader of a fit's table must know: a warning that the fit is circular, the
+    mantle frame, and the resampled 95 % intervals (None if nothing)."""
+    parts = []
+    for note in fit.notes:
+        if note.startswith("circular:"):
+            parts.append("Warning: " + note[len("circular:"):].strip() + ".")
+    f = fit.frame
+    if f:
+        r = f["rotation"]
+        parts.append(f"Mantle frame {'fitted' if f['free'] else 'given'}: the mantle turns "
+                     f"about {r['lat']:.2f} N, {r['lon']:.2f} E at {r['rate']:.4f} deg/Myr "
+                     "in the frame of the observed motions; net rotation of the lithosphere "
+                     f"{f['net_rotation_observed']['rate']:.4f} deg/Myr observed, "
+                     f"{f['net_rotation_predicted']['rate']:.4f} predicted.")
+    for method, u in (fit.uncertainty or {}).items():
+        spans = ", ".join(f"{label} {_fmt(c['p2_5'])} to {_fmt(c['p97_5'])}"
+                          for label, c in u["coefficients"].items())
+        parts.append(f"{method.replace('_', ' ').capitalize()} ({u['members']} members, "
+                     f"{u.get('fit', 'torque')}-space refits), 95 % intervals: {spans}.")
+    return " ".join(parts) or None
 
 
 def write_markdown(path, run: dict) -> None:
