@@ -151,3 +151,20 @@ def test_a_new_fit_method_plugs_in_without_editing_analyse(demo_fit, monkeypatch
     assert report.preferred is report.velocity_fit
     assert list(analyse(system, motions.for_world(world),
                         methods=("torque", "velocity")).fits) == ["torque", "velocity"]
+
+
+def test_observed_poles_get_ellipses_from_their_covariance(tmp_path, cli):
+    # The demo's motions carry an isotropic covariance (0.01 deg/Myr)^2 I: each observed
+    # pole's 95 % region is then a circle of angular radius sqrt(chi2_2(0.95)) s / w
+    # (scipy.stats.chi2), w the plate's rate.
+    status, _, err = cli("fit", DEMO / "world.toml", DEMO / "hypotheses" / "ridge_drag.toml",
+                         DEMO / "motions.csv", "-o", tmp_path / "f.json")
+    assert status == 0, err
+    fit = read_fit(tmp_path / "f.json")
+    k = np.sqrt(stats.chi2.ppf(0.95, 2))
+    for p in fit.plates:
+        e, rate = p["observed_pole_ellipse"], p["observed"]["rate"]
+        r = np.degrees(k * 0.01 / rate)
+        assert e["major_deg"] == pytest.approx(r, rel=1e-6)
+        assert e["minor_deg"] == pytest.approx(r, rel=1e-6)
+        assert e["rate_stderr_deg_myr"] == pytest.approx(0.01, rel=1e-6)

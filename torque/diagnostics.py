@@ -276,7 +276,8 @@ class Coefficient:
 
 
 _PLATE_KEYS = ("plate", "observed", "predicted", "pole_distance_deg", "rate_ratio",
-               "rms_velocity_mm_yr", "residual_torque_nm", "budget", "pole_ellipse")
+               "rms_velocity_mm_yr", "residual_torque_nm", "budget", "pole_ellipse",
+               "observed_pole_ellipse")
 
 
 @dataclass(frozen=True)
@@ -479,12 +480,15 @@ class Report:
         """The fit JSON: ``self.result().as_dict()``."""
         return self.result().as_dict()
 
-    def result(self, notes=()) -> FitResult:
+    def result(self, notes=(), observed_cov=None) -> FitResult:
         """What is reported of this fit, with ``notes`` on how the terms were made.
 
         Parameters
         ----------
         notes : sequence of str
+        observed_cov : ndarray, shape (P, 3, 3), optional
+            The observed Euler vectors' covariance, (rad/s)^2: each plate then also gets
+            the confidence ellipse of its observed pole (``observed_pole_ellipse``).
 
         Returns
         -------
@@ -520,6 +524,8 @@ class Report:
                 "budget": {l: (None if not np.isfinite(budget[p, k]) else float(budget[p, k]))
                            for k, l in enumerate(s.labels)},
                 "pole_ellipse": pole_ellipse(self.omega_pred[p], self.pole_cov[p]),
+                **({"observed_pole_ellipse": pole_ellipse(self.omega_obs[p], observed_cov[p])}
+                   if observed_cov is not None else {}),
             })
         n = 3 * s.n_plates
         k = s.n_free

@@ -263,7 +263,8 @@ def _ellipse_lonlat(lat, lon, major_deg, minor_deg, azimuth_deg, n=72):
 
 
 def poles_map(world, path, fit):
-    """Observed and predicted Euler poles with the predicted poles' 95 % ellipses.
+    """Observed and predicted Euler poles with their 95 % ellipses (the observed ones where
+    the motions have a covariance), and a legend.
 
     Parameters
     ----------
@@ -276,7 +277,8 @@ def poles_map(world, path, fit):
     Path
     """
     import cartopy.crs as ccrs
-    fig, ax = _axes(f"{world.name}: Euler poles, observed (black) and predicted (orange)")
+    from matplotlib.lines import Line2D
+    fig, ax = _axes(f"{world.name}: Euler poles, observed and predicted, with 95 % ellipses")
     draw_plates(ax, world, labels=False)
     for p in fit.plates:
         o, q = p["observed"], p["predicted"]
@@ -286,12 +288,22 @@ def poles_map(world, path, fit):
                 transform=ccrs.PlateCarree(), zorder=6)
         ax.text(q["lon"], q["lat"], " " + p["plate"], fontsize=7,
                 transform=ccrs.PlateCarree(), zorder=6)
-        e = p.get("pole_ellipse") or {}
-        if e.get("major_deg"):
-            lo, la = _ellipse_lonlat(q["lat"], q["lon"], e["major_deg"], e["minor_deg"],
-                                     e["azimuth_deg"])
-            ax.plot(lo, la, transform=ccrs.Geodetic(), color=PREDICTED_COLOUR, lw=1,
-                    zorder=6)
+        # ellipses over the markers, so that small ones still show as rings
+        for key, at, colour, style in (("pole_ellipse", q, PREDICTED_COLOUR, "-"),
+                                       ("observed_pole_ellipse", o, OBSERVED_COLOUR, "--")):
+            e = p.get(key) or {}
+            if e.get("major_deg"):
+                lo, la = _ellipse_lonlat(at["lat"], at["lon"], e["major_deg"],
+                                         e["minor_deg"], e["azimuth_deg"])
+                ax.plot(lo, la, transform=ccrs.Geodetic(), color=colour, lw=1.4, ls=style,
+                        zorder=7)
+    ax.legend(handles=[
+        Line2D([], [], marker="o", ls="", mfc="white", mec=OBSERVED_COLOUR,
+               label="observed pole"),
+        Line2D([], [], color=OBSERVED_COLOUR, ls="--", label="its 95 % ellipse (covariance)"),
+        Line2D([], [], marker="^", ls="", color=PREDICTED_COLOUR, label="predicted pole"),
+        Line2D([], [], color=PREDICTED_COLOUR, label="its 95 % ellipse (coefficients)")],
+        loc="upper center", bbox_to_anchor=(0.5, -0.01), ncol=4, fontsize=7, frameon=False)
     return _save(fig, path)
 
 

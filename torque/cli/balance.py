@@ -222,7 +222,8 @@ def run_fit(args) -> int:
             pb.rebuild, pb.hypothesis.physics, pb.hypothesis.spread, rep.omega_obs,
             args.physics_samples, args.seed, args.weighting, args.resample_fit)
     result = dataclasses.replace(rep, uncertainty=unc).result(
-        pb.notes() + ([f"circular: {CIRCULAR}"] if circular else []))
+        pb.notes() + ([f"circular: {CIRCULAR}"] if circular else []),
+        observed_cov=pb.motions.cov_for_world(pb.inputs.world))
     write_json(args.output, result.as_dict())
     print(text.fit(result.as_dict()))
     print(f"wrote {args.output}")
