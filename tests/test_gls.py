@@ -87,3 +87,22 @@ def test_the_command_line_reports_the_chi_square(tmp_path, cli):
                            DEMO / "hypotheses" / "continental_drag.toml", tmp_path / "m.csv",
                            "--misfit", "chi-square", "-o", tmp_path / "g.json")
     assert status == 2 and "needs the motions' covariance" in err
+
+
+def test_resampling_the_chi_square_fit_matches_its_standard_errors():
+    # With the observations' true covariance, the Monte Carlo spread of chi-square refits is
+    # the estimate's sampling spread, which is (J^T C^-1 J)^-1: the reported standard error
+    # over the square root of the reduced chi-square (first-order propagation; Draper and
+    # Smith 1998). 300 members give the spread to about 4 %.
+    from torque.resample import monte_carlo_motions
+    inputs = torque.Inputs.load(DEMO / "world.toml")
+    hyp = torque.load_hypothesis(DEMO / "hypotheses" / "continental_drag.toml")
+    motions = torque.read_motions(DEMO / "motions.csv")
+    obs = motions.for_world(inputs.world)
+    cov = motions.cov_for_world(inputs.world)
+    system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, obs))
+    fit = balance.fit_velocity(system, obs, obs_cov=cov)
+    mc = monte_carlo_motions(system, obs, cov, 300, seed=4, obs_cov=cov)
+    se = fit.stderr[system.free] / np.sqrt(fit.info["reduced_chi_square"])
+    sd = np.array([c["std"] for c in mc["coefficients"].values()])
+    np.testing.assert_allclose(sd, se, rtol=0.15)

@@ -42,26 +42,28 @@ def _progress(n, desc):
 
 
 @on_one_blas_thread
-def _refit(system, omega_obs, weighting, fit, start, plates=None):
+def _refit(system, omega_obs, weighting, fit, start, plates=None, obs_cov=None):
     """The free coefficients refitted by ``fit`` ("velocity" or "torque")."""
     if fit == "torque":
         return fit_torque(system, omega_obs, weighting, plates=plates).values[system.free]
     if start is None:
         start = fit_torque(system, omega_obs, weighting)
-    return fit_velocity(system, omega_obs, start, plates=plates).values[system.free]
+    return fit_velocity(system, omega_obs, start, plates=plates,
+                        obs_cov=obs_cov).values[system.free]
 
 
-def _start(system, omega_obs, weighting, fit):
+def _start(system, omega_obs, weighting, fit, obs_cov=None):
     """The fit to the data that velocity-space members start from (None for torque)."""
     if fit == "torque":
         return None
     if fit != "velocity":
         raise ValueError(f"fit must be 'velocity' or 'torque', got {fit!r}")
-    return fit_velocity(system, omega_obs, fit_torque(system, omega_obs, weighting))
+    return fit_velocity(system, omega_obs, fit_torque(system, omega_obs, weighting),
+                        obs_cov=obs_cov)
 
 
 def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
-              weighting: str = "velocity", fit: str = "velocity") -> dict:
+              weighting: str = "velocity", fit: str = "velocity", obs_cov=None) -> dict:
     """Refit on ``n`` sets of plates drawn with replacement.
 
     Parameters
@@ -76,6 +78,9 @@ def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
     fit : {"velocity", "torque"}
         How each member is refitted: the preferred velocity-space fit (default), or the
         faster torque-space fit.
+    obs_cov : ndarray, shape (P, 3, 3), optional
+        The observations' covariance: velocity-space members then minimise the chi-square,
+        as the fit they resample did.
 
     Returns
     -------
@@ -86,12 +91,13 @@ def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
     rng = np.random.default_rng(seed)
     P = system.n_plates
     out, failed = [], 0
-    start = _start(system, omega_obs, weighting, fit)
+    start = _start(system, omega_obs, weighting, fit, obs_cov)
     with _progress(n, "bootstrap") as bar:
         for _ in range(n):
             idx = rng.integers(P, size=P)
             try:
-                out.append(_refit(system, omega_obs, weighting, fit, start, plates=idx))
+                out.append(_refit(system, omega_obs, weighting, fit, start, plates=idx,
+                                  obs_cov=obs_cov))
             except InputError:       # a draw that cannot separate the coefficients
                 failed += 1
             bar.update()
@@ -101,7 +107,8 @@ def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
 
 @on_one_blas_thread
 def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
-                        weighting: str = "velocity", fit: str = "velocity") -> dict:
+                        weighting: str = "velocity", fit: str = "velocity",
+                        obs_cov=None) -> dict:
     """Refit for ``n`` draws of the observed Euler vectors from their covariance.
 
     Vectorised: the torque columns are linear in the motions, so every member's least
@@ -121,6 +128,9 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
     fit : {"velocity", "torque"}
         How each member is refitted: the preferred velocity-space fit (default), or the
         faster torque-space fit.
+    obs_cov : ndarray, shape (P, 3, 3), optional
+        The observations' covariance: velocity-space members then minimise the chi-square,
+        as the fit they resample did.
 
     Returns
     -------
@@ -138,12 +148,12 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
     L = np.linalg.cholesky(cov + 1e-12 * tr * np.eye(3) + (tr == 0) * np.eye(3) * 1e-300)
     draws = omega_obs[None] + np.einsum("pij,npj->npi", L, rng.standard_normal((n, P, 3)))
     if fit != "torque":
-        start = _start(system, omega_obs, weighting, fit)
+        start = _start(system, omega_obs, weighting, fit, obs_cov)
         out, failed = [], 0
         with _progress(n, "Monte Carlo over motions") as bar:
             for d in draws:
                 try:
-                    out.append(_refit(system, d, weighting, fit, start))
+                    out.append(_refit(system, d, weighting, fit, start, obs_cov=obs_cov))
                 except InputError:
                     failed += 1
                 bar.update()
@@ -174,7 +184,7 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
 @on_one_blas_thread
 def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
                         seed: int = 0, weighting: str = "velocity",
-                        fit: str = "velocity") -> dict:
+                        fit: str = "velocity", obs_cov=None) -> dict:
     """Refit for ``n`` draws of the physics parameters from their distributions.
 
     ``build_system(physics) -> System`` rebuilds the terms for one draw. Draws that are not
@@ -195,6 +205,9 @@ def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
     fit : {"velocity", "torque"}
         How each member is refitted: the preferred velocity-space fit (default), or the
         faster torque-space fit.
+    obs_cov : ndarray, shape (P, 3, 3), optional
+        The observations' covariance: velocity-space members then minimise the chi-square,
+        as the fit they resample did.
 
     Returns
     -------
@@ -227,7 +240,7 @@ def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
                 continue
             system = build_system(draw)
             try:
-                out.append(_refit(system, omega_obs, weighting, fit, None))
+                out.append(_refit(system, omega_obs, weighting, fit, None, obs_cov=obs_cov))
             except InputError:
                 failed += 1
             bar.update()

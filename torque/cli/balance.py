@@ -212,15 +212,15 @@ def run_fit(args) -> int:
     unc = {}
     if args.bootstrap:
         unc["bootstrap"] = bootstrap(pb.system, rep.omega_obs, args.bootstrap, args.seed,
-                                     args.weighting, args.resample_fit)
+                                     args.weighting, args.resample_fit, obs_cov)
     if args.monte_carlo:
         unc["monte_carlo_motions"] = monte_carlo_motions(
             pb.system, rep.omega_obs, pb.motions.cov_for_world(pb.inputs.world),
-            args.monte_carlo, args.seed, args.weighting, args.resample_fit)
+            args.monte_carlo, args.seed, args.weighting, args.resample_fit, obs_cov)
     if args.physics_samples:
         unc["monte_carlo_physics"] = monte_carlo_physics(
             pb.rebuild, pb.hypothesis.physics, pb.hypothesis.spread, rep.omega_obs,
-            args.physics_samples, args.seed, args.weighting, args.resample_fit)
+            args.physics_samples, args.seed, args.weighting, args.resample_fit, obs_cov)
     result = dataclasses.replace(rep, uncertainty=unc).result(
         pb.notes() + ([f"circular: {CIRCULAR}"] if circular else []),
         observed_cov=pb.motions.cov_for_world(pb.inputs.world))
