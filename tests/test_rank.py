@@ -69,3 +69,14 @@ def test_cross_validation_of_the_true_model_is_near_its_misfit(ranked):
     omega, full, small, (rows, _) = ranked
     cv = cross_validation(full, omega)
     assert rows[0].rms_velocity_mm_yr <= cv < 3 * rows[0].rms_velocity_mm_yr
+
+
+def test_printed_values_carry_only_meaningful_digits(ranked):
+    # AIC to 0.1 (differences under 1 carry no evidence: Burnham and Anderson 2002,
+    # sec. 2.6), and p-values below 1e-6 only as such, since the residuals are spatially
+    # correlated and far tails mean nothing here (common practice, no source)
+    from torque.cli.text import p_value, rank as rank_table
+    _, _, _, (rows, tests) = ranked
+    text = rank_table(rows, tests)
+    assert f"{rows[0].aic:10.1f}" in text
+    assert p_value(1e-17) == "p < 1e-6" and p_value(0.0123) == "p = 0.012"

@@ -139,8 +139,8 @@ def fit(d: dict) -> str:
                      f"(reduced {m['reduced_chi_square']:.2f}): the fit minimised it, with "
                      "the motions' covariance")
     lines.append(f"RMS velocity misfit {m['rms_velocity_mm_yr']:.3f} mm/yr, variance "
-                 f"reduction {100 * m['variance_reduction']:.2f} %, AIC {m['aic']:.2f}, "
-                 f"BIC {m['bic']:.2f}")
+                 f"reduction {100 * m['variance_reduction']:.2f} %, AIC {m['aic']:.1f}, "
+                 f"BIC {m['bic']:.1f}")
     if m["active_bounds"]:
         lines.append(f"at a bound: {', '.join(m['active_bounds'])}")
     f = d.get("frame")
@@ -190,6 +190,22 @@ def fits_disagree(d: dict) -> list:
     return out
 
 
+def p_value(p: float) -> str:
+    """A p-value as printed: two digits, and only "p < 1e-6" below that, since the
+    residuals are spatially correlated and far tails of the F distribution mean nothing
+    here.
+
+    Parameters
+    ----------
+    p : float
+
+    Returns
+    -------
+    str
+    """
+    return "p < 1e-6" if p < 1e-6 else f"p = {p:.2g}"
+
+
 def rank(rows, tests) -> str:
     """The ranking table of ``torque rank`` and its F-tests.
 
@@ -207,12 +223,12 @@ def rank(rows, tests) -> str:
              f"{'AIC':>10} {'BIC':>10} {'CV mm/yr':>9}"]
     for i, r in enumerate(rows, 1):
         lines.append(f"{i:4d}  {r.name:<{wn}} {r.rms_velocity_mm_yr:9.3f} "
-                     f"{100 * r.variance_reduction:7.2f} {r.free:2d} {r.aic:10.2f} "
-                     f"{r.bic:10.2f} {r.cv_rms_mm_yr:9.3f}")
+                     f"{100 * r.variance_reduction:7.2f} {r.free:2d} {r.aic:10.1f} "
+                     f"{r.bic:10.1f} {r.cv_rms_mm_yr:9.3f}")
     for t in tests:
         if t["p_value"] is not None:
             lines.append(f"F-test {t['smaller']!r} within {t['bigger']!r}: F = {t['F']:.3g}, "
-                         f"p = {t['p_value']:.3g}")
+                         f"{p_value(t['p_value'])}")
     lines.append("sorted by AIC (lowest first); CV = leave-one-plate-out cross-validation "
                  "error")
     return "\n".join(lines)
