@@ -80,3 +80,16 @@ def test_printed_values_carry_only_meaningful_digits(ranked):
     text = rank_table(rows, tests)
     assert f"{rows[0].aic:10.1f}" in text
     assert p_value(1e-17) == "p < 1e-6" and p_value(0.0123) == "p = 0.012"
+
+
+def test_with_known_covariances_the_criteria_come_from_the_chi_square(ranked):
+    # Burnham and Anderson (2002), sec. 2.2: with known variances, -2 ln L = chi^2 + const,
+    # so AIC = chi^2 + 2k and BIC = chi^2 + k ln n.
+    omega, full, small, _ = ranked
+    cov = np.broadcast_to((0.002 * RAD_S_PER_DEG_MYR) ** 2 * np.eye(3), (16, 3, 3))
+    rows, _ = rank([small, full], omega, obs_cov=cov)
+    for r, s in zip(sorted(rows, key=lambda r: r.name), (full, small)):
+        chi2 = analyse(s, omega, obs_cov=cov).preferred.info["chi_square"]
+        n, k = 3 * s.n_plates, s.n_free
+        assert r.aic == pytest.approx(chi2 + 2 * k, rel=1e-12)
+        assert r.bic == pytest.approx(chi2 + k * np.log(n), rel=1e-12)

@@ -224,6 +224,31 @@ def information_criteria(rss: float, n: int, k: int) -> dict:
     return {"aic": float(aic), "aicc": float(aicc), "bic": float(base + k * np.log(n))}
 
 
+def information_criteria_chi_square(chi_square: float, n: int, k: int) -> dict:
+    """AIC, AICc and BIC when the errors' covariance is known [1]_ [2]_.
+
+    With known variances the log-likelihood is ``-chi^2 / 2`` up to a constant, so
+    ``AIC = chi^2 + 2k``, ``AICc = AIC + 2k(k+1)/(n-k-1)``, ``BIC = chi^2 + k ln(n)``; they
+    assume the covariance is right (a reduced chi-square near 1).
+
+    Parameters
+    ----------
+    chi_square : float
+    n : int
+        Number of observations (3 per plate).
+    k : int
+        Number of fitted parameters.
+
+    Returns
+    -------
+    dict
+        ``aic``, ``aicc``, ``bic``.
+    """
+    aic = chi_square + 2 * k
+    aicc = aic + (2 * k * (k + 1) / (n - k - 1) if n - k - 1 > 0 else np.inf)
+    return {"aic": float(aic), "aicc": float(aicc), "bic": float(chi_square + k * np.log(n))}
+
+
 def f_test(rss_small: float, k_small: int, rss_big: float, k_big: int, n: int) -> dict:
     """Extra-sum-of-squares F-test of a nested model against a bigger one [3]_.
 
@@ -534,6 +559,7 @@ class Report:
         ic = information_criteria(glob["velocity_rss_m4_s2"], n, k + n_frame)
         extra = {"frame_parameters": n_frame} if self.frame is not None else {}
         if pref.info.get("misfit") == "chi-square":
+            ic = information_criteria_chi_square(pref.info["chi_square"], n, k + n_frame)
             extra.update(misfit_measure="chi-square with the observations' covariance",
                          chi_square=pref.info["chi_square"], dof=pref.info["dof"],
                          reduced_chi_square=pref.info["reduced_chi_square"])

@@ -17,7 +17,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from .balance import System, fit_torque, fit_velocity, on_one_blas_thread, predict
-from .diagnostics import analyse, f_test, information_criteria, velocity_misfit
+from .diagnostics import (analyse, f_test, information_criteria,
+                          information_criteria_chi_square, velocity_misfit)
 from .errors import InputError
 
 
@@ -93,7 +94,7 @@ def cross_validation(system: System, omega_obs, weighting="velocity",
 
 @on_one_blas_thread
 def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
-         fit: str = "velocity"):
+         fit: str = "velocity", obs_cov=None):
     """Fit every hypothesis and rank them.
 
     Parameters
@@ -110,6 +111,9 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
         :func:`torque.diagnostics.analyse`).
     fit : {"velocity", "torque"}
         How cross-validation refits (see :func:`cross_validation`).
+    obs_cov : ndarray, shape (P, 3, 3), optional
+        The observations' covariance: each hypothesis is then fitted by its chi-square, and
+        the information criteria come from the chi-square (known variances).
 
     Returns
     -------
@@ -120,11 +124,13 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
     """
     rows, rss, specs = [], {}, {}
     for s in systems:
-        rep = analyse(s, omega_obs, weighting, free_frame=free_frame)
+        rep = analyse(s, omega_obs, weighting, free_frame=free_frame, obs_cov=obs_cov)
         _, glob = rep.misfit()
         n = 3 * s.n_plates
-        ic = information_criteria(glob["velocity_rss_m4_s2"], n,
-                                  s.n_free + (3 if free_frame else 0))
+        k = s.n_free + (3 if free_frame else 0)
+        ic = (information_criteria_chi_square(rep.preferred.info["chi_square"], n, k)
+              if obs_cov is not None else
+              information_criteria(glob["velocity_rss_m4_s2"], n, k))
         coefs = {l: float(v) for l, v, f in zip(s.labels, rep.preferred.values, s.free) if f}
         # with a free frame, cross-validate in the mantle frame the full fit found
         rows.append(Row(s.name, glob["rms_velocity_mm_yr"], glob["variance_reduction"],

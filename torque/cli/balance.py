@@ -94,6 +94,9 @@ def add_parser(sub) -> None:
     p.add_argument("--weighting", **WEIGHTING)
     p.add_argument("--free-frame", action="store_true", help=FREE_FRAME)
     p.add_argument("--resample-fit", **RESAMPLE_FIT)
+    p.add_argument("--misfit", choices=("area", "chi-square"), default="area",
+                   help="what each hypothesis' velocity-space fit minimises (see torque fit "
+                   "--help); with chi-square the information criteria come from it")
     p.add_argument("--allow-synthetic-ages", action="store_true",
                    help="rank even when sea-floor ages are synthesised from the motions being "
                    "fitted (the comparison is then partly circular)")
@@ -354,8 +357,14 @@ def run_rank(args) -> int:
         raise InputError(f"hypotheses share the name(s) {', '.join(map(repr, dup))} "
                          f"(files {', '.join(files)})", file=files[0],
                          hint="give each a different 'name'")
+    obs_cov = None
+    if args.misfit == "chi-square":
+        obs_cov = motions.cov_for_world(data.world)
+        if obs_cov is None:
+            raise InputError("a chi-square misfit needs the motions' covariance: the file has "
+                             "no cov_xx ... cov_zz columns", file=args.motions)
     rows, tests = rank(systems, motions.for_world(data.world), args.weighting,
-                       free_frame=args.free_frame, fit=args.resample_fit)
+                       free_frame=args.free_frame, fit=args.resample_fit, obs_cov=obs_cov)
     print(text.rank(rows, tests))
     # both outputs or neither: the CSV goes into place only once the JSON has
     with ExitStack() as stack:
