@@ -221,42 +221,32 @@ def _side_ages(world, samples, ages):
 def _runs(kind, line, length, min_len):
     """Runs of equal kind within each line, short runs merged into a neighbour.
 
-    Returns ``(start, stop, kind)`` lists over sample indices (stop exclusive).
+    Returns ``(start, stop, kind)`` lists over sample indices (stop exclusive). Runs merge
+    only within a line, so the work is done line by line (samples come line by line).
     """
-    runs = []
-    cuts = np.r_[0, np.nonzero((kind[1:] != kind[:-1]) | (line[1:] != line[:-1]))[0] + 1,
-                 len(kind)]
-    for a, b in zip(cuts[:-1], cuts[1:]):
-        runs.append([int(a), int(b), str(kind[a])])
-    changed = True
-    while changed:                  # merge the shortest short run into its longer neighbour
-        changed = False
-        lens = [length[a:b].sum() for a, b, _ in runs]
-        order = np.argsort(lens)
-        for r in order:
+    out = []
+    bounds = np.r_[0, np.nonzero(line[1:] != line[:-1])[0] + 1, len(line)]
+    for s0, s1 in zip(bounds[:-1], bounds[1:]):
+        k = kind[s0:s1]
+        cuts = np.r_[0, np.nonzero(k[1:] != k[:-1])[0] + 1, len(k)] + s0
+        runs = [[int(a), int(b), str(kind[a])] for a, b in zip(cuts[:-1], cuts[1:])]
+        while len(runs) > 1:       # merge the shortest short run into its longer neighbour
+            lens = [float(length[a:b].sum()) for a, b, _ in runs]
+            r = int(np.argmin(lens))
             if lens[r] >= min_len:
                 break
-            a, b, k = runs[r]
-            nbrs = [q for q in (r - 1, r + 1) if 0 <= q < len(runs)
-                    and line[runs[q][0]] == line[a]]
-            if not nbrs:
-                continue
-            q = max(nbrs, key=lambda q: lens[q])
-            lo, hi = min(runs[q][0], a), max(runs[q][1], b)
-            runs[q] = [lo, hi, runs[q][2]]
+            q = max((x for x in (r - 1, r + 1) if 0 <= x < len(runs)), key=lambda x: lens[x])
+            runs[q] = [min(runs[q][0], runs[r][0]), max(runs[q][1], runs[r][1]), runs[q][2]]
             del runs[r]
-            # neighbours of one kind that now touch become one run
-            merged = [runs[0]]
+            merged = [runs[0]]                 # neighbours of one kind that now touch
             for x in runs[1:]:
-                y = merged[-1]
-                if x[2] == y[2] and line[x[0]] == line[y[0]] and x[0] == y[1]:
-                    y[1] = x[1]
+                if x[2] == merged[-1][2]:
+                    merged[-1][1] = x[1]
                 else:
                     merged.append(x)
             runs = merged
-            changed = True
-            break
-    return runs
+        out += runs
+    return out
 
 
 def classify_pieces(world, motion: BoundaryMotion, ages=None, min_run_km: float = MIN_RUN_KM):
