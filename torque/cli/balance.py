@@ -200,13 +200,7 @@ def run_fit(args) -> int:
     mantle = _mantle_rotation(args.mantle_rotation)
     if not args.free_frame and mantle is None:
         warn_frame(pb.motions)
-    obs_cov = None
-    if args.misfit == "chi-square":
-        obs_cov = pb.motions.cov_for_world(pb.inputs.world)
-        if obs_cov is None:
-            raise InputError("a chi-square misfit needs the motions' covariance: the file has "
-                             "no cov_xx ... cov_zz columns", file=args.motions,
-                             hint="add them in (deg/Myr)^2, or leave out --misfit chi-square")
+    obs_cov = _chi_square_covariance(args, pb.motions, pb.inputs.world)
     rep = analyse(pb.system, pb.omega, args.weighting, free_frame=args.free_frame,
                   obs_cov=obs_cov, mantle_rotation=mantle)
     circular = pb.inputs.used_synthesised_ages
@@ -236,6 +230,19 @@ def run_fit(args) -> int:
 CIRCULAR = ("sea-floor ages were synthesised from the same motions that are fitted, so the "
             "fit is partly circular (the ages, and so ridge push and slab pull, depend on "
             "the motions); give the world an age grid")
+
+
+def _chi_square_covariance(args, motions, world):
+    """The motions' covariance (world plate order) for ``--misfit chi-square``, else None;
+    InputError when the motions have none."""
+    if args.misfit != "chi-square":
+        return None
+    cov = motions.cov_for_world(world)
+    if cov is None:
+        raise InputError("a chi-square misfit needs the motions' covariance: the file has "
+                         "no cov_xx ... cov_zz columns", file=args.motions,
+                         hint="add them in (deg/Myr)^2, or leave out --misfit chi-square")
+    return cov
 
 
 def _mantle_rotation(text):
@@ -357,12 +364,7 @@ def run_rank(args) -> int:
         raise InputError(f"hypotheses share the name(s) {', '.join(map(repr, dup))} "
                          f"(files {', '.join(files)})", file=files[0],
                          hint="give each a different 'name'")
-    obs_cov = None
-    if args.misfit == "chi-square":
-        obs_cov = motions.cov_for_world(data.world)
-        if obs_cov is None:
-            raise InputError("a chi-square misfit needs the motions' covariance: the file has "
-                             "no cov_xx ... cov_zz columns", file=args.motions)
+    obs_cov = _chi_square_covariance(args, motions, data.world)
     rows, tests = rank(systems, motions.for_world(data.world), args.weighting,
                        free_frame=args.free_frame, fit=args.resample_fit, obs_cov=obs_cov)
     print(text.rank(rows, tests))
