@@ -300,10 +300,6 @@ class Coefficient:
     torque_space_stderr: float
 
 
-_PLATE_KEYS = ("plate", "observed", "predicted", "pole_distance_deg", "rate_ratio",
-               "rms_velocity_mm_yr", "residual_torque_nm", "budget", "pole_ellipse",
-               "observed_pole_ellipse")
-
 
 @dataclass(frozen=True)
 class FitResult:

@@ -151,13 +151,8 @@ def classify(world, motion: BoundaryMotion, ages=None):
 
     sinking: list = [None] * nb
     if ages is not None:
-        off = AGE_PROBE_KM * 1e3 / world.radius_m
-        left_pts = sphere.step_toward(s.xyz, s.normal, off)
-        right_pts = sphere.step_toward(s.xyz, -s.normal, off)
         side_age = []
-        for pts in (left_pts, right_pts):
-            lon, lat = sphere.xyz_to_lonlat(pts)
-            age = ages.sample(lon, lat)
+        for age in _side_ages(world, s, ages):
             ok = np.isfinite(age)
             tot = np.bincount(s.line[ok], weights=(w * age)[ok], minlength=nb)
             wt = np.bincount(s.line[ok], weights=w[ok], minlength=nb)
