@@ -300,7 +300,6 @@ class Coefficient:
     torque_space_stderr: float
 
 
-
 @dataclass(frozen=True)
 class FitResult:
     """The results of ``torque fit``: what the fit JSON holds, as one record.
