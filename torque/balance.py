@@ -31,8 +31,11 @@ and does not depend on a weighting of torques. The torque-space fit is linear, f
 always available; it is the starting point and the engine of the bootstrap, Monte Carlo and
 cross-validation.
 
-Observed motions must be in the frame where the mantle is at rest (e.g. the
-no-net-rotation frame: ``torque frame --to nnr``), since drag is taken relative to it.
+Drag acts relative to the mantle, so predicted motions are in the frame where the mantle is
+at rest. Observed motions are taken to be in that frame unless the fit estimates the
+mantle's rotation in their frame (``free_frame``) or is given it; moving them to the
+no-net-rotation frame first is not neutral, since a hypothesis with unequal drag predicts a
+net rotation of its own.
 
 References
 ----------
@@ -397,15 +400,9 @@ def _check_determined(system: System, M):
                      hint="use drag over 'all', or add a boundary resistance")
 
 
-def _misfit_vector(system: System, omega_pred, omega_obs) -> np.ndarray:
-    """``R^2 L_p^T (w_pred - w_obs)``: its squared norm is ``sum_p int |dv|^2 dA`` (m^4/s^2)."""
-    L = np.linalg.cholesky(system.D)
-    dw = np.asarray(omega_pred) - np.asarray(omega_obs)
-    return (system.radius_m ** 2 * np.einsum("pji,pj->pi", L, dw)).ravel()
-
-
 def fit_velocity(system: System, omega_obs, start: Fit | None = None,
-                 free_frame: bool = False, plates=None, obs_cov=None) -> Fit:
+                 free_frame: bool = False, plates=None, obs_cov=None,
+                 lost_dof: int = 0) -> Fit:
     """Free coefficients minimising the area-integrated squared velocity misfit.
 
     Parameters
@@ -424,11 +421,18 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     plates : array of int, optional
         Count only these plates' misfits (for the bootstrap and cross-validation); a plate
         may be repeated, and then counts as often. The balance is still solved for all.
-    obs_cov : ndarray, shape (P, 3, 3), optional
-        Covariance of each observed Euler vector, (rad/s)^2. Given, the fit minimises the
-        chi-square ``sum_p dw_p^T C_p^-1 dw_p`` (generalised least squares) instead of the
+    obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
+        Covariance of the observed Euler vectors, (rad/s)^2: one block per plate, or the
+        full matrix with the covariances between plates. Given, the fit minimises the
+        chi-square ``dw^T C^-1 dw`` (generalised least squares) instead of the
         area-integrated velocity misfit, and ``Fit.info`` holds ``chi_square``,
-        ``reduced_chi_square`` and ``dof``.
+        ``reduced_chi_square`` and ``dof`` (see :func:`misfit_whitening` for ``plates``
+        with a full matrix).
+    lost_dof : int
+        Degrees of freedom the observations lost before the fit: 3 for motions moved to
+        the no-net-rotation frame or given relative to a fixed plate (see
+        :func:`rigid_constraint`). A free frame fits those same three directions, so it
+        adds no parameters beyond them: ``dof = n - k - max(3 * free_frame, lost_dof)``.
 
     Returns
     -------
@@ -438,21 +442,16 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     if start is None:
         start = fit_torque(system, omega_obs)
     free = system.free
-    L = np.linalg.cholesky(system.D)
-    R2 = system.radius_m ** 2
     x0 = start.values[free]
     scale = _coefficient_scales(system, omega_obs, x0)
     fixed_c = system.fixed
     k_free = int(free.sum())
     omega_obs = np.asarray(omega_obs, float)
+    P = system.n_plates
     # the frame's rotation, scaled by the size of the observed motions
     w_scale = float(np.sqrt(np.mean(np.sum(omega_obs ** 2, axis=1)))) or 1.0
-    block = _whitening(obs_cov) if obs_cov is not None else R2 * np.swapaxes(L, 1, 2)
-    frame_block = block * w_scale                                      # (P, 3, 3): d r / d w
-    # each plate's misfit counts as often as it is drawn (all once by default)
-    count = (np.ones(system.n_plates) if plates is None
-             else np.bincount(np.asarray(plates), minlength=system.n_plates).astype(float))
-    row_weight = np.repeat(np.sqrt(count), 3)
+    W, n_obs = misfit_whitening(system, obs_cov, plates)               # (3P, 3P)
+    frame_cols = W @ np.tile(np.eye(3), (P, 1)) * w_scale              # d r / d w
 
     def coeffs(x):
         c = fixed_c.copy()
@@ -471,23 +470,14 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
 
     def residual(x):
         _, _, w = solve(x[:k_free])
-        if obs_cov is not None:
-            dw = w.reshape(-1, 3) + frame(x) - omega_obs
-            return row_weight * np.einsum("pij,pj->pi", block, dw).ravel()
-        return row_weight * _misfit_vector(system, w.reshape(-1, 3) + frame(x), omega_obs)
+        return W @ (w.reshape(-1, 3) + frame(x) - omega_obs).ravel()
 
     def jacobian(x):
         _, lu, w = solve(x[:k_free])
         # d w / d c_k = -M^{-1} (A_k w + b_k), for the free k
         rhs = (system.A[free] @ w + system.b[free]).T                 # (3P, k)
-        dw = -linalg.lu_solve(lu, rhs) * scale                        # (3P, k)
-        dw = dw.reshape(-1, 3, dw.shape[1])
-        if obs_cov is not None:
-            J = np.einsum("pij,pjk->pik", block, dw).reshape(-1, dw.shape[2])
-        else:
-            J = (R2 * np.einsum("pji,pjk->pik", L, dw)).reshape(-1, dw.shape[2])
-        J = np.hstack([J, frame_block.reshape(-1, 3)]) if free_frame else J
-        return row_weight[:, None] * J
+        J = W @ (-linalg.lu_solve(lu, rhs) * scale)
+        return np.hstack([J, frame_cols]) if free_frame else J
 
     M0 = np.tensordot(start.values, system.A, axes=1)
     _check_determined(system, M0)
@@ -495,10 +485,9 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     x_start = np.clip(x0 / scale, lo, hi)
     if free_frame:
         # the best frame for the starting coefficients: the misfit is linear in it
-        D = system.D
         _, _, w0 = solve(x_start)
-        gap = omega_obs - w0.reshape(-1, 3)
-        w_start = np.linalg.solve(D.sum(0), np.einsum("pij,pj->i", D, gap)) / w_scale
+        gap = W @ (omega_obs - w0.reshape(-1, 3)).ravel()
+        w_start = np.linalg.lstsq(frame_cols, gap, rcond=None)[0]
         x_start = np.r_[x_start, w_start]
         lo, hi = np.r_[lo, [-np.inf] * 3], np.r_[hi, [np.inf] * 3]
     res = optimize.least_squares(residual, x_start, jac=jacobian, bounds=(lo, hi),
@@ -507,20 +496,189 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     x = res.x[:k_free] * scale
     units = np.r_[scale, [w_scale] * (3 if free_frame else 0)]
     rss = float(res.fun @ res.fun)
-    cov_all, dof = _covariance(jacobian(res.x) / units, rss, 3 * int(count.sum()))
+    # the frame's three parameters and the three directions the data lost are the same
+    # rigid rotations: count them once
+    extra = max(3 if free_frame else 0, lost_dof)
+    cov_all, dof = _covariance(jacobian(res.x) / units, rss,
+                               n_obs - extra + 3 * free_frame)
     cov = cov_all[:k_free, :k_free]
     values = system.full_coefficients(x)
     stderr = np.zeros(len(values))
     stderr[free] = np.sqrt(np.clip(np.diag(cov), 0, None))
     free_labels = [l for l, f in zip(system.labels, system.free) if f]
     active = tuple(free_labels[i] for i in np.nonzero(res.active_mask[:k_free])[0])
-    info = {"evaluations": int(res.nfev), "status": int(res.status)}
+    info = {"evaluations": int(res.nfev), "status": int(res.status),
+            "observations": n_obs, "effective_observations": n_obs - lost_dof,
+            "parameters": k_free + extra - lost_dof}
     if obs_cov is not None:
         info.update(misfit="chi-square", chi_square=rss, dof=dof, reduced_chi_square=rss / dof)
     if free_frame:
         info["frame_rotation"] = frame(res.x)
         info["frame_cov"] = cov_all[k_free:, k_free:]
     return Fit(system, "velocity", values, stderr, cov, rss, dof, active, info)
+
+
+def misfit_whitening(system: System, obs_cov=None, plates=None):
+    """The matrix ``W`` (3P, 3P) whose residual ``W dw`` has the misfit as squared norm.
+
+    * no covariance: blocks ``R^2 L_p^T`` with ``L_p L_p^T = D_p``, so that ``|W dw|^2 =
+      R^4 sum_p dw_p^T D_p dw_p`` (m^4/s^2), the area-integrated squared velocity misfit;
+    * a covariance ``C``, per plate (P, 3, 3) or full (3P, 3P): ``W^T W = C^-1``, so that
+      ``|W dw|^2`` is the chi-square.
+
+    With ``plates`` (plate indices, repeats allowed) each plate's rows count as often as
+    it is drawn. A full covariance is then marginalised to the plates kept when none is
+    repeated (leave-one-out); a draw with repeats (the bootstrap) takes each plate's own
+    3x3 block, since a plate drawn twice cannot be correlated with itself as with
+    another.
+
+    Parameters
+    ----------
+    system : System
+    obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
+        (rad/s)^2.
+    plates : array of int, optional
+
+    Returns
+    -------
+    W : ndarray, shape (3P, 3P)
+    n : int
+        Number of observations counted: 3 per plate, times its count.
+    """
+    P = system.n_plates
+    count = (np.ones(P) if plates is None
+             else np.bincount(np.asarray(plates), minlength=P).astype(float))
+    C = None if obs_cov is None else np.asarray(obs_cov, float)
+    if C is not None and C.ndim == 2:
+        if plates is None or count.max() <= 1:
+            rows = np.repeat(count > 0, 3)
+            sub = C[np.ix_(rows, rows)]
+            sub = sub + 1e-12 * np.trace(sub) / len(sub) * np.eye(len(sub))
+            W = np.zeros((3 * P, 3 * P))
+            # L^-1 with L L^T = C: |L^-1 dw|^2 = dw^T C^-1 dw
+            W[np.ix_(rows, rows)] = linalg.solve_triangular(
+                linalg.cholesky(sub, lower=True), np.eye(len(sub)), lower=True)
+            return W, int(rows.sum())
+        C = covariance_blocks(C)
+    blocks = (system.radius_m ** 2 * np.swapaxes(np.linalg.cholesky(system.D), 1, 2)
+              if C is None else _whitening(C))
+    blocks = blocks * np.sqrt(count)[:, None, None]
+    W = np.zeros((P, 3, P, 3))
+    W[np.arange(P), :, np.arange(P), :] = blocks
+    return W.reshape(3 * P, 3 * P), 3 * int(count.sum())
+
+
+def covariance_blocks(cov) -> np.ndarray:
+    """Each plate's own 3x3 block of a covariance, shape (P, 3, 3).
+
+    Parameters
+    ----------
+    cov : ndarray, shape (P, 3, 3) or (3P, 3P)
+
+    Returns
+    -------
+    ndarray, shape (P, 3, 3)
+    """
+    C = np.asarray(cov, float)
+    if C.ndim == 3:
+        return C
+    P = len(C) // 3
+    return C.reshape(P, 3, P, 3)[np.arange(P), :, np.arange(P), :]
+
+
+def model_error_covariance(system: System, floor_mm_yr: float) -> np.ndarray:
+    """Covariance (rad/s)^2 of a model error of RMS velocity ``floor_mm_yr`` on each plate.
+
+    The model error of plate p is taken as a random rigid rotation ``e_p``, independent
+    between plates, whose velocity has mean square ``floor^2`` over the plate:
+    ``E[R^2 e^T D_p e] / A_p = floor^2``. The isotropic choice (in the plate's own misfit
+    measure) is ``C_p = floor^2 A_p / (3 R^2) D_p^-1``: a big plate's Euler vector is held
+    more tightly, since the same error velocity needs a smaller rotation there. Added to
+    the observations' covariance, it stands for what the physics leaves out (real misfits
+    are mostly model error, not measurement error).
+
+    Parameters
+    ----------
+    system : System
+    floor_mm_yr : float
+        RMS velocity of the model error over each plate, mm/yr (>= 0).
+
+    Returns
+    -------
+    ndarray, shape (P, 3, 3)
+
+    Examples
+    --------
+    The mean square velocity of such an error over a plate is the floor squared:
+
+    >>> import torque
+    >>> from torque.euler import M_S_TO_MM_YR
+    >>> inputs = torque.Inputs.load("polygons_demo/world.toml")
+    >>> hyp = torque.load_hypothesis("polygons_demo/hypotheses/ridge_drag.toml")
+    >>> system = assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp))
+    >>> C = model_error_covariance(system, 2.0)
+    >>> ms = system.radius_m ** 2 * np.einsum("pij,pji->p", system.D, C) / system.area
+    >>> np.allclose(np.sqrt(ms) * M_S_TO_MM_YR, 2.0)
+    True
+    """
+    from .euler import M_S_TO_MM_YR
+    sigma = float(floor_mm_yr) / M_S_TO_MM_YR                           # m/s
+    return (sigma ** 2 * system.area[:, None, None] / (3 * system.radius_m ** 2)
+            * np.linalg.inv(system.D))
+
+
+def add_covariances(cov, blocks) -> np.ndarray:
+    """A covariance plus per-plate blocks, in the shape of ``cov``.
+
+    Parameters
+    ----------
+    cov : ndarray, shape (P, 3, 3) or (3P, 3P), or None
+    blocks : ndarray, shape (P, 3, 3)
+
+    Returns
+    -------
+    ndarray
+        (P, 3, 3), or (3P, 3P) when ``cov`` is full.
+    """
+    blocks = np.asarray(blocks, float)
+    if cov is None:
+        return blocks
+    C = np.array(cov, float)
+    if C.ndim == 3:
+        return C + blocks
+    P = len(blocks)
+    C.reshape(P, 3, P, 3)[np.arange(P), :, np.arange(P), :] += blocks
+    return C
+
+
+def rigid_constraint(system: System, omega_obs) -> str | None:
+    """Whether the observed motions were made to satisfy three rigid-rotation constraints.
+
+    Motions moved to the no-net-rotation frame have zero net rotation, and motions given
+    relative to a fixed plate have that plate at rest: either way three of the 3P numbers
+    are no observations, and the fit has three degrees of freedom fewer (common practice,
+    no source).
+
+    Parameters
+    ----------
+    system : System
+    omega_obs : array_like, shape (P, 3)
+        rad/s.
+
+    Returns
+    -------
+    str or None
+        ``"no-net-rotation"``, ``"plate:NAME"``, or None when neither holds.
+    """
+    w = np.asarray(omega_obs, float)
+    size = float(np.sqrt(np.mean(np.sum(w ** 2, axis=1))))
+    if size == 0:
+        return None
+    rest = np.nonzero(np.linalg.norm(w, axis=1) <= 1e-12 * size)[0]
+    if len(rest) == 1:
+        return f"plate:{system.plates[rest[0]]}"
+    net = np.linalg.solve(system.D.sum(0), np.einsum("pij,pj->i", system.D, w))
+    return "no-net-rotation" if np.linalg.norm(net) <= 1e-9 * size else None
 
 
 def _coefficient_scales(system, omega_obs, x0) -> np.ndarray:
@@ -606,8 +764,11 @@ class FitMethod:
         Whether ``run`` takes ``free_frame=True`` and then estimates the rotation of the
         observations' frame relative to the mantle (``Fit.info["frame_rotation"]``).
     covariance : bool
-        Whether ``run`` takes ``obs_cov=`` (the observations' covariance, (P, 3, 3)) and
-        then minimises the chi-square.
+        Whether ``run`` takes ``obs_cov=`` (the observations' covariance, (P, 3, 3) or
+        (3P, 3P)) and then minimises the chi-square.
+    counts_dof : bool
+        Whether ``run`` takes ``lost_dof=`` (degrees of freedom the observations lost to a
+        rigid constraint) into its degrees of freedom.
     """
 
     name: str
@@ -615,15 +776,17 @@ class FitMethod:
     describes: str
     frames: bool = False
     covariance: bool = False
+    counts_dof: bool = False
 
 
 def _run_torque(system, omega_obs, earlier, weighting):
     return fit_torque(system, omega_obs, weighting)
 
 
-def _run_velocity(system, omega_obs, earlier, weighting, free_frame=False, obs_cov=None):
+def _run_velocity(system, omega_obs, earlier, weighting, free_frame=False, obs_cov=None,
+                  lost_dof=0):
     return fit_velocity(system, omega_obs, earlier.get("torque"), free_frame,
-                        obs_cov=obs_cov)
+                        obs_cov=obs_cov, lost_dof=lost_dof)
 
 
 #: Fit methods in the order :func:`torque.diagnostics.analyse` runs them. A new method is
@@ -634,6 +797,6 @@ FIT_METHODS = {
     "velocity": FitMethod("velocity", _run_velocity, "nonlinear least squares of the "
                           "area-integrated velocity misfit, or of the chi-square with the "
                           "observations' covariance (preferred)", frames=True,
-                          covariance=True),
+                          covariance=True, counts_dof=True),
 }
 PREFERRED_FIT = "velocity"

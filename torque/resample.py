@@ -78,7 +78,7 @@ def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
     fit : {"velocity", "torque"}
         How each member is refitted: the preferred velocity-space fit (default), or the
         faster torque-space fit.
-    obs_cov : ndarray, shape (P, 3, 3), optional
+    obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
         The observations' covariance: velocity-space members then minimise the chi-square,
         as the fit they resample did.
 
@@ -101,8 +101,11 @@ def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
             except InputError:       # a draw that cannot separate the coefficients
                 failed += 1
             bar.update()
+    extra = ({"covariance": "each plate's own block of the full covariance (a plate drawn "
+                            "twice cannot keep its correlations)"}
+             if obs_cov is not None and np.ndim(obs_cov) == 2 else {})
     return _summary(system, np.array(out).reshape(-1, system.n_free), failed,
-                    method="bootstrap over plates", seed=seed, fit=fit)
+                    method="bootstrap over plates", seed=seed, fit=fit, **extra)
 
 
 @on_one_blas_thread
@@ -120,15 +123,16 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
     system : System
     omega_obs : ndarray, shape (P, 3)
         Observed Euler vectors, rad/s.
-    cov : ndarray, shape (P, 3, 3)
-        Covariance of each observed Euler vector, (rad/s)^2.
+    cov : ndarray, shape (P, 3, 3) or (3P, 3P)
+        Covariance of each observed Euler vector, (rad/s)^2, or the full covariance with
+        the correlations between plates.
     n : int
     seed : int
     weighting : {"velocity", "area", "none"}
     fit : {"velocity", "torque"}
         How each member is refitted: the preferred velocity-space fit (default), or the
         faster torque-space fit.
-    obs_cov : ndarray, shape (P, 3, 3), optional
+    obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
         The observations' covariance: velocity-space members then minimise the chi-square,
         as the fit they resample did.
 
@@ -143,10 +147,16 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
                          "... cov_zz columns to the motions file")
     rng = np.random.default_rng(seed)
     P = system.n_plates
-    # a jitter relative to each covariance's own size keeps singular ones factorisable
-    tr = np.trace(cov, axis1=1, axis2=2)[:, None, None]
-    L = np.linalg.cholesky(cov + 1e-12 * tr * np.eye(3) + (tr == 0) * np.eye(3) * 1e-300)
-    draws = omega_obs[None] + np.einsum("pij,npj->npi", L, rng.standard_normal((n, P, 3)))
+    cov = np.asarray(cov, float)
+    if cov.ndim == 2:
+        # a full covariance: plates correlated with one another
+        L = np.linalg.cholesky(cov + 1e-12 * np.trace(cov) / len(cov) * np.eye(len(cov)))
+        draws = omega_obs[None] + (rng.standard_normal((n, 3 * P)) @ L.T).reshape(n, P, 3)
+    else:
+        # a jitter relative to each covariance's own size keeps singular ones factorisable
+        tr = np.trace(cov, axis1=1, axis2=2)[:, None, None]
+        L = np.linalg.cholesky(cov + 1e-12 * tr * np.eye(3) + (tr == 0) * np.eye(3) * 1e-300)
+        draws = omega_obs[None] + np.einsum("pij,npj->npi", L, rng.standard_normal((n, P, 3)))
     if fit != "torque":
         start = _start(system, omega_obs, weighting, fit, obs_cov)
         out, failed = [], 0
@@ -205,7 +215,7 @@ def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
     fit : {"velocity", "torque"}
         How each member is refitted: the preferred velocity-space fit (default), or the
         faster torque-space fit.
-    obs_cov : ndarray, shape (P, 3, 3), optional
+    obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
         The observations' covariance: velocity-space members then minimise the chi-square,
         as the fit they resample did.
 

@@ -146,3 +146,120 @@ def write_motions(path, motions: Motions, plates=None) -> None:
                 row += [f"{c[a, b]:.15g}" for a, b in ((0, 0), (0, 1), (0, 2), (1, 1),
                                                       (1, 2), (2, 2))]
             w.writerow(row)
+
+
+#: The columns of a covariance file: one entry of the 3P x 3P covariance of the Cartesian
+#: Euler vectors per row, in (deg/Myr)^2.
+COVARIANCE_COLUMNS = ("plate_1", "axis_1", "plate_2", "axis_2", "cov")
+AXES = ("x", "y", "z")
+
+
+def read_covariance(path, plates) -> np.ndarray:
+    """Read a full covariance of Euler vectors, correlations between plates included.
+
+    Parameters
+    ----------
+    path : str or Path
+        A CSV with header ``plate_1,axis_1,plate_2,axis_2,cov``: one entry per row, axes
+        ``x``, ``y`` or ``z`` (Earth-centred Cartesian), ``cov`` in (deg/Myr)^2. Entries
+        not given are 0; the matrix is symmetric, so each pair is given once (both orders
+        are accepted if they agree). Rows starting with ``#`` are skipped.
+    plates : sequence of str
+        The plates, in the order wanted (a world's plates): every one needs its three
+        variances, and every plate named must be one of them.
+
+    Returns
+    -------
+    ndarray, shape (3P, 3P)
+        (rad/s)^2, rows and columns ordered plate by plate, x, y, z.
+
+    Raises
+    ------
+    InputError
+        Naming the file and the line: an unknown plate or axis, a number that is not
+        finite, a pair given twice with different values, a plate without its variances,
+        or a matrix that is not positive definite (naming the plates involved).
+
+    Examples
+    --------
+    >>> import tempfile, os
+    >>> path = os.path.join(tempfile.mkdtemp(), "cov.csv")
+    >>> rows = ["plate_1,axis_1,plate_2,axis_2,cov"]
+    >>> rows += [f"{p},{a},{p},{a},1e-4" for p in "AB" for a in "xyz"]
+    >>> rows += ["A,x,B,x,5e-5"]
+    >>> _ = open(path, "w").write("\\n".join(rows) + "\\n")
+    >>> C = read_covariance(path, ["A", "B"]) / RAD_S_PER_DEG_MYR ** 2
+    >>> C.shape, float(C[0, 3]), float(C[3, 0])
+    ((6, 6), 5e-05, 5e-05)
+    """
+    table = read_table(path, COVARIANCE_COLUMNS, comments=True,
+                       empty="the file is empty; expected a header "
+                       + ",".join(COVARIANCE_COLUMNS),
+                       hint="the header must name " + ",".join(COVARIANCE_COLUMNS))
+    path = table.path
+    index = {p: i for i, p in enumerate(plates)}
+    P = len(plates)
+    values = table.numbers("cov", where=lambda i: f"line {table.line(i)}")
+    C = np.zeros((3 * P, 3 * P))
+    given = np.zeros((3 * P, 3 * P), bool)
+    columns = {k: (table.text(f"plate_{k}"), table.text(f"axis_{k}")) for k in ("1", "2")}
+    for i in range(len(table)):
+        where = f"line {table.line(i)}"
+        ij = []
+        for k in ("1", "2"):
+            plate = columns[k][0][i]
+            axis = columns[k][1][i].lower()
+            if plate not in index:
+                raise InputError(f"plate {plate!r} is not a plate of the world", file=path,
+                                 where=where, hint="use the world's plate names")
+            if axis not in AXES:
+                raise InputError(f"axis_{k} must be x, y or z, got {axis!r}", file=path,
+                                 where=where)
+            ij.append(3 * index[plate] + AXES.index(axis))
+        v = values[i]
+        if not np.isfinite(v):
+            raise InputError("cov is not finite", file=path, where=where)
+        a, b = ij
+        if given[a, b] and C[a, b] != v:
+            raise InputError(f"this entry was given before with another value "
+                             f"({C[a, b] / RAD_S_PER_DEG_MYR ** 2:g})", file=path, where=where,
+                             hint="give each pair once")
+        C[a, b] = C[b, a] = v * RAD_S_PER_DEG_MYR ** 2
+        given[a, b] = given[b, a] = True
+    missing = [plates[d // 3] for d in range(3 * P) if not given[d, d] or C[d, d] <= 0]
+    if missing:
+        raise InputError(f"plate {missing[0]!r} has no positive variance on every axis",
+                         file=path, hint="give its x,x y,y and z,z entries (every plate of "
+                         "the world needs them)")
+    try:
+        np.linalg.cholesky(C)
+    except np.linalg.LinAlgError:
+        low = np.linalg.eigh(C)
+        worst = np.abs(low[1][:, 0]).reshape(P, 3).max(axis=1)
+        involved = [plates[p] for p in np.argsort(-worst)[:3]]
+        raise InputError(
+            "the covariance is not positive definite (smallest eigenvalue "
+            f"{low[0][0] / RAD_S_PER_DEG_MYR ** 2:.3g} (deg/Myr)^2, mostly on plates "
+            f"{', '.join(map(repr, involved))})", file=path,
+            hint="correlations must satisfy |cov_ab| < sqrt(cov_aa cov_bb), jointly") from None
+    return C
+
+
+def write_covariance(path, cov, plates) -> None:
+    """Write a full covariance (see :func:`read_covariance`), atomically; zeros are left out.
+
+    Parameters
+    ----------
+    path : str or Path
+    cov : ndarray, shape (3P, 3P)
+        (rad/s)^2.
+    plates : sequence of str
+    """
+    C = np.asarray(cov, float) / RAD_S_PER_DEG_MYR ** 2
+    with atomic_write(path, newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(COVARIANCE_COLUMNS)
+        for a, b in zip(*np.triu_indices(len(C))):
+            if C[a, b] != 0:
+                w.writerow([plates[a // 3], AXES[a % 3], plates[b // 3], AXES[b % 3],
+                            f"{C[a, b]:.15g}"])
