@@ -86,7 +86,7 @@ def test_the_command_line_reports_the_chi_square(tmp_path, cli):
     status, out, err = cli("fit", DEMO / "world.toml",
                            DEMO / "hypotheses" / "continental_drag.toml", tmp_path / "m.csv",
                            "--misfit", "chi-square", "-o", tmp_path / "g.json")
-    assert status == 2 and "needs the motions' covariance" in err
+    assert status == 2 and "needs a covariance" in err
 
 
 def test_resampling_the_chi_square_fit_matches_its_standard_errors():
@@ -106,3 +106,109 @@ def test_resampling_the_chi_square_fit_matches_its_standard_errors():
     se = fit.stderr[system.free] / np.sqrt(fit.info["reduced_chi_square"])
     sd = np.array([c["std"] for c in mc["coefficients"].values()])
     np.testing.assert_allclose(sd, se, rtol=0.15)
+
+
+def _one_coefficient_world():
+    trench = Boundary("subduction", "Upper", "Lower",
+                      torque.sphere.lonlat_to_xyz(np.array([0.0, 60.0, 120.0]), np.zeros(3)),
+                      subducting="Lower")
+    world = hemispheres([trench])
+    hyp = hypothesis_from_dict({"force": [
+        {"kind": "slab", "force_per_length": 3e13},
+        {"kind": "drag", "coefficient": 5e14}]})
+    return world, torque.assemble(world, hyp, torque.compute_torques(world, hyp))
+
+
+def test_a_full_covariance_gives_the_correlated_weighted_solution():
+    # Draper and Smith (1998), ch. 9: with errors correlated between the two plates (a full
+    # 6 x 6 C), the estimate is still c = g^T C^-1 y / g^T C^-1 g, with C^-1 the inverse of
+    # the whole matrix, not of its blocks.
+    _, system = _one_coefficient_world()
+    g = balance.predict(system, [1.0, 5e14]).ravel()
+    rng = np.random.default_rng(4)
+    A = rng.normal(size=(6, 6)) * 0.01 * RAD_S_PER_DEG_MYR
+    C = A @ A.T + (0.005 * RAD_S_PER_DEG_MYR) ** 2 * np.eye(6)
+    y = 0.3 * g + np.linalg.cholesky(C) @ rng.normal(size=6)
+    Ci = np.linalg.inv(C)
+    want = (g @ Ci @ y) / (g @ Ci @ g)
+    fit = balance.fit_velocity(system, y.reshape(2, 3), obs_cov=C)
+    assert fit.values[0] == pytest.approx(want, rel=1e-8)
+    assert fit.info["chi_square"] == pytest.approx(
+        (y - want * g) @ Ci @ (y - want * g), rel=1e-8)
+    # the blocks alone give another answer: the correlations matter
+    blocks = balance.covariance_blocks(C)
+    Cb = np.zeros((6, 6))
+    Cb[:3, :3], Cb[3:, 3:] = blocks
+    other = (g @ np.linalg.inv(Cb) @ y) / (g @ np.linalg.inv(Cb) @ g)
+    assert abs(other - want) > 1e-6 * abs(want)
+
+
+def test_a_full_covariance_without_correlations_is_the_block_fit():
+    # the same matrix given whole or as blocks is the same chi-square (Draper and Smith
+    # 1998, ch. 9: block-diagonal C^-1 is the inverse of each block)
+    inputs = torque.Inputs.load(DEMO / "world.toml")
+    hyp = torque.load_hypothesis(DEMO / "hypotheses" / "continental_drag.toml")
+    motions = torque.read_motions(DEMO / "motions.csv")
+    obs = motions.for_world(inputs.world)
+    blocks = motions.cov_for_world(inputs.world)
+    system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, obs))
+    P = system.n_plates
+    full = np.zeros((P, 3, P, 3))
+    full[np.arange(P), :, np.arange(P), :] = blocks
+    a = balance.fit_velocity(system, obs, obs_cov=blocks)
+    b = balance.fit_velocity(system, obs, obs_cov=full.reshape(3 * P, 3 * P))
+    np.testing.assert_allclose(b.values, a.values, rtol=1e-7)
+    assert b.info["chi_square"] == pytest.approx(a.info["chi_square"], rel=1e-8)
+    np.testing.assert_allclose(balance.covariance_blocks(full.reshape(3 * P, 3 * P)), blocks)
+
+
+def test_the_model_error_has_the_stated_rms_velocity_and_adds_to_the_covariance():
+    # by its definition: E[R^2 e^T D_p e] / A_p = floor^2 for e ~ N(0, C_p), checked by
+    # drawing (common practice, no source)
+    _, system = _one_coefficient_world()
+    C = balance.model_error_covariance(system, 3.0)
+    rng = np.random.default_rng(0)
+    for p in range(2):
+        e = rng.multivariate_normal(np.zeros(3), C[p], size=20000)
+        ms = system.radius_m ** 2 * np.einsum("ni,ij,nj->n", e, system.D[p], e) / system.area[p]
+        assert np.sqrt(ms.mean()) * torque.euler.M_S_TO_MM_YR == pytest.approx(3.0, rel=0.02)
+    both = balance.add_covariances(np.zeros((6, 6)), C)
+    np.testing.assert_allclose(balance.covariance_blocks(both), C)
+
+
+def test_with_only_a_model_error_plates_weigh_equally_by_mean_square_misfit():
+    # chi-square = 3 sum_p rms_p^2 / floor^2 by the model error's definition (above)
+    inputs = torque.Inputs.load(DEMO / "world.toml")
+    hyp = torque.load_hypothesis(DEMO / "hypotheses" / "ridge_slab_drag.toml")
+    obs = torque.read_motions(DEMO / "motions.csv").for_world(inputs.world)
+    system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, obs))
+    fit = balance.fit_velocity(system, obs, obs_cov=balance.model_error_covariance(system, 2.0))
+    rms, _ = torque.diagnostics.velocity_misfit(system, balance.predict(system, fit.values), obs)
+    assert fit.info["chi_square"] == pytest.approx(3 * np.sum(rms ** 2) / 2.0 ** 2, rel=1e-9)
+
+
+def test_motions_in_the_no_net_rotation_frame_lose_three_degrees_of_freedom():
+    # three linear constraints on the observations remove three degrees of freedom (common
+    # practice, no source); a free frame fits the same three directions, so it does not
+    # remove three more
+    inputs = torque.Inputs.load(DEMO / "world.toml")
+    hyp = torque.load_hypothesis(DEMO / "hypotheses" / "continental_drag.toml")
+    motions = torque.read_motions(DEMO / "motions.csv")
+    obs = motions.for_world(inputs.world)
+    system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, obs))
+    net = np.linalg.solve(system.D.sum(0), np.einsum("pij,pj->i", system.D, obs))
+    obs_nnr = obs - net
+    assert balance.rigid_constraint(system, obs) is None
+    assert balance.rigid_constraint(system, obs_nnr) == "no-net-rotation"
+    fixed = obs - obs[3]
+    assert balance.rigid_constraint(system, fixed) == f"plate:{system.plates[3]}"
+    k, P = system.n_free, system.n_plates
+    m = torque.diagnostics.analyse(system, obs_nnr).result().misfit
+    assert (m["effective_observations"], m["effective_parameters"], m["dof"]) == \
+        (3 * P - 3, k, 3 * P - 3 - k)
+    m = torque.diagnostics.analyse(system, obs_nnr, free_frame=True).result().misfit
+    assert (m["effective_observations"], m["effective_parameters"], m["dof"]) == \
+        (3 * P - 3, k, 3 * P - 3 - k)
+    m = torque.diagnostics.analyse(system, obs, free_frame=True).result().misfit
+    assert (m["effective_observations"], m["effective_parameters"], m["dof"]) == \
+        (3 * P, k + 3, 3 * P - 3 - k)

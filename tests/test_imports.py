@@ -96,7 +96,7 @@ LAYERS = [
     ("torque.validate", "torque.forces.ages_synth"),
     ("torque.forces",),                         # the context, the kinds and the registry
     ("torque.hypothesis",),
-    ("torque.balance",),
+    ("torque.balance", "torque.profile"),
     ("torque.diagnostics", "torque.resample"),
     ("torque.rank",),
     ("torque.io",),                             # every file read or written

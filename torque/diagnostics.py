@@ -15,6 +15,8 @@ References
 .. [2] Schwarz, G. (1978). Estimating the dimension of a model. *Ann. Stat.* 6, 461-464.
 .. [3] Draper, N. R. and Smith, H. (1998). *Applied Regression Analysis*, 3rd ed. Wiley
    (extra sum of squares F-test for nested linear models; covariance of estimates).
+.. [4] Wilks, S. S. (1938). The large-sample distribution of the likelihood ratio for
+   testing composite hypotheses. *Ann. Math. Stat.* 9, 60-62.
 """
 
 from __future__ import annotations
@@ -24,7 +26,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-from .balance import FIT_METHODS, PREFERRED_FIT, Fit, System, on_one_blas_thread, predict
+from .balance import (FIT_METHODS, PREFERRED_FIT, Fit, System, covariance_blocks,
+                      on_one_blas_thread, predict, rigid_constraint)
 from .errors import InputError
 from .euler import M_S_TO_MM_YR, RAD_S_PER_DEG_MYR, vector_to_pole
 
@@ -276,6 +279,35 @@ def f_test(rss_small: float, k_small: int, rss_big: float, k_big: int, n: int) -
     return {"F": float(F), "p_value": float(stats.f.sf(F, df1, df2)), "df": [df1, df2]}
 
 
+def likelihood_ratio_test(chi2_small: float, k_small: int, chi2_big: float,
+                          k_big: int) -> dict:
+    """Likelihood-ratio test of a nested model with known observation covariance [4]_.
+
+    With known variances ``-2 ln L = chi^2 + const``, so the likelihood-ratio statistic is
+    ``chi2_small - chi2_big``, asymptotically chi-square distributed with
+    ``k_big - k_small`` degrees of freedom when the smaller model is true; p-value from
+    ``scipy.stats.chi2``. It is only as right as the covariance (a reduced chi-square
+    near 1).
+
+    Parameters
+    ----------
+    chi2_small, chi2_big : float
+        The chi-squares of the nested and the bigger model.
+    k_small, k_big : int
+        Their numbers of fitted parameters.
+
+    Returns
+    -------
+    dict
+        ``statistic``, ``p_value`` (None when undefined) and ``df``.
+    """
+    df = k_big - k_small
+    if df <= 0:
+        return {"statistic": None, "p_value": None, "df": df}
+    lr = max(chi2_small - chi2_big, 0.0)
+    return {"statistic": float(lr), "p_value": float(stats.chi2.sf(lr, df)), "df": df}
+
+
 # ----------------------------------------------------------------------------------------
 # the reported result, and its JSON form
 # ----------------------------------------------------------------------------------------
@@ -290,6 +322,12 @@ class Coefficient:
     free : bool
     unit : str
     torque_space_value, torque_space_stderr : float
+    profile_low, profile_high : float, optional
+        The profile-likelihood 95 % interval (:mod:`torque.profile`); None where not
+        computed or not found.
+    at_bound : str, optional
+        ``"lower"`` or ``"upper"`` when the estimate sits at that bound (its standard
+        error then means little; the profile interval still does).
     """
 
     value: float
@@ -298,6 +336,9 @@ class Coefficient:
     unit: str
     torque_space_value: float
     torque_space_stderr: float
+    profile_low: float | None = None
+    profile_high: float | None = None
+    at_bound: str | None = None
 
 
 @dataclass(frozen=True)
@@ -313,10 +354,14 @@ class FitResult:
         Per plate: ``plate``, ``observed`` and ``predicted`` poles (``lat``, ``lon`` in
         degrees, ``rate`` in deg/Myr), ``pole_distance_deg``, ``rate_ratio``,
         ``rms_velocity_mm_yr``, ``residual_torque_nm`` (3 numbers), ``budget``
-        (``{label: share}``) and the predicted pole's ``pole_ellipse``.
+        (``{label: share}``), the predicted pole's ``pole_ellipse`` (from the
+        coefficients' covariance) and, where the observations' covariance is known, the
+        ``observed_pole_ellipse`` and the ``prediction_ellipse`` (coefficients and
+        observations together: where the observed pole should lie if the model is right).
     misfit : dict
-        RMS velocity misfit (mm/yr), variance reduction, AIC, AICc, BIC and the fits' sums
-        of squares.
+        What was minimised (``misfit_measure``), RMS velocity misfit (mm/yr), variance
+        reduction, the effective numbers of observations and parameters and the degrees
+        of freedom, AIC, AICc, BIC, and the fits' sums of squares.
     uncertainty : dict
         Resampled spreads by method (``bootstrap``, ``monte_carlo_motions``,
         ``monte_carlo_physics``), empty if none was asked for.
@@ -325,10 +370,11 @@ class FitResult:
     preferred_fit : str
         The method whose values are ``Coefficient.value``.
     frame : dict, optional
-        With a free mantle frame: the mantle's rotation in the frame of the observations
-        (``rotation``: pole ``lat``, ``lon`` and ``rate``; ``vector_deg_myr`` and
-        ``stderr_deg_myr``, Cartesian), and the net rotation of the lithosphere relative
-        to the mantle, observed and predicted (poles).
+        The mantle's frame: ``free`` (fitted) or ``given``; the mantle's rotation in the
+        frame of the observations (``rotation``: pole ``lat``, ``lon`` and ``rate``;
+        ``vector_deg_myr`` and ``stderr_deg_myr``, Cartesian; None when the observations
+        were taken to be in the mantle's frame), and the net rotation of the lithosphere
+        relative to the mantle, observed and predicted (poles).
 
     Examples
     --------
@@ -431,9 +477,16 @@ class FitResult:
             def num(key, default=np.nan):
                 x = c.get(key, default)
                 return float(x) if isinstance(x, (int, float)) else np.nan
+            def optional(key):
+                x = c.get(key)
+                return float(x) if isinstance(x, (int, float)) and not isinstance(x, bool) \
+                    else None
+            at = c.get("at_bound")
             coefs[label] = Coefficient(float(v), num("stderr", 0.0), bool(c.get("free", False)),
                                        str(c.get("unit", "")), num("torque_space_value"),
-                                       num("torque_space_stderr"))
+                                       num("torque_space_stderr"), optional("profile_low"),
+                                       optional("profile_high"),
+                                       at if at in ("lower", "upper") else None)
         return cls(str(doc.get("hypothesis", "")), coefs, tuple(doc["plates"]),
                    dict(doc.get("misfit") or {}), dict(doc.get("uncertainty") or {}),
                    tuple(doc.get("notes") or ()), str(doc.get("preferred_fit", PREFERRED_FIT)),
@@ -461,6 +514,12 @@ class Report:
         With a free frame: ``rotation`` (3,) rad/s, the mantle's rotation in the frame of
         the observations; its ``cov`` (3, 3); and the observations as given
         (``observed_frame``). ``omega_obs`` is then in the mantle's frame.
+    profile : dict, optional
+        Profile-likelihood intervals of the preferred fit's free coefficients (see
+        :func:`torque.profile.profile_intervals`).
+    constraint : str, optional
+        The rigid-rotation constraint the observations satisfy (see
+        :func:`torque.balance.rigid_constraint`): three degrees of freedom fewer.
     """
 
     system: System
@@ -471,6 +530,8 @@ class Report:
     uncertainty: dict = field(default_factory=dict)
     preferred_fit: str = PREFERRED_FIT
     frame: dict | None = None
+    profile: dict | None = None
+    constraint: str | None = None
 
     def __repr__(self) -> str:
         return (f"Report({self.system.name!r}, {self.system.n_plates} plates, "
@@ -500,15 +561,20 @@ class Report:
         """The fit JSON: ``self.result().as_dict()``."""
         return self.result().as_dict()
 
-    def result(self, notes=(), observed_cov=None) -> FitResult:
+    def result(self, notes=(), observed_cov=None, model_cov=None) -> FitResult:
         """What is reported of this fit, with ``notes`` on how the terms were made.
 
         Parameters
         ----------
         notes : sequence of str
-        observed_cov : ndarray, shape (P, 3, 3), optional
+        observed_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
             The observed Euler vectors' covariance, (rad/s)^2: each plate then also gets
-            the confidence ellipse of its observed pole (``observed_pole_ellipse``).
+            the confidence ellipse of its observed pole (``observed_pole_ellipse``) and
+            the ellipse of where it should lie if the model is right
+            (``prediction_ellipse``: the predicted pole's covariance plus this one).
+        model_cov : ndarray, shape (P, 3, 3), optional
+            A model-error covariance (:func:`torque.balance.model_error_covariance`),
+            added to ``observed_cov`` in the prediction ellipse.
 
         Returns
         -------
@@ -517,12 +583,24 @@ class Report:
         s = self.system
         pref = self.preferred
         tf = self.torque_fit
+        prof = self.profile or {}
         coefs = {}
         for i, l in enumerate(s.labels):
+            p = prof.get(l, {})
             coefs[l] = {"value": float(pref.values[i]), "stderr": float(pref.stderr[i]),
                         "free": bool(s.free[i]), "unit": s.units[i],
                         "torque_space_value": float(tf.values[i]),
-                        "torque_space_stderr": float(tf.stderr[i])}
+                        "torque_space_stderr": float(tf.stderr[i]),
+                        "profile_low": p.get("low"), "profile_high": p.get("high"),
+                        "at_bound": (p.get("at_bound") if p else
+                                     ("lower" if l in pref.active_bounds
+                                      and pref.values[i] <= s.bounds[i][0] else
+                                      "upper" if l in pref.active_bounds else None))}
+        obs_blocks = None if observed_cov is None else covariance_blocks(observed_cov)
+        pred_blocks = None
+        if obs_blocks is not None or model_cov is not None:
+            pred_blocks = self.pole_cov + (0 if obs_blocks is None else obs_blocks) + \
+                (0 if model_cov is None else np.asarray(model_cov))
         rms, glob = self.misfit()
         ang = pole_distance_deg(self.omega_obs, self.omega_pred)
         budget = force_budget(s, pref.values, self.omega_obs)
@@ -544,19 +622,32 @@ class Report:
                 "budget": {l: (None if not np.isfinite(budget[p, k]) else float(budget[p, k]))
                            for k, l in enumerate(s.labels)},
                 "pole_ellipse": pole_ellipse(self.omega_pred[p], self.pole_cov[p]),
-                **({"observed_pole_ellipse": pole_ellipse(self.omega_obs[p], observed_cov[p])}
-                   if observed_cov is not None else {}),
+                **({"observed_pole_ellipse": pole_ellipse(self.omega_obs[p], obs_blocks[p])}
+                   if obs_blocks is not None else {}),
+                **({"prediction_ellipse": pole_ellipse(self.omega_pred[p], pred_blocks[p])}
+                   if pred_blocks is not None else {}),
             })
-        n = 3 * s.n_plates
         k = s.n_free
         # a free frame is three more parameters (a given one none)
         n_frame = 3 if self.frame is not None and not self.frame.get("given") else 0
-        ic = information_criteria(glob["velocity_rss_m4_s2"], n, k + n_frame)
-        extra = {"frame_parameters": n_frame} if self.frame is not None else {}
-        if pref.info.get("misfit") == "chi-square":
-            ic = information_criteria_chi_square(pref.info["chi_square"], n, k + n_frame)
-            extra.update(misfit_measure="chi-square with the observations' covariance",
-                         chi_square=pref.info["chi_square"], dof=pref.info["dof"],
+        # observations that satisfy a rigid constraint (NNR, a fixed plate) count 3 fewer;
+        # a free frame fits the same three directions, so they are not counted twice
+        lost = 3 if self.constraint else 0
+        n = 3 * s.n_plates - lost
+        k_eff = k + max(n_frame, lost) - lost
+        chi = pref.info.get("misfit") == "chi-square"
+        ic = (information_criteria_chi_square(pref.info["chi_square"], n, k_eff) if chi
+              else information_criteria(glob["velocity_rss_m4_s2"], n, k_eff))
+        extra = {"frame_parameters": n_frame,
+                 "observations_constraint": self.constraint,
+                 "effective_observations": n, "effective_parameters": k_eff,
+                 "dof": pref.dof,
+                 "misfit_measure": (
+                     "chi-square with the observations' covariance" if chi else
+                     "area-integrated squared velocity misfit (no observation covariance "
+                     "used: plates weigh by their area)")}
+        if chi:
+            extra.update(chi_square=pref.info["chi_square"],
                          reduced_chi_square=pref.info["reduced_chi_square"])
         misfit = {**glob, "n": n, "free_coefficients": k, **extra, **ic,
                   "torque_space_rss": tf.rss,
@@ -567,12 +658,9 @@ class Report:
                          self.preferred_fit, self._frame_dict())
 
     def _frame_dict(self):
-        """The free frame's rotation and the net rotations, as reported (None if fixed)."""
-        if self.frame is None:
-            return None
+        """The mantle frame (fitted, given, or assumed) and the net rotations, as
+        reported."""
         s = self.system
-        w = np.asarray(self.frame["rotation"], float)
-        se = np.sqrt(np.clip(np.diag(self.frame["cov"]), 0, None))
 
         def pole(v):
             lat, lon, rate = vector_to_pole(v)
@@ -580,20 +668,28 @@ class Report:
 
         def net(omega):          # the rotation whose removal zeroes int r x v dA
             return np.linalg.solve(s.D.sum(0), np.einsum("pij,pj->i", s.D, omega))
-        return {"free": not self.frame.get("given", False),
+        nets = {"net_rotation_observed": pole(net(self.omega_obs)),
+                "net_rotation_predicted": pole(net(self.omega_pred))}
+        if self.frame is None:
+            return {"free": False, "given": False, "rotation": None,
+                    "vector_deg_myr": None, "stderr_deg_myr": None,
+                    "means": "the observed motions taken to be in the mantle's frame (no "
+                             "rotation fitted or given)", **nets}
+        w = np.asarray(self.frame["rotation"], float)
+        se = np.sqrt(np.clip(np.diag(self.frame["cov"]), 0, None))
+        given = bool(self.frame.get("given", False))
+        return {"free": not given, "given": given,
                 "rotation": pole(w),
                 "vector_deg_myr": (w / RAD_S_PER_DEG_MYR).tolist(),
                 "stderr_deg_myr": (se / RAD_S_PER_DEG_MYR).tolist(),
                 "means": "the mantle's rotation in the frame of the observed motions"
-                         + (", as given" if self.frame.get("given") else ", fitted"),
-                "net_rotation_observed": pole(net(self.omega_obs)),
-                "net_rotation_predicted": pole(net(self.omega_pred))}
+                         + (", as given" if given else ", fitted"), **nets}
 
 
 @on_one_blas_thread
 def analyse(system: System, omega_obs, weighting: str = "velocity",
             methods=None, free_frame: bool = False, obs_cov=None,
-            mantle_rotation=None) -> Report:
+            mantle_rotation=None, profile: bool = False) -> Report:
     """Fit a hypothesis by every fit method, predict, and propagate the uncertainty.
 
     Parameters
@@ -611,13 +707,22 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
         with the coefficients (three more parameters), rather than take the observations
         to be in the mantle's frame. The report's ``omega_obs`` is then in the mantle's
         frame, and ``frame`` holds the rotation and its covariance.
-    obs_cov : ndarray, shape (P, 3, 3), optional
-        The observations' covariance, (rad/s)^2: the methods that can (the velocity-space
-        fit) then minimise the chi-square (generalised least squares).
+    obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
+        The observations' covariance, (rad/s)^2, per plate or full: the methods that can
+        (the velocity-space fit) then minimise the chi-square (generalised least squares).
     mantle_rotation : array_like, shape (3,), optional
         A known rotation of the mantle in the frame of the observations (rad/s), say an
         absolute reference frame: it is removed from the observations before fitting, and
         reported in ``frame`` (not with ``free_frame``).
+    profile : bool
+        Also find the profile-likelihood interval of every free coefficient
+        (:func:`torque.profile.profile_intervals`; some tens of refits each).
+
+    Notes
+    -----
+    Observations that satisfy a rigid-rotation constraint (moved to the no-net-rotation
+    frame, or relative to a fixed plate; :func:`torque.balance.rigid_constraint`) count
+    three observations fewer in the degrees of freedom and the information criteria.
 
     Returns
     -------
@@ -636,6 +741,7 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
     0.05
     """
     omega_obs = np.asarray(omega_obs, float)
+    constraint = rigid_constraint(system, omega_obs)
     names = list(FIT_METHODS) if methods is None else [m for m in FIT_METHODS
                                                        if m in methods]
     given_frame = None
@@ -653,6 +759,8 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
         extra = {"free_frame": True} if free_frame and FIT_METHODS[name].frames else {}
         if obs_cov is not None and FIT_METHODS[name].covariance:
             extra["obs_cov"] = obs_cov
+        if constraint and FIT_METHODS[name].counts_dof:
+            extra["lost_dof"] = 3
         fits[name] = FIT_METHODS[name].run(system, omega_obs, fits, weighting, **extra)
     frame = None
     if free_frame:
@@ -668,4 +776,10 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
     pref = fits[PREFERRED_FIT]
     pred = predict(system, pref.values)
     cov = pole_covariance(system, pref.values, pref.cov, pred)
-    return Report(system, fits, omega_obs, pred, cov, frame=frame or given_frame)
+    intervals = None
+    if profile:
+        from .profile import profile_intervals
+        observed = frame["observed_frame"] if frame else omega_obs
+        intervals = profile_intervals(pref, observed, free_frame, obs_cov)
+    return Report(system, fits, omega_obs, pred, cov, frame=frame or given_frame,
+                  profile=intervals, constraint=constraint)
