@@ -1,13 +1,41 @@
 """Comparing driving-force hypotheses on the same world and motions.
 
-Each hypothesis is fitted (both fits, see :mod:`torque.balance`); the table gives its
-velocity misfit, number of free coefficients, AIC, AICc and BIC (Gaussian errors, from
-the velocity-space residual sum of squares over the 3P balance equations), and the
-leave-one-plate-out cross-validation error: for every plate, the coefficients are refitted
-(velocity space by default) without that plate's misfit, all plates are predicted, and the left-out
-plate's RMS velocity misfit is kept; the error is the area-weighted RMS of these. Rows are
-sorted by AIC, best (lowest) first. Nested pairs (one hypothesis' terms a subset of
-another's, with equal settings) get an F-test.
+The headline is **leave-one-plate-out cross-validation**: for every plate, the coefficients
+are refitted (velocity space by default) without that plate's misfit, all plates are
+predicted, and the left-out plate's RMS velocity misfit is kept; the error is the
+area-weighted RMS of these. It asks what the data can check, how well each hypothesis
+predicts a plate it was not fitted to, and it needs no assumption about the errors'
+independence or variance. Rows are sorted by it, best first. Its standard error comes from
+the spread over plates; a hypothesis whose per-plate squared errors exceed the best one's
+by less than one standard error of the paired difference cannot be told apart from it (the
+one-standard-error rule of Hastie, Tibshirani and Friedman 2009, sec. 7.10, applied to the
+paired per-plate differences), and the simplest of those is the rule's choice.
+
+Information criteria (AIC, AICc, BIC) come from :meth:`torque.diagnostics.Report.result`,
+with the effective numbers of observations and parameters (a free frame's three
+parameters, and the three degrees of freedom that motions in the no-net-rotation frame or
+relative to a fixed plate lost). With the area-integrated misfit they assume independent
+residuals of equal variance, which the area weighting and spatial correlation break, so
+they are printed but not ranked by; with ``--misfit chi-square`` they follow from the
+chi-square (known variances) and are as good as the covariance.
+
+Nested pairs (one hypothesis' terms a subset of another's, with equal settings) get the
+comparison their assumptions allow:
+
+* with the observations' covariance (chi-square): the likelihood-ratio test, ``chi2_s -
+  chi2_b`` against the chi-square distribution with ``k_b - k_s`` degrees of freedom
+  (covariance known: Wilks 1938), and the extra-sum-of-squares F-test (covariance known up
+  to a common factor: Draper and Smith 1998, sec. 6.1);
+* without it: no p-value, whose assumptions fail there, but the paired cross-validation
+  difference and its standard error over plates.
+
+References
+----------
+.. [1] Hastie, T., Tibshirani, R. and Friedman, J. (2009). *The Elements of Statistical
+   Learning*, 2nd ed. Springer, sec. 7.10 (cross-validation, the one-standard-error rule).
+.. [2] Wilks, S. S. (1938). The large-sample distribution of the likelihood ratio for
+   testing composite hypotheses. *Ann. Math. Stat.* 9, 60-62.
+.. [3] Draper, N. R. and Smith, H. (1998). *Applied Regression Analysis*, 3rd ed. Wiley.
 """
 
 from __future__ import annotations
@@ -17,8 +45,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .balance import System, fit_torque, fit_velocity, on_one_blas_thread, predict
-from .diagnostics import (analyse, f_test, information_criteria,
-                          information_criteria_chi_square, velocity_misfit)
+from .diagnostics import analyse, f_test, likelihood_ratio_test, velocity_misfit
 from .errors import InputError
 
 
@@ -36,10 +63,22 @@ class Row:
     free : int
         Number of free coefficients.
     aic, aicc, bic : float
+        From the effective numbers of observations and parameters (see the module).
     cv_rms_mm_yr : float
         Leave-one-plate-out cross-validation error.
     coefficients : dict
         ``{label: value}`` of the free coefficients.
+    cv_stderr_mm_yr : float
+        Standard error of ``cv_rms_mm_yr`` from its spread over plates.
+    cv_excess_se : float
+        How far this hypothesis' cross-validation error lies above the best one's, in
+        standard errors of the paired per-plate difference (0 for the best).
+    within_one_se : bool
+        Whether it cannot be told apart from the best by cross-validation (excess at
+        most one standard error).
+    effective_observations, effective_parameters : int
+    chi_square : float, optional
+        With the observations' covariance.
     """
 
     name: str
@@ -51,11 +90,17 @@ class Row:
     bic: float
     cv_rms_mm_yr: float
     coefficients: dict
+    cv_stderr_mm_yr: float = float("nan")
+    cv_excess_se: float = 0.0
+    within_one_se: bool = True
+    effective_observations: int = 0
+    effective_parameters: int = 0
+    chi_square: float | None = None
 
 
-def cross_validation(system: System, omega_obs, weighting="velocity",
-                     fit: str = "velocity") -> float:
-    """Leave-one-plate-out RMS velocity misfit (mm/yr), area-weighted over the plates.
+def cross_validation_errors(system: System, omega_obs, weighting="velocity",
+                            fit: str = "velocity", obs_cov=None) -> np.ndarray:
+    """Each plate's squared RMS velocity misfit when left out of the fit, (mm/yr)^2.
 
     Parameters
     ----------
@@ -65,14 +110,17 @@ def cross_validation(system: System, omega_obs, weighting="velocity",
     fit : {"velocity", "torque"}
         How the coefficients are refitted without each plate: the preferred velocity-space
         fit (default, warm-started) or the faster torque-space fit.
+    obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
+        With it, the velocity-space refits minimise the chi-square of the plates kept
+        (a full covariance marginalised to them).
 
     Returns
     -------
-    float
-        mm/yr; NaN if a refit fails.
+    ndarray, shape (P,)
+        NaN everywhere if a refit fails.
     """
     P = system.n_plates
-    sq, area = 0.0, 0.0
+    out = np.empty(P)
     start = None
     for p in range(P):
         keep = np.r_[0:p, p + 1:P]
@@ -81,21 +129,54 @@ def cross_validation(system: System, omega_obs, weighting="velocity",
             if fit == "velocity":
                 if start is None:
                     start = fit_velocity(system, omega_obs,
-                                         fit_torque(system, omega_obs, weighting))
-                left_out = fit_velocity(system, omega_obs, start, plates=keep)
+                                         fit_torque(system, omega_obs, weighting),
+                                         obs_cov=obs_cov)
+                left_out = fit_velocity(system, omega_obs, start, plates=keep,
+                                        obs_cov=obs_cov)
             pred = predict(system, left_out.values)
         except InputError:
-            return float("nan")
+            return np.full(P, np.nan)
         rms, _ = velocity_misfit(system, pred, omega_obs)
-        sq += rms[p] ** 2 * system.area[p]
-        area += system.area[p]
-    return float(np.sqrt(sq / area))
+        out[p] = rms[p] ** 2
+    return out
+
+
+def cross_validation(system: System, omega_obs, weighting="velocity",
+                     fit: str = "velocity", obs_cov=None) -> float:
+    """Leave-one-plate-out RMS velocity misfit (mm/yr), area-weighted over the plates.
+
+    Parameters
+    ----------
+    system : System
+    omega_obs : array_like, shape (P, 3)
+    weighting : {"velocity", "area", "none"}
+    fit : {"velocity", "torque"}
+        See :func:`cross_validation_errors`.
+    obs_cov : ndarray, optional
+        See :func:`cross_validation_errors`.
+
+    Returns
+    -------
+    float
+        mm/yr; NaN if a refit fails.
+    """
+    e = cross_validation_errors(system, omega_obs, weighting, fit, obs_cov)
+    return float(np.sqrt(np.sum(system.area * e) / system.area.sum()))
+
+
+def _weighted_mean_se(values, weights):
+    """Weighted mean of per-plate values and its standard error from their spread."""
+    w = np.asarray(weights, float) / np.sum(weights)
+    m = float(np.sum(w * values))
+    P = len(values)
+    se = float(np.sqrt(P / max(P - 1, 1) * np.sum(w ** 2 * (values - m) ** 2)))
+    return m, se
 
 
 @on_one_blas_thread
 def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
          fit: str = "velocity", obs_cov=None):
-    """Fit every hypothesis and rank them.
+    """Fit every hypothesis and rank them by cross-validation.
 
     Parameters
     ----------
@@ -111,43 +192,80 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
         :func:`torque.diagnostics.analyse`).
     fit : {"velocity", "torque"}
         How cross-validation refits (see :func:`cross_validation`).
-    obs_cov : ndarray, shape (P, 3, 3), optional
-        The observations' covariance: each hypothesis is then fitted by its chi-square, and
-        the information criteria come from the chi-square (known variances).
+    obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
+        The observations' covariance: each hypothesis is then fitted by its chi-square, the
+        information criteria come from the chi-square (known variances), and nested pairs
+        get likelihood-ratio and F-tests.
 
     Returns
     -------
     rows : list of Row
-        Sorted by AIC, lowest first.
+        Sorted by cross-validation error, lowest first.
     tests : list of dict
-        F-tests of the nested pairs: ``smaller``, ``bigger``, ``F``, ``p_value``, ``df``.
+        Comparisons of the nested pairs: ``smaller``, ``bigger``, ``test``
+        (``"likelihood-ratio"``, ``"F"`` or ``"cross-validation"``) and its numbers
+        (``statistic``, ``df`` and ``p_value`` for the tests; ``cv_difference_mm_yr``,
+        ``excess_se`` for cross-validation).
     """
-    rows, rss, specs = [], {}, {}
+    fitted, errors = [], {}
     for s in systems:
         rep = analyse(s, omega_obs, weighting, free_frame=free_frame, obs_cov=obs_cov)
-        _, glob = rep.misfit()
-        n = 3 * s.n_plates
-        k = s.n_free + (3 if free_frame else 0)
-        ic = (information_criteria_chi_square(rep.preferred.info["chi_square"], n, k)
-              if obs_cov is not None else
-              information_criteria(glob["velocity_rss_m4_s2"], n, k))
-        coefs = {l: float(v) for l, v, f in zip(s.labels, rep.preferred.values, s.free) if f}
         # with a free frame, cross-validate in the mantle frame the full fit found
-        rows.append(Row(s.name, glob["rms_velocity_mm_yr"], glob["variance_reduction"],
-                        s.n_free, ic["aic"], ic["aicc"], ic["bic"],
-                        cross_validation(s, rep.omega_obs, weighting, fit), coefs))
-        rss[s.name] = glob["velocity_rss_m4_s2"]
-        specs[s.name] = s
-    rows.sort(key=lambda r: r.aic)
+        errors[s.name] = cross_validation_errors(s, rep.omega_obs, weighting, fit, obs_cov)
+        fitted.append((s, rep, rep.result().misfit))
+    area = systems[0].area
+    cv = {n: _weighted_mean_se(e, area) for n, e in errors.items()}
+    finite = [n for n in cv if np.isfinite(cv[n][0])]
+    best = min(finite, key=lambda n: cv[n][0]) if finite else None
+    rows = []
+    for s, rep, m in fitted:
+        ms, se = cv[s.name]
+        excess = 0.0
+        if best is not None and s.name != best:
+            d, d_se = _weighted_mean_se(errors[s.name] - errors[best], area)
+            excess = d / d_se if d_se > 0 else (np.inf if d > 0 else 0.0)
+        rms = float(np.sqrt(ms))
+        coefs = {l: float(v) for l, v, f in zip(s.labels, rep.preferred.values, s.free) if f}
+        rows.append(Row(s.name, m["rms_velocity_mm_yr"], m["variance_reduction"], s.n_free,
+                        m["aic"], m["aicc"], m["bic"], rms, coefs,
+                        cv_stderr_mm_yr=se / (2 * rms) if rms > 0 else np.nan,
+                        cv_excess_se=float(excess),
+                        within_one_se=bool(np.isfinite(excess) and excess <= 1.0),
+                        effective_observations=m["effective_observations"],
+                        effective_parameters=m["effective_parameters"],
+                        chi_square=m.get("chi_square")))
+    rows.sort(key=lambda r: (np.isnan(r.cv_rms_mm_yr), r.cv_rms_mm_yr))
+    by_name = {s.name: (s, m) for s, _, m in fitted}
     tests = []
     for a in systems:
         for b in systems:
             if a is not b and _nested(a, b):
-                extra = 3 if free_frame else 0
-                t = f_test(rss[a.name], a.n_free + extra, rss[b.name], b.n_free + extra,
-                           3 * a.n_plates)
-                tests.append({"smaller": a.name, "bigger": b.name, **t})
+                tests += _compare(a.name, by_name[a.name][1], b.name, by_name[b.name][1],
+                                  errors, area)
     return rows, tests
+
+
+def _compare(small, m_small, big, m_big, errors, area) -> list:
+    """The comparisons a nested pair allows (see the module notes)."""
+    pair = {"smaller": small, "bigger": big}
+    if "chi_square" in m_small:
+        k_s, k_b = m_small["effective_parameters"], m_big["effective_parameters"]
+        n = m_big["effective_observations"]
+        return [{**pair, "test": "likelihood-ratio",
+                 **likelihood_ratio_test(m_small["chi_square"], k_s, m_big["chi_square"], k_b),
+                 "reduced_chi_square_bigger": m_big["reduced_chi_square"]},
+                {**pair, "test": "F",
+                 **_f(f_test(m_small["chi_square"], k_s, m_big["chi_square"], k_b, n))}]
+    d, d_se = _weighted_mean_se(errors[small] - errors[big], area)
+    cv_s = np.sqrt(np.sum(area * errors[small]) / area.sum())
+    cv_b = np.sqrt(np.sum(area * errors[big]) / area.sum())
+    return [{**pair, "test": "cross-validation", "cv_difference_mm_yr": float(cv_s - cv_b),
+             "excess_se": float(d / d_se) if d_se > 0 else None}]
+
+
+def _f(t):
+    """An F-test's result under the common keys."""
+    return {"statistic": t["F"], "df": t["df"], "p_value": t["p_value"], "F": t["F"]}
 
 
 def _nested(small: System, big: System) -> bool:
