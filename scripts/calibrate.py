@@ -9,9 +9,11 @@ covers the truth 95 % of the time (93-97 % over a few hundred realisations) with
 well under a tenth of a standard error.
 
 With ``--free-frame`` every realisation also adds a random rigid rotation to the
-observations, which the fit must recover.
+observations, which the fit must recover. With ``--profile`` the preferred fit's
+profile-likelihood intervals (torque.profile) are calibrated too.
 
-    python scripts/calibrate.py [--realisations N] [--seed S] [--free-frame]
+    python scripts/calibrate.py [--realisations N] [--seed S] [--free-frame] [--gls]
+                                [--profile]
 """
 
 from __future__ import annotations
@@ -35,7 +37,7 @@ DEMO = ROOT / "polygons_demo"
 
 
 def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False,
-              gls: bool = False) -> dict:
+              gls: bool = False, profile: bool = False) -> dict:
     """Coverage and bias of both fits over ``n`` noisy realisations of the demo.
 
     Parameters
@@ -48,6 +50,9 @@ def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False,
     gls : bool
         Fit the chi-square with the noise's covariance (generalised least squares) instead
         of the area-integrated velocity misfit.
+    profile : bool
+        Also record whether the preferred fit's profile-likelihood intervals hold the
+        truth (``profile``: coverage per coefficient).
 
     Returns
     -------
@@ -70,6 +75,7 @@ def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False,
     err = {"velocity": [], "torque": []}
     se = {"velocity": [], "torque": []}
     frame_z = []
+    inside = []
     with balance.small_solves():
         for _ in range(n):
             obs = true + sigma * rng.standard_normal(true.shape)
@@ -78,7 +84,10 @@ def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False,
                 spin = rng.normal(size=3)
                 spin *= rng.uniform(0, 0.5) * RAD_S_PER_DEG_MYR / np.linalg.norm(spin)
             rep = analyse(system, obs + spin, free_frame=free_frame,
-                          obs_cov=cov if gls else None)
+                          obs_cov=cov if gls else None, profile=profile)
+            if profile:
+                inside.append([rep.profile[l]["low"] <= w <= rep.profile[l]["high"]
+                               for l, w in zip(free, want)])
             for name, fit in (("velocity", rep.velocity_fit), ("torque", rep.torque_fit)):
                 err[name].append(fit.values[system.free] - want)
                 se[name].append(fit.stderr[system.free])
@@ -92,6 +101,9 @@ def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False,
         out["fits"][name] = {l: {"coverage": float(np.mean(np.abs(e[:, i]) <= 1.96 * s[:, i])),
                                  "bias_se": float(e[:, i].mean() / s[:, i].mean())}
                              for i, l in enumerate(free)}
+    if profile:
+        out["profile"] = {l: {"coverage": float(np.mean(np.array(inside)[:, i]))}
+                          for i, l in enumerate(free)}
     if free_frame:
         z = np.array(frame_z)
         out["frame"] = {"coverage": float(np.mean(np.all(z <= 1.96, axis=1))),
@@ -106,8 +118,10 @@ def main():
     ap.add_argument("--seed", type=int, default=0)
     ap.add_argument("--free-frame", action="store_true")
     ap.add_argument("--gls", action="store_true", help="fit the chi-square (GLS)")
+    ap.add_argument("--profile", action="store_true",
+                    help="also calibrate the profile-likelihood intervals")
     args = ap.parse_args()
-    res = calibrate(args.realisations, args.seed, args.free_frame, args.gls)
+    res = calibrate(args.realisations, args.seed, args.free_frame, args.gls, args.profile)
     print(f"{res['realisations']} realisations, noise {res['noise_deg_myr']} deg/Myr per "
           f"component{', free frame' if res['free_frame'] else ''}"
           f"{', chi-square (GLS)' if res['gls'] else ''}")
@@ -117,6 +131,8 @@ def main():
         for label, c in coefs.items():
             print(f"| {name} space | {label} | {100 * c['coverage']:.1f} % | "
                   f"{c['bias_se']:+.3f} |")
+    for label, c in res.get("profile", {}).items():
+        print(f"| velocity space, profile interval | {label} | {100 * c['coverage']:.1f} % | |")
     if "frame" in res:
         f = res["frame"]
         print(f"frame: per-component coverage {100 * f['coverage_per_component']:.1f} %, "

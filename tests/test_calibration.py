@@ -40,3 +40,9 @@ def test_the_chi_square_fit_covers_the_truth():
     for label, c in res["fits"]["velocity"].items():
         assert abs(c["bias_se"]) < 0.3, label
         assert 0.85 <= c["coverage"] <= 1.0, label
+
+
+def test_the_profile_intervals_cover_the_truth():
+    res = _calibrate(n=30, seed=6, gls=True, profile=True)
+    for label, c in res["profile"].items():
+        assert 0.8 <= c["coverage"] <= 1.0, label

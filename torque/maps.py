@@ -263,8 +263,15 @@ def _ellipse_lonlat(lat, lon, major_deg, minor_deg, azimuth_deg, n=72):
 
 
 def poles_map(world, path, fit):
-    """Observed and predicted Euler poles with their 95 % ellipses (the observed ones where
-    the motions have a covariance), and a legend.
+    """Observed and predicted Euler poles with their 95 % ellipses, on the globe and zoomed.
+
+    The top panel shows every pole on the globe; below it, one small panel per plate,
+    centred between its two poles in local azimuthal coordinates (degrees of arc east and
+    north), shows both ellipses at a scale where they are visible however small. The
+    predicted pole's ellipse is the prediction ellipse (coefficients and observations'
+    covariance together: where the observed pole should lie if the model is right) where
+    the fit has one, else the coefficients' alone; the observed pole's comes from the
+    motions' covariance.
 
     Parameters
     ----------
@@ -278,9 +285,23 @@ def poles_map(world, path, fit):
     """
     import cartopy.crs as ccrs
     from matplotlib.lines import Line2D
-    fig, ax = _axes(f"{world.name}: Euler poles, observed and predicted, with 95 % ellipses")
+    plt = _plt()
+    plates = list(fit.plates)
+    predicted_key = ("prediction_ellipse" if any(p.get("prediction_ellipse") for p in plates)
+                     else "pole_ellipse")
+    ncol = min(7, max(len(plates), 1))
+    nrow = -(-len(plates) // ncol)
+    fig = plt.figure(figsize=(11, 6 + 1.6 * nrow))
+    grid = fig.add_gridspec(1 + nrow, ncol, height_ratios=[6] + [1.6] * nrow, hspace=0.3,
+                            wspace=0.35)
+    ax = fig.add_subplot(grid[0, :], projection=ccrs.EqualEarth())
+    ax.set_global()
+    ax.set_title(f"{world.name}: Euler poles, observed and predicted, with 95 % ellipses",
+                 fontsize=12)
     draw_plates(ax, world, labels=False)
-    for p in fit.plates:
+    styles = ((predicted_key, "predicted", PREDICTED_COLOUR, "-"),
+              ("observed_pole_ellipse", "observed", OBSERVED_COLOUR, "--"))
+    for p in plates:
         o, q = p["observed"], p["predicted"]
         ax.plot(o["lon"], o["lat"], "o", ms=6, mfc="white", mec=OBSERVED_COLOUR,
                 transform=ccrs.PlateCarree(), zorder=6)
@@ -289,22 +310,67 @@ def poles_map(world, path, fit):
         ax.text(q["lon"], q["lat"], " " + p["plate"], fontsize=7,
                 transform=ccrs.PlateCarree(), zorder=6)
         # ellipses over the markers, so that small ones still show as rings
-        for key, at, colour, style in (("pole_ellipse", q, PREDICTED_COLOUR, "-"),
-                                       ("observed_pole_ellipse", o, OBSERVED_COLOUR, "--")):
+        for key, which, colour, style in styles:
             e = p.get(key) or {}
             if e.get("major_deg"):
-                lo, la = _ellipse_lonlat(at["lat"], at["lon"], e["major_deg"],
+                lo, la = _ellipse_lonlat(p[which]["lat"], p[which]["lon"], e["major_deg"],
                                          e["minor_deg"], e["azimuth_deg"])
                 ax.plot(lo, la, transform=ccrs.Geodetic(), color=colour, lw=1.4, ls=style,
                         zorder=7)
+    for i, p in enumerate(plates):
+        _pole_zoom(fig.add_subplot(grid[1 + i // ncol, i % ncol]), p, styles)
+    what = ("prediction: coefficients and observations" if predicted_key == "prediction_ellipse"
+            else "coefficients")
     ax.legend(handles=[
         Line2D([], [], marker="o", ls="", mfc="white", mec=OBSERVED_COLOUR,
                label="observed pole"),
         Line2D([], [], color=OBSERVED_COLOUR, ls="--", label="its 95 % ellipse (covariance)"),
         Line2D([], [], marker="^", ls="", color=PREDICTED_COLOUR, label="predicted pole"),
-        Line2D([], [], color=PREDICTED_COLOUR, label="its 95 % ellipse (coefficients)")],
+        Line2D([], [], color=PREDICTED_COLOUR, label=f"its 95 % ellipse ({what})")],
         loc="upper center", bbox_to_anchor=(0.5, -0.01), ncol=4, fontsize=7, frameon=False)
+    fig.text(0.5, 0.005, "Below: each plate's poles zoomed, in degrees of arc east and north of "
+             "the midpoint between them. Poles in the frame where the mantle is at rest.",
+             ha="center", fontsize=7)
     return _save(fig, path)
+
+
+def _pole_zoom(ax, plate, styles):
+    """One plate's observed and predicted poles and ellipses, in local coordinates."""
+    from pyproj import Geod
+    g = Geod(a=1.0, b=1.0)
+    o, q = plate["observed"], plate["predicted"]
+    # the midpoint of the two poles, as the centre of the local azimuthal frame
+    mid = sphere.lonlat_to_xyz(np.array([o["lon"], q["lon"]]), np.array([o["lat"], q["lat"]]))
+    m = mid.sum(0)
+    m = m / np.linalg.norm(m) if np.linalg.norm(m) > 1e-9 else mid[0]
+    lon_c, lat_c = sphere.xyz_to_lonlat(m)
+    clon, clat = float(lon_c), float(lat_c)
+
+    def local(lon, lat):
+        lon, lat = np.atleast_1d(lon), np.atleast_1d(lat)
+        az, _, dist = g.inv(np.full(len(lon), clon), np.full(len(lon), clat), lon, lat)
+        d = np.degrees(dist)
+        return d * np.sin(np.radians(az)), d * np.cos(np.radians(az))
+    extent = 0.0
+    for key, which, colour, style in styles:
+        at = plate[which]
+        x, y = local(at["lon"], at["lat"])
+        marker = dict(marker="^", color=colour) if which == "predicted" else \
+            dict(marker="o", mfc="white", mec=colour)
+        ax.plot(x, y, ls="", ms=4, **marker)
+        extent = max(extent, float(np.hypot(x, y).max()))
+        e = plate.get(key) or {}
+        if e.get("major_deg"):
+            ex, ey = local(*_ellipse_lonlat(at["lat"], at["lon"], e["major_deg"],
+                                            e["minor_deg"], e["azimuth_deg"]))
+            ax.plot(ex, ey, color=colour, lw=1.0, ls=style)
+            extent = max(extent, float(np.hypot(ex, ey).max()))
+    extent = 1.15 * extent or 1.0
+    ax.set_xlim(-extent, extent)
+    ax.set_ylim(-extent, extent)
+    ax.set_aspect("equal")
+    ax.set_title(plate["plate"], fontsize=7, pad=2)
+    ax.tick_params(labelsize=5, length=2, pad=1)
 
 
 def misfit_map(world, path, omega_obs, omega_pred):

@@ -38,25 +38,33 @@ def _tables(run: dict) -> list:
                     f"Hypothesis: {t['hypothesis']}. Noise: {t['noise_deg_myr_per_component']} "
                     "deg/Myr (one standard deviation) on each Cartesian component of each "
                     "Euler vector."))
-    rows = [[str(i + 1), r["name"], _fmt(r["rms_velocity_mm_yr"]),
-             _fmt(100 * r["variance_reduction"]), str(r["free"]), _fmt(r["aic"], 6),
-             _fmt(r["bic"], 6), _fmt(r["cv_rms_mm_yr"])] for i, r in enumerate(run["rank"])]
-    out.append(("Hypotheses, best first (by AIC)",
-                ["rank", "hypothesis", "RMS misfit mm/yr", "variance reduction %",
-                 "free", "AIC", "BIC", "CV misfit mm/yr"], rows,
-                "CV: leave-one-plate-out cross-validation error."))
-    for name, fit in run["fits"].items():
+    rows = [[str(i + 1), r["name"], _fmt(r["cv_rms_mm_yr"]),
+             _fmt(r.get("cv_stderr_mm_yr")), "yes" if r.get("within_one_se") else "no",
+             _fmt(r["rms_velocity_mm_yr"]), _fmt(100 * r["variance_reduction"]),
+             str(r["free"]), f"{r['aic']:.1f}", f"{r['bic']:.1f}"]
+            for i, r in enumerate(run["rank"])]
+    out.append(("Hypotheses, best first (by cross-validation)",
+                ["rank", "hypothesis", "CV misfit mm/yr", "± se", "within 1 se of best",
+                 "RMS misfit mm/yr", "variance reduction %", "free", "AIC", "BIC"], rows,
+                "CV: leave-one-plate-out cross-validation error, with its standard error "
+                "over plates; a hypothesis within one standard error of the best (paired over "
+                "plates) cannot be told apart from it by these data. AIC and BIC come from "
+                "the effective numbers of observations and parameters."))
+    fits = list(run["fits"].items()) + list(run.get("other_fits", {}).items())
+    for name, fit in fits:
         rows = []
         truth = (run.get("truth") or {}).get("true_coefficients", {})
         for label, c in fit.coefficients.items():
+            interval = (f"{_fmt(c.profile_low)} to {_fmt(c.profile_high)}"
+                        if c.free and c.profile_high is not None else "")
             rows.append([label, _fmt(c.value),
-                         _fmt(c.stderr) if c.free else "fixed",
+                         _fmt(c.stderr) if c.free else "fixed", interval,
                          _fmt(c.torque_space_value) if c.free else "",
                          c.unit, _fmt(truth.get(label)) if truth and
                          fit.hypothesis == run["truth"]["hypothesis"] else ""])
-        out.append((f"Fitted coefficients: {fit.hypothesis}",
-                    ["term", "value (velocity space)", "std. error", "torque space", "unit",
-                     "true"], rows, _fit_note(fit)))
+        out.append((f"Fitted coefficients: {name}",
+                    ["term", "value (velocity space)", "std. error", "95 % profile interval",
+                     "torque space", "unit", "true"], rows, _fit_note(fit)))
     best = run["fits"][run["rank"][0]["name"]]
     rows = [[p["plate"], f"{p['observed']['lat']:.2f}, {p['observed']['lon']:.2f}",
              _fmt(p["observed"]["rate"]),
@@ -70,20 +78,43 @@ def _tables(run: dict) -> list:
 
 
 def _fit_note(fit):
-    """What a reader of a fit's table must know: a warning that the fit is circular, the
-    mantle frame, and the resampled 95 % intervals (None if nothing)."""
+    """What a reader of a fit's table must know: a warning that the fit is circular,
+    coefficients at a bound, what was minimised (and the chi-square), the mantle frame and
+    net rotation, and the profile and resampled 95 % intervals (None if nothing)."""
     parts = []
     for note in fit.notes:
         if note.startswith("circular:"):
             parts.append("Warning: " + note[len("circular:"):].strip() + ".")
+    for label, c in fit.coefficients.items():
+        if c.at_bound:
+            parts.append(f"Warning: {label} is at its {c.at_bound} bound; its standard error "
+                         "does not describe its uncertainty (read the profile interval).")
+    m = fit.misfit
+    if m.get("misfit_measure"):
+        parts.append(f"Minimised: {m['misfit_measure']}.")
+    if "chi_square" in m:
+        parts.append(f"Chi-square {m['chi_square']:.1f} on {m['dof']} degrees of freedom "
+                     f"({m['effective_observations']} effective observations, "
+                     f"{m['effective_parameters']} parameters), reduced "
+                     f"{m['reduced_chi_square']:.2f}.")
     f = fit.frame
     if f:
-        r = f["rotation"]
-        parts.append(f"Mantle frame {'fitted' if f['free'] else 'given'}: the mantle turns "
-                     f"about {r['lat']:.2f} N, {r['lon']:.2f} E at {r['rate']:.4f} deg/Myr "
-                     "in the frame of the observed motions; net rotation of the lithosphere "
-                     f"{f['net_rotation_observed']['rate']:.4f} deg/Myr observed, "
-                     f"{f['net_rotation_predicted']['rate']:.4f} predicted.")
+        nets = (f"net rotation of the lithosphere relative to the mantle "
+                f"{f['net_rotation_observed']['rate']:.4f} deg/Myr observed, "
+                f"{f['net_rotation_predicted']['rate']:.4f} predicted.")
+        r = f.get("rotation")
+        if r:
+            se = f.get("stderr_deg_myr")
+            se = f" (standard error up to {max(se):.2g} per component)" if se else ""
+            parts.append(f"Mantle frame {'fitted' if f['free'] else 'given'}: the mantle turns "
+                         f"about {r['lat']:.2f} N, {r['lon']:.2f} E at {r['rate']:.4f} deg/Myr"
+                         f"{se} in the frame of the observed motions; {nets}")
+        else:
+            parts.append(f"Observed motions taken to be in the mantle's frame; {nets}")
+    spans = [f"{label} {_fmt(c.profile_low)} to {_fmt(c.profile_high)}"
+             for label, c in fit.coefficients.items() if c.free and c.profile_high is not None]
+    if spans:
+        parts.append(f"Profile-likelihood 95 % intervals: {', '.join(spans)}.")
     for method, u in (fit.uncertainty or {}).items():
         spans = ", ".join(f"{label} {_fmt(c['p2_5'])} to {_fmt(c['p97_5'])}"
                           for label, c in u["coefficients"].items())

@@ -8,17 +8,18 @@ from contextlib import ExitStack
 
 import numpy as np
 
-from ..balance import assemble, predict
+from ..balance import add_covariances, assemble, model_error_covariance, predict
 from ..diagnostics import analyse
 from ..errors import InputError, require_memory
 from ..euler import Motions, net_rotation, pole_to_vector
 from ..forces import build_terms
 from ..io import (atomic_path, atomic_write, dumps, load_hypothesis, output_suffix,
-                  read_coefficients, read_motions, write_csv, write_json, write_motions)
+                  read_coefficients, read_covariance, read_motions, write_csv, write_json,
+                  write_motions)
 from ..rank import rank
 from ..resample import bootstrap, monte_carlo_motions, monte_carlo_physics
 from . import text
-from .common import EXIT_OK, count, frame_warning, inputs
+from .common import EXIT_OK, arg_type, count, frame_warning, inputs
 
 RESAMPLE_FIT = dict(choices=("velocity", "torque"), default="velocity",
                     help="how resampled members (bootstrap, Monte Carlo, cross-validation) are "
@@ -27,6 +28,18 @@ RESAMPLE_FIT = dict(choices=("velocity", "torque"), default="velocity",
 FREE_FRAME = ("estimate the rotation of the motions' frame relative to the mantle together "
               "with the coefficients (three more parameters), instead of taking the motions "
               "to be in the mantle's frame")
+MISFIT = ("what the velocity-space fit minimises: the area-integrated velocity misfit "
+          "(default; plates weigh by their area, whatever their errors), or the chi-square with "
+          "the observations' covariance (generalised least squares), from the motions' cov_* "
+          "columns or --covariance, plus --model-error")
+COVARIANCE = ("a full covariance of the observed Euler vectors, correlations between plates "
+              "included (CSV plate_1,axis_1,plate_2,axis_2,cov in (deg/Myr)^2; see the "
+              "README): used instead of the motions' cov_* columns")
+MODEL_ERROR = ("with --misfit chi-square: add a model error of this RMS velocity over each "
+               "plate (mm/yr) to the observations' covariance, for what the physics leaves "
+               "out (real misfits are mostly model error)")
+nonnegative = arg_type(float, "a number", lambda x: bool(np.isfinite(x) and x >= 0),
+                       "must be a finite number, 0 or more")
 WEIGHTING = dict(choices=("velocity", "area", "none"), default="velocity",
                  help="weighting of the plates' torque equations in the torque-space fit "
                  "(default velocity: by the inverse square root of each plate's drag tensor)")
@@ -41,9 +54,11 @@ def add_parser(sub) -> None:
     """
     p = sub.add_parser("fit", help="estimate the free coefficients from observed motions",
                        description="Fit the free coefficients of a hypothesis to observed "
-                       "Euler vectors (mantle at rest, e.g. no-net-rotation), in torque space "
-                       "(linear) and in velocity space (preferred), with per-plate "
-                       "diagnostics and optional resampling.")
+                       "Euler vectors, in torque space (linear) and in velocity space "
+                       "(preferred), with profile-likelihood intervals, per-plate "
+                       "diagnostics and optional resampling. The motions are taken to be in "
+                       "the frame where the mantle is at rest unless --free-frame fits the "
+                       "mantle's rotation in their frame or --mantle-rotation gives it.")
     p.add_argument("world", help="world file (TOML)")
     p.add_argument("hypothesis", help="hypothesis file (TOML)")
     p.add_argument("motions", help="observed motions CSV")
@@ -63,10 +78,10 @@ def add_parser(sub) -> None:
                        "degrees, rate in deg/Myr), e.g. of an absolute reference frame: "
                        "removed from the motions before fitting")
     p.add_argument("--resample-fit", **RESAMPLE_FIT)
-    p.add_argument("--misfit", choices=("area", "chi-square"), default="area",
-                   help="what the velocity-space fit minimises: the area-integrated velocity "
-                   "misfit (default), or the chi-square with the motions' covariance columns "
-                   "(generalised least squares)")
+    add_misfit_options(p)
+    p.add_argument("--no-profile", action="store_true",
+                   help="skip the profile-likelihood intervals (some tens of refits per "
+                   "free coefficient)")
     p.set_defaults(func=run_fit)
 
     p = sub.add_parser("predict", help="Euler vectors that balance the torques",
@@ -82,10 +97,13 @@ def add_parser(sub) -> None:
     p.set_defaults(func=run_predict)
 
     p = sub.add_parser("rank", help="compare hypotheses",
-                       description="Fit every hypothesis to the same motions and tabulate "
-                       "misfit, free coefficients, AIC, AICc, BIC and leave-one-plate-out "
-                       "cross-validation error, best (lowest AIC) first; F-tests for nested "
-                       "pairs.")
+                       description="Fit every hypothesis to the same motions and rank them "
+                       "by leave-one-plate-out cross-validation error (best first, with its "
+                       "standard error and the one-standard-error rule); misfit, free "
+                       "coefficients, AIC and BIC from the effective numbers of observations "
+                       "and parameters; nested pairs compared by likelihood-ratio and F-tests "
+                       "with a covariance (--misfit chi-square), by cross-validation "
+                       "without.")
     p.add_argument("world", help="world file (TOML)")
     p.add_argument("motions", help="observed motions CSV")
     p.add_argument("hypotheses", nargs="+", metavar="HYP", help="hypothesis files")
@@ -94,13 +112,23 @@ def add_parser(sub) -> None:
     p.add_argument("--weighting", **WEIGHTING)
     p.add_argument("--free-frame", action="store_true", help=FREE_FRAME)
     p.add_argument("--resample-fit", **RESAMPLE_FIT)
-    p.add_argument("--misfit", choices=("area", "chi-square"), default="area",
-                   help="what each hypothesis' velocity-space fit minimises (see torque fit "
-                   "--help); with chi-square the information criteria come from it")
+    add_misfit_options(p)
     p.add_argument("--allow-synthetic-ages", action="store_true",
                    help="rank even when sea-floor ages are synthesised from the motions being "
                    "fitted (the comparison is then partly circular)")
     p.set_defaults(func=run_rank)
+
+
+def add_misfit_options(p) -> None:
+    """``--misfit``, ``--covariance`` and ``--model-error``, shared by fit and rank.
+
+    Parameters
+    ----------
+    p : argparse.ArgumentParser
+    """
+    p.add_argument("--misfit", choices=("area", "chi-square"), default="area", help=MISFIT)
+    p.add_argument("--covariance", metavar="COV.csv", help=COVARIANCE)
+    p.add_argument("--model-error", type=nonnegative, metavar="MM_YR", help=MODEL_ERROR)
 
 
 @dataclasses.dataclass(frozen=True, eq=False)
@@ -189,10 +217,12 @@ def run_fit(args) -> int:
     """
     output_suffix(args.output, (".json",))
     pb = _problem(args, args.motions)
-    if args.monte_carlo and pb.motions.cov is None:
+    cov = covariances(args, pb.motions, pb.inputs.world, pb.system)
+    if args.monte_carlo and cov.data is None:
         raise InputError("a Monte Carlo over motions needs their covariance: the file has no "
                          "cov_xx ... cov_zz columns", file=args.motions,
-                         hint="add them in (deg/Myr)^2, or leave out --monte-carlo")
+                         hint="add them in (deg/Myr)^2, give --covariance FILE, or leave out "
+                         "--monte-carlo")
     if args.physics_samples and not pb.hypothesis.spread:
         raise InputError("a Monte Carlo over physics needs a [spread] table",
                          file=args.hypothesis, hint="add one, or leave out --physics-samples")
@@ -200,9 +230,9 @@ def run_fit(args) -> int:
     mantle = _mantle_rotation(args.mantle_rotation)
     if not args.free_frame and mantle is None:
         warn_frame(pb.motions)
-    obs_cov = _chi_square_covariance(args, pb.motions, pb.inputs.world)
+    obs_cov = cov.fit
     rep = analyse(pb.system, pb.omega, args.weighting, free_frame=args.free_frame,
-                  obs_cov=obs_cov, mantle_rotation=mantle)
+                  obs_cov=obs_cov, mantle_rotation=mantle, profile=not args.no_profile)
     circular = pb.inputs.used_synthesised_ages
     if circular:
         print(f"warning: {CIRCULAR}", file=sys.stderr)
@@ -212,15 +242,15 @@ def run_fit(args) -> int:
                                      args.weighting, args.resample_fit, obs_cov)
     if args.monte_carlo:
         unc["monte_carlo_motions"] = monte_carlo_motions(
-            pb.system, rep.omega_obs, pb.motions.cov_for_world(pb.inputs.world),
-            args.monte_carlo, args.seed, args.weighting, args.resample_fit, obs_cov)
+            pb.system, rep.omega_obs, cov.data, args.monte_carlo, args.seed, args.weighting,
+            args.resample_fit, obs_cov)
     if args.physics_samples:
         unc["monte_carlo_physics"] = monte_carlo_physics(
             pb.rebuild, pb.hypothesis.physics, pb.hypothesis.spread, rep.omega_obs,
             args.physics_samples, args.seed, args.weighting, args.resample_fit, obs_cov)
     result = dataclasses.replace(rep, uncertainty=unc).result(
-        pb.notes() + ([f"circular: {CIRCULAR}"] if circular else []),
-        observed_cov=pb.motions.cov_for_world(pb.inputs.world))
+        pb.notes() + cov.notes + ([f"circular: {CIRCULAR}"] if circular else []),
+        observed_cov=cov.data, model_cov=cov.model)
     write_json(args.output, result.as_dict())
     print(text.fit(result.as_dict()))
     print(f"wrote {args.output}")
@@ -232,17 +262,78 @@ CIRCULAR = ("sea-floor ages were synthesised from the same motions that are fitt
             "the motions); give the world an age grid")
 
 
-def _chi_square_covariance(args, motions, world):
-    """The motions' covariance (world plate order) for ``--misfit chi-square``, else None;
-    InputError when the motions have none."""
+@dataclasses.dataclass(frozen=True, eq=False)
+class Covariances:
+    """The covariances a fit uses, in world plate order, (rad/s)^2.
+
+    Attributes
+    ----------
+    data : ndarray, shape (P, 3, 3) or (3P, 3P), or None
+        Of the observations: the motions' cov_* columns, or a ``--covariance`` file.
+    model : ndarray, shape (P, 3, 3), or None
+        The ``--model-error`` term.
+    fit : ndarray or None
+        What the chi-square uses (``data`` plus ``model``); None for the area misfit.
+    notes : list of str
+        Where they came from, for the fit's notes.
+    """
+
+    data: object
+    model: object
+    fit: object
+    notes: list
+
+    def __repr__(self) -> str:
+        shape = "none" if self.data is None else "x".join(map(str, np.shape(self.data)))
+        return f"Covariances(data {shape}, model error {self.model is not None})"
+
+
+def covariances(args, motions, world, system) -> Covariances:
+    """The covariances of ``--misfit``, ``--covariance`` and ``--model-error``, checked.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+    motions : Motions
+    world : World
+    system : System
+        Any hypothesis' balance on ``world`` (the model error needs its drag tensors).
+
+    Returns
+    -------
+    Covariances
+
+    Raises
+    ------
+    InputError
+        For a chi-square misfit with no covariance at all, or a model error without it.
+    """
+    notes = []
+    if args.covariance:
+        data = read_covariance(args.covariance, world.plate_names)
+        notes.append(f"covariance: the full covariance of {args.covariance} (correlations "
+                     "between plates included)"
+                     + ("; the motions' cov_* columns were not used" if motions.cov is not None
+                        else ""))
+    else:
+        data = motions.cov_for_world(world)
     if args.misfit != "chi-square":
-        return None
-    cov = motions.cov_for_world(world)
-    if cov is None:
-        raise InputError("a chi-square misfit needs the motions' covariance: the file has "
-                         "no cov_xx ... cov_zz columns", file=args.motions,
-                         hint="add them in (deg/Myr)^2, or leave out --misfit chi-square")
-    return cov
+        if args.model_error is not None:
+            raise InputError("--model-error is part of the chi-square misfit",
+                             hint="add --misfit chi-square, or leave out --model-error")
+        return Covariances(data, None, None, notes)
+    model = None
+    if args.model_error:
+        model = model_error_covariance(system, args.model_error)
+        notes.append(f"model error: {args.model_error:g} mm/yr RMS velocity on each plate added "
+                     "to the observations' covariance")
+    if data is None and model is None:
+        raise InputError("a chi-square misfit needs a covariance: the motions have no cov_xx "
+                         "... cov_zz columns", file=args.motions,
+                         hint="add them in (deg/Myr)^2, give --covariance FILE or "
+                         "--model-error MM_YR, or leave out --misfit chi-square")
+    total = data if model is None else add_covariances(data, model)
+    return Covariances(data, model, total, notes)
 
 
 def _mantle_rotation(text):
@@ -364,7 +455,7 @@ def run_rank(args) -> int:
         raise InputError(f"hypotheses share the name(s) {', '.join(map(repr, dup))} "
                          f"(files {', '.join(files)})", file=files[0],
                          hint="give each a different 'name'")
-    obs_cov = _chi_square_covariance(args, motions, data.world)
+    obs_cov = covariances(args, motions, data.world, systems[0]).fit
     rows, tests = rank(systems, motions.for_world(data.world), args.weighting,
                        free_frame=args.free_frame, fit=args.resample_fit, obs_cov=obs_cov)
     print(text.rank(rows, tests))
@@ -380,10 +471,14 @@ def run_rank(args) -> int:
                 "aic": np.array([r.aic for r in rows]),
                 "aicc": np.array([r.aicc for r in rows]),
                 "bic": np.array([r.bic for r in rows]),
-                "cv_rms_mm_yr": np.array([r.cv_rms_mm_yr for r in rows])})
+                "cv_rms_mm_yr": np.array([r.cv_rms_mm_yr for r in rows]),
+                "cv_stderr_mm_yr": np.array([r.cv_stderr_mm_yr for r in rows]),
+                "within_one_se": np.array([r.within_one_se for r in rows])})
         if args.json:
             with atomic_write(args.json) as fh:
-                fh.write(dumps({"rows": [r.__dict__ for r in rows], "f_tests": tests}))
+                fh.write(dumps({"sorted_by": "cv_rms_mm_yr",
+                                "rows": [r.__dict__ for r in rows], "tests": tests,
+                                "f_tests": [t for t in tests if t["test"] == "F"]}))
     if args.output:
         print(f"wrote {args.output}")
     return EXIT_OK

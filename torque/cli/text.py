@@ -125,34 +125,48 @@ def fit(d: dict) -> str:
     """
     lines = [f"hypothesis {d['hypothesis']!r}: velocity-space fit (preferred) and "
              "torque-space fit",
-             f"{'term':<16} {'value':>12} {'stderr':>10} {'torque-space':>13} {'unit':<8}"]
+             f"{'term':<16} {'value':>11} {'std. error':>10}  {'95 % profile interval':<23} "
+             f"{'torque space':>12}  {'unit':<8}"]
     for label, c in d["coefficients"].items():
         if c["free"]:
-            lines.append(f"{label:<16} {c['value']:12.4e} {c['stderr']:10.2e} "
-                         f"{c['torque_space_value']:13.4e} {c['unit']:<8}")
+            lo, hi = c.get("profile_low"), c.get("profile_high")
+            span = (f"{_num(lo)} to {_num(hi)}" if lo is not None or hi is not None else "")
+            lines.append(f"{label:<16} {c['value']:11.4e} {c['stderr']:10.2e}  {span:<23} "
+                         f"{c['torque_space_value']:12.4e}  {c['unit']:<8}")
         else:
-            lines.append(f"{label:<16} {c['value']:12.4e} {'fixed':>10} {'':>13} "
+            lines.append(f"{label:<16} {c['value']:11.4e} {'fixed':>10}  {'':<23} {'':>12}  "
                          f"{c['unit']:<8}")
     m = d["misfit"]
+    if m.get("misfit_measure"):
+        lines.append(f"minimised: {m['misfit_measure']}")
     if "chi_square" in m:
         lines.append(f"chi-square {m['chi_square']:.1f} on {m['dof']} degrees of freedom "
-                     f"(reduced {m['reduced_chi_square']:.2f}): the fit minimised it, with "
-                     "the motions' covariance")
+                     f"({m['effective_observations']} effective observations, "
+                     f"{m['effective_parameters']} parameters; reduced chi-square "
+                     f"{m['reduced_chi_square']:.2f})")
+    if m.get("observations_constraint"):
+        lines.append(f"the motions satisfy a rigid constraint ({m['observations_constraint']}): "
+                     "3 observations fewer in the degrees of freedom and criteria")
     lines.append(f"RMS velocity misfit {m['rms_velocity_mm_yr']:.3f} mm/yr, variance "
                  f"reduction {100 * m['variance_reduction']:.2f} %, AIC {m['aic']:.1f}, "
                  f"BIC {m['bic']:.1f}")
-    if m["active_bounds"]:
-        lines.append(f"at a bound: {', '.join(m['active_bounds'])}")
+    for label, c in d["coefficients"].items():
+        if c.get("at_bound"):
+            lines.append(f"warning: {label} is at its {c['at_bound']} bound: its standard "
+                         "error does not describe its uncertainty; read the profile interval")
     f = d.get("frame")
     if f:
-        r, se = f["rotation"], max(f["stderr_deg_myr"])
         o, p = f["net_rotation_observed"], f["net_rotation_predicted"]
-        lines.append(f"{'free' if f['free'] else 'given'} mantle frame: the mantle turns "
-                     f"about {r['lat']:.2f} N, "
-                     f"{r['lon']:.2f} E at {r['rate']:.4f} deg/Myr (standard error up to "
-                     f"{se:.2g} per component) in the frame of the motions; net rotation of "
-                     f"the lithosphere observed {o['rate']:.4f}, predicted {p['rate']:.4f} "
-                     "deg/Myr")
+        nets = (f"net rotation of the lithosphere relative to the mantle: observed "
+                f"{o['rate']:.4f}, predicted {p['rate']:.4f} deg/Myr")
+        if f.get("rotation"):
+            r, se = f["rotation"], f.get("stderr_deg_myr")
+            se = f" (standard error up to {max(se):.2g} per component)" if se else ""
+            lines.append(f"{'free' if f['free'] else 'given'} mantle frame: the mantle turns "
+                         f"about {r['lat']:.2f} N, {r['lon']:.2f} E at {r['rate']:.4f} deg/Myr"
+                         f"{se} in the frame of the motions; {nets}")
+        else:
+            lines.append(f"motions taken to be in the mantle's frame (no --free-frame); {nets}")
     for method, u in (d.get("uncertainty") or {}).items():
         spans = ", ".join(f"{label} {c['p2_5']:.4g} to {c['p97_5']:.4g}"
                           for label, c in u["coefficients"].items())
@@ -207,7 +221,7 @@ def p_value(p: float) -> str:
 
 
 def rank(rows, tests) -> str:
-    """The ranking table of ``torque rank`` and its F-tests.
+    """The ranking table of ``torque rank`` and its comparisons of nested pairs.
 
     Parameters
     ----------
@@ -219,16 +233,45 @@ def rank(rows, tests) -> str:
     str
     """
     wn = max(10, *(len(r.name) for r in rows))
-    lines = [f"{'rank':>4}  {'hypothesis':<{wn}} {'rms mm/yr':>9} {'VR %':>7} {'k':>2} "
-             f"{'AIC':>10} {'BIC':>10} {'CV mm/yr':>9}"]
+    lines = [f"{'rank':>4}  {'hypothesis':<{wn}} {'CV mm/yr':>9} {'± se':>6} {'rms mm/yr':>9} "
+             f"{'VR %':>7} {'k':>2} {'AIC':>10} {'BIC':>10}"]
     for i, r in enumerate(rows, 1):
-        lines.append(f"{i:4d}  {r.name:<{wn}} {r.rms_velocity_mm_yr:9.3f} "
-                     f"{100 * r.variance_reduction:7.2f} {r.free:2d} {r.aic:10.1f} "
-                     f"{r.bic:10.1f} {r.cv_rms_mm_yr:9.3f}")
+        mark = "" if i == 1 else ("  ~ best" if r.within_one_se else "")
+        lines.append(f"{i:4d}  {r.name:<{wn}} {r.cv_rms_mm_yr:9.3f} {r.cv_stderr_mm_yr:6.2f} "
+                     f"{r.rms_velocity_mm_yr:9.3f} {100 * r.variance_reduction:7.2f} "
+                     f"{r.free:2d} {r.aic:10.1f} {r.bic:10.1f}{mark}")
+    ties = [r for r in rows if r.within_one_se]
+    if len(ties) > 1:
+        simplest = min(ties, key=lambda r: r.free)
+        lines.append(f"cross-validation cannot tell apart: {', '.join(repr(r.name) for r in ties)}"
+                     f" (within one standard error of the best, '~ best'); the simplest is "
+                     f"{simplest.name!r}")
     for t in tests:
-        if t["p_value"] is not None:
-            lines.append(f"F-test {t['smaller']!r} within {t['bigger']!r}: F = {t['F']:.3g}, "
-                         f"{p_value(t['p_value'])}")
-    lines.append("sorted by AIC (lowest first); CV = leave-one-plate-out cross-validation "
-                 "error")
+        pair = f"{t['smaller']!r} within {t['bigger']!r}"
+        if t["test"] == "cross-validation":
+            z = t["excess_se"]
+            lines.append(f"cross-validation {pair}: the bigger predicts left-out plates "
+                         f"{'better' if t['cv_difference_mm_yr'] > 0 else 'worse'} by "
+                         f"{abs(t['cv_difference_mm_yr']):.3g} mm/yr"
+                         + (f" ({abs(z):.1f} standard errors)" if z is not None else ""))
+        elif t["p_value"] is not None:
+            name = "likelihood ratio" if t["test"] == "likelihood-ratio" else "F-test"
+            stat = "chi2" if t["test"] == "likelihood-ratio" else "F"
+            red = t.get("reduced_chi_square_bigger")
+            doubt = (f" (assumes the covariance right, but the bigger's reduced chi-square is "
+                     f"{red:.3g}: prefer the F-test)" if red is not None and red > 2 else "")
+            lines.append(f"{name} {pair}: {stat} = {t['statistic']:.3g}, "
+                         f"{p_value(t['p_value'])}{doubt}")
+    lines.append("sorted by CV = leave-one-plate-out cross-validation error (lowest first), "
+                 "± its standard error over plates; AIC and BIC from the effective numbers of "
+                 "observations and parameters")
+    if tests and tests[0]["test"] == "cross-validation":
+        lines.append("no p-values: with the area misfit the residuals are neither independent "
+                     "nor of equal variance; give the covariance (--misfit chi-square) for "
+                     "likelihood-ratio and F-tests")
     return "\n".join(lines)
+
+
+def _num(x) -> str:
+    """A number in an interval, to four significant digits ("-" when not found)."""
+    return "-" if x is None else f"{x:.4g}"
