@@ -168,3 +168,25 @@ def test_observed_poles_get_ellipses_from_their_covariance(tmp_path, cli):
         assert e["major_deg"] == pytest.approx(r, rel=1e-6)
         assert e["minor_deg"] == pytest.approx(r, rel=1e-6)
         assert e["rate_stderr_deg_myr"] == pytest.approx(0.01, rel=1e-6)
+
+
+def test_the_prediction_ellipse_adds_the_observations_covariance(tmp_path, cli):
+    # With ridge push fixed and one drag coefficient c free, the balance gives omega
+    # proportional to 1 / c: the predicted pole does not move with c, so the coefficients'
+    # ellipse is a point (rounding noise) though the pole is uncertain; the prediction ellipse
+    # (coefficients plus the observation's covariance, as a regression's prediction
+    # interval adds the noise variance: Draper and Smith 1998, sec. 3.1). The demo's
+    # covariance is (0.01 deg/Myr)^2 I, whose projection on the predicted pole's tangent
+    # plane is isotropic, of angular radius s / w_pred: both squared semi-axes grow by
+    # (k s / w_pred)^2, k^2 = chi2_2(0.95) (scipy.stats.chi2).
+    status, _, err = cli("fit", DEMO / "world.toml", DEMO / "hypotheses" / "ridge_drag.toml",
+                         DEMO / "motions.csv", "-o", tmp_path / "f.json", "--no-profile")
+    assert status == 0, err
+    fit = read_fit(tmp_path / "f.json")
+    k = np.sqrt(stats.chi2.ppf(0.95, 2))
+    for p in fit.plates:
+        coef, pred = p["pole_ellipse"], p["prediction_ellipse"]
+        r2 = np.degrees(k * 0.01 / p["predicted"]["rate"]) ** 2
+        assert pred["major_deg"] ** 2 == pytest.approx(coef["major_deg"] ** 2 + r2, rel=1e-6)
+        assert pred["minor_deg"] ** 2 == pytest.approx(coef["minor_deg"] ** 2 + r2, rel=1e-6)
+        assert coef["major_deg"] < 1e-3 * pred["minor_deg"]

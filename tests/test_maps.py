@@ -81,3 +81,28 @@ def test_chart_kinds_draw_through_the_command_line(demo_fit, tmp_path, cli, kind
                          "-o", tmp_path / f"{kind}.svg")
     assert status == 0, err
     assert (tmp_path / f"{kind}.svg").read_text().lstrip().startswith("<?xml")
+
+
+def test_the_poles_map_zooms_on_every_plate(demo_fit, tmp_path, monkeypatch):
+    # one globe and one zoom panel per plate, each holding both poles (common practice, no
+    # source: small ellipses must be visible)
+    import numpy as np
+    from torque import maps
+    from torque.io import read_fit
+    fit = read_fit(demo_fit)
+    seen = {}
+    real_save = maps._save
+
+    def keep(fig, path):
+        seen["axes"] = fig.axes
+        return real_save(fig, path)
+    monkeypatch.setattr(maps, "_save", keep)
+    maps.poles_map(load_world(DEMO / "world.toml"), tmp_path / "p.png", fit)
+    zooms = seen["axes"][1:]
+    assert len(zooms) == len(fit.plates)
+    assert [a.get_title() for a in zooms] == [p["plate"] for p in fit.plates]
+    for a in zooms:
+        x0, x1 = a.get_xlim()
+        for line in a.get_lines():
+            xs = np.asarray(line.get_xdata(), float)
+            assert np.all((xs >= x0) & (xs <= x1))

@@ -127,5 +127,7 @@ def frame_warning(motions) -> str | None:
     if len(rest) != 1:
         return None
     return (f"{motions.source}: plate {rest[0]!r} is exactly at rest, so these motions look "
-            f"relative to it; drag acts relative to the mantle, so fit motions in a frame "
-            f"where the mantle is at rest (torque frame --to nnr, or a hotspot frame)")
+            f"relative to it; drag acts relative to the mantle, so pass --free-frame to fit "
+            f"the mantle's rotation in this frame (or --mantle-rotation if it is known); "
+            f"moving the motions to no-net-rotation first is not neutral, since a hypothesis "
+            f"with unequal drag predicts a net rotation of its own")
