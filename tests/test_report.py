@@ -20,3 +20,13 @@ def test_a_fits_table_carries_its_warnings_frame_and_intervals(tmp_path):
     assert ("Monte carlo motions (100 members, velocity-space refits), 95 % intervals: slab "
             "0.048 to 0.052.") in note
     assert _fit_note(FitResult("plain", {})) is None
+
+
+def test_a_fits_table_warns_where_the_two_fits_disagree():
+    # the same rule as the terminal's (twice the combined standard error; common practice,
+    # no source): 0.05 +- 0.001 against 0.045 +- 0.001 differ by 3.5 of it
+    fit = FitResult("h", {"slab": Coefficient(0.05, 0.001, True, "1", 0.045, 0.001)})
+    assert "Warning: slab: the velocity-space (0.05) and torque-space (0.045) fits differ" \
+        in _fit_note(fit)
+    agree = FitResult("h", {"slab": Coefficient(0.05, 0.001, True, "1", 0.0499, 0.001)})
+    assert _fit_note(agree) is None

@@ -144,7 +144,7 @@ def test_the_demo_monte_carlo_interval_holds_the_truth():
 
 
 def test_intervals_are_printed_and_disagreeing_fits_flagged(tmp_path, cli):
-    from torque.cli.text import fits_disagree
+    from torque.diagnostics import fits_disagree
     from .conftest import here
     demo = here().parent / "polygons_demo"
     status, out, err = cli("fit", demo / "world.toml",

@@ -8,6 +8,7 @@ import base64
 import html
 from pathlib import Path
 
+from .diagnostics import fits_disagree
 from .io.files import atomic_write
 
 CAUTION = ("These are model-dependent research estimates. They depend on the plate model, "
@@ -85,6 +86,7 @@ def _fit_note(fit):
     for note in fit.notes:
         if note.startswith("circular:"):
             parts.append("Warning: " + note[len("circular:"):].strip() + ".")
+    parts += [f"Warning: {w}." for w in fits_disagree(fit.as_dict())]
     for label, c in fit.coefficients.items():
         if c.at_bound:
             parts.append(f"Warning: {label} is at its {c.at_bound} bound; its standard error "

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..diagnostics import fits_disagree
 from ..euler import vector_to_pole
 from .common import CAUTION
 
@@ -176,32 +177,6 @@ def fit(d: dict) -> str:
     lines += [f"note: {note}" for note in d.get("notes", [])]
     lines.append(CAUTION)
     return "\n".join(lines)
-
-
-def fits_disagree(d: dict) -> list:
-    """Free coefficients whose velocity-space and torque-space values differ by more than
-    twice their combined standard error.
-
-    Parameters
-    ----------
-    d : dict
-        :meth:`torque.diagnostics.FitResult.as_dict`.
-
-    Returns
-    -------
-    list of str
-    """
-    out = []
-    for label, c in d["coefficients"].items():
-        if not c["free"]:
-            continue
-        se = (c["stderr"] ** 2 + (c.get("torque_space_stderr") or 0.0) ** 2) ** 0.5
-        gap = abs(c["value"] - c["torque_space_value"])
-        if se > 0 and gap > 2 * se:
-            out.append(f"{label}: the velocity-space ({c['value']:.4g}) and torque-space "
-                       f"({c['torque_space_value']:.4g}) fits differ by {gap / se:.1f} times "
-                       "their combined standard error; the velocity-space value is preferred")
-    return out
 
 
 def p_value(p: float) -> str:
