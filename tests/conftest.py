@@ -93,6 +93,19 @@ def here() -> Path:
     return Path(__file__).resolve().parent
 
 
+def demo_system(stem="continental_drag"):
+    """The demo's balance for hypothesis ``stem`` at its observed motions: ``(system,
+    omega_obs, motions)`` (motions with their covariance, world plate order in omega)."""
+    import torque
+    demo = here().parent / "polygons_demo"
+    inputs = torque.Inputs.load(demo / "world.toml")
+    hyp = torque.load_hypothesis(demo / "hypotheses" / f"{stem}.toml")
+    motions = torque.read_motions(demo / "motions.csv")
+    obs = motions.for_world(inputs.world)
+    return (torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, obs)),
+            obs, motions)
+
+
 _NUMBER = re.compile(r"[-+]?(?:\d+\.\d*|\.\d+|\d+)(?:[eE][-+]?\d+)?")
 
 

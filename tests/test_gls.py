@@ -15,11 +15,9 @@ from scipy import optimize
 import torque
 from torque import balance
 from torque.euler import RAD_S_PER_DEG_MYR
-from torque.hypothesis import hypothesis_from_dict
-from torque.world import Boundary
 
-from .conftest import here
-from .worlds import hemispheres
+from .conftest import demo_system, here
+from .worlds import trench_hemispheres
 
 DEMO = here().parent / "polygons_demo"
 
@@ -27,14 +25,7 @@ DEMO = here().parent / "polygons_demo"
 def test_one_driving_coefficient_has_the_weighted_least_squares_solution():
     # Slab pull (free) against fixed drag: the predicted motions are c g with g fixed, so
     # the chi-square's minimum is the textbook weighted least-squares estimate.
-    trench = Boundary("subduction", "Upper", "Lower",
-                      torque.sphere.lonlat_to_xyz(np.array([0.0, 60.0, 120.0]), np.zeros(3)),
-                      subducting="Lower")
-    world = hemispheres([trench])
-    hyp = hypothesis_from_dict({"force": [
-        {"kind": "slab", "force_per_length": 3e13},
-        {"kind": "drag", "coefficient": 5e14}]})
-    system = torque.assemble(world, hyp, torque.compute_torques(world, hyp))
+    system = trench_hemispheres()
     g = balance.predict(system, [1.0, 5e14]).ravel()         # motions per unit coefficient
     rng = np.random.default_rng(1)
     A = rng.normal(size=(2, 3, 3)) * 0.02 * RAD_S_PER_DEG_MYR
@@ -108,22 +99,11 @@ def test_resampling_the_chi_square_fit_matches_its_standard_errors():
     np.testing.assert_allclose(sd, se, rtol=0.15)
 
 
-def _one_coefficient_world():
-    trench = Boundary("subduction", "Upper", "Lower",
-                      torque.sphere.lonlat_to_xyz(np.array([0.0, 60.0, 120.0]), np.zeros(3)),
-                      subducting="Lower")
-    world = hemispheres([trench])
-    hyp = hypothesis_from_dict({"force": [
-        {"kind": "slab", "force_per_length": 3e13},
-        {"kind": "drag", "coefficient": 5e14}]})
-    return world, torque.assemble(world, hyp, torque.compute_torques(world, hyp))
-
-
 def test_a_full_covariance_gives_the_correlated_weighted_solution():
     # Draper and Smith (1998), ch. 9: with errors correlated between the two plates (a full
     # 6 x 6 C), the estimate is still c = g^T C^-1 y / g^T C^-1 g, with C^-1 the inverse of
     # the whole matrix, not of its blocks.
-    _, system = _one_coefficient_world()
+    system = trench_hemispheres()
     g = balance.predict(system, [1.0, 5e14]).ravel()
     rng = np.random.default_rng(4)
     A = rng.normal(size=(6, 6)) * 0.01 * RAD_S_PER_DEG_MYR
@@ -146,12 +126,8 @@ def test_a_full_covariance_gives_the_correlated_weighted_solution():
 def test_a_full_covariance_without_correlations_is_the_block_fit():
     # the same matrix given whole or as blocks is the same chi-square (Draper and Smith
     # 1998, ch. 9: block-diagonal C^-1 is the inverse of each block)
-    inputs = torque.Inputs.load(DEMO / "world.toml")
-    hyp = torque.load_hypothesis(DEMO / "hypotheses" / "continental_drag.toml")
-    motions = torque.read_motions(DEMO / "motions.csv")
-    obs = motions.for_world(inputs.world)
-    blocks = motions.cov_for_world(inputs.world)
-    system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, obs))
+    system, obs, motions = demo_system()
+    blocks = motions.cov[[motions.index()[p] for p in system.plates]]
     P = system.n_plates
     full = np.zeros((P, 3, P, 3))
     full[np.arange(P), :, np.arange(P), :] = blocks
@@ -165,7 +141,7 @@ def test_a_full_covariance_without_correlations_is_the_block_fit():
 def test_the_model_error_has_the_stated_rms_velocity_and_adds_to_the_covariance():
     # by its definition: E[R^2 e^T D_p e] / A_p = floor^2 for e ~ N(0, C_p), checked by
     # drawing (common practice, no source)
-    _, system = _one_coefficient_world()
+    system = trench_hemispheres()
     C = balance.model_error_covariance(system, 3.0)
     rng = np.random.default_rng(0)
     for p in range(2):
@@ -178,10 +154,7 @@ def test_the_model_error_has_the_stated_rms_velocity_and_adds_to_the_covariance(
 
 def test_with_only_a_model_error_plates_weigh_equally_by_mean_square_misfit():
     # chi-square = 3 sum_p rms_p^2 / floor^2 by the model error's definition (above)
-    inputs = torque.Inputs.load(DEMO / "world.toml")
-    hyp = torque.load_hypothesis(DEMO / "hypotheses" / "ridge_slab_drag.toml")
-    obs = torque.read_motions(DEMO / "motions.csv").for_world(inputs.world)
-    system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, obs))
+    system, obs, _ = demo_system("ridge_slab_drag")
     fit = balance.fit_velocity(system, obs, obs_cov=balance.model_error_covariance(system, 2.0))
     rms, _ = torque.diagnostics.velocity_misfit(system, balance.predict(system, fit.values), obs)
     assert fit.info["chi_square"] == pytest.approx(3 * np.sum(rms ** 2) / 2.0 ** 2, rel=1e-9)
@@ -191,11 +164,7 @@ def test_motions_in_the_no_net_rotation_frame_lose_three_degrees_of_freedom():
     # three linear constraints on the observations remove three degrees of freedom (common
     # practice, no source); a free frame fits the same three directions, so it does not
     # remove three more
-    inputs = torque.Inputs.load(DEMO / "world.toml")
-    hyp = torque.load_hypothesis(DEMO / "hypotheses" / "continental_drag.toml")
-    motions = torque.read_motions(DEMO / "motions.csv")
-    obs = motions.for_world(inputs.world)
-    system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, obs))
+    system, obs, _ = demo_system()
     net = np.linalg.solve(system.D.sum(0), np.einsum("pij,pj->i", system.D, obs))
     obs_nnr = obs - net
     assert balance.rigid_constraint(system, obs) is None

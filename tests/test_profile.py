@@ -16,31 +16,17 @@ import pytest
 import torque
 from torque import balance
 from torque.euler import RAD_S_PER_DEG_MYR
-from torque.hypothesis import hypothesis_from_dict
 from torque.profile import Z95, fixed_at, profile_intervals
-from torque.world import Boundary
 
-from .conftest import here
-from .worlds import hemispheres
+from .conftest import demo_system, here
+from .worlds import trench_hemispheres
 
 DEMO = here().parent / "polygons_demo"
 
 
-def _linear_world():
-    # slab pull (free) against fixed drag: the predicted motion is c g, linear in c
-    trench = Boundary("subduction", "Upper", "Lower",
-                      torque.sphere.lonlat_to_xyz(np.array([0.0, 60.0, 120.0]), np.zeros(3)),
-                      subducting="Lower")
-    world = hemispheres([trench])
-    hyp = hypothesis_from_dict({"force": [
-        {"kind": "slab", "force_per_length": 3e13, "bounds": [-10.0, 10.0]},
-        {"kind": "drag", "coefficient": 5e14}]})
-    return torque.assemble(world, hyp, torque.compute_torques(world, hyp))
-
-
 def test_for_a_linear_model_the_profile_is_the_standard_error_interval():
     # Draper and Smith (1998), sec. 24.5: exact for a model linear in its parameter
-    system = _linear_world()
+    system = trench_hemispheres(slab_bounds=(-10.0, 10.0))
     g = balance.predict(system, [1.0, 5e14])
     rng = np.random.default_rng(2)
     obs = 0.3 * g + 0.01 * RAD_S_PER_DEG_MYR * rng.normal(size=g.shape)
@@ -54,10 +40,7 @@ def test_for_a_linear_model_the_profile_is_the_standard_error_interval():
 
 @pytest.fixture(scope="module")
 def demo():
-    inputs = torque.Inputs.load(DEMO / "world.toml")
-    hyp = torque.load_hypothesis(DEMO / "hypotheses" / "continental_drag.toml")
-    obs = torque.read_motions(DEMO / "motions.csv").for_world(inputs.world)
-    system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, obs))
+    system, obs, _ = demo_system()
     return system, obs
 
 

@@ -16,7 +16,7 @@ def test_a_fits_table_carries_its_warnings_frame_and_intervals(tmp_path):
                "net_rotation_observed": {"rate": 0.03}, "net_rotation_predicted": {"rate": 0.02}})
     note = _fit_note(fit)
     assert note.startswith("Warning: sea-floor ages were synthesised")
-    assert "Mantle frame fitted" in note and "0.3000 deg/Myr" in note
+    assert "Free mantle frame: the mantle turns" in note and "0.3000 deg/Myr" in note
     assert ("Monte carlo motions (100 members, velocity-space refits), 95 % intervals: slab "
             "0.048 to 0.052.") in note
     assert _fit_note(FitResult("plain", {})) is None

@@ -5,7 +5,9 @@
 * :func:`hemispheres`: the northern and southern hemispheres, optionally rotated;
 * :func:`east_west`: the eastern and western hemispheres;
 * :func:`forces` and :func:`system_for`: a hypothesis with every boundary kind for a
-  kinded Voronoi world, its invented true coefficients :data:`TRUE`, and its balance.
+  kinded Voronoi world, its invented true coefficients :data:`TRUE`, and its balance;
+* :func:`trench_hemispheres`: the hemispheres with one trench, slab pull free against
+  fixed drag, whose predicted motion is linear in the one coefficient.
 
 Fixtures that write worlds to files are in ``conftest.py`` (``write_world``,
 ``voronoi_world_file``).
@@ -105,3 +107,17 @@ def system_for(world, hyp, omega=None):
     P = world.geometry.n_plates
     omega = np.zeros((P, 3)) if omega is None else omega
     return balance.assemble(world, hyp, compute_torques(world, hyp, omega))
+
+
+def trench_hemispheres(slab_bounds=None):
+    """The balance of slab pull (free, 3e13 N/m) against fixed drag (5e14 Pa s/m) on the
+    hemispheres with a trench along the equator from lon 0 to 120 (Lower sinks): the
+    predicted motion is ``c g``, linear in the slab coefficient ``c``."""
+    trench = Boundary("subduction", "Upper", "Lower",
+                      sphere.lonlat_to_xyz(np.array([0.0, 60.0, 120.0]), np.zeros(3)),
+                      subducting="Lower")
+    slab = {"kind": "slab", "force_per_length": 3e13}
+    if slab_bounds is not None:
+        slab["bounds"] = list(slab_bounds)
+    hyp = hypothesis_from_dict({"force": [slab, {"kind": "drag", "coefficient": 5e14}]})
+    return system_for(hemispheres([trench]), hyp)

@@ -161,7 +161,7 @@ def cross_validation(system: System, omega_obs, weighting="velocity",
         mm/yr; NaN if a refit fails.
     """
     e = cross_validation_errors(system, omega_obs, weighting, fit, obs_cov)
-    return float(np.sqrt(np.sum(system.area * e) / system.area.sum()))
+    return float(np.sqrt(_weighted_mean_se(e, system.area)[0]))
 
 
 def _weighted_mean_se(values, weights):
@@ -257,8 +257,7 @@ def _compare(small, m_small, big, m_big, errors, area) -> list:
                 {**pair, "test": "F",
                  **_f(f_test(m_small["chi_square"], k_s, m_big["chi_square"], k_b, n))}]
     d, d_se = _weighted_mean_se(errors[small] - errors[big], area)
-    cv_s = np.sqrt(np.sum(area * errors[small]) / area.sum())
-    cv_b = np.sqrt(np.sum(area * errors[big]) / area.sum())
+    cv_s, cv_b = (np.sqrt(_weighted_mean_se(errors[n], area)[0]) for n in (small, big))
     return [{**pair, "test": "cross-validation", "cv_difference_mm_yr": float(cv_s - cv_b),
              "excess_se": float(d / d_se) if d_se > 0 else None}]
 

@@ -8,7 +8,7 @@ import base64
 import html
 from pathlib import Path
 
-from .diagnostics import fits_disagree
+from .diagnostics import chi_square_summary, fits_disagree, frame_summary
 from .io.files import atomic_write
 
 CAUTION = ("These are model-dependent research estimates. They depend on the plate model, "
@@ -94,25 +94,9 @@ def _fit_note(fit):
     m = fit.misfit
     if m.get("misfit_measure"):
         parts.append(f"Minimised: {m['misfit_measure']}.")
-    if "chi_square" in m:
-        parts.append(f"Chi-square {m['chi_square']:.1f} on {m['dof']} degrees of freedom "
-                     f"({m['effective_observations']} effective observations, "
-                     f"{m['effective_parameters']} parameters), reduced "
-                     f"{m['reduced_chi_square']:.2f}.")
-    f = fit.frame
-    if f:
-        nets = (f"net rotation of the lithosphere relative to the mantle "
-                f"{f['net_rotation_observed']['rate']:.4f} deg/Myr observed, "
-                f"{f['net_rotation_predicted']['rate']:.4f} predicted.")
-        r = f.get("rotation")
-        if r:
-            se = f.get("stderr_deg_myr")
-            se = f" (standard error up to {max(se):.2g} per component)" if se else ""
-            parts.append(f"Mantle frame {'fitted' if f['free'] else 'given'}: the mantle turns "
-                         f"about {r['lat']:.2f} N, {r['lon']:.2f} E at {r['rate']:.4f} deg/Myr"
-                         f"{se} in the frame of the observed motions; {nets}")
-        else:
-            parts.append(f"Observed motions taken to be in the mantle's frame; {nets}")
+    for line in (chi_square_summary(m), frame_summary(fit.frame) if fit.frame else None):
+        if line:
+            parts.append(line[0].upper() + line[1:] + ".")
     spans = [f"{label} {_fmt(c.profile_low)} to {_fmt(c.profile_high)}"
              for label, c in fit.coefficients.items() if c.free and c.profile_high is not None]
     if spans:

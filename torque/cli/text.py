@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..diagnostics import fits_disagree
+from ..diagnostics import chi_square_summary, fits_disagree, frame_summary
 from ..euler import vector_to_pole
 from .common import CAUTION
 
@@ -140,11 +140,8 @@ def fit(d: dict) -> str:
     m = d["misfit"]
     if m.get("misfit_measure"):
         lines.append(f"minimised: {m['misfit_measure']}")
-    if "chi_square" in m:
-        lines.append(f"chi-square {m['chi_square']:.1f} on {m['dof']} degrees of freedom "
-                     f"({m['effective_observations']} effective observations, "
-                     f"{m['effective_parameters']} parameters; reduced chi-square "
-                     f"{m['reduced_chi_square']:.2f})")
+    if chi_square_summary(m):
+        lines.append(chi_square_summary(m))
     if m.get("observations_constraint"):
         lines.append(f"the motions satisfy a rigid constraint ({m['observations_constraint']}): "
                      "3 observations fewer in the degrees of freedom and criteria")
@@ -155,19 +152,8 @@ def fit(d: dict) -> str:
         if c.get("at_bound"):
             lines.append(f"warning: {label} is at its {c['at_bound']} bound: its standard "
                          "error does not describe its uncertainty; read the profile interval")
-    f = d.get("frame")
-    if f:
-        o, p = f["net_rotation_observed"], f["net_rotation_predicted"]
-        nets = (f"net rotation of the lithosphere relative to the mantle: observed "
-                f"{o['rate']:.4f}, predicted {p['rate']:.4f} deg/Myr")
-        if f.get("rotation"):
-            r, se = f["rotation"], f.get("stderr_deg_myr")
-            se = f" (standard error up to {max(se):.2g} per component)" if se else ""
-            lines.append(f"{'free' if f['free'] else 'given'} mantle frame: the mantle turns "
-                         f"about {r['lat']:.2f} N, {r['lon']:.2f} E at {r['rate']:.4f} deg/Myr"
-                         f"{se} in the frame of the motions; {nets}")
-        else:
-            lines.append(f"motions taken to be in the mantle's frame (no --free-frame); {nets}")
+    if d.get("frame"):
+        lines.append(frame_summary(d["frame"]))
     for method, u in (d.get("uncertainty") or {}).items():
         spans = ", ".join(f"{label} {c['p2_5']:.4g} to {c['p97_5']:.4g}"
                           for label, c in u["coefficients"].items())
