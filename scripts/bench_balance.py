@@ -28,7 +28,7 @@ TRUE = [{"kind": "ridge", "form": "edge", "coefficient": 1.0},
         {"kind": "slab", "age_myr": 80.0, "coefficient": 0.07},
         {"kind": "drag", "coefficient": 4e14},
         {"kind": "transform", "coefficient": 3e20},
-        {"kind": "trench", "coefficient": 8e20},
+        {"kind": "subduction_resistance", "label": "trench", "coefficient": 8e20},
         {"kind": "collision", "coefficient": 5e20}]
 
 

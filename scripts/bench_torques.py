@@ -26,7 +26,7 @@ HYPOTHESIS = {"force": [
     {"kind": "slab", "age_myr": 80.0}, {"kind": "suction", "age_myr": 80.0},
     {"kind": "drag"}, {"kind": "drag", "region": "ocean"},
     {"kind": "drag", "region": "continent"}, {"kind": "mantle"},
-    {"kind": "transform"}, {"kind": "trench"}, {"kind": "collision"}]}
+    {"kind": "transform"}, {"kind": "subduction_resistance"}, {"kind": "collision"}]}
 
 
 def main():

@@ -15,10 +15,24 @@ from torque.hypothesis import Hypothesis, cooling_table, hypothesis_from_dict, s
 from torque.lithosphere import Cooling, Physics
 
 
-def test_every_kind_of_the_contract_is_registered():
-    # ../shared/interface.md lists these kinds
-    assert set(KINDS) == {"ridge", "slab", "suction", "drag", "mantle", "transform",
-                          "trench", "collision"}
+def test_every_kind_of_the_contract_is_read():
+    # ../shared/interface.md lists these kinds; "trench" is read under its new name
+    contract = {"ridge", "slab", "suction", "drag", "mantle", "transform", "trench",
+                "collision"}
+    assert set(KINDS) == contract - {"trench"} | {"subduction_resistance"}
+    for kind in contract:
+        entry = {"kind": kind, "coefficient": 1.0}
+        assert hypothesis_from_dict({"force": [entry]}).forces[0].kind in KINDS
+
+
+def test_the_old_name_of_a_kind_works_with_a_note_and_keeps_its_label():
+    from torque.hypothesis import RENAMED_KINDS
+    old = hypothesis_from_dict({"force": [{"kind": "trench"}]}).forces[0]
+    new = hypothesis_from_dict({"force": [{"kind": "subduction_resistance"}]}).forces[0]
+    assert RENAMED_KINDS["trench"] == "subduction_resistance"
+    assert old.kind == new.kind == "subduction_resistance"
+    assert old.label == "trench" and new.label == "subduction_resistance"
+    assert "now called 'subduction_resistance'" in old.note and new.note is None
 
 
 def test_labels_coefficients_and_bounds():

@@ -97,7 +97,7 @@ LAYERS = [
     ("torque.forces",),                         # the context, the kinds and the registry
     ("torque.hypothesis",),
     ("torque.balance", "torque.profile"),
-    ("torque.diagnostics", "torque.resample"),
+    ("torque.diagnostics", "torque.resample", "torque.torque_table"),
     ("torque.rank",),
     ("torque.io",),                             # every file read or written
     ("torque.maps", "torque.report"),

@@ -107,7 +107,9 @@ def test_cooling_command_table(cli):
     assert status == 0
     rows = json.loads(out)["rows"]
     assert [r["age_myr"] for r in rows] == [10.0, 80.0]
+    # the contract's keys (../shared/interface.md), and the new name of the last one
     assert set(rows[0]) == {"age_myr", "depth_m", "heat_flow_mw_m2", "ridge_push_n_m",
-                            "slab_pull_n_m"}
+                            "slab_pull_n_m", "slab_buoyancy_n_m"}
+    assert rows[0]["slab_pull_n_m"] == rows[0]["slab_buoyancy_n_m"]
     status, _, err = cli("cooling", "--ages", "10,400")
     assert status == 2 and "(0, 300]" in err

@@ -41,6 +41,9 @@ class ForceSpec:
         ``(low, high)`` of a free coefficient.
     options : dict
         The kind's own keys, defaults filled in.
+    note : str, optional
+        What a user should know of how the entry was read (an old kind name, say); it is
+        carried into the term's notes.
     """
 
     kind: str
@@ -48,6 +51,7 @@ class ForceSpec:
     coefficient: float | None          # None when free
     bounds: tuple = (0.0, np.inf)
     options: dict = field(default_factory=dict)
+    note: str | None = None
 
     @property
     def free(self) -> bool:
@@ -98,6 +102,11 @@ class Hypothesis:
         return [f.label for f in self.forces if f.free]
 
 
+#: Force kinds renamed, old name -> new; the old name is read with a note, and stays the
+#: default label so that fits of old files keep their labels.
+RENAMED_KINDS = {"trench": "subduction_resistance"}
+
+
 def _number(v) -> bool:
     return isinstance(v, (int, float)) and not isinstance(v, bool)
 
@@ -123,6 +132,13 @@ def parse_force(entry: dict, index: int, file=None) -> ForceSpec:
     if not isinstance(entry, dict):
         raise InputError("each [[force]] must be a table", file=file, where=where)
     kind = entry.get("kind")
+    note = None
+    old_kind = kind if isinstance(kind, str) and kind in RENAMED_KINDS else None
+    if old_kind:
+        kind = RENAMED_KINDS[old_kind]
+        note = (f"force kind {old_kind!r} is now called {kind!r} (it resists motion along "
+                f"boundaries of kind 'subduction'); the old name still works, and stays the "
+                f"term's default label")
     if kind not in KINDS:
         raise InputError(f"unknown force kind {kind!r}", file=file, where=where,
                          hint=f"valid kinds: {', '.join(KINDS)}")
@@ -162,10 +178,10 @@ def parse_force(entry: dict, index: int, file=None) -> ForceSpec:
         elif k in getattr(module, "POSITIVE", ()) and not v > 0:
             raise InputError(f"{k} must be positive, got {v!r}", file=file, where=where)
     options = {**getattr(module, "DEFAULTS", {}), **options}
-    label = entry.get("label") or module.default_label(options)
+    label = entry.get("label") or old_kind or module.default_label(options)
     if not isinstance(label, str):
         raise InputError(f"label must be a string, got {label!r}", file=file, where=where)
-    return ForceSpec(kind, label, value, (float(bounds[0]), float(bounds[1])), options)
+    return ForceSpec(kind, label, value, (float(bounds[0]), float(bounds[1])), options, note)
 
 
 def hypothesis_from_dict(cfg: dict, name: str = "hypothesis", file=None) -> Hypothesis:
@@ -288,12 +304,17 @@ def cooling_table(hypothesis: Hypothesis, ages_myr) -> list:
     -------
     list of dict
         One per age: ``age_myr``, ``depth_m``, ``heat_flow_mw_m2``, ``ridge_push_n_m``,
-        ``slab_pull_n_m`` (the negative buoyancy per metre of trench of a slab of that age
-        reaching the slab depth).
+        ``slab_buoyancy_n_m`` (the negative buoyancy per metre of trench of a slab of that
+        age reaching the slab depth: the slab pull at coefficient 1, before any fraction is
+        taken), and ``slab_pull_n_m``, the same number under its old name (kept for files
+        and scripts that read it).
     """
     c = Cooling(hypothesis.physics)
     t = np.asarray(ages_myr, float)
     cols = (t, c.depth_m(t), c.heat_flow_mw_m2(t), c.ridge_push_n_m(t),
             c.slab_pull_n_m(t, slab_depth_km(hypothesis)))
-    keys = ("age_myr", "depth_m", "heat_flow_mw_m2", "ridge_push_n_m", "slab_pull_n_m")
-    return [dict(zip(keys, map(float, row))) for row in zip(*cols)]
+    keys = ("age_myr", "depth_m", "heat_flow_mw_m2", "ridge_push_n_m", "slab_buoyancy_n_m")
+    rows = [dict(zip(keys, map(float, values))) for values in zip(*cols)]
+    for row in rows:
+        row["slab_pull_n_m"] = row["slab_buoyancy_n_m"]      # the old name, kept
+    return rows

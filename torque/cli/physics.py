@@ -7,7 +7,8 @@ import numpy as np
 
 from ..errors import InputError
 from ..hypothesis import Hypothesis, cooling_table, slab_depth_km
-from ..io import dumps, load_hypothesis, output_suffix, write_csv
+from ..io import dumps, load_hypothesis, output_suffix, read_coefficients, write_csv
+from ..torque_table import TorqueTable
 from ..lithosphere import Physics
 from . import text
 from .common import EXIT_OK, inputs, motions_for
@@ -35,12 +36,17 @@ def add_parser(sub) -> None:
 
     p = sub.add_parser("torques", help="torque of each force term on each plate",
                        description="Torque about the planet's centre of every force term of "
-                       "a hypothesis on every plate, at the term's fixed coefficient or at 1 "
-                       "for a free one. Velocity-dependent terms (drag, resistance) need "
-                       "--motions.")
+                       "a hypothesis on every plate: at the fitted coefficients with "
+                       "--coefficients FIT.json, else at the term's fixed coefficient or at 1 "
+                       "for a free one (each row says which). Magnitudes in 10^25 N m, the "
+                       "torque's pole, an equivalent force at the plate's centroid, and per "
+                       "plate the total (with motions, the residual of the balance). "
+                       "Velocity-dependent terms (drag, resistance) need --motions.")
     p.add_argument("world", help="world file (TOML)")
     p.add_argument("hypothesis", help="hypothesis file (TOML)")
     p.add_argument("--motions", help="motions CSV (plate,lat,lon,rate)")
+    p.add_argument("--coefficients", metavar="FIT.json",
+                   help="output of torque fit: torques at its fitted coefficients")
     p.add_argument("-o", "--output", required=True, help="output CSV")
     p.set_defaults(func=run_torques)
 
@@ -121,17 +127,16 @@ def run_torques(args) -> int:
     if moving and omega is None:
         raise InputError(f"term(s) {', '.join(moving)} depend on the plates' motion",
                          file=args.hypothesis, hint="give the motions with --motions M.csv")
-    plates, labels, coefs, tq = [], [], [], []
-    for t in terms:
-        c = 1.0 if t.spec.free else t.spec.coefficient
-        plates += world.plate_names
-        labels += [t.label] * len(world.plates)
-        coefs += [c] * len(world.plates)
-        tq.append(c * t.torque(omega))
-    tq = np.concatenate(tq)
-    write_csv(args.output, {"plate": np.array(plates, dtype=object),
-                            "term": np.array(labels, dtype=object), "coefficient": np.array(coefs),
-                            "tx_nm": tq[:, 0], "ty_nm": tq[:, 1], "tz_nm": tq[:, 2]})
-    print(text.torques(terms, omega))
-    print(f"wrote {args.output} ({len(plates)} rows)")
+    coefs = [1.0 if t.spec.free else t.spec.coefficient for t in terms]
+    sources = ["unit" if t.spec.free else "fixed" for t in terms]
+    if args.coefficients:
+        fitted = read_coefficients(args.coefficients, hyp)
+        for i, t in enumerate(terms):
+            if t.spec.free:
+                coefs[i], sources[i] = fitted[t.label], "fitted"
+    table = TorqueTable.from_terms(world, terms, coefs, omega, sources)
+    columns = table.columns()
+    write_csv(args.output, columns)
+    print(text.torques(table, terms, args.coefficients))
+    print(f"wrote {args.output} ({len(columns['plate'])} rows)")
     return EXIT_OK

@@ -24,6 +24,8 @@ def pole(omega) -> str:
     -------
     str
     """
+    if not np.any(np.asarray(omega, float)):
+        return "none (zero rotation: no pole)"
     lat, lon, rate = vector_to_pole(omega)
     return f"pole {float(lat):.4f} N, {float(lon):.4f} E, rate {float(rate):.6f} deg/Myr"
 
@@ -47,11 +49,12 @@ def check(report) -> str:
              f"total area {d['total_area_m2']:.6e} m2 = "
              f"{d['total_area_m2'] / d['sphere_area_m2']:.12f} of the sphere", ""]
     w = max(5, *(len(p["plate"]) for p in d["plates"]))
-    lines.append(f"{'plate':<{w}}  {'area km2':>12}  {'share':>6}  {'centroid lon':>12}  "
-                 f"{'lat':>7}  {'vertices':>8}  neighbours")
+    lines.append(f"{'plate':<{w}}  {'area km2':>12}  {'share':>6}  {'perimeter km':>12}  "
+                 f"{'centroid lon':>12}  {'lat':>7}  {'vertices':>8}  neighbours")
     for p in d["plates"]:
         lines.append(f"{p['plate']:<{w}}  {p['area_m2'] / 1e6:12.4e}  "
-                     f"{100 * p['area_fraction']:5.2f}%  {p['centroid_lon']:12.3f}  "
+                     f"{100 * p['area_fraction']:5.2f}%  {p['perimeter_m'] / 1e3:12,.0f}  "
+                     f"{p['centroid_lon']:12.3f}  "
                      f"{p['centroid_lat']:7.3f}  {p['vertices']:8d}  "
                      f"{', '.join(p['neighbours'])}")
     if d["boundaries"]["length_m_by_kind"]:
@@ -82,33 +85,51 @@ def cooling(physics, depth_km, rows) -> str:
     -------
     str
     """
-    lines = [f"{physics.model} cooling model; slab pull for a slab reaching {depth_km:g} km",
+    lines = [f"{physics.model} cooling model; slab buoyancy of a slab reaching {depth_km:g} km "
+             "(its full negative buoyancy: slab pull at coefficient 1)",
              f"{'age Myr':>8} {'depth m':>9} {'heat flow mW/m2':>16} {'ridge push N/m':>15} "
-             f"{'slab pull N/m':>14}"]
+             f"{'slab buoyancy N/m':>18}"]
     for r in rows:
         lines.append(f"{r['age_myr']:8.1f} {r['depth_m']:9.1f} {r['heat_flow_mw_m2']:16.2f} "
-                     f"{r['ridge_push_n_m']:15.4e} {r['slab_pull_n_m']:14.4e}")
+                     f"{r['ridge_push_n_m']:15.4e} {r['slab_buoyancy_n_m']:18.4e}")
     return "\n".join(lines)
 
 
-def torques(terms, omega) -> str:
-    """One line per force term of ``torque torques``, with its notes.
+def torques(table, terms, fit_path=None) -> str:
+    """The summary of ``torque torques``: how the coefficients were set, each plate's
+    largest terms in 10^25 N m and its total, and the terms' notes.
 
     Parameters
     ----------
+    table : TorqueTable
     terms : list of ForceTerm
-    omega : ndarray, shape (P, 3) or None
+    fit_path : str, optional
+        The fit the coefficients came from.
 
     Returns
     -------
     str
     """
-    lines = []
+    src = set(table.sources)
+    if "fitted" in src:
+        how = f"at the fitted coefficients of {fit_path} (fixed ones as the hypothesis gives)"
+    elif "unit" in src:
+        free = [l for l, s in zip(table.labels, table.sources) if s == "unit"]
+        how = (f"at coefficient 1 for the free term(s) {', '.join(free)} (no fit given: pass "
+               "--coefficients FIT.json for the fitted values), fixed ones as given")
+    else:
+        how = "at the hypothesis' fixed coefficients"
+    lines = [f"torques {how}; magnitudes in 10^25 N m"]
+    w = max(5, *(len(p) for p in table.plates))
+    total = np.linalg.norm(table.total_nm, axis=1) / 1e25
+    lines.append(f"{'plate':<{w}}  largest terms" + ("" if not table.complete else
+                                                      "  | total (balance residual)"))
+    for p, terms_p in enumerate(table.largest(3)):
+        big = ", ".join(f"{label} {mag:.3g}" for label, mag in terms_p) or "no torque"
+        tail = f"  | {total[p]:.3g}" if table.complete else ""
+        lines.append(f"{table.plates[p]:<{w}}  {big}{tail}")
     for t in terms:
-        mag = np.linalg.norm(t.torque(omega), axis=1)
-        lines.append(f"{t.label:<16} {'free' if t.spec.free else 'fixed':<5} coefficient unit "
-                     f"{t.unit:<7} |torque| at coefficient 1: median {np.median(mag):.3e} N m")
-        lines += [f"  note: {note}" for note in t.notes]
+        lines += [f"note: {note}" for note in t.notes]
     return "\n".join(lines)
 
 

@@ -91,7 +91,8 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
     by_name = {f.hypothesis: stem for stem, f in fits.items()}
     best = by_name[rows[0]["name"]]
     best_hyp = src / "hypotheses" / f"{best}.toml"
-    step("torques", world, best_hyp, "--motions", motions, "-o", outdir / "torques.csv")
+    step("torques", world, best_hyp, "--motions", motions, "--coefficients",
+         outdir / "fits" / f"{best}.json", "-o", outdir / "torques.csv")
     step("predict", world, best_hyp, "--coefficients", outdir / "fits" / f"{best}.json",
          "-o", outdir / "predicted.csv")
     step("field", world, motions, "--step", "1", "-o", outdir / "field.nc")
@@ -123,7 +124,7 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
 #: What the demo writes where, for its closing lines.
 WHAT_IS_WHERE = (
     ("check.json", "world check"), ("cooling.csv", "cooling table"),
-    ("torques.csv", "torques of the best hypothesis"), ("fits/", "fits of every hypothesis"),
+    ("torques.csv", "torques (best hypothesis, fitted)"), ("fits/", "fits of every hypothesis"),
     ("rank.csv", "ranking"), ("predicted.csv", "predicted Euler vectors"),
     ("field.nc", "velocity field"), ("boundary_motion.csv", "relative motion along boundaries"),
     ("maps/", "maps and charts"), ("report.html", "report (one file)"),

@@ -88,8 +88,9 @@ def empty_term(ctx, spec, unit, notes=()):
         ``driving`` (P, 3) and ``resisting`` (P, 3, P, 3) of zeros.
     """
     P = ctx.world.geometry.n_plates
+    notes = tuple(notes) + ((spec.note,) if getattr(spec, "note", None) else ())
     return ForceTerm(spec.label, spec.kind, spec, unit, np.zeros((P, 3)),
-                     np.zeros((P, 3, P, 3)), tuple(notes))
+                     np.zeros((P, 3, P, 3)), notes)
 
 
 @dataclass(frozen=True, eq=False)

@@ -1,5 +1,6 @@
 """Resistance at plate boundaries proportional to the relative velocity: the kinds
-``transform``, ``trench`` (at subduction boundaries) and ``collision``, one per boundary kind.
+``transform``, ``subduction_resistance`` and ``collision``, one per boundary kind
+(``trench``, the old name of ``subduction_resistance``, is still read, with a note).
 
 On a boundary between plates P (left) and Q (right) the force per unit length on P is
 ``-c (v_P - v_Q)``, or only its along-strike or boundary-normal part (``component``). Its
@@ -109,5 +110,6 @@ class ResistanceKind:
         return build_resistance(ctx, spec, self.boundary_kind)
 
 
-KINDS = (ResistanceKind("transform", "transform"), ResistanceKind("trench", "subduction"),
+KINDS = (ResistanceKind("transform", "transform"),
+         ResistanceKind("subduction_resistance", "subduction"),
          ResistanceKind("collision", "collision"))

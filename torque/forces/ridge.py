@@ -25,7 +25,7 @@ import numpy as np
 from .base import ForceTerm, empty_term
 
 KIND = "ridge"
-UNIT = "1"
+UNIT = "dimensionless"
 KEYS = {
     "form": '"distributed" (body force from the age field, default) or "edge" (line force)',
     "force_per_length": "N/m, edge form: overrides the cooling model",

@@ -20,7 +20,7 @@ from .. import sphere
 from .base import ForceTerm, empty_term
 
 KIND = "slab"
-UNIT = "1"
+UNIT = "dimensionless"
 KEYS = {
     "depth_km": "depth reached by the slab, km (default 660)",
     "age_myr": "slab age at the trench, Myr, where neither the line nor the age field says "

@@ -15,7 +15,7 @@ from .slab import KEYS as SLAB_KEYS
 from .slab import POSITIVE, slab_buoyancy, trench_geometry  # noqa: F401
 
 KIND = "suction"
-UNIT = "1"
+UNIT = "dimensionless"
 KEYS = dict(SLAB_KEYS)
 
 

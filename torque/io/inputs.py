@@ -119,8 +119,8 @@ def compute_torques(world, hypothesis, omega=None, **data) -> list:
     >>> omega = read_motions("polygons_demo/motions.csv").for_world(inputs.world)
     >>> terms = compute_torques(inputs, hyp, omega)
     >>> [(t.label, t.unit, t.velocity_dependent) for t in terms]   # doctest: +NORMALIZE_WHITESPACE
-    [('ridge', '1', False), ('slab', '1', False), ('drag_ocean', 'Pa s/m', True),
-     ('drag_continent', 'Pa s/m', True)]
+    [('ridge', 'dimensionless', False), ('slab', 'dimensionless', False),
+     ('drag_ocean', 'Pa s/m', True), ('drag_continent', 'Pa s/m', True)]
     >>> terms[0].torque().shape            # N m on each of the 14 plates
     (14, 3)
     """
