@@ -14,14 +14,19 @@ files on first use.
 
 from __future__ import annotations
 
+import contextlib
+
 from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
 
-from . import sphere
+from . import progress, sphere
 from .continents import MaskContinents, clip_moments
 from .errors import InputError
+
+#: Grids of at least this many nodes show progress while they are located.
+LARGE_GRID = 1_000_000
 
 
 @dataclass(frozen=True, eq=False)
@@ -171,8 +176,11 @@ class WorldData:
         """
         key = ("plates", id(grid))
         if key not in self._node_cache:
-            self._node_cache[key] = (grid, self.world.geometry.locator.locate_grid(
-                grid.lon, grid.lat))
+            size = len(grid.lon) * len(grid.lat)
+            with (progress.task(f"locating {size:,} grid nodes") if size >= LARGE_GRID
+                  else contextlib.nullcontext()):
+                self._node_cache[key] = (grid, self.world.geometry.locator.locate_grid(
+                    grid.lon, grid.lat))
         return self._node_cache[key][1]
 
     def node_continental(self, grid) -> np.ndarray:

@@ -44,6 +44,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from . import progress
 from .balance import System, fit_torque, fit_velocity, on_one_blas_thread, predict
 from .diagnostics import analyse, f_test, likelihood_ratio_test, velocity_misfit
 from .errors import InputError
@@ -208,11 +209,15 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
         ``excess_se`` for cross-validation).
     """
     fitted, errors = [], {}
-    for s in systems:
-        rep = analyse(s, omega_obs, weighting, free_frame=free_frame, obs_cov=obs_cov)
-        # with a free frame, cross-validate in the mantle frame the full fit found
-        errors[s.name] = cross_validation_errors(s, rep.omega_obs, weighting, fit, obs_cov)
-        fitted.append((s, rep, rep.result().misfit))
+    with progress.bar(len(systems), "fitting and cross-validating hypotheses") as b:
+        for s in systems:
+            b.set_postfix_str(s.name, refresh=False)
+            rep = analyse(s, omega_obs, weighting, free_frame=free_frame, obs_cov=obs_cov)
+            # with a free frame, cross-validate in the mantle frame the full fit found
+            errors[s.name] = cross_validation_errors(s, rep.omega_obs, weighting, fit,
+                                                     obs_cov)
+            fitted.append((s, rep, rep.result().misfit))
+            b.update()
     area = systems[0].area
     cv = {n: _weighted_mean_se(e, area) for n, e in errors.items()}
     finite = [n for n in cv if np.isfinite(cv[n][0])]

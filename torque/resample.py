@@ -16,6 +16,7 @@ import numpy as np
 from scipy import optimize
 
 from .balance import System, fit_torque, fit_velocity, on_one_blas_thread, plate_weights
+from . import progress
 from .errors import InputError
 
 PERCENTILES = (2.5, 50.0, 97.5)
@@ -36,9 +37,8 @@ def _summary(system: System, samples: np.ndarray, n_failed: int = 0, **extra) ->
 
 
 def _progress(n, desc):
-    from tqdm import tqdm
     # shown on a terminal for long runs only; never in pipes or tests
-    return tqdm(total=n, desc=desc, disable=None if n >= 200 else True, leave=False)
+    return progress.bar(n, desc, minimum=200)
 
 
 @on_one_blas_thread

@@ -12,10 +12,12 @@ one message on stderr and exit status 2.
 
 from __future__ import annotations
 
+import argparse
 import os
 import signal
 import sys
 
+from .. import progress
 from ..errors import InputError
 from . import balance, figures, kinematics, physics, world
 from .common import EXIT_BAD_INPUT, EXIT_BROKEN_PIPE, EXIT_OK, Parser
@@ -28,13 +30,22 @@ def build_parser() -> Parser:
     parser = Parser(prog="torque", description=(
         "Plate torques and Euler-pole prediction on a sphere. Results are model-dependent "
         "research estimates, not inputs to hazard or engineering decisions."))
+    parser.add_argument("-q", "--quiet", action="store_true", help=QUIET)
     sub = parser.add_subparsers(dest="command", required=True, parser_class=Parser)
     world.add_parser(sub)
     kinematics.add_parser(sub)
     physics.add_parser(sub)
     balance.add_parser(sub)
     figures.add_parser(sub, main)
+    for p in sub.choices.values():
+        # after the command too; SUPPRESS keeps a "torque -q fit" from being undone
+        p.add_argument("-q", "--quiet", action="store_true", default=argparse.SUPPRESS,
+                       help=QUIET)
     return parser
+
+
+QUIET = ("no progress bars (they show on stderr only when it is a terminal, for work that "
+         "takes more than a moment)")
 
 
 def _terminate(signum, frame):
@@ -63,6 +74,8 @@ def main(argv=None, *, preloaded=None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     args.preloaded = preloaded
+    was_quiet = progress.is_quiet()
+    progress.set_quiet(was_quiet or args.quiet)
     try:
         previous = signal.signal(signal.SIGTERM, _terminate)
     except ValueError:          # not the main thread: leave the handler alone
@@ -85,6 +98,7 @@ def main(argv=None, *, preloaded=None) -> int:
         print(f"torque {args.command}: {where}: {exc.strerror or exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
     finally:
+        progress.set_quiet(was_quiet)
         if previous is not None:
             signal.signal(signal.SIGTERM, previous)
 

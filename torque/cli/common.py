@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .. import progress
 from ..io import Inputs, read_motions
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
@@ -89,7 +90,8 @@ def inputs(args, path=None, *, valid: bool = True) -> Inputs:
     pre = getattr(args, "preloaded", None)
     if pre is not None and pre.path == path.resolve():
         return pre
-    return Inputs.load(path, valid=valid)
+    with progress.task(f"reading and checking {path.name}"):
+        return Inputs.load(path, valid=valid)
 
 
 def motions_for(path, world):

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from .. import progress
 from ..errors import InputError
 from ..io import load_hypothesis, output_suffix, read_fit
 from ..maps import KINDS, MapInputs
@@ -66,13 +67,14 @@ def run_map(args) -> int:
                          f"{args.kind} map", hint=f"a {args.kind} map shows {kind.shows}")
     data = inputs(args)
     world = data.world
-    kind.draw(MapInputs(
+    given_inputs = MapInputs(
         data,
         motions_for(args.motions, world)[1] if args.motions else None,
         motions_for(args.predicted, world)[1] if args.predicted else None,
         read_fit(args.fit, world.plate_names) if args.fit else None, args.fit,
-        load_hypothesis(args.hypothesis) if args.hypothesis else None),
-        args.output)
+        load_hypothesis(args.hypothesis) if args.hypothesis else None)
+    with progress.task(f"drawing the {args.kind} map"):
+        kind.draw(given_inputs, args.output)
     print(f"wrote {args.output}")
     return EXIT_OK
 

@@ -12,6 +12,7 @@ import io
 import time
 from pathlib import Path
 
+from .. import progress
 from ..errors import InputError
 from ..forces import build_terms
 from ..io import Inputs, atomic_write, load_hypothesis, read_fit, read_motions
@@ -59,11 +60,13 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
     motions = src / "motions.csv"
     hyps = sorted((src / "hypotheses").glob("*.toml"))
     truth = read_json(src / "truth.json")
-    inputs = Inputs.load(world)        # read and checked once, for every step
+    with progress.task("demo: reading and checking the world"):
+        inputs = Inputs.load(world)    # read and checked once, for every step
 
     def step(*argv):
         buf = io.StringIO()
-        with contextlib.redirect_stdout(buf):
+        what = f"{argv[0]} {Path(argv[2]).stem}" if argv[0] == "fit" else argv[0]
+        with progress.task(f"demo: torque {what}"), contextlib.redirect_stdout(buf):
             status = main([str(a) for a in argv], preloaded=inputs)
         if status != 0:
             raise InputError(f"demo step 'torque {argv[0]}' failed (status {status})")
@@ -97,8 +100,9 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
          "-o", outdir / "predicted.csv")
     step("field", world, motions, "--step", "1", "-o", outdir / "field.nc")
     step("boundaries", world, motions, "-o", outdir / "boundary_motion.csv")
-    figures = draw_maps(outdir, inputs, motions, outdir / "predicted.csv", best_hyp,
-                        outdir / "fits" / f"{best}.json")
+    with progress.task("demo: maps and charts"):
+        figures = draw_maps(outdir, inputs, motions, outdir / "predicted.csv", best_hyp,
+                            outdir / "fits" / f"{best}.json")
 
     summary = _summary(fits[best], rows, truth)
     by_hypothesis = {f.hypothesis: f for f in fits.values()}
@@ -107,8 +111,9 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
                 "other_fits": {f"{gls_fit.hypothesis}: chi-square with the motions' "
                                "covariance, mantle frame fitted": gls_fit},
                 "figures": figures}
-    write_markdown(outdir / "report.md", run_info)
-    write_html(outdir / "report.html", run_info, outdir)
+    with progress.task("demo: report"):
+        write_markdown(outdir / "report.md", run_info)
+        write_html(outdir / "report.html", run_info, outdir)
     elapsed = time.perf_counter() - t0
     echo(f"torque demo: the whole job on the invented planet Orrery ({elapsed:.0f} s)")
     for line in summary[1:]:

@@ -21,6 +21,7 @@ attributes, listed in its ``KINDS`` (the boundary resistances of
 
 from __future__ import annotations
 
+from .. import progress
 from .base import ForceTerm, Pieces, empty_term
 from .context import Context
 
@@ -53,7 +54,16 @@ def build_terms(ctx: Context) -> list:
     list of ForceTerm
         One per force entry, in order.
     """
-    return [KINDS[spec.kind].build(ctx, spec) for spec in ctx.hypothesis.forces]
+    forces = ctx.hypothesis.forces
+    terms = []
+    # a bar only where a term works on a grid (the others take milliseconds)
+    gridded = any(s.kind in ("ridge", "mantle") for s in forces)
+    with progress.bar(len(forces), "building terms", minimum=1 if gridded else 10**9) as b:
+        for spec in forces:
+            b.set_postfix_str(spec.label, refresh=False)
+            terms.append(KINDS[spec.kind].build(ctx, spec))
+            b.update()
+    return terms
 
 
 def compute_torques(world, hypothesis, omega=None, **data) -> list:
