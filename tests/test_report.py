@@ -1,25 +1,46 @@
-"""The report says what a reader of each fit must know: a circular fit, the mantle frame,
-and the resampled intervals (no numbers are computed here: they come from the fit)."""
+"""The report says what a reader of each fit must know: a circular fit, disagreeing fits,
+the mantle frame and net rotation, every interval, and how the run was made (no numbers
+are computed here: they come from the fit)."""
 
 from torque.diagnostics import Coefficient, FitResult
-from torque.report import _fit_note
+from torque.report import _fit_note, _frame_table, _tables, _uncertainty_tables, _warnings
 
 
-def test_a_fits_table_carries_its_warnings_frame_and_intervals(tmp_path):
-    fit = FitResult(
-        "h", {"slab": Coefficient(0.05, 0.001, True, "1", 0.049, 0.002)},
+def _fit():
+    return FitResult(
+        "h", {"slab": Coefficient(0.05, 0.001, True, "dimensionless", 0.0499, 0.002,
+                                  0.0481, 0.0521)},
         notes=("circular: sea-floor ages were synthesised from the same motions",),
         uncertainty={"monte_carlo_motions": {"members": 100, "fit": "velocity",
                                              "coefficients": {"slab": {"p2_5": 0.048,
                                                                        "p97_5": 0.052}}}},
         frame={"free": True, "rotation": {"lat": 10.0, "lon": 20.0, "rate": 0.3},
+               "stderr_deg_myr": [0.01, 0.02, 0.01],
                "net_rotation_observed": {"rate": 0.03}, "net_rotation_predicted": {"rate": 0.02}})
-    note = _fit_note(fit)
+
+
+def test_a_fits_table_carries_its_warnings():
+    note = _fit_note(_fit())
     assert note.startswith("Warning: sea-floor ages were synthesised")
-    assert "Free mantle frame: the mantle turns" in note and "0.3000 deg/Myr" in note
-    assert ("Monte carlo motions (100 members, velocity-space refits), 95 % intervals: slab "
-            "0.048 to 0.052.") in note
     assert _fit_note(FitResult("plain", {})) is None
+
+
+def test_every_interval_has_its_column():
+    (title, header, rows, _), = _uncertainty_tables([("h", _fit())])
+    assert header[2:] == ["± 1.96 std. error", "profile likelihood", "monte carlo motions (100)"]
+    assert rows == [["slab", "0.05", "0.04804 to 0.05196", "0.0481 to 0.0521", "0.048 to 0.052"]]
+
+
+def test_the_frame_and_net_rotations_of_every_fit():
+    _, header, rows, _ = _frame_table([("h", _fit()), ("plain", FitResult("plain", {}))])
+    assert rows[0] == ["h", "fitted", "10.00, 20.00", "0.3", "0.02", "0.03", "0.02"]
+    assert rows[1][:2] == ["plain", "assumed"]
+
+
+def test_warnings_gather_circular_fits_bounds_and_the_world_check():
+    rows = _warnings({"check_problems": ["warning: a spike was removed"]}, [("h", _fit())])
+    assert ["world check", "warning: a spike was removed"] in rows
+    assert rows[0][0] == "h" and "synthesised" in rows[0][1]
 
 
 def test_a_fits_table_warns_where_the_two_fits_disagree():

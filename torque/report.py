@@ -6,9 +6,10 @@ from __future__ import annotations
 
 import base64
 import html
+import re
 from pathlib import Path
 
-from .diagnostics import chi_square_summary, fits_disagree, frame_summary
+from .diagnostics import chi_square_summary, fits_disagree
 from .io.files import atomic_write
 
 CAUTION = ("These are model-dependent research estimates. They depend on the plate model, "
@@ -66,6 +67,12 @@ def _tables(run: dict) -> list:
         out.append((f"Fitted coefficients: {name}",
                     ["term", "value (velocity space)", "std. error", "95 % profile interval",
                      "torque space", "unit", "true"], rows, _fit_note(fit)))
+    out += _uncertainty_tables(fits)
+    out.append(_frame_table(fits))
+    warnings = _warnings(run, fits)
+    if warnings:
+        out.append(("Warnings", ["where", "warning"], warnings,
+                    "Everything here is also in the fits' JSON (notes) or the world check."))
     best = run["fits"][run["rank"][0]["name"]]
     rows = [[p["plate"], f"{p['observed']['lat']:.2f}, {p['observed']['lon']:.2f}",
              _fmt(p["observed"]["rate"]),
@@ -78,10 +85,93 @@ def _tables(run: dict) -> list:
     return out
 
 
+def _uncertainty_tables(fits) -> list:
+    """One table per fit of every 95 % interval of its free coefficients: standard error,
+    profile likelihood and each resampling."""
+    out = []
+    for name, fit in fits:
+        methods = list((fit.uncertainty or {}).items())
+        header = ["term", "value", "± 1.96 std. error", "profile likelihood"] + [
+            f"{m.replace('_', ' ')} ({u['members']})" for m, u in methods]
+        rows = []
+        for label, c in fit.coefficients.items():
+            if not c.free:
+                continue
+            row = [label, _fmt(c.value),
+                   f"{_fmt(c.value - 1.96 * c.stderr)} to {_fmt(c.value + 1.96 * c.stderr)}",
+                   f"{_fmt(c.profile_low)} to {_fmt(c.profile_high)}"
+                   if c.profile_high is not None else "-"]
+            for _, u in methods:
+                s = u["coefficients"].get(label, {})
+                row.append(f"{_fmt(s.get('p2_5'))} to {_fmt(s.get('p97_5'))}")
+            rows.append(row)
+        if rows:
+            out.append((f"Uncertainty: {name}", header, rows,
+                        "95 % intervals. Resampled members are refitted by the "
+                        "velocity-space fit unless the JSON says otherwise; the profile "
+                        "likelihood holds where the misfit is not quadratic or a bound is "
+                        "near."))
+    return out
+
+
+def _frame_table(fits):
+    """The mantle frame and the net rotations of every fit."""
+    rows = []
+    for name, fit in fits:
+        f = fit.frame or {}
+        r = f.get("rotation")
+        how = "fitted" if f.get("free") else "given" if f.get("given") else "assumed"
+        se = f.get("stderr_deg_myr")
+        rows.append([name, how,
+                     f"{r['lat']:.2f}, {r['lon']:.2f}" if r else "-",
+                     _fmt(r["rate"]) if r else "0",
+                     _fmt(max(se)) if se else "-",
+                     _fmt(f.get("net_rotation_observed", {}).get("rate")),
+                     _fmt(f.get("net_rotation_predicted", {}).get("rate"))])
+    return ("Mantle frame and net rotation", [
+        "fit", "frame", "mantle pole (lat, lon)", "mantle rate deg/Myr",
+        "std. error deg/Myr", "net rotation observed deg/Myr",
+        "net rotation predicted deg/Myr"], rows,
+        "The mantle's rotation in the frame of the observed motions: assumed zero (the "
+        "motions taken to be in the mantle's frame), fitted (--free-frame) or given "
+        "(--mantle-rotation). The net rotation is that of the lithosphere relative to the "
+        "mantle.")
+
+
+def _warnings(run, fits) -> list:
+    """Every warning a reader must see: circular fits, disagreeing fits, coefficients at
+    a bound, and the world check's warnings (repaired geometry)."""
+    rows = []
+    for name, fit in fits:
+        for note in fit.notes:
+            if note.startswith("circular:"):
+                rows.append([name, note[len("circular:"):].strip()])
+        rows += [[name, w] for w in fits_disagree(fit.as_dict())]
+        rows += [[name, f"{label} is at its {c.at_bound} bound"]
+                 for label, c in fit.coefficients.items() if c.at_bound]
+    for problem in run.get("check_problems", []):
+        rows.append(["world check", problem])
+    return rows
+
+
+def _manifest_tables(m) -> list:
+    """The run manifest as tables: what ran, and every input with its SHA-256."""
+    about = [["tool", f"{m['tool']} {m['version']}"], ["commit", m.get("commit") or "-"],
+             ["Python", m["python"]], ["platform", m["platform"]],
+             ["packages", ", ".join(f"{k} {v}" for k, v in m["packages"].items() if v)],
+             ["seeds", ", ".join(f"{k} {v}" for k, v in m["seeds"].items()) or "-"],
+             ["started (UTC)", m["started_utc"]], ["wall time", f"{m['wall_time_s']:.1f} s"]]
+    return [("Run manifest", ["item", "value"], about, None),
+            ("Inputs", ["file", "bytes", "SHA-256"],
+             [[i["path"], str(i["bytes"]), i["sha256"]] for i in m["inputs"]], None),
+            ("Commands", ["#", "command line"],
+             [[str(k + 1), c] for k, c in enumerate(m["commands"])], None)]
+
+
 def _fit_note(fit):
-    """What a reader of a fit's table must know: a warning that the fit is circular,
-    coefficients at a bound, what was minimised (and the chi-square), the mantle frame and
-    net rotation, and the profile and resampled 95 % intervals (None if nothing)."""
+    """What a reader of a fit's table must know there: a warning that the fit is circular,
+    disagreeing fits, coefficients at a bound, what was minimised and the chi-square (None
+    if nothing). The frame and the intervals have sections of their own."""
     parts = []
     for note in fit.notes:
         if note.startswith("circular:"):
@@ -94,18 +184,9 @@ def _fit_note(fit):
     m = fit.misfit
     if m.get("misfit_measure"):
         parts.append(f"Minimised: {m['misfit_measure']}.")
-    for line in (chi_square_summary(m), frame_summary(fit.frame) if fit.frame else None):
-        if line:
-            parts.append(line[0].upper() + line[1:] + ".")
-    spans = [f"{label} {_fmt(c.profile_low)} to {_fmt(c.profile_high)}"
-             for label, c in fit.coefficients.items() if c.free and c.profile_high is not None]
-    if spans:
-        parts.append(f"Profile-likelihood 95 % intervals: {', '.join(spans)}.")
-    for method, u in (fit.uncertainty or {}).items():
-        spans = ", ".join(f"{label} {_fmt(c['p2_5'])} to {_fmt(c['p97_5'])}"
-                          for label, c in u["coefficients"].items())
-        parts.append(f"{method.replace('_', ' ').capitalize()} ({u['members']} members, "
-                     f"{u.get('fit', 'torque')}-space refits), 95 % intervals: {spans}.")
+    line = chi_square_summary(m)
+    if line:
+        parts.append(line[0].upper() + line[1:] + ".")
     return " ".join(parts) or None
 
 
@@ -130,8 +211,31 @@ def write_markdown(path, run: dict) -> None:
         lines += ["## Figures", ""]
         for title, fig in run["figures"]:
             lines += [f"### {title}", "", f"![{title}]({fig})", ""]
+    for title, header, rows, note in (_manifest_tables(run["manifest"])
+                                      if run.get("manifest") else []):
+        lines += [f"## {title}", "", "| " + " | ".join(header) + " |",
+                  "|" + "---|" * len(header)]
+        lines += ["| " + " | ".join(r) + " |" for r in rows] + [""]
     with atomic_write(path) as fh:
         fh.write("\n".join(lines) + "\n")
+
+
+_NUMBER = re.compile(r"^[-+]?(\d[\d,]*\.?\d*|\.\d+)(e[-+]?\d+)?( to [-+]?\S+)?%?$")
+
+
+def _html_table(title, header, rows, note) -> list:
+    """A table as HTML lines: numbers right-aligned, text left-aligned."""
+    e = html.escape
+    out = [f"<h2>{e(title)}</h2><table><tr>" + "".join(f"<th>{e(h)}</th>" for h in header)
+           + "</tr>"]
+    for r in rows:
+        out.append("<tr>" + "".join(
+            f"<td>{e(c)}</td>" if _NUMBER.match(c.strip()) or c in ("-", "")
+            else f"<td class=\"t\">{e(c)}</td>" for c in r) + "</tr>")
+    out.append("</table>")
+    if note:
+        out.append(f"<p>{e(note)}</p>")
+    return out
 
 
 def write_html(path, run: dict, base: Path) -> None:
@@ -151,25 +255,23 @@ def write_html(path, run: dict, base: Path) -> None:
              "<style>body{font-family:sans-serif;max-width:1100px;margin:2em auto;color:#222}"
              "table{border-collapse:collapse;margin:0.5em 0 1.5em}"
              "td,th{border:1px solid #bbb;padding:3px 8px;font-size:0.9em;text-align:right}"
-             "th{background:#eef}td:first-child,th:first-child{text-align:left}"
+             "th{background:#eef;text-align:left}td.t{text-align:left}"
+             "td.t code{font-size:0.95em}"
              ".caution{background:#fff4e0;border-left:4px solid #c4501b;padding:0.6em 1em}"
              "img{max-width:100%}</style></head><body>",
              f"<h1>torque report: {e(run['world'])}</h1>",
              f"<p class=\"caution\"><strong>Caution.</strong> {e(CAUTION)}</p>", "<ul>"]
     parts += [f"<li>{e(s)}</li>" for s in run.get("summary", [])] + ["</ul>"]
-    for title, header, rows, note in _tables(run):
-        parts.append(f"<h2>{e(title)}</h2><table><tr>"
-                     + "".join(f"<th>{e(h)}</th>" for h in header) + "</tr>")
-        parts += ["<tr>" + "".join(f"<td>{e(c)}</td>" for c in r) + "</tr>" for r in rows]
-        parts.append("</table>")
-        if note:
-            parts.append(f"<p>{e(note)}</p>")
+    for table in _tables(run):
+        parts += _html_table(*table)
     if run.get("figures"):
         parts.append("<h2>Figures</h2>")
         for title, fig in run["figures"]:
             data = base64.b64encode((base / fig).read_bytes()).decode("ascii")
             parts.append(f"<h3>{e(title)}</h3><img alt=\"{e(title)}\" "
                          f"src=\"data:image/png;base64,{data}\">")
+    for table in (_manifest_tables(run["manifest"]) if run.get("manifest") else []):
+        parts += _html_table(*table)
     parts.append("</body></html>")
     with atomic_write(path) as fh:
         fh.write("\n".join(parts) + "\n")

@@ -16,6 +16,7 @@ import argparse
 import os
 import signal
 import sys
+import time
 
 from .. import progress
 from ..errors import InputError
@@ -72,8 +73,10 @@ def main(argv=None, *, preloaded=None) -> int:
         (``torque cooling --json | head``). SIGTERM removes partly written outputs.
     """
     parser = build_parser()
+    argv = list(sys.argv[1:] if argv is None else argv)
     args = parser.parse_args(argv)
     args.preloaded = preloaded
+    args.argv, args.started = argv, time.time()        # for the run manifest
     was_quiet = progress.is_quiet()
     progress.set_quiet(was_quiet or args.quiet)
     try:

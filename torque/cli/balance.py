@@ -19,7 +19,7 @@ from ..io import (atomic_path, atomic_write, dumps, load_hypothesis, output_suff
 from ..rank import rank
 from ..resample import bootstrap, monte_carlo_motions, monte_carlo_physics
 from . import text
-from .common import EXIT_OK, arg_type, count, frame_warning, inputs
+from .common import EXIT_OK, arg_type, count, frame_warning, inputs, manifest
 
 RESAMPLE_FIT = dict(choices=("velocity", "torque"), default="velocity",
                     help="how resampled members (bootstrap, Monte Carlo, cross-validation) are "
@@ -251,7 +251,7 @@ def run_fit(args) -> int:
     result = dataclasses.replace(rep, uncertainty=unc).result(
         pb.notes() + cov.notes + ([f"circular: {CIRCULAR}"] if circular else []),
         observed_cov=cov.data, model_cov=cov.model)
-    write_json(args.output, result.as_dict())
+    write_json(args.output, {**result.as_dict(), "run": manifest(args, pb.inputs)})
     print(text.fit(result.as_dict()))
     print(f"wrote {args.output}")
     return EXIT_OK
@@ -478,7 +478,8 @@ def run_rank(args) -> int:
             with atomic_write(args.json) as fh:
                 fh.write(dumps({"sorted_by": "cv_rms_mm_yr",
                                 "rows": [r.__dict__ for r in rows], "tests": tests,
-                                "f_tests": [t for t in tests if t["test"] == "F"]}))
+                                "f_tests": [t for t in tests if t["test"] == "F"],
+                                "run": manifest(args, data)}))
     if args.output:
         print(f"wrote {args.output}")
     return EXIT_OK

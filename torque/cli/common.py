@@ -94,6 +94,39 @@ def inputs(args, path=None, *, valid: bool = True) -> Inputs:
         return Inputs.load(path, valid=valid)
 
 
+#: Arguments of any command that name input files.
+INPUT_ARGS = ("world", "hypothesis", "motions", "coefficients", "covariance", "fit",
+              "predicted", "points", "physics", "geojson")
+
+
+def manifest(args, data=None) -> dict:
+    """The run manifest of this command (see :mod:`torque.io.manifest`): its command line,
+    every input file named on it and every data file of its world, its seed.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed command line (``torque.cli.main`` records ``argv`` and the start time
+        on it).
+    data : Inputs, optional
+        The world read, whose data files are inputs too.
+
+    Returns
+    -------
+    dict
+    """
+    from ..io.manifest import run_manifest
+    files = [getattr(args, a, None) for a in INPUT_ARGS]
+    files += list(getattr(args, "hypotheses", None) or [])
+    if data is not None:
+        files += [p for p in data.world.paths.values() if p is not None]
+    resampled = any(getattr(args, a, 0) for a in ("bootstrap", "monte_carlo",
+                                                  "physics_samples"))
+    seeds = {"resampling": args.seed} if resampled else {}
+    return run_manifest([getattr(args, "argv", [])], files, seeds,
+                        getattr(args, "started", None))
+
+
 def motions_for(path, world):
     """``(Motions, omega)``: a motions file and its angular velocities (rad/s) in world
     plate order.

@@ -8,10 +8,10 @@ import numpy as np
 from ..errors import InputError
 from ..hypothesis import Hypothesis, cooling_table, slab_depth_km
 from ..io import dumps, load_hypothesis, output_suffix, read_coefficients, write_csv
-from ..torque_table import TorqueTable
 from ..lithosphere import Physics
+from ..torque_table import TorqueTable
 from . import text
-from .common import EXIT_OK, inputs, motions_for
+from .common import EXIT_OK, inputs, manifest, motions_for
 
 DEFAULT_COOLING_AGES = (1, 2, 5, 10, 20, 30, 40, 50, 60, 80, 100, 120, 150, 200)
 
@@ -94,7 +94,7 @@ def run_cooling(args) -> int:
     p = hyp.physics
     if args.json:
         print(dumps({"model": p.model, "physics": p.__dict__, "slab_depth_km": depth,
-                     "rows": rows}))
+                     "rows": rows, "run": manifest(args)}))
     else:
         print(text.cooling(p, depth, rows))
     if args.output:

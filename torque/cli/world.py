@@ -7,7 +7,7 @@ import sys
 from ..io import dumps
 from ..validate import check_world
 from . import text
-from .common import EXIT_BAD_INPUT, EXIT_OK, inputs
+from .common import EXIT_BAD_INPUT, EXIT_OK, inputs, manifest
 
 
 def add_parser(sub) -> None:
@@ -39,8 +39,10 @@ def run_check(args) -> int:
     int
         0, or 2 when the world has errors.
     """
-    report = check_world(inputs(args, valid=False))
-    print(dumps(report.as_dict()) if args.json else text.check(report))
+    data = inputs(args, valid=False)
+    report = check_world(data)
+    print(dumps({**report.as_dict(), "run": manifest(args, data)}) if args.json
+          else text.check(report))
     if not report.ok:
         n = sum(p.severity == "error" for p in report.problems)
         print(f"torque check: {args.world}: {n} error(s); the world cannot be used as it is",

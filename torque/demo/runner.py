@@ -17,10 +17,13 @@ from ..errors import InputError
 from ..forces import build_terms
 from ..io import Inputs, atomic_write, load_hypothesis, read_fit, read_motions
 from ..io.files import check_output_path, read_json
+from ..io.manifest import run_manifest
 from ..report import write_html, write_markdown
 from .. import maps
 from .planet import BUNDLED, TRUTH_HYPOTHESIS, write
 
+#: The seed of every resampling the demo runs.
+SEED = 1
 #: The name of the demo's extra fit of the true hypothesis (chi-square, free frame).
 GLS_SUFFIX = "_chi_square_free_frame"
 OUTPUTS = ("check.json", "cooling.csv", "torques.csv", "fits", "rank.csv", "rank.json",
@@ -51,6 +54,8 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
     """
     outdir = _output_folder(outdir, force)
     t0 = time.perf_counter()
+    started = time.time()
+    commands = []
     src = BUNDLED
     if not (src / "world.toml").is_file():
         src = outdir / "world"
@@ -65,6 +70,7 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
 
     def step(*argv):
         buf = io.StringIO()
+        commands.append([str(a) for a in argv])
         what = f"{argv[0]} {Path(argv[2]).stem}" if argv[0] == "fit" else argv[0]
         with progress.task(f"demo: torque {what}"), contextlib.redirect_stdout(buf):
             status = main([str(a) for a in argv], preloaded=inputs)
@@ -78,14 +84,14 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
         fh.write(step("check", world, "--json"))
     step("cooling", "-o", outdir / "cooling.csv")
     for h in hyps:
-        extra = (["--bootstrap", "200", "--monte-carlo", "1000", "--seed", "1"]
+        extra = (["--bootstrap", "200", "--monte-carlo", "1000", "--seed", str(SEED)]
                  if h.stem == TRUTH_HYPOTHESIS else [])
         step("fit", world, h, motions, "-o", outdir / "fits" / f"{h.stem}.json", *extra)
     # the true hypothesis again, as a referee would ask: the chi-square with the motions'
     # covariance, and the mantle's rotation fitted rather than assumed
     gls = outdir / "fits" / f"{TRUTH_HYPOTHESIS}{GLS_SUFFIX}.json"
     step("fit", world, src / "hypotheses" / f"{TRUTH_HYPOTHESIS}.toml", motions, "-o", gls,
-         "--misfit", "chi-square", "--free-frame", "--bootstrap", "200", "--seed", "1")
+         "--misfit", "chi-square", "--free-frame", "--bootstrap", "200", "--seed", str(SEED))
     step("rank", world, motions, *hyps, "-o", outdir / "rank.csv", "--json",
          outdir / "rank.json")
     rows = read_json(outdir / "rank.json")["rows"]
@@ -110,7 +116,13 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
                 "rank": rows, "fits": {r["name"]: by_hypothesis[r["name"]] for r in rows},
                 "other_fits": {f"{gls_fit.hypothesis}: chi-square with the motions' "
                                "covariance, mantle frame fitted": gls_fit},
-                "figures": figures}
+                "figures": figures,
+                "check_problems": [f"{p['severity']}: {p['message']}" for p in
+                                   read_json(outdir / "check.json").get("problems", [])],
+                "manifest": run_manifest(
+                    commands, [world, *inputs.world.paths.values(), motions, *hyps,
+                               src / "truth.json"],
+                    {"bootstrap and Monte Carlo draws": SEED}, started)}
     with progress.task("demo: report"):
         write_markdown(outdir / "report.md", run_info)
         write_html(outdir / "report.html", run_info, outdir)
