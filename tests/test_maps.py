@@ -50,7 +50,8 @@ def test_a_map_is_a_png(tmp_path, cli):
 @pytest.mark.parametrize("argv,words", [
     (["--kind", "poles"], "needs --fit"),
     (["--kind", "plates", "--predicted", "x.csv"], "--predicted make(s) no sense"),
-    (["--kind", "misfit", "--motions", str(DEMO / "motions.csv")], "needs --predicted"),
+    (["--kind", "misfit", "--motions", str(DEMO / "motions.csv")],
+     "needs --fit, or --motions and --predicted"),
     (["--kind", "plates", "-o", "map.jpg"], "cannot write .jpg"),
     (["--kind", "sideways"], "invalid choice"),
 ])
@@ -106,3 +107,87 @@ def test_the_poles_map_zooms_on_every_plate(demo_fit, tmp_path, monkeypatch):
         for line in a.get_lines():
             xs = np.asarray(line.get_xdata(), float)
             assert np.all((xs >= x0) & (xs <= x1))
+
+
+@pytest.fixture
+def figures(monkeypatch):
+    """Every figure a map function saves, kept open for inspection."""
+    from torque import maps
+    kept = []
+    real_save = maps._save
+
+    def keep(fig, path):
+        kept.append(fig)
+        fig.canvas.draw()
+        with open(path, "wb") as fh:
+            fig.savefig(fh, format="png", dpi=40)
+        return path
+    monkeypatch.setattr(maps, "_save", keep)
+    yield kept
+    del real_save
+
+
+def _texts(fig):
+    return [t.get_text() for t in fig.texts]
+
+
+def test_every_kind_carries_a_caption_and_a_legend(demo_fit, tmp_path, cli, figures):
+    # what a reader needs to read a figure (common practice, no source)
+    extra = {"plates": [], "poles": ["--fit", demo_fit], "budget": ["--fit", demo_fit],
+             "misfit": ["--fit", demo_fit],
+             "velocities": ["--motions", DEMO / "motions.csv"],
+             "torques": ["--hypothesis", DEMO / "hypotheses" / "ridge_slab_drag.toml",
+                         "--motions", DEMO / "motions.csv", "--fit", demo_fit],
+             "torque-globe": ["--hypothesis", DEMO / "hypotheses" / "ridge_slab_drag.toml",
+                              "--motions", DEMO / "motions.csv", "--fit", demo_fit]}
+    assert set(extra) == set(KINDS)
+    for kind, args in extra.items():
+        status, _, err = cli("map", DEMO / "world.toml", "--kind", kind, *args,
+                             "-o", tmp_path / f"{kind}.png")
+        assert status == 0, (kind, err)
+        fig = figures[-1]
+        captions = [t for t in fig.texts if t.get_style() == "italic"]
+        assert len(captions) == 1 and len(captions[0].get_text()) > 40, kind
+        has_legend = bool(fig.legends) or any(a.get_legend() for a in fig.axes)
+        assert has_legend, kind
+
+
+def test_force_terms_never_take_a_plate_colour():
+    from torque.maps import FORCE_COLOURS, PLATE_COLOURS, force_colours
+    assert not set(map(str.lower, FORCE_COLOURS)) & set(map(str.lower, PLATE_COLOURS))
+    assert force_colours(["a", "b"]) == {"a": FORCE_COLOURS[0], "b": FORCE_COLOURS[1]}
+
+
+def test_labels_do_not_overlap_on_the_published_model(tmp_path):
+    # 52 plates, many small (Bird 2003, ../shared/data/global-plates-2003)
+    from torque import maps
+    model = ROOT.parent / "shared" / "data" / "global-plates-2003" / "world.toml"
+    if not model.is_file():
+        pytest.skip(f"no published model at {model}")
+    world = load_world(model)
+    fig, ax = maps._axes("labels", len(world.plates))
+    maps.draw_boundaries(ax, world)
+    texts = maps.label_plates(ax, world)
+    renderer = fig.canvas.get_renderer()
+    boxes = [t.get_window_extent(renderer) for t in texts]
+    clashes = sum(a.overlaps(b) for i, a in enumerate(boxes) for b in boxes[i + 1:])
+    assert clashes == 0
+    frame = ax.get_window_extent(renderer)
+    assert all(frame.x0 <= b.x0 and b.x1 <= frame.x1 for b in boxes)
+    assert maps.label_size(52) < maps.label_size(14)
+    assert maps.figure_size(52)[0] > maps.figure_size(14)[0]
+
+
+def test_the_misfit_scale_is_clipped_and_says_so(demo_fit, tmp_path, figures):
+    from torque import maps
+    from torque.io import read_fit
+    maps.KINDS["misfit"].draw(maps.MapInputs(torque_inputs(), fit=read_fit(demo_fit)),
+                              tmp_path / "m.png")
+    fig = figures[-1]
+    bar = [a for a in fig.axes if a.get_label() == "<colorbar>"][0]
+    assert f"clipped at the {maps.CLIP_PERCENTILE:g}th percentile" in bar.get_ylabel()
+
+
+def torque_inputs():
+    from torque.io import Inputs
+    return Inputs.load(DEMO / "world.toml")

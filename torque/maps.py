@@ -18,10 +18,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import sphere
-from .euler import velocity_en
+from .errors import InputError
+from .euler import pole_to_vector, velocity_en
 from .forces import build_terms
 from .forces.context import Context
 from .io.files import atomic_path
+from .torque_table import TORQUE_UNIT_NM
 
 PLATE_COLOURS = ["#9DB8D9", "#E8C77D", "#A9CFA3", "#D9A7BE", "#C9C1E3", "#E6B08F",
                  "#A6D4D1", "#CFCF9C"]
@@ -34,6 +36,29 @@ KIND_STYLE = {
 }
 OBSERVED_COLOUR = "#1A1A1A"
 PREDICTED_COLOUR = "#C4501B"
+#: Force terms get colours of their own, saturated where the plate fills are muted, so that
+#: a term is never mistaken for a plate (the project's own choice; they differ in
+#: lightness as well as hue).
+FORCE_COLOURS = ["#2B4C9B", "#E07B1F", "#2E8B57", "#B0306A", "#6A4C9C", "#8A6A1F",
+                 "#1F8FA8", "#C8323C"]
+#: Colour scales of magnitudes are clipped at this percentile, so that a few fast
+#: microplates do not wash out the rest (said on the colour bar).
+CLIP_PERCENTILE = 98.0
+
+
+def force_colours(labels) -> dict:
+    """A colour per force term, in the order given (see :data:`FORCE_COLOURS`).
+
+    Parameters
+    ----------
+    labels : sequence of str
+
+    Returns
+    -------
+    dict
+        ``{label: colour}``.
+    """
+    return {l: FORCE_COLOURS[k % len(FORCE_COLOURS)] for k, l in enumerate(labels)}
 
 
 def _plt():
@@ -43,15 +68,142 @@ def _plt():
     return plt
 
 
-def _axes(title=None):
+def figure_size(n_plates: int) -> tuple:
+    """Width and height (inches) of a world map for ``n_plates`` plates: bigger for more
+    plates, so that labels keep room.
+
+    Parameters
+    ----------
+    n_plates : int
+
+    Returns
+    -------
+    tuple of float
+    """
+    width = 11.0 if n_plates <= 20 else 14.0 if n_plates <= 45 else 17.0
+    return width, width * 0.5
+
+
+def label_size(n_plates: int) -> float:
+    """Font size (points) of plate labels: smaller as plates get more.
+
+    Parameters
+    ----------
+    n_plates : int
+
+    Returns
+    -------
+    float
+    """
+    return 8.0 if n_plates <= 20 else 7.0 if n_plates <= 45 else 6.0
+
+
+def _axes(title=None, n_plates=14):
     import cartopy.crs as ccrs
     plt = _plt()
-    fig = plt.figure(figsize=(11, 6))
+    fig = plt.figure(figsize=figure_size(n_plates))
     ax = fig.add_subplot(1, 1, 1, projection=ccrs.EqualEarth())
     ax.set_global()
     if title:
         ax.set_title(title, fontsize=12)
     return fig, ax
+
+
+def caption(fig, text: str) -> None:
+    """The one-line caption every figure carries: what it shows, in which frame.
+
+    Parameters
+    ----------
+    fig : matplotlib Figure
+    text : str
+    """
+    fig.draw_without_rendering()            # apply the maps' aspect before measuring
+    bottom = min(a.get_position().y0 for a in fig.axes)
+    legends = [a.get_legend() for a in fig.axes if a.get_legend()] + list(fig.legends)
+    if legends:
+        inv = fig.transFigure.inverted()
+        bottom = min([bottom] + [inv.transform(l.get_window_extent().p0)[1] for l in legends])
+    fig.text(0.5, bottom - 0.012, text, ha="center", va="top", fontsize=7.5,
+             style="italic", wrap=True)
+
+
+def place_labels(ax, lon, lat, names, fontsize=8.0, priority=None):
+    """Write labels at points so that no two overlap: each is tried at its point, then at
+    growing offsets around it, and joined to its point by a leader line when moved.
+
+    Greedy, in order of ``priority`` (largest first; default the order given): a label
+    that finds no free place within the offsets tried stays at the last one, with its
+    leader line.
+
+    Parameters
+    ----------
+    ax : matplotlib or cartopy axes
+    lon, lat : array_like, shape (n,)
+        Degrees.
+    names : sequence of str
+    fontsize : float
+    priority : array_like, shape (n,), optional
+
+    Returns
+    -------
+    list of matplotlib Text
+        The labels, in the order of ``names``.
+    """
+    import cartopy.crs as ccrs
+    fig = ax.figure
+    fig.canvas.draw()                      # layout must be final for the extents
+    renderer = fig.canvas.get_renderer()
+    lon, lat = np.asarray(lon, float), np.asarray(lat, float)
+    xy = ax.projection.transform_points(ccrs.PlateCarree(), lon, lat)[:, :2]
+    order = np.argsort(-np.asarray(priority)) if priority is not None else range(len(names))
+    step = fontsize * 1.4                   # points
+    offsets = [(0.0, 0.0)] + [(r * step * np.cos(a), r * step * np.sin(a))
+                              for r in (1, 2, 3, 4) for a in np.radians(np.arange(0, 360, 45))]
+    placed, texts = [], [None] * len(names)
+    box = dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.7)
+    for i in order:
+        t = ax.annotate(names[i], xy=xy[i], xycoords="data", xytext=(0, 0),
+                        textcoords="offset points", ha="center", va="center",
+                        fontsize=fontsize, color="#222222", bbox=box, zorder=8,
+                        annotation_clip=False)
+        t.set_clip_on(False)                 # a label near the map's edge stays whole
+        frame = ax.get_window_extent(renderer)
+        for dx, dy in offsets:
+            t.set_position((dx, dy))
+            ext = t.get_window_extent(renderer).expanded(1.05, 1.1)
+            inside = (frame.x0 <= ext.x0 and ext.x1 <= frame.x1 and frame.y0 <= ext.y0
+                      and ext.y1 <= frame.y1)
+            if inside and not any(ext.overlaps(b) for b in placed):
+                break
+        placed.append(t.get_window_extent(renderer))
+        if (dx, dy) != (0.0, 0.0):
+            ax.annotate("", xy=xy[i], xycoords="data", xytext=(dx, dy),
+                        textcoords="offset points", zorder=7,
+                        arrowprops=dict(arrowstyle="-", lw=0.6, color="#444444",
+                                        shrinkA=0, shrinkB=0))
+        texts[i] = t
+    return texts
+
+
+def label_plates(ax, world, fontsize=None):
+    """Plate names at their centroids, placed so that they do not overlap (big plates
+    first).
+
+    Parameters
+    ----------
+    ax : cartopy GeoAxes
+    world : World
+    fontsize : float, optional
+        Default :func:`label_size` of the number of plates.
+
+    Returns
+    -------
+    list of matplotlib Text
+    """
+    area, first, _ = world.geometry.moments
+    clon, clat = sphere.xyz_to_lonlat(first)
+    size = fontsize or label_size(len(world.plates))
+    return place_labels(ax, clon, clat, world.plate_names, size, priority=area)
 
 
 def plate_colours(world) -> list:
@@ -113,12 +265,7 @@ def draw_plates(ax, world, continents=None, labels=True):
                     hatch="...", lw=0.8)
     draw_boundaries(ax, world)
     if labels:
-        _, first, _ = world.geometry.moments
-        clon, clat = sphere.xyz_to_lonlat(first)
-        for p, x, y in zip(world.plates, clon, clat):
-            ax.text(x, y, p.name, transform=ccrs.PlateCarree(), ha="center", va="center",
-                    fontsize=8, color="#222222",
-                    bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.6))
+        label_plates(ax, world)
 
 
 def _line_lonlat(xyz, step_rad=np.radians(1.0)):
@@ -169,9 +316,11 @@ def _teeth(ax, world, b, spacing_km, colour):
 
 
 def _legend(ax, extra=()):
+    # below the map, where it hides no plate or label
     handles, labels = ax.get_legend_handles_labels()
     if handles:
-        ax.legend(loc="lower left", fontsize=8, framealpha=0.85)
+        ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.01), ncol=min(len(handles), 7),
+                  fontsize=8, frameon=False)
 
 
 def _save(fig, path):
@@ -198,9 +347,12 @@ def plates_map(world, path, continents=None):
     Path
         The file written.
     """
-    fig, ax = _axes(f"{world.name}: plates and boundaries")
+    fig, ax = _axes(f"{world.name}: plates and boundaries", len(world.plates))
     draw_plates(ax, world, continents)
     _legend(ax)
+    caption(fig, "Plates (fills tell neighbours apart), continents hatched, boundaries by "
+            "kind with teeth on the overriding side of subduction zones. Geographic "
+            "coordinates, Equal Earth projection.")
     return _save(fig, path)
 
 
@@ -213,7 +365,8 @@ def _sample_points(n=400):
 
 
 def velocity_map(world, path, omega_obs, omega_pred=None, continents=None):
-    """Velocity arrows of observed (black) and predicted (orange) motions.
+    """Velocity arrows of observed (black) and predicted (orange) motions over the observed
+    speed, with plate names.
 
     Parameters
     ----------
@@ -230,8 +383,21 @@ def velocity_map(world, path, omega_obs, omega_pred=None, continents=None):
     """
     import cartopy.crs as ccrs
 
-    fig, ax = _axes(f"{world.name}: plate velocities (mm/yr)")
-    draw_plates(ax, world, continents, labels=False)
+    fig, ax = _axes(f"{world.name}: plate velocities (mm/yr)", len(world.plates))
+    # the observed speed as the background, its scale clipped at a stated percentile
+    lon, lat, idx = _raster(world, 1.0)
+    LON, LAT = np.meshgrid(lon, lat)
+    grid_xyz = sphere.lonlat_to_xyz(LON, LAT).reshape(-1, 3)
+    ge, gn = velocity_en(omega_obs[idx.ravel()], grid_xyz, world.radius_m)
+    speed = np.hypot(ge, gn).reshape(idx.shape)                      # mm/yr
+    top = float(np.percentile(speed, CLIP_PERCENTILE))
+    m = ax.pcolormesh(np.r_[lon - 0.5, 180], np.r_[lat - 0.5, 90], speed, cmap="Greys",
+                      vmin=0, vmax=top, alpha=0.45, transform=ccrs.PlateCarree(),
+                      rasterized=True)
+    fig.colorbar(m, ax=ax, shrink=0.55, extend="max", pad=0.02,
+                 label=f"observed speed, mm/yr (scale clipped at the {CLIP_PERCENTILE:g}th "
+                       f"percentile, {top:.0f})")
+    draw_boundaries(ax, world)
     xyz = _sample_points()
     lon, lat = sphere.xyz_to_lonlat(xyz)
     plate = world.locate_xyz(xyz)
@@ -245,9 +411,13 @@ def velocity_map(world, path, omega_obs, omega_pred=None, continents=None):
         ve, vn = velocity_en(om[plate], xyz, world.radius_m)
         q = ax.quiver(lon, lat, ve, vn, transform=ccrs.PlateCarree(), color=col, scale=scale,
                       width=width, zorder=5, label=lab)
-    ax.quiverkey(q, 0.86, 0.06, 50, "50 mm/yr", labelpos="E", coordinates="axes",
-                 fontproperties={"size": 8})
+    ax.quiverkey(q, 0.86, 0.06, 50, "50 mm/yr", labelpos="E",
+                 coordinates="axes", fontproperties={"size": 8})
+    label_plates(ax, world)
     _legend(ax)
+    caption(fig, "Arrows: observed motions in the frame they were given"
+            + ("; predicted motions in the frame where the mantle is at rest" if omega_pred
+               is not None else "") + ". Grey: observed speed.")
     return _save(fig, path)
 
 
@@ -291,7 +461,8 @@ def poles_map(world, path, fit):
                      else "pole_ellipse")
     ncol = min(7, max(len(plates), 1))
     nrow = -(-len(plates) // ncol)
-    fig = plt.figure(figsize=(11, 6 + 1.6 * nrow))
+    width, height = figure_size(len(plates))
+    fig = plt.figure(figsize=(width, height + 1.6 * nrow))
     grid = fig.add_gridspec(1 + nrow, ncol, height_ratios=[6] + [1.6] * nrow, hspace=0.3,
                             wspace=0.35)
     ax = fig.add_subplot(grid[0, :], projection=ccrs.EqualEarth())
@@ -307,8 +478,6 @@ def poles_map(world, path, fit):
                 transform=ccrs.PlateCarree(), zorder=6)
         ax.plot(q["lon"], q["lat"], "^", ms=6, color=PREDICTED_COLOUR,
                 transform=ccrs.PlateCarree(), zorder=6)
-        ax.text(q["lon"], q["lat"], " " + p["plate"], fontsize=7,
-                transform=ccrs.PlateCarree(), zorder=6)
         # ellipses over the markers, so that small ones still show as rings
         for key, which, colour, style in styles:
             e = p.get(key) or {}
@@ -317,6 +486,9 @@ def poles_map(world, path, fit):
                                          e["minor_deg"], e["azimuth_deg"])
                 ax.plot(lo, la, transform=ccrs.Geodetic(), color=colour, lw=1.4, ls=style,
                         zorder=7)
+    place_labels(ax, [p["predicted"]["lon"] for p in plates],
+                 [p["predicted"]["lat"] for p in plates], [p["plate"] for p in plates],
+                 label_size(len(plates)) - 1)
     for i, p in enumerate(plates):
         _pole_zoom(fig.add_subplot(grid[1 + i // ncol, i % ncol]), p, styles)
     what = ("prediction: coefficients and observations" if predicted_key == "prediction_ellipse"
@@ -328,9 +500,9 @@ def poles_map(world, path, fit):
         Line2D([], [], marker="^", ls="", color=PREDICTED_COLOUR, label="predicted pole"),
         Line2D([], [], color=PREDICTED_COLOUR, label=f"its 95 % ellipse ({what})")],
         loc="upper center", bbox_to_anchor=(0.5, -0.01), ncol=4, fontsize=7, frameon=False)
-    fig.text(0.5, 0.005, "Below: each plate's poles zoomed, in degrees of arc east and north of "
-             "the midpoint between them. Poles in the frame where the mantle is at rest.",
-             ha="center", fontsize=7)
+    caption(fig, "Poles of observed and predicted Euler vectors in the frame where the mantle "
+            "is at rest; below, each plate's poles zoomed (degrees of arc east and north of "
+            "their midpoint).")
     return _save(fig, path)
 
 
@@ -389,17 +561,25 @@ def misfit_map(world, path, omega_obs, omega_pred):
     """
     import cartopy.crs as ccrs
 
-    fig, ax = _axes(f"{world.name}: velocity misfit |v_pred - v_obs| (mm/yr)")
+    fig, ax = _axes(f"{world.name}: velocity misfit |v_pred - v_obs| (mm/yr)",
+                    len(world.plates))
     lon, lat, idx = _raster(world, 1.0)
     LON, LAT = np.meshgrid(lon, lat)
     xyz = sphere.lonlat_to_xyz(LON, LAT).reshape(-1, 3)
     dw = (omega_pred - omega_obs)[idx.ravel()]
     ve, vn = velocity_en(dw, xyz, world.radius_m)
     mag = np.hypot(ve, vn).reshape(idx.shape)
+    top = float(np.percentile(mag, CLIP_PERCENTILE)) or 1.0
     m = ax.pcolormesh(np.r_[lon - 0.5, 180], np.r_[lat - 0.5, 90], mag, cmap="viridis",
-                      transform=ccrs.PlateCarree(), rasterized=True)
+                      vmin=0, vmax=top, transform=ccrs.PlateCarree(), rasterized=True)
     draw_boundaries(ax, world)
-    fig.colorbar(m, ax=ax, shrink=0.6, label="mm/yr")
+    fig.colorbar(m, ax=ax, shrink=0.6, extend="max", pad=0.02,
+                 label=f"mm/yr (scale clipped at the {CLIP_PERCENTILE:g}th percentile, "
+                       f"{top:.1f}; max {mag.max():.1f})")
+    label_plates(ax, world)
+    _legend(ax)
+    caption(fig, "Speed of the difference between predicted (mantle at rest) and observed "
+            "motions, on a 1 degree grid.")
     return _save(fig, path)
 
 
@@ -421,11 +601,11 @@ def budget_chart(path, fit):
     fig, ax = plt.subplots(figsize=(9, 0.35 * len(plates) + 1.5))
     left_pos = np.zeros(len(plates))
     left_neg = np.zeros(len(plates))
-    cols = PLATE_COLOURS + list(KIND_STYLE[k]["color"] for k in KIND_STYLE)
-    for k, l in enumerate(labels):
+    cols = force_colours(labels)
+    for l in labels:
         v = np.array([p["budget"].get(l) or 0.0 for p in fit.plates])
         start = np.where(v >= 0, left_pos, left_neg)
-        ax.barh(plates, v, left=start, color=cols[k % len(cols)], label=l, edgecolor="white")
+        ax.barh(plates, v, left=start, color=cols[l], label=l, edgecolor="white")
         left_pos += np.where(v >= 0, v, 0)
         left_neg += np.where(v < 0, v, 0)
     ax.axvline(0, color="k", lw=0.8)
@@ -433,6 +613,8 @@ def budget_chart(path, fit):
     ax.set_title(f"force budget: {fit.hypothesis}")
     ax.legend(fontsize=8, loc="lower right")
     ax.invert_yaxis()
+    caption(fig, "Each term's torque at the fitted coefficients and observed motions, "
+            "projected on the plate's driving torque.")
     return _save(fig, path)
 
 
@@ -457,20 +639,79 @@ def torque_chart(path, world, terms, coefficients, omega):
     P = len(world.plates)
     fig, ax = plt.subplots(figsize=(max(8, 0.6 * P), 4.5))
     width = 0.8 / len(terms)
-    cols = PLATE_COLOURS + list(KIND_STYLE[k]["color"] for k in KIND_STYLE)
-    mags = [np.linalg.norm(c * t.torque(omega), axis=1) for t, c in zip(terms, coefficients)]
+    cols = force_colours([t.label for t in terms])
+    mags = [np.linalg.norm(c * t.torque(omega), axis=1) / TORQUE_UNIT_NM
+            for t, c in zip(terms, coefficients)]
     top = max(float(np.max(m)) for m in mags) or 1.0
     for k, (t, mag) in enumerate(zip(terms, mags)):
         # a term with no torque on a plate gets no bar (not a bar at an arbitrary floor)
         ax.bar(np.arange(P) + k * width, np.where(mag > 0, mag, np.nan), width,
-               label=t.label, color=cols[k % len(cols)])
+               label=t.label, color=cols[t.label])
     ax.set_yscale("log")
     ax.set_ylim(top * 1e-4, top * 3)
     ax.set_xticks(np.arange(P) + 0.4 - width / 2)
     ax.set_xticklabels(world.plate_names, rotation=45, ha="right", fontsize=8)
-    ax.set_ylabel("|torque| (N m)")
+    ax.set_ylabel("|torque| (10^25 N m)")
     ax.set_title("torque of each term on each plate (at the fitted coefficients)")
     ax.legend(fontsize=8, loc="upper left", bbox_to_anchor=(1.01, 1.0))
+    caption(fig, "Magnitudes of the torques about the planet's centre, log scale; motion-"
+            "dependent terms at the observed motions.")
+    return _save(fig, path)
+
+
+def torque_globe(path, world, terms, coefficients, omega):
+    """Each term's torque on each plate as an arrow at the plate's centroid, on two
+    orthographic hemispheres.
+
+    An arrow points where the torque would move the centroid (``tau x c``, the direction of
+    the equivalent force of :mod:`torque.torque_table`) and its length is the torque's
+    magnitude about axes other than the centroid's (10^25 N m, with a key).
+
+    Parameters
+    ----------
+    path : str or Path
+    world : World
+    terms : list of ForceTerm
+    coefficients : sequence of float
+        One per term.
+    omega : ndarray, shape (P, 3)
+        rad/s, for the velocity-dependent terms.
+
+    Returns
+    -------
+    Path
+    """
+    import cartopy.crs as ccrs
+    from matplotlib.lines import Line2D
+    from .torque_table import TorqueTable
+    plt = _plt()
+    table = TorqueTable.from_terms(world, terms, coefficients, omega)
+    force = table.equivalent_force_n()                                  # (P, K, 2)
+    # arrows scaled as torques: |F| R = |tau perpendicular to c|
+    arrow = force * world.radius_m / TORQUE_UNIT_NM
+    clon, clat = sphere.xyz_to_lonlat(table.centroid)
+    cols = force_colours(table.labels)
+    longest = float(np.max(np.linalg.norm(arrow, axis=-1))) or 1.0
+    key = float(f"{longest / 2:.0g}") or longest / 2
+    fig = plt.figure(figsize=(13, 6.8))
+    for i, centre in enumerate((0.0, 180.0)):
+        ax = fig.add_subplot(1, 2, i + 1, projection=ccrs.Orthographic(centre, 0.0))
+        ax.set_global()
+        draw_plates(ax, world, labels=False)
+        for k, label in enumerate(table.labels):
+            q = ax.quiver(clon, clat, arrow[:, k, 0], arrow[:, k, 1],
+                          transform=ccrs.PlateCarree(), color=cols[label], scale=longest * 6,
+                          width=0.006, zorder=6)
+        ax.quiverkey(q, 0.82, 0.04, key, f"{key:g} x 10^25 N m", labelpos="E", color="#333333",
+                     coordinates="axes", fontproperties={"size": 8})
+        ax.set_title(f"centred on {centre:g} E", fontsize=10)
+    fig.suptitle(f"{world.name}: torque of each term on each plate (10^25 N m)", fontsize=12)
+    fig.legend(handles=[Line2D([], [], color=cols[l], lw=3, label=l) for l in table.labels],
+               loc="lower center", ncol=min(len(table.labels), 6), fontsize=8,
+               frameon=False, bbox_to_anchor=(0.5, 0.04))
+    caption(fig, "Arrows at plate centroids point where each torque would move the centroid; "
+            "length is the torque's magnitude (less its spin about the centroid), at the "
+            "fitted coefficients and observed motions.")
     return _save(fig, path)
 
 
@@ -542,10 +783,34 @@ class MapKind:
         return f"MapKind({self.shows!r}, needs {list(self.needs)})"
 
 
-def _draw_torques(inp: MapInputs, path):
+def _fitted_terms(inp: MapInputs):
     terms = build_terms(Context(inp.inputs, inp.hypothesis, inp.observed))
-    coefs = inp.fit.values([t.label for t in terms], file=inp.fit_path)
+    return terms, inp.fit.values([t.label for t in terms], file=inp.fit_path)
+
+
+def _draw_torques(inp: MapInputs, path):
+    terms, coefs = _fitted_terms(inp)
     return torque_chart(path, inp.world, terms, coefs, inp.observed)
+
+
+def _draw_misfit(inp: MapInputs, path):
+    if inp.fit is not None:
+        if inp.observed is not None or inp.predicted is not None:
+            raise InputError("a misfit map takes --fit, or --motions with --predicted, not "
+                             "both", hint="the fit's poles are both in the mantle's frame")
+        obs, pred = (pole_to_vector(*np.array([[p[k]["lat"], p[k]["lon"], p[k]["rate"]]
+                                                for p in inp.fit.plates]).T)
+                     for k in ("observed", "predicted"))
+        order = [inp.fit.plate_names.index(n) for n in inp.world.plate_names]
+        return misfit_map(inp.world, path, obs[order], pred[order])
+    if inp.observed is None or inp.predicted is None:
+        raise InputError("a misfit map needs --fit, or --motions and --predicted")
+    return misfit_map(inp.world, path, inp.observed, inp.predicted)
+
+
+def _draw_torque_globe(inp: MapInputs, path):
+    terms, coefs = _fitted_terms(inp)
+    return torque_globe(path, inp.world, terms, coefs, inp.observed)
 
 
 KINDS = {
@@ -557,12 +822,16 @@ KINDS = {
                                                     i.continents)),
     "poles": MapKind("observed and predicted poles with 95 % ellipses (needs --fit)",
                      ("fit",), ("fit",), lambda i, p: poles_map(i.world, p, i.fit)),
-    "misfit": MapKind("velocity misfit (needs --motions and --predicted)",
-                      ("motions", "predicted"), ("motions", "predicted"),
-                      lambda i, p: misfit_map(i.world, p, i.observed, i.predicted)),
+    "misfit": MapKind("velocity misfit (needs --fit, whose observed and predicted poles "
+                      "are both in the mantle's frame, or --motions and --predicted)",
+                      (), ("motions", "predicted", "fit"), _draw_misfit),
     "budget": MapKind("force budget per plate (needs --fit)", ("fit",), ("fit",),
                       lambda i, p: budget_chart(p, i.fit)),
     "torques": MapKind("torque of each term on each plate (needs --hypothesis, --motions, "
                        "--fit)", ("hypothesis", "motions", "fit"),
                        ("hypothesis", "motions", "fit"), _draw_torques),
+    "torque-globe": MapKind("each term's torque as arrows at plate centroids on two "
+                            "hemispheres (needs --hypothesis, --motions, --fit)",
+                            ("hypothesis", "motions", "fit"),
+                            ("hypothesis", "motions", "fit"), _draw_torque_globe),
 }

@@ -211,5 +211,7 @@ def draw_maps(outdir, inputs, motions_path, predicted_path, hyp_path, fit_path) 
             ("Euler poles with 95 % ellipses", maps.poles_map(world, m / "poles.png", fit)),
             ("Velocity misfit", maps.misfit_map(world, m / "misfit.png", obs, pred)),
             ("Force budget", maps.budget_chart(m / "budget.png", fit)),
-            ("Torques", maps.torque_chart(m / "torques.png", world, terms, coefs, obs))]
+            ("Torques", maps.torque_chart(m / "torques.png", world, terms, coefs, obs)),
+            ("Torques on the globe",
+             maps.torque_globe(m / "torque_globe.png", world, terms, coefs, obs))]
     return [(t, str(Path(p).relative_to(outdir))) for t, p in figs]
