@@ -49,7 +49,7 @@ def test_every_figure_is_written_and_the_report_is_whole(demo_run):
     out, info, lines = demo_run
     pngs = sorted((out / "maps").glob("*.png"))
     assert {p.stem for p in pngs} == {"plates", "velocities", "poles", "misfit", "budget",
-                                      "torques"}
+                                      "torques", "torque_globe"}
     for p in pngs:
         assert p.stat().st_size > 10_000
         assert p.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
@@ -65,7 +65,7 @@ def test_every_figure_is_written_and_the_report_is_whole(demo_run):
 
     parser = Links()
     parser.feed((out / "report.html").read_text())
-    assert parser.tags.count("img") == 6 and "table" in parser.tags
+    assert parser.tags.count("img") == len(pngs) and "table" in parser.tags
     for ref in parser.refs:
         assert ref.startswith("data:image/png;base64,") or (out / ref).is_file(), ref
     md = (out / "report.md").read_text()
