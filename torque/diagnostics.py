@@ -30,6 +30,7 @@ from .balance import (FIT_METHODS, PREFERRED_FIT, Fit, System, covariance_blocks
                       on_one_blas_thread, predict, rigid_constraint)
 from .errors import InputError
 from .euler import M_S_TO_MM_YR, RAD_S_PER_DEG_MYR, vector_to_pole
+from .tabular import html_table, number
 
 CONFIDENCE = 0.95
 CAUTION = "model-dependent research estimate; not for hazard or engineering use"
@@ -477,6 +478,73 @@ class FitResult:
     def plate_names(self) -> list:
         """The plates, in the order of :attr:`plates`."""
         return [p["plate"] for p in self.plates]
+
+    # -- notebooks -------------------------------------------------------------------------
+    def _repr_html_(self) -> str:
+        rows = [[label, c.value, c.stderr if c.free else "fixed",
+                 f"{number(c.profile_low)} to {number(c.profile_high)}"
+                 if c.profile_high is not None else "", c.unit]
+                for label, c in self.coefficients.items()]
+        m = self.misfit
+        cap = (f"{self.hypothesis}: RMS velocity misfit "
+               f"{number(m.get('rms_velocity_mm_yr'))} mm/yr, {len(self.plates)} plates")
+        return html_table(["term", "value", "std. error", "95 % profile interval", "unit"],
+                          rows, cap)
+
+    def to_dataframe(self, what: str = "plates"):
+        """The per-plate results, or the coefficients, as a pandas DataFrame.
+
+        Parameters
+        ----------
+        what : {"plates", "coefficients"}
+
+        Returns
+        -------
+        pandas.DataFrame
+            ``plates``: indexed by plate, columns ``observed_lat``, ``observed_lon``,
+            ``observed_rate``, the same for ``predicted``, ``pole_distance_deg``,
+            ``rate_ratio``, ``rms_velocity_mm_yr`` and ``budget_<term>``;
+            ``coefficients``: indexed by term, the fields of :class:`Coefficient`.
+        """
+        import pandas as pd
+        if what == "coefficients":
+            return pd.DataFrame({l: dict(c.__dict__) for l, c in self.coefficients.items()}
+                                ).T.infer_objects().rename_axis("term")
+        if what != "plates":
+            raise ValueError(f"what must be 'plates' or 'coefficients', got {what!r}")
+        rows = []
+        for p in self.plates:
+            row = {f"{k}_{x}": p[k][x] for k in ("observed", "predicted")
+                   for x in ("lat", "lon", "rate")}
+            row.update({k: p.get(k) for k in ("pole_distance_deg", "rate_ratio",
+                                               "rms_velocity_mm_yr")})
+            row.update({f"budget_{l}": v for l, v in (p.get("budget") or {}).items()})
+            rows.append(row)
+        return pd.DataFrame(rows, index=pd.Index(self.plate_names, name="plate"))
+
+    def to_dataset(self):
+        """The results as an xarray Dataset with dimensions ``plate`` and ``term``.
+
+        Returns
+        -------
+        xarray.Dataset
+            Per plate the poles and misfits, per term the coefficients, per plate and term
+            the force budget; the misfit numbers and the hypothesis as attributes.
+        """
+        import xarray as xr
+        plates = self.to_dataframe("plates")
+        coefs = self.to_dataframe("coefficients")
+        budget = [c for c in plates.columns if c.startswith("budget_")]
+        data = {c: ("plate", plates[c].to_numpy(float)) for c in plates.columns
+                if c not in budget}
+        data["budget"] = (("plate", "term"), plates[budget].to_numpy(float))
+        for c in ("value", "stderr", "torque_space_value", "profile_low", "profile_high"):
+            data[f"coefficient_{c}"] = ("term", coefs[c].to_numpy(float))
+        attrs = {"hypothesis": self.hypothesis, "preferred_fit": self.preferred_fit,
+                 **{k: v for k, v in self.misfit.items() if isinstance(v, (int, float, str))}}
+        return xr.Dataset(data, coords={"plate": list(plates.index),
+                                        "term": [b[len("budget_"):] for b in budget]},
+                          attrs=attrs)
 
     def values(self, labels, file=None) -> list:
         """The value of each coefficient in ``labels``, in that order.

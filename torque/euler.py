@@ -258,6 +258,57 @@ class Motions:
         """``(lat_deg, lon_deg, rate_deg_myr)`` arrays, rate >= 0."""
         return vector_to_pole(self.omega)
 
+    def _repr_html_(self) -> str:
+        from .tabular import html_table
+        lat, lon, rate = self.poles
+        rows = [[p, float(a), float(o), float(r)] for p, a, o, r in zip(self.plates, lat, lon,
+                                                                          rate)]
+        return html_table(["plate", "pole lat", "pole lon", "rate deg/Myr"], rows,
+                          f"Euler vectors of {len(self.plates)} plates")
+
+    def to_dataframe(self):
+        """The Euler vectors as a pandas DataFrame indexed by plate.
+
+        Returns
+        -------
+        pandas.DataFrame
+            ``lat``, ``lon`` (degrees), ``rate`` (deg/Myr, >= 0), the Cartesian
+            ``wx_deg_myr``, ``wy_deg_myr``, ``wz_deg_myr``, and with a covariance its
+            ``cov_*`` columns in (deg/Myr)^2.
+        """
+        import pandas as pd
+        lat, lon, rate = self.poles
+        w = self.omega / RAD_S_PER_DEG_MYR
+        cols = {"lat": lat, "lon": lon, "rate": rate, "wx_deg_myr": w[:, 0],
+                "wy_deg_myr": w[:, 1], "wz_deg_myr": w[:, 2]}
+        if self.cov is not None:
+            c = self.cov / RAD_S_PER_DEG_MYR ** 2
+            for name, (a, b) in zip(COV_COLUMNS, ((0, 0), (0, 1), (0, 2), (1, 1), (1, 2),
+                                                  (2, 2))):
+                cols[name] = c[:, a, b]
+        return pd.DataFrame(cols, index=pd.Index(list(self.plates), name="plate"))
+
+    def to_dataset(self):
+        """The Euler vectors as an xarray Dataset with dimensions ``plate`` and ``axis``.
+
+        Returns
+        -------
+        xarray.Dataset
+            ``omega_deg_myr`` (plate, axis), pole ``lat``, ``lon``, ``rate`` (plate), and
+            ``cov_deg2_myr2`` (plate, axis, axis2) when known.
+        """
+        import xarray as xr
+        lat, lon, rate = self.poles
+        data = {"omega_deg_myr": (("plate", "axis"), self.omega / RAD_S_PER_DEG_MYR),
+                "lat": ("plate", lat), "lon": ("plate", lon), "rate": ("plate", rate)}
+        if self.cov is not None:
+            data["cov_deg2_myr2"] = (("plate", "axis", "axis2"),
+                                     self.cov / RAD_S_PER_DEG_MYR ** 2)
+        return xr.Dataset(data, coords={"plate": list(self.plates), "axis": ["x", "y", "z"],
+                                        **({"axis2": ["x", "y", "z"]} if self.cov is not None
+                                           else {})},
+                          attrs={"source": self.source or ""})
+
     def index(self) -> dict:
         """``{plate: row}`` of these motions.
         """

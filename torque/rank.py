@@ -48,6 +48,7 @@ from . import progress
 from .balance import System, fit_torque, fit_velocity, on_one_blas_thread, predict
 from .diagnostics import analyse, f_test, likelihood_ratio_test, velocity_misfit
 from .errors import InputError
+from .tabular import html_table
 
 
 @dataclass(frozen=True)
@@ -97,6 +98,45 @@ class Row:
     effective_observations: int = 0
     effective_parameters: int = 0
     chi_square: float | None = None
+
+
+class Ranking(list):
+    """The rows of a ranking (a list of :class:`Row`, best first) that a notebook shows as
+    a table and pandas or xarray can take."""
+
+    def _repr_html_(self) -> str:
+        rows = [[r.name, r.cv_rms_mm_yr, r.cv_stderr_mm_yr,
+                 "yes" if r.within_one_se else "no", r.rms_velocity_mm_yr, r.free,
+                 round(r.aic, 1), round(r.bic, 1)] for r in self]
+        return html_table(["hypothesis", "CV mm/yr", "± se", "within 1 se of best",
+                           "RMS mm/yr", "free", "AIC", "BIC"], rows,
+                          "hypotheses, best first by leave-one-plate-out cross-validation")
+
+    def to_dataframe(self):
+        """One row per hypothesis, best first: the fields of :class:`Row` (its free
+        coefficients as ``coef_<label>``).
+
+        Returns
+        -------
+        pandas.DataFrame
+        """
+        import pandas as pd
+        rows = []
+        for r in self:
+            d = {k: v for k, v in r.__dict__.items() if k != "coefficients"}
+            d.update({f"coef_{l}": v for l, v in r.coefficients.items()})
+            rows.append(d)
+        return pd.DataFrame(rows).set_index("name")
+
+    def to_dataset(self):
+        """The ranking as an xarray Dataset with dimension ``hypothesis``.
+
+        Returns
+        -------
+        xarray.Dataset
+        """
+        import xarray as xr
+        return xr.Dataset.from_dataframe(self.to_dataframe().rename_axis("hypothesis"))
 
 
 def cross_validation_errors(system: System, omega_obs, weighting="velocity",
@@ -200,8 +240,8 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
 
     Returns
     -------
-    rows : list of Row
-        Sorted by cross-validation error, lowest first.
+    rows : Ranking
+        A list of :class:`Row`, sorted by cross-validation error, lowest first.
     tests : list of dict
         Comparisons of the nested pairs: ``smaller``, ``bigger``, ``test``
         (``"likelihood-ratio"``, ``"F"`` or ``"cross-validation"``) and its numbers
@@ -239,7 +279,7 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
                         effective_observations=m["effective_observations"],
                         effective_parameters=m["effective_parameters"],
                         chi_square=m.get("chi_square")))
-    rows.sort(key=lambda r: (np.isnan(r.cv_rms_mm_yr), r.cv_rms_mm_yr))
+    rows = Ranking(sorted(rows, key=lambda r: (np.isnan(r.cv_rms_mm_yr), r.cv_rms_mm_yr)))
     by_name = {s.name: (s, m) for s, _, m in fitted}
     tests = []
     for a in systems:

@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import sphere
+from .tabular import html_table
 
 #: The unit torques are reported in.
 TORQUE_UNIT_NM = 1e25
@@ -166,6 +167,47 @@ class TorqueTable:
         order = np.argsort(-mag, axis=1)[:, :n]
         return [[(self.labels[k], float(mag[p, k])) for k in row if mag[p, k] > 0]
                 for p, row in enumerate(order)]
+
+    # -- notebooks -------------------------------------------------------------------------
+    def _repr_html_(self) -> str:
+        rows = [[p, *map(float, m)] for p, m in zip(self.plates, self.magnitude)]
+        return html_table(["plate", *self.labels], rows,
+                          "|torque| in 10^25 N m, by plate and term")
+
+    def to_dataframe(self):
+        """The table as a pandas DataFrame: one row per term and plate, then the totals
+        (the columns of :meth:`columns`).
+
+        Returns
+        -------
+        pandas.DataFrame
+        """
+        import pandas as pd
+        return pd.DataFrame(self.columns())
+
+    def to_dataset(self):
+        """The table as an xarray Dataset, dimensions ``plate``, ``term`` and ``axis``.
+
+        Returns
+        -------
+        xarray.Dataset
+            ``torque_nm`` (plate, term, axis), ``magnitude_1e25_nm``, ``pole_lat``,
+            ``pole_lon`` (plate, term), ``coefficient`` and ``coefficient_source`` (term),
+            ``total_nm`` (plate, axis).
+        """
+        import xarray as xr
+        lat, lon = self.pole
+        return xr.Dataset(
+            {"torque_nm": (("plate", "term", "axis"), self.torque_nm),
+             "magnitude_1e25_nm": (("plate", "term"), self.magnitude),
+             "pole_lat": (("plate", "term"), lat), "pole_lon": (("plate", "term"), lon),
+             "coefficient": ("term", self.coefficients),
+             "coefficient_source": ("term", list(self.sources)),
+             "total_nm": (("plate", "axis"), self.total_nm)},
+            coords={"plate": list(self.plates), "term": list(self.labels),
+                    "axis": ["x", "y", "z"]},
+            attrs={"units": "N m (torque_nm, total_nm), 1e25 N m (magnitude), degrees "
+                            "(poles)", "radius_m": self.radius_m})
 
     def columns(self) -> dict:
         """The table as CSV columns: one row per term and plate (term by term), then per
