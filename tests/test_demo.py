@@ -110,3 +110,97 @@ def test_demo_world_is_what_the_generator_makes(tmp_path):
     with xr.open_dataset(tmp_path / "ages.nc") as a, xr.open_dataset(DEMO / "ages.nc") as b:
         np.testing.assert_allclose(a["age"].values, b["age"].values, rtol=1e-9, atol=1e-9,
                                    equal_nan=True)
+
+
+# -- the report in a real browser (issue 14, item 5) -------------------------------------
+# A probe put at the top of <head> of a copy of the report records every error (scripts,
+# console.error, resources that fail to load, caught in the capture phase) and, after the
+# load event, each image's natural width; headless Chromium dumps the DOM with it. The
+# flags are those this machine's notes give for a closed network.
+PROBE = """<script>
+window.__errors = [];
+window.addEventListener("error", function (e) {
+  window.__errors.push(String(e.message || (e.target && (e.target.src || "").slice(0, 60))
+                              || "error"));
+}, true);
+var __consoleError = console.error;
+console.error = function () {
+  window.__errors.push(Array.prototype.join.call(arguments, " "));
+  __consoleError.apply(console, arguments);
+};
+window.addEventListener("load", function () {
+  var images = Array.prototype.map.call(document.images, function (i) {
+    return [i.alt, i.complete, i.naturalWidth];
+  });
+  var pre = document.createElement("pre");
+  pre.id = "torque-probe";
+  pre.textContent = JSON.stringify({errors: window.__errors, images: images,
+                                    text: document.body.innerText.length});
+  document.body.appendChild(pre);
+});
+</script>"""
+CHROMIUM_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+                  "--no-first-run", "--disable-background-networking",
+                  "--disable-component-update", "--disable-sync"]
+
+
+def _chromium():
+    import shutil
+    return shutil.which("chromium") or shutil.which("chromium-browser")
+
+
+def _browse(html_path, tmp_path, *extra):
+    import subprocess
+    return subprocess.run([_chromium(), *CHROMIUM_FLAGS, f"--user-data-dir={tmp_path / 'ud'}",
+                           *extra, html_path.resolve().as_uri()], capture_output=True,
+                          text=True, timeout=120)
+
+
+def _probe(report, tmp_path):
+    import re
+    page = tmp_path / "probed.html"
+    page.write_text(report.read_text().replace("<head>", "<head>" + PROBE, 1))
+    done = _browse(page, tmp_path, "--virtual-time-budget=10000", "--dump-dom")
+    found = re.search(r'<pre id="torque-probe">(.*?)</pre>', done.stdout, re.S)
+    assert found, f"Chromium gave no probe result (status {done.returncode}): {done.stderr[-500:]}"
+    import html
+    return json.loads(html.unescape(found.group(1)))
+
+
+@pytest.fixture
+def browser():
+    if _chromium() is None:
+        pytest.skip("SKIPPED, no browser: Chromium is not installed (Debian's package "
+                    "'chromium'; .ci/run installs it where apt-get is allowed), so the "
+                    "report was not rendered")
+    return _chromium()
+
+
+def test_the_report_renders_in_a_real_browser(demo_run, browser, tmp_path):
+    out, _, _ = demo_run
+    result = _probe(out / "report.html", tmp_path)
+    assert result["errors"] == []
+    figures = sorted((out / "maps").glob("*.png"))
+    assert len(result["images"]) == len(figures)
+    assert all(complete and width > 0 for _, complete, width in result["images"])
+    assert result["text"] > 5000                         # tables and notes, not a stub
+    # the screenshot is not blank: a real share of it is neither white nor one colour
+    from matplotlib.image import imread
+    shot = tmp_path / "report.png"
+    done = _browse(out / "report.html", tmp_path, "--window-size=1200,2400",
+                   f"--screenshot={shot}")
+    assert shot.is_file(), done.stderr[-500:]
+    pixels = imread(shot)[..., :3]
+    inked = np.mean(np.any(pixels < 0.9, axis=-1))
+    assert inked > 0.05 and pixels.std() > 0.05
+
+
+def test_the_browser_check_catches_a_broken_image(demo_run, browser, tmp_path):
+    # the check above can fail: a report whose figure is not valid image data
+    out, _, _ = demo_run
+    broken = tmp_path / "broken.html"
+    text = (out / "report.html").read_text()
+    start = text.index("data:image/png;base64,") + len("data:image/png;base64,")
+    broken.write_text(text[:start] + "AAAA" + text[start + 4000:])
+    result = _probe(broken, tmp_path)
+    assert result["errors"] and any(width == 0 for _, _, width in result["images"])
