@@ -118,11 +118,12 @@ def caption(fig, text: str) -> None:
     text : str
     """
     fig.draw_without_rendering()            # apply the maps' aspect before measuring
-    bottom = min(a.get_position().y0 for a in fig.axes)
-    legends = [a.get_legend() for a in fig.axes if a.get_legend()] + list(fig.legends)
-    if legends:
-        inv = fig.transFigure.inverted()
-        bottom = min([bottom] + [inv.transform(l.get_window_extent().p0)[1] for l in legends])
+    renderer = fig.canvas.get_renderer()
+    inv = fig.transFigure.inverted()
+    # below everything drawn: axes with their tick labels, and legends
+    boxes = [a.get_tightbbox(renderer) for a in fig.axes]
+    boxes += [l.get_window_extent(renderer) for l in fig.legends]
+    bottom = min(inv.transform((0, b.y0))[1] for b in boxes if b is not None)
     fig.text(0.5, bottom - 0.012, text, ha="center", va="top", fontsize=7.5,
              style="italic", wrap=True)
 

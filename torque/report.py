@@ -91,6 +91,10 @@ def _uncertainty_tables(fits) -> list:
     out = []
     for name, fit in fits:
         methods = list((fit.uncertainty or {}).items())
+        note = None if out else (
+            "95 % intervals. Resampled members are refitted by the velocity-space fit unless "
+            "the JSON says otherwise; the profile likelihood holds where the misfit is not "
+            "quadratic or a bound is near.")
         header = ["term", "value", "± 1.96 std. error", "profile likelihood"] + [
             f"{m.replace('_', ' ')} ({u['members']})" for m, u in methods]
         rows = []
@@ -106,11 +110,7 @@ def _uncertainty_tables(fits) -> list:
                 row.append(f"{_fmt(s.get('p2_5'))} to {_fmt(s.get('p97_5'))}")
             rows.append(row)
         if rows:
-            out.append((f"Uncertainty: {name}", header, rows,
-                        "95 % intervals. Resampled members are refitted by the "
-                        "velocity-space fit unless the JSON says otherwise; the profile "
-                        "likelihood holds where the misfit is not quadratic or a bound is "
-                        "near."))
+            out.append((f"Uncertainty: {name}", header, rows, note))
     return out
 
 
