@@ -124,11 +124,11 @@ def caption(fig, text: str) -> None:
     boxes = [a.get_tightbbox(renderer) for a in fig.axes]
     boxes += [l.get_window_extent(renderer) for l in fig.legends]
     bottom = min(inv.transform((0, b.y0))[1] for b in boxes if b is not None)
-    fig.text(0.5, bottom - 0.012, text, ha="center", va="top", fontsize=7.5,
+    fig.text(0.5, bottom - 0.02, text, ha="center", va="top", fontsize=7.5,
              style="italic", wrap=True)
 
 
-def place_labels(ax, lon, lat, names, fontsize=8.0, priority=None):
+def place_labels(ax, lon, lat, names, fontsize=8.0, priority=None, obstacles=None):
     """Write labels at points so that no two overlap: each is tried at its point, then at
     growing offsets around it, and joined to its point by a leader line when moved.
 
@@ -144,6 +144,8 @@ def place_labels(ax, lon, lat, names, fontsize=8.0, priority=None):
     names : sequence of str
     fontsize : float
     priority : array_like, shape (n,), optional
+    obstacles : (lon, lat) of array_like, optional
+        Points (markers) no label may cover; labels then start beside their point.
 
     Returns
     -------
@@ -161,6 +163,14 @@ def place_labels(ax, lon, lat, names, fontsize=8.0, priority=None):
     offsets = [(0.0, 0.0)] + [(r * step * np.cos(a), r * step * np.sin(a))
                               for r in (1, 2, 3, 4) for a in np.radians(np.arange(0, 360, 45))]
     placed, texts = [], [None] * len(names)
+    if obstacles is not None:
+        pts = ax.projection.transform_points(ccrs.PlateCarree(), np.asarray(obstacles[0], float),
+                                             np.asarray(obstacles[1], float))[:, :2]
+        from matplotlib.transforms import Bbox
+        half = fontsize * 0.6 * fig.dpi / 72          # pixels around each marker
+        for x, y in ax.transData.transform(pts):
+            placed.append(Bbox([[x - half, y - half], [x + half, y + half]]))
+        offsets = offsets[1:]
     box = dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.7)
     for i in order:
         t = ax.annotate(names[i], xy=xy[i], xycoords="data", xytext=(0, 0),
@@ -487,9 +497,11 @@ def poles_map(world, path, fit):
                                          e["minor_deg"], e["azimuth_deg"])
                 ax.plot(lo, la, transform=ccrs.Geodetic(), color=colour, lw=1.4, ls=style,
                         zorder=7)
+    markers = ([p[w]["lon"] for p in plates for w in ("observed", "predicted")],
+               [p[w]["lat"] for p in plates for w in ("observed", "predicted")])
     place_labels(ax, [p["predicted"]["lon"] for p in plates],
                  [p["predicted"]["lat"] for p in plates], [p["plate"] for p in plates],
-                 label_size(len(plates)) - 1)
+                 label_size(len(plates)) - 1, obstacles=markers)
     for i, p in enumerate(plates):
         _pole_zoom(fig.add_subplot(grid[1 + i // ncol, i % ncol]), p, styles)
     what = ("prediction: coefficients and observations" if predicted_key == "prediction_ellipse"
