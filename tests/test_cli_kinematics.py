@@ -239,3 +239,20 @@ def test_outputs_get_ordinary_permissions(hemi, cli):
     mask = os.umask(0)
     os.umask(mask)
     assert stat.S_IMODE(os.stat(tmp / "f.csv").st_mode) == 0o666 & ~mask
+
+
+def test_a_zero_rotation_has_no_pole(tmp_path, cli):
+    # a rotation of zero (to the printed precision) has no pole (common practice, no
+    # source): motions already in the no-net-rotation frame, moved there again, have a net
+    # rotation of rounding size, and the command says so instead of printing a pole
+    from .conftest import here
+    from torque.cli.text import pole
+    demo = here().parent / "polygons_demo"
+    nnr = tmp_path / "nnr.csv"
+    assert cli("frame", demo / "motions.csv", "--world", demo / "world.toml", "--to", "nnr",
+               "-o", nnr)[0] == 0
+    status, out, _ = cli("frame", nnr, "--world", demo / "world.toml", "--to", "nnr",
+                         "-o", tmp_path / "again.csv")
+    assert status == 0 and "no rotation to 1e-6 deg/Myr, so no pole" in out
+    assert pole([0.0, 0.0, 0.0]).startswith("none")
+    assert pole([0.0, 0.0, 1e-12]).startswith("pole 90.0000 N")        # 1.8e3 deg/Myr

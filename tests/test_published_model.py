@@ -223,3 +223,30 @@ def test_ages_synthesised_from_the_fitted_motions_are_flagged(job, cli):
         (job / "fit2.json").read_text())["notes"])
     status, out, err = cli("rank", world, job / "nnr.csv", job / "h.toml", job / "rd.toml")
     assert status == 2 and "partly circular" in err and "--allow-synthetic-ages" in err
+
+
+def test_the_researchers_outputs_on_the_published_model(job, tmp_path, cli):
+    # issue 14 on real data: torques at the fitted values with their totals, the maps that
+    # explain, and a manifest that names every input with its SHA-256 (hashlib)
+    import hashlib
+    world = MODEL / "world.toml"
+    status, out, _ = cli("fit", world, job / "h.toml", MODEL / "motions_G01_fixed.csv",
+                         "--free-frame", "--no-profile", "-o", tmp_path / "f.json")
+    assert status == 0 and "free mantle frame" in out
+    status, out, _ = cli("torques", world, job / "h.toml", "--motions", job / "nnr.csv",
+                         "--coefficients", tmp_path / "f.json", "-o", tmp_path / "t.csv")
+    assert status == 0 and "at the fitted coefficients" in out
+    rows = list(csv.DictReader(open(tmp_path / "t.csv")))
+    assert sum(r["term"] == "total" for r in rows) == 52
+    assert {r["coefficient_source"] for r in rows if r["term"] == "slab"} == {"fitted"}
+    for kind, extra in (("misfit", ["--fit", tmp_path / "f.json"]),
+                        ("torque-globe", ["--hypothesis", job / "h.toml", "--motions",
+                                          job / "nnr.csv", "--fit", tmp_path / "f.json"])):
+        status, _, err = cli("map", world, "--kind", kind, *extra, "-o",
+                             tmp_path / f"{kind}.png")
+        assert status == 0, err
+        assert (tmp_path / f"{kind}.png").stat().st_size > 20_000
+    run = json.loads((tmp_path / "f.json").read_text())["run"]
+    by_name = {Path(i["path"]).name: i["sha256"] for i in run["inputs"]}
+    for name in ("plates.geojson", "boundaries.geojson", "motions_G01_fixed.csv"):
+        assert by_name[name] == hashlib.sha256((MODEL / name).read_bytes()).hexdigest()

@@ -317,3 +317,16 @@ def test_a_touch_within_the_vertex_tolerance_is_no_crossing():
     assert len(ring_crossings(loose.geometry, tol_rad=loose.tolerance_rad)) == 0
     tight = world_from_rings({"A": [ring]}, vertex_tolerance_m=1e-4)
     assert len(ring_crossings(tight.geometry, tol_rad=tight.tolerance_rad)) == 2
+
+
+def test_the_check_table_shows_each_plates_perimeter(cli):
+    # the text table says what the JSON says (its exact perimeter, in km)
+    import json
+    from .conftest import here
+    world = here().parent / "polygons_demo" / "world.toml"
+    status, out, _ = cli("check", world)
+    assert status == 0 and "perimeter km" in out
+    doc = json.loads(cli("check", world, "--json")[1])
+    first = doc["plates"][0]
+    line = next(l for l in out.splitlines() if l.startswith(first["plate"] + " "))
+    assert f"{first['perimeter_m'] / 1e3:,.0f}" in line

@@ -24,9 +24,9 @@ def pole(omega) -> str:
     -------
     str
     """
-    if not np.any(np.asarray(omega, float)):
-        return "none (zero rotation: no pole)"
     lat, lon, rate = vector_to_pole(omega)
+    if float(rate) < 5e-7:       # zero to the printed precision: its pole means nothing
+        return "none (no rotation to 1e-6 deg/Myr, so no pole)"
     return f"pole {float(lat):.4f} N, {float(lon):.4f} E, rate {float(rate):.6f} deg/Myr"
 
 
