@@ -23,7 +23,7 @@ from .euler import pole_to_vector, velocity_en
 from .forces import build_terms
 from .forces.context import Context
 from .io.files import atomic_path
-from .torque_table import TORQUE_UNIT_NM
+from .torque_table import TORQUE_UNIT_NM, TorqueTable
 
 PLATE_COLOURS = ["#9DB8D9", "#E8C77D", "#A9CFA3", "#D9A7BE", "#C9C1E3", "#E6B08F",
                  "#A6D4D1", "#CFCF9C"]
@@ -653,9 +653,8 @@ def torque_chart(path, world, terms, coefficients, omega):
     fig, ax = plt.subplots(figsize=(max(8, 0.6 * P), 4.5))
     width = 0.8 / len(terms)
     cols = force_colours([t.label for t in terms])
-    mags = [np.linalg.norm(c * t.torque(omega), axis=1) / TORQUE_UNIT_NM
-            for t, c in zip(terms, coefficients)]
-    top = max(float(np.max(m)) for m in mags) or 1.0
+    mags = TorqueTable.from_terms(world, terms, coefficients, omega).magnitude.T  # (K, P)
+    top = float(np.max(mags)) or 1.0
     for k, (t, mag) in enumerate(zip(terms, mags)):
         # a term with no torque on a plate gets no bar (not a bar at an arbitrary floor)
         ax.bar(np.arange(P) + k * width, np.where(mag > 0, mag, np.nan), width,
@@ -696,7 +695,6 @@ def torque_globe(path, world, terms, coefficients, omega):
     """
     import cartopy.crs as ccrs
     from matplotlib.lines import Line2D
-    from .torque_table import TorqueTable
     plt = _plt()
     table = TorqueTable.from_terms(world, terms, coefficients, omega)
     force = table.equivalent_force_n()                                  # (P, K, 2)
