@@ -1,22 +1,43 @@
 """Trench suction: a line force on the overriding plate at the trench, toward the trench.
 
-Its magnitude per metre is the coefficient times ``force_per_length`` if given, else the
-negative buoyancy of the slab below (computed as for :mod:`torque.forces.slab`, with the
-same age and depth rules), so that the coefficient is the fraction of the slab's buoyancy
-felt as suction by the overriding plate.
+What is modelled is trench suction as Forsyth and Uyeda (1975) introduced it: a force per
+metre of trench pulling the overriding plate toward the trench, normal to it, constant
+along pieces of at most 50 km. Two forms (``form``):
+
+* ``"fraction"`` (default): per metre, the coefficient (dimensionless) times
+  ``force_per_length`` if given, else the negative buoyancy of the slab below (computed as
+  for :mod:`torque.forces.slab`, with the same age and depth rules): suction as a share of
+  the slab's pull;
+* ``"per-length"``: the coefficient itself is the suction in N/m, the same along every
+  trench, independent of the slab (its own free coefficient in a fit).
+
+Not modelled: suction as tractions of slab-driven mantle flow on the bases of both plates
+(give such a flow to the ``mantle`` kind instead).
+
+References
+----------
+.. [1] Forsyth, D. and Uyeda, S. (1975). On the relative importance of the driving forces
+   of plate motion. *Geophys. J. R. Astr. Soc.* 43, 163-200 (page numbers from memory).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
+from ..errors import InputError
 from .base import ForceTerm, empty_term
 from .slab import KEYS as SLAB_KEYS
 from .slab import POSITIVE, slab_buoyancy, trench_geometry  # noqa: F401
 
 KIND = "suction"
 UNIT = "dimensionless"
-KEYS = dict(SLAB_KEYS)
+#: The coefficient's unit in the per-length form.
+PER_LENGTH_UNIT = "N/m"
+KEYS = {**SLAB_KEYS,
+        "form": '"fraction" (default: the coefficient is a fraction of the slab\'s negative '
+                'buoyancy) or "per-length" (the coefficient is the suction in N/m)'}
+CHOICES = {"form": ("fraction", "per-length")}
+DEFAULTS = {"form": "fraction"}
 
 
 def default_label(options) -> str:
@@ -48,9 +69,18 @@ def build(ctx, spec) -> ForceTerm:
     ForceTerm
     """
     pcs, sub_left, sinking, overriding = trench_geometry(ctx, spec.label)
-    F, notes = slab_buoyancy(ctx, spec, pcs, sub_left, sinking)
+    if spec.options["form"] == "per-length":
+        slab_keys = sorted(set(spec.options) & set(SLAB_KEYS))
+        if slab_keys:
+            raise InputError(f"{spec.label}: {', '.join(map(repr, slab_keys))} describe the "
+                             "slab, which the per-length form does not use",
+                             file=ctx.hypothesis.source,
+                             hint='drop them, or use form = "fraction"')
+        F, notes, unit = np.ones(len(pcs.theta)), [], PER_LENGTH_UNIT
+    else:
+        (F, notes), unit = slab_buoyancy(ctx, spec, pcs, sub_left, sinking), UNIT
     # toward the sinking plate: +n if it is on the left
     sign = np.where(sub_left, 1.0, -1.0)
-    term = empty_term(ctx, spec, UNIT, notes)
+    term = empty_term(ctx, spec, unit, notes)
     term.driving[:] = ctx.line_force_torque(pcs, F, sign, overriding)
     return term
