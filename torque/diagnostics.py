@@ -768,6 +768,15 @@ class Report:
                 **({"prediction_ellipse": pole_ellipse(self.omega_pred[p], pred_blocks[p])}
                    if pred_blocks is not None else {}),
             })
+        misfit = self._misfit_record(glob)
+        return FitResult(s.name, {l: Coefficient(**c) for l, c in coefs.items()},
+                         tuple(plates), misfit, self.uncertainty, tuple(notes),
+                         self.preferred_fit, self._frame_dict())
+
+    def _misfit_record(self, glob) -> dict:
+        """The fit's misfit numbers: what was minimised, the effective counts, the
+        information criteria and both fits' sums of squares."""
+        s, pref, tf = self.system, self.preferred, self.torque_fit
         k = s.n_free
         # a free frame is three more parameters (a given one none)
         n_frame = 3 if self.frame is not None and not self.frame.get("given") else 0
@@ -794,9 +803,7 @@ class Report:
                   "torque_space_rss": tf.rss,
                   "torque_space_weighting": tf.info.get("weighting"),
                   "active_bounds": list(pref.active_bounds)}
-        return FitResult(s.name, {l: Coefficient(**c) for l, c in coefs.items()},
-                         tuple(plates), misfit, self.uncertainty, tuple(notes),
-                         self.preferred_fit, self._frame_dict())
+        return misfit
 
     def _frame_dict(self):
         """The mantle frame (fitted, given, or assumed) and the net rotations, as
