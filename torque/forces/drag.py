@@ -4,19 +4,41 @@ For a plate turning at ``omega`` the torque is ``-C R^4 D omega`` with ``D = int
 dA`` over the region on the unit sphere, exact for the whole plate and for its oceanic or
 continental part (continents clipped to plates exactly, :mod:`torque.continents`).
 The coefficient C is in Pa s/m (for a channel of thickness h and viscosity eta, C = eta/h).
+
+With ``coupling = "age"`` (oceanic drag only) the coupling varies with the sea floor's age:
+a low-viscosity channel runs from the base of the thermal lithosphere, ``h_L(t) = 2.32
+sqrt(kappa t)`` (Turcotte and Schubert 2002, eq. 4-127; capped at the plate thickness of
+the plate model, and at 90 % of the channel's base), down to a fixed depth ``H``
+(``channel_depth_km``, default 300), so ``C(t) = eta / (H - h_L(t))`` and the coefficient
+is C at ``reference_age_myr`` (default 60): ``C(t) = C (H - h_L(t_ref)) / (H - h_L(t))``.
+Old, thick lithosphere couples more. The drag tensor is then a sum over the age grid's
+oceanic nodes, ``sum_i w(t_i) a_i (I - r_i r_i^T)`` (a discretisation: its error is that of
+the grid near plate edges and margins, and it tends to the exact tensor as the weights
+tend to 1, tested); with uniform coupling it stays the exact polygon tensor.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
+from ..errors import InputError
+from ..euler import MYR_S
 from .base import ForceTerm, empty_term
 
 KIND = "drag"
 UNIT = "Pa s/m"
-KEYS = {"region": '"all" (default), "ocean" or "continent"'}
-CHOICES = {"region": ("all", "ocean", "continent")}
-DEFAULTS = {"region": "all"}
+KEYS = {"region": '"all" (default), "ocean" or "continent"',
+        "coupling": '"uniform" (default, exact) or "age" (oceanic drag weighted by sea-floor '
+                    'age through a channel of fixed base; see the module)',
+        "channel_depth_km": "age coupling: depth of the channel's base, km (default 300)",
+        "reference_age_myr": "age coupling: the age at which C is the coefficient, Myr "
+                             "(default 60)"}
+CHOICES = {"region": ("all", "ocean", "continent"), "coupling": ("uniform", "age")}
+DEFAULTS = {"region": "all", "coupling": "uniform"}
+POSITIVE = ("channel_depth_km", "reference_age_myr")
+#: Thermal lithosphere thickness is this times sqrt(kappa t) (Turcotte and Schubert 2002,
+#: eq. 4-127: the depth where the half-space temperature reaches 90 % of the contrast).
+LITHOSPHERE_FACTOR = 2.32
 
 
 def default_label(options) -> str:
@@ -84,7 +106,79 @@ def build(ctx, spec) -> ForceTerm:
     -------
     ForceTerm
     """
+    if spec.options["coupling"] == "age":
+        return _age_coupled(ctx, spec)
+    extra = sorted(set(spec.options) & {"channel_depth_km", "reference_age_myr"})
+    if extra:
+        raise InputError(f"{spec.label}: {', '.join(map(repr, extra))} are for age coupling",
+                         file=ctx.hypothesis.source, hint='add coupling = "age", or drop them')
     blocks = resisting_blocks(ctx, spec.options["region"])
     term = empty_term(ctx, spec, UNIT, region_notes(ctx, spec))
     term.resisting[:] = blocks
+    return term
+
+
+def age_weight(age_myr, physics, channel_depth_km=300.0, reference_age_myr=60.0):
+    """Relative coupling ``C(t) / C(t_ref) = (H - h_L(t_ref)) / (H - h_L(t))``.
+
+    Parameters
+    ----------
+    age_myr : array_like
+    physics : Physics
+        Its diffusivity, and the plate thickness of the plate model, set ``h_L``.
+    channel_depth_km, reference_age_myr : float
+
+    Returns
+    -------
+    ndarray
+        Dimensionless, 1 at the reference age.
+
+    Examples
+    --------
+    >>> from torque.lithosphere import Physics
+    >>> w = age_weight([10.0, 60.0, 120.0], Physics())
+    >>> [round(float(x), 3) for x in w]
+    [0.796, 1.0, 1.022]
+    """
+    H = channel_depth_km * 1e3
+    cap = 0.9 * H
+    if physics.model == "plate":
+        cap = min(cap, physics.plate_thickness_km * 1e3)
+
+    def thickness(t):
+        t = np.clip(np.asarray(t, float), 0.0, None) * MYR_S
+        return np.minimum(LITHOSPHERE_FACTOR * np.sqrt(physics.diffusivity * t), cap)
+    return (H - thickness(reference_age_myr)) / (H - thickness(age_myr))
+
+
+def _age_coupled(ctx, spec) -> ForceTerm:
+    """Oceanic drag with the age coupling, as a sum over the age grid's oceanic nodes."""
+    if spec.options["region"] != "ocean":
+        raise InputError(f"{spec.label}: age coupling weights oceanic drag by sea-floor age",
+                         file=ctx.hypothesis.source, hint='use region = "ocean"')
+    grid = ctx.age_grid_if_any()
+    if grid is None:
+        raise InputError(f"{spec.label}: age coupling needs sea-floor ages", file=ctx.hypothesis.source,
+                         hint="give the world an age grid (or motions, to synthesise ages)")
+    age = grid.age_myr
+    ocean = np.isfinite(age) & ~ctx.node_continental(grid)
+    H = float(spec.option("channel_depth_km", 300.0))
+    t_ref = float(spec.option("reference_age_myr", 60.0))
+    w = np.where(ocean, age_weight(np.nan_to_num(age), ctx.hypothesis.physics, H, t_ref), 0.0)
+    r = ctx.node_xyz(grid)
+    weight = (w * grid.cell_areas()).ravel()
+    plate = ctx.node_plates(grid).ravel()
+    rr = r.reshape(-1, 3)
+    P = ctx.world.geometry.n_plates
+    D = np.zeros((P, 3, 3))
+    for i in range(3):
+        for j in range(i, 3):
+            # int (I - r r^T) dA, one component at a time
+            comp = (i == j) - rr[:, i] * rr[:, j]
+            D[:, i, j] = D[:, j, i] = np.bincount(plate, weights=weight * comp, minlength=P)
+    term = empty_term(ctx, spec, UNIT, [
+        f"{spec.label}: coupling weighted by sea-floor age (channel base {H:g} km, C at "
+        f"{t_ref:g} Myr; weights {w[ocean].min():.3g} to {w[ocean].max():.3g}), summed over "
+        f"{int(ocean.sum()):,} oceanic nodes of {grid.source}"])
+    term.resisting[np.arange(P), :, np.arange(P), :] = -ctx.R ** 4 * D
     return term
