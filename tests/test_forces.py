@@ -309,3 +309,28 @@ def test_uniform_age_coupling_tends_to_the_exact_oceanic_tensor():
         torque.compute_torques(inputs, hyp({"kind": "drag", "channel_depth_km": 300.0}))
     with pytest.raises(InputError, match='use region = "ocean"'):
         torque.compute_torques(inputs, hyp({"kind": "drag", "coupling": "age"}))
+
+
+def test_upper_and_lower_mantle_slabs_split_the_whole():
+    # a vertical slab's buoyancy g L int rho alpha dT dz is linear in the depth L it spans
+    # (Turcotte and Schubert 2002, sec. 6-20): on the half-equator trench (torque
+    # (2 F R^2, 0, 0) on Lower) a 1000 km slab of 70 Myr splits at 660 km into the
+    # buoyancy of 660 km and of 340 km, from the cooling model's direct quadrature
+    w = trench_world()
+    whole, upper, lower = compute_torques(w, hyp(
+        {"kind": "slab", "coefficient": 1.0, "age_myr": 70.0, "depth_km": 1000.0},
+        {"kind": "slab", "coefficient": 1.0, "age_myr": 70.0, "depth_km": 1000.0,
+         "mantle_part": "upper"},
+        {"kind": "slab", "coefficient": 1.0, "age_myr": 70.0, "depth_km": 1000.0,
+         "mantle_part": "lower"}))
+    assert (upper.label, lower.label) == ("slab_upper", "slab_lower")
+    c = Cooling(Physics())
+    for term, depth in ((whole, 1000.0), (upper, 660.0), (lower, 340.0)):
+        F = float(c.slab_pull_n_m(70.0, depth))
+        np.testing.assert_allclose(term.torque()[1], [2 * F * R**2, 0, 0], rtol=1e-8,
+                                   atol=1e-9 * F * R**2)
+    np.testing.assert_allclose(upper.driving + lower.driving, whole.driving, rtol=1e-12,
+                               atol=1e-9 * np.abs(whole.driving).max())
+    with pytest.raises(InputError, match="needs the slab's buoyancy"):
+        compute_torques(w, hyp({"kind": "slab", "force_per_length": 3e13,
+                                "mantle_part": "upper"}))

@@ -9,6 +9,12 @@ the line's ``slab_age_myr`` property, the age field 30 km inside the subducting 
 entry's ``age_myr``; the depth from the line's ``slab_depth_km``, the entry's ``depth_km``,
 else 660 km. The force is constant along pieces of at most 50 km.
 
+``mantle_part = "upper"`` or ``"lower"`` keeps only the part of the slab above or below
+``split_depth_km`` (default 660): the buoyancy of a vertical slab is linear in the depth
+it spans, so the two parts add up to the whole, and two entries give upper- and
+lower-mantle slabs a coefficient each (upper-mantle slabs pull their plates, lower-mantle
+ones act mostly through mantle flow: Conrad and Lithgow-Bertelloni 2002, *Science* 298).
+
 .. [1] Turcotte, D. L. and Schubert, G. (2002). *Geodynamics*, 2nd ed., sec. 6-20.
 """
 
@@ -17,6 +23,7 @@ from __future__ import annotations
 import numpy as np
 
 from .. import sphere
+from ..errors import InputError
 from .base import ForceTerm, empty_term
 
 KIND = "slab"
@@ -26,8 +33,12 @@ KEYS = {
     "age_myr": "slab age at the trench, Myr, where neither the line nor the age field says "
                "(default 60)",
     "force_per_length": "N/m: overrides the cooling model's slab buoyancy",
+    "mantle_part": '"whole" (default), "upper" or "lower": the part of the slab above or '
+                   'below split_depth_km',
+    "split_depth_km": "depth between the upper and lower parts, km (default 660)",
 }
-POSITIVE = ("depth_km", "age_myr", "force_per_length")
+POSITIVE = ("depth_km", "age_myr", "force_per_length", "split_depth_km")
+CHOICES = {"mantle_part": ("whole", "upper", "lower")}
 DEFAULT_DEPTH_KM = 660.0
 #: Slab age (Myr) where neither the line, the age field nor the entry gives one: about the
 #: mean age of sea floor entering trenches today (common practice, no source; from memory).
@@ -46,7 +57,8 @@ def default_label(options) -> str:
     -------
     str
     """
-    return KIND
+    part = options.get("mantle_part", "whole")
+    return KIND if part == "whole" else f"{KIND}_{part}"
 
 
 def trench_geometry(ctx, label):
@@ -95,12 +107,20 @@ def slab_buoyancy(ctx, spec, pcs, sub_left, sinking) -> tuple[np.ndarray, list]:
         N/m.
     notes : list of str
     """
+    part = spec.options.get("mantle_part", "whole")
     if "force_per_length" in spec.options:
+        if part != "whole":
+            raise InputError(f"{spec.label}: an upper or lower part needs the slab's "
+                             "buoyancy from the cooling model, not force_per_length",
+                             file=ctx.hypothesis.source, hint="drop one of them")
         return np.full(len(pcs.theta), float(spec.options["force_per_length"])), []
     bnd = ctx.world.boundaries
     depth = np.array([b.properties.get("slab_depth_km",
                                        spec.options.get("depth_km", DEFAULT_DEPTH_KM))
                       for b in bnd], dtype=float)[pcs.line]
+    if part != "whole":
+        split = float(spec.options.get("split_depth_km", DEFAULT_DEPTH_KM))
+        depth = np.minimum(depth, split) if part == "upper" else np.maximum(depth - split, 0)
     age = np.array([b.properties.get("slab_age_myr", np.nan) for b in bnd],
                    dtype=float)[pcs.line]
     notes = []

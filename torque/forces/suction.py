@@ -26,6 +26,7 @@ import numpy as np
 
 from ..errors import InputError
 from .base import ForceTerm, empty_term
+from .slab import CHOICES as SLAB_CHOICES
 from .slab import KEYS as SLAB_KEYS
 from .slab import POSITIVE, slab_buoyancy, trench_geometry  # noqa: F401
 
@@ -36,7 +37,7 @@ PER_LENGTH_UNIT = "N/m"
 KEYS = {**SLAB_KEYS,
         "form": '"fraction" (default: the coefficient is a fraction of the slab\'s negative '
                 'buoyancy) or "per-length" (the coefficient is the suction in N/m)'}
-CHOICES = {"form": ("fraction", "per-length")}
+CHOICES = {"form": ("fraction", "per-length"), **SLAB_CHOICES}
 DEFAULTS = {"form": "fraction"}
 
 
