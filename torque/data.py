@@ -64,6 +64,10 @@ class WorldData:
         Sea-floor ages; checked against the plates on first use.
     flow : FlowGrid, optional
         Mantle flow; checked to cover the sphere on first use.
+    coupling : CouplingGrid, optional
+        Basal drag coupling (Pa s/m); checked to cover the sphere on first use.
+    topography : TopographyGrid, optional
+        Elevation and crustal thickness; checked to cover the sphere on first use.
 
     Examples
     --------
@@ -77,17 +81,22 @@ class WorldData:
     [1.333333, 1.333333, 1.333333]
     """
 
-    def __init__(self, world, *, continents=None, ages=None, flow=None):
+    #: data key -> world file key
+    FILE_KEYS = {"continents": "continents", "ages": "ages", "flow": "mantle_flow",
+                 "coupling": "drag_coupling", "topography": "topography"}
+
+    def __init__(self, world, *, continents=None, ages=None, flow=None, coupling=None,
+                 topography=None):
         self.world = world
-        self._given = {"continents": continents, "ages": ages, "flow": flow}
+        self._given = {"continents": continents, "ages": ages, "flow": flow,
+                       "coupling": coupling, "topography": topography}
         self._node_cache: dict = {}
         self._loaded: dict = {}
         self._synth_cache: dict = {}
 
     def __repr__(self) -> str:
-        have = [k for k in ("continents", "ages", "flow")
-                if self._given[k] is not None or k in self.world.paths
-                or (k == "flow" and "mantle_flow" in self.world.paths)]
+        have = [k for k, f in self.FILE_KEYS.items()
+                if self._given[k] is not None or f in self.world.paths]
         return f"{type(self).__name__}({self.world!r}, data: {', '.join(have) or 'none'})"
 
     def _read(self, key: str):
@@ -135,6 +144,27 @@ class WorldData:
             # outside the grid the mantle would silently be taken at rest
             raise InputError("the mantle flow grid does not cover the plates (it must span "
                              "all longitudes and reach within a grid step of both poles; it "
+                             f"spans lon {grid.lon[0]:g} to {grid.lon[-1]:g}, lat "
+                             f"{grid.lat[0]:g} to {grid.lat[-1]:g})", file=grid.source)
+        return grid
+
+    @cached_property
+    def coupling(self):
+        """The basal drag coupling grid (:class:`~torque.grids.CouplingGrid`), checked to
+        cover the sphere, or None."""
+        return self._covering(self._data("coupling"), "drag coupling grid")
+
+    @cached_property
+    def topography(self):
+        """The topography grid (:class:`~torque.grids.TopographyGrid`), checked to cover
+        the sphere, or None."""
+        return self._covering(self._data("topography"), "topography grid")
+
+    @staticmethod
+    def _covering(grid, what):
+        if grid is not None and not grid.covers_sphere():
+            raise InputError(f"the {what} does not cover the plates (it must span all "
+                             "longitudes and reach within a grid step of both poles; it "
                              f"spans lon {grid.lon[0]:g} to {grid.lon[-1]:g}, lat "
                              f"{grid.lat[0]:g} to {grid.lat[-1]:g})", file=grid.source)
         return grid

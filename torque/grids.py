@@ -1,4 +1,5 @@
-"""Regular lon/lat grids: sea-floor ages and mantle flow, and sampling them.
+"""Regular lon/lat grids: sea-floor ages, mantle flow, drag coupling and topography, and
+sampling them.
 
 An age grid is regular in longitude and latitude, ages in Myr, NaN where there is no
 oceanic lithosphere. A mantle flow grid holds the east and north velocity of the mantle
@@ -122,6 +123,72 @@ class FlowGrid(RegularGrid):
         """
         return (self._sample(self.ve_mm_yr, lon_deg, lat_deg),
                 self._sample(self.vn_mm_yr, lon_deg, lat_deg))
+
+
+@dataclass(frozen=True, eq=False)
+class CouplingGrid(RegularGrid):
+    """Basal drag coupling ``C`` (Pa s/m, the traction per unit slip velocity) on a regular
+    grid, shape (nlat, nlon): for a channel of viscosity eta and thickness h, C = eta / h.
+
+    Attributes
+    ----------
+    lon, lat : ndarray
+    coupling_pa_s_m : ndarray, shape (nlat, nlon)
+        Finite and non-negative.
+    source : str
+    """
+
+    coupling_pa_s_m: np.ndarray = None
+    source: str = "<memory>"
+
+    def sample(self, lon_deg, lat_deg) -> np.ndarray:
+        """Bilinear coupling (Pa s/m) at points (degrees).
+
+        Parameters
+        ----------
+        lon_deg, lat_deg : array_like, shape (N,)
+
+        Returns
+        -------
+        ndarray, shape (N,)
+        """
+        return self._sample(self.coupling_pa_s_m, lon_deg, lat_deg)
+
+
+@dataclass(frozen=True, eq=False)
+class TopographyGrid(RegularGrid):
+    """Surface elevation (m, negative below sea level) and, optionally, crustal thickness
+    (m) on a regular grid, each of shape (nlat, nlon).
+
+    Attributes
+    ----------
+    lon, lat : ndarray
+    elevation_m : ndarray, shape (nlat, nlon)
+    crust_m : ndarray, shape (nlat, nlon), or None
+        None: the crust follows from the elevation by Airy isostasy (see
+        :mod:`torque.columns`).
+    source : str
+    """
+
+    elevation_m: np.ndarray = None
+    crust_m: np.ndarray | None = None
+    source: str = "<memory>"
+
+    def sample(self, lon_deg, lat_deg):
+        """Bilinear elevation (m) and crustal thickness (m, or None) at points (degrees).
+
+        Parameters
+        ----------
+        lon_deg, lat_deg : array_like, shape (N,)
+
+        Returns
+        -------
+        elevation : ndarray, shape (N,)
+        crust : ndarray, shape (N,), or None
+        """
+        crust = (None if self.crust_m is None
+                 else self._sample(self.crust_m, lon_deg, lat_deg))
+        return self._sample(self.elevation_m, lon_deg, lat_deg), crust
 
 
 def bilinear(glon, glat, values, lon_deg, lat_deg, global_lon: bool) -> np.ndarray:

@@ -30,7 +30,7 @@ class Context:
     omega : ndarray, shape (P, 3), optional
         Angular velocities (rad/s) in world plate order: needed to synthesise ages when the
         world has none.
-    ages, continents, flow : optional
+    ages, continents, flow, coupling, topography : optional
         Data objects in memory, used only when ``data`` is a bare world.
     """
 
@@ -42,9 +42,10 @@ class Context:
     TRENCH_PROBE_KM = 30.0
 
     def __init__(self, data, hypothesis, omega=None, *, ages=None, continents=None,
-                 flow=None):
+                 flow=None, coupling=None, topography=None):
         if not isinstance(data, WorldData):
-            data = WorldData(data, ages=ages, continents=continents, flow=flow)
+            data = WorldData(data, ages=ages, continents=continents, flow=flow,
+                             coupling=coupling, topography=topography)
         self.data = data
         self.world = data.world
         self.hypothesis = hypothesis

@@ -15,6 +15,13 @@ Old, thick lithosphere couples more. The drag tensor is then a sum over the age 
 oceanic nodes, ``sum_i w(t_i) a_i (I - r_i r_i^T)`` (a discretisation: its error is that of
 the grid near plate edges and margins, and it tends to the exact tensor as the weights
 tend to 1, tested); with uniform coupling it stays the exact polygon tensor.
+
+With ``coupling = "grid"`` the coupling is the world's ``drag_coupling`` grid (Pa s/m per
+node, e.g. a channel viscosity over its thickness, C = eta / h), in any region, and the
+coefficient is a dimensionless factor on it. The tensor is the grid sum ``sum_i C_i a_i
+(I - r_i r_i^T)`` over the region's nodes of each plate; a uniform grid gives the exact
+tensor times C to the grid's error at plate edges (tested: 0.028 % median, 0.057 % max
+at 0.5 degree on the demo, 0.0075 % and 0.020 % at 0.25 degree).
 """
 
 from __future__ import annotations
@@ -27,13 +34,16 @@ from .base import ForceTerm, empty_term
 
 KIND = "drag"
 UNIT = "Pa s/m"
+#: With coupling = "grid" the coefficient is a factor on the grid's coupling.
+GRID_UNIT = "dimensionless"
 KEYS = {"region": '"all" (default), "ocean" or "continent"',
-        "coupling": '"uniform" (default, exact) or "age" (oceanic drag weighted by sea-floor '
-                    'age through a channel of fixed base; see the module)',
+        "coupling": '"uniform" (default, exact), "age" (oceanic drag weighted by sea-floor '
+                    'age through a channel of fixed base; see the module) or "grid" (the '
+                    "world's drag_coupling grid, Pa s/m; the coefficient a factor on it)",
         "channel_depth_km": "age coupling: depth of the channel's base, km (default 300)",
         "reference_age_myr": "age coupling: the age at which C is the coefficient, Myr "
                              "(default 60)"}
-CHOICES = {"region": ("all", "ocean", "continent"), "coupling": ("uniform", "age")}
+CHOICES = {"region": ("all", "ocean", "continent"), "coupling": ("uniform", "age", "grid")}
 DEFAULTS = {"region": "all", "coupling": "uniform"}
 POSITIVE = ("channel_depth_km", "reference_age_myr")
 #: Thermal lithosphere thickness is this times sqrt(kappa t) (Turcotte and Schubert 2002,
@@ -106,12 +116,14 @@ def build(ctx, spec) -> ForceTerm:
     -------
     ForceTerm
     """
+    extra = sorted(set(spec.options) & {"channel_depth_km", "reference_age_myr"})
     if spec.options["coupling"] == "age":
         return _age_coupled(ctx, spec)
-    extra = sorted(set(spec.options) & {"channel_depth_km", "reference_age_myr"})
     if extra:
         raise InputError(f"{spec.label}: {', '.join(map(repr, extra))} are for age coupling",
                          file=ctx.hypothesis.source, hint='add coupling = "age", or drop them')
+    if spec.options["coupling"] == "grid":
+        return _grid_coupled(ctx, spec)
     blocks = resisting_blocks(ctx, spec.options["region"])
     term = empty_term(ctx, spec, UNIT, region_notes(ctx, spec))
     term.resisting[:] = blocks
@@ -165,20 +177,66 @@ def _age_coupled(ctx, spec) -> ForceTerm:
     H = float(spec.option("channel_depth_km", 300.0))
     t_ref = float(spec.option("reference_age_myr", 60.0))
     w = np.where(ocean, age_weight(np.nan_to_num(age), ctx.hypothesis.physics, H, t_ref), 0.0)
-    r = ctx.node_xyz(grid)
-    weight = (w * grid.cell_areas()).ravel()
-    plate = ctx.node_plates(grid).ravel()
-    rr = r.reshape(-1, 3)
-    P = ctx.world.geometry.n_plates
-    D = np.zeros((P, 3, 3))
-    for i in range(3):
-        for j in range(i, 3):
-            # int (I - r r^T) dA, one component at a time
-            comp = (i == j) - rr[:, i] * rr[:, j]
-            D[:, i, j] = D[:, j, i] = np.bincount(plate, weights=weight * comp, minlength=P)
+    D = weighted_tensor(ctx, grid, w)
     term = empty_term(ctx, spec, UNIT, [
         f"{spec.label}: coupling weighted by sea-floor age (channel base {H:g} km, C at "
         f"{t_ref:g} Myr; weights {w[ocean].min():.3g} to {w[ocean].max():.3g}), summed over "
         f"{int(ocean.sum()):,} oceanic nodes of {grid.source}"])
+    P = D.shape[0]
+    term.resisting[np.arange(P), :, np.arange(P), :] = -ctx.R ** 4 * D
+    return term
+
+
+def weighted_tensor(ctx, grid, weight) -> np.ndarray:
+    """``sum_i w_i a_i (I - r_i r_i^T)`` over the nodes of each plate, shape (P, 3, 3).
+
+    Parameters
+    ----------
+    ctx : Context
+    grid : RegularGrid
+    weight : ndarray, shape (nlat, nlon)
+        Per node (zero where the term does not act); ``a_i`` is the node's cell area on
+        the unit sphere.
+
+    Returns
+    -------
+    ndarray, shape (P, 3, 3)
+        With weights 1 on every node, the grid's approximation of
+        :meth:`Context.drag_tensor` ("all").
+    """
+    rr = ctx.node_xyz(grid).reshape(-1, 3)
+    wa = (weight * grid.cell_areas()).ravel()
+    plate = ctx.node_plates(grid).ravel()
+    P = ctx.world.geometry.n_plates
+    D = np.zeros((P, 3, 3))
+    for i in range(3):
+        for j in range(i, 3):
+            # int (I - r r^T) dA, one component at a time (no (N, 3, 3) temporary)
+            comp = (i == j) - rr[:, i] * rr[:, j]
+            D[:, i, j] = D[:, j, i] = np.bincount(plate, weights=wa * comp, minlength=P)
+    return D
+
+
+def _grid_coupled(ctx, spec) -> ForceTerm:
+    """Drag with the coupling of the world's grid (Pa s/m), the coefficient a factor."""
+    grid = ctx.data.coupling
+    if grid is None:
+        raise InputError(f"{spec.label}: coupling = \"grid\" needs a drag coupling grid",
+                         file=ctx.world.paths.get("world"),
+                         hint="add 'drag_coupling' (a NetCDF grid of Pa s/m) to the world file")
+    region = spec.options["region"]
+    C = grid.coupling_pa_s_m
+    if region != "all":
+        if ctx.continents is None:
+            ctx.drag_tensor(region)          # the clear error: the region needs continents
+        cont = ctx.node_continental(grid)
+        C = np.where(cont if region == "continent" else ~cont, C, 0.0)
+    D = weighted_tensor(ctx, grid, C)
+    P = D.shape[0]
+    acting = C > 0
+    low = C[acting].min() if acting.any() else 0.0
+    term = empty_term(ctx, spec, GRID_UNIT, region_notes(ctx, spec) + [
+        f"{spec.label}: coupling from {grid.source} ({low:.3g} to {C.max():.3g} Pa s/m), "
+        f"summed over {int(acting.sum()):,} nodes; the coefficient is a factor on it"])
     term.resisting[np.arange(P), :, np.arange(P), :] = -ctx.R ** 4 * D
     return term

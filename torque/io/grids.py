@@ -1,5 +1,5 @@
-"""Grids in and out: sea-floor ages and mantle flow (NetCDF or CSV), velocity fields
-(NetCDF, CF-style), through xarray and the h5netcdf engine."""
+"""Grids in and out: sea-floor ages, mantle flow, drag coupling and topography (NetCDF, and
+CSV for ages), velocity fields (NetCDF, CF-style), through xarray and the h5netcdf engine."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ import json
 import numpy as np
 
 from ..errors import InputError
-from ..grids import MAX_AGE_MYR, AgeGrid, FlowGrid
+from ..grids import MAX_AGE_MYR, AgeGrid, CouplingGrid, FlowGrid, TopographyGrid
 from .files import atomic_path, check_input_file
 from .tables import read_table
 
@@ -53,8 +53,9 @@ def read_ages(path) -> AgeGrid:
     return AgeGrid(lon, lat, age, str(path))
 
 
-def _open_grid(path, variables):
-    """Read 1-D lon, lat and the named 2-D variables (each a tuple of accepted names)."""
+def _open_grid(path, variables, optional=()):
+    """Read 1-D lon, lat and the named 2-D variables (each a tuple of accepted names); a
+    variable whose index is in ``optional`` comes back None when absent."""
     import xarray as xr
     with open(check_input_file(path), "rb") as fh:
         head = fh.read(8)
@@ -77,8 +78,11 @@ def _open_grid(path, variables):
         lon, lon_name = coord(("lon", "longitude", "x"), "longitude")
         lat, lat_name = coord(("lat", "latitude", "y"), "latitude")
         out = []
-        for names in variables:
+        for k, names in enumerate(variables):
             var = next((ds[n] for n in names if n in ds.data_vars), None)
+            if var is None and k in optional:
+                out.append(None)
+                continue
             if var is None:
                 two_d = [v for v in ds.data_vars.values() if v.ndim == 2]
                 if len(variables) == 1 and len(two_d) == 1:
@@ -146,6 +150,77 @@ def read_flow(path) -> FlowGrid:
     if not (np.all(np.isfinite(ve)) and np.all(np.isfinite(vn))):
         raise InputError("the mantle flow grid has NaN or infinite values", file=path)
     return FlowGrid(lon, lat, ve, vn, str(path))
+
+
+def read_coupling(path) -> CouplingGrid:
+    """Read a basal drag coupling grid (NetCDF): 1-D lon, lat and either a 2-D coupling
+    ``coupling_pa_s_m`` (or ``coupling``) in Pa s/m, or a channel viscosity
+    ``viscosity_pa_s`` and thickness ``thickness_m``, taken as C = viscosity / thickness
+    per node.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    CouplingGrid
+        Every node finite and non-negative (a grid must say the coupling everywhere; zero
+        is allowed: no drag there).
+    """
+    path = check_input_file(path)
+    lon, lat, (c, eta, h) = _open_grid(path, [("coupling_pa_s_m", "coupling"),
+                                              ("viscosity_pa_s",), ("thickness_m",)],
+                                       optional=(0, 1, 2))
+    if c is None:
+        if eta is None or h is None:
+            raise InputError("a coupling grid needs 'coupling_pa_s_m' (Pa s/m), or both "
+                             "'viscosity_pa_s' and 'thickness_m'", file=path)
+        if not (np.all(np.isfinite(h)) and np.all(h > 0)):
+            raise InputError("thickness_m must be finite and positive at every node",
+                             file=path)
+        c = eta / h
+    lon, lat, (c,) = _normalise_axes(lon, lat, [c], path)
+    if not np.all(np.isfinite(c)) or np.any(c < 0):
+        bad = int((~np.isfinite(c) | (c < 0)).sum())
+        raise InputError(f"the drag coupling must be finite and non-negative at every node; "
+                         f"{bad} node(s) are not", file=path,
+                         hint="fill gaps (zero means no drag there)")
+    return CouplingGrid(lon, lat, c, str(path))
+
+
+def read_topography(path) -> TopographyGrid:
+    """Read a topography grid (NetCDF): 1-D lon, lat, a 2-D elevation ``elevation_m`` (or
+    ``elevation``, ``z``) in metres above sea level, and optionally a crustal thickness
+    ``crust_km`` in km.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    TopographyGrid
+        Elevations within +-11 km; crust (m) positive where given.
+    """
+    path = check_input_file(path)
+    lon, lat, (e, crust) = _open_grid(path, [("elevation_m", "elevation", "z"),
+                                             ("crust_km",)], optional=(1,))
+    arrays = [e] if crust is None else [e, crust]
+    lon, lat, arrays = _normalise_axes(lon, lat, arrays, path)
+    e = arrays[0]
+    if not np.all(np.isfinite(e)) or np.abs(e).max() > 11000:
+        raise InputError("elevations must be finite metres within +-11 km at every node "
+                         f"(found {np.nanmin(e):g} to {np.nanmax(e):g})", file=path,
+                         hint="is the grid in km? give elevation_m in metres")
+    crust_m = None
+    if crust is not None:
+        c = arrays[1]
+        if not np.all(np.isfinite(c)) or c.min() <= 0 or c.max() > 100:
+            raise InputError("crust_km must be finite, positive and at most 100 km at every "
+                             f"node (found {np.nanmin(c):g} to {np.nanmax(c):g})", file=path)
+        crust_m = c * 1e3
+    return TopographyGrid(lon, lat, e, crust_m, str(path))
 
 
 def _read_csv(path):

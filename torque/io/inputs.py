@@ -1,7 +1,7 @@
 """The inputs of a command: a world and its data files, read and checked once.
 
 :class:`Inputs` is a :class:`~torque.data.WorldData` that reads the world's optional data
-files (continents, ages, mantle flow) the first time a term needs them, so a world whose
+files (continents, ages, mantle flow, drag coupling, topography) the first time a term needs them, so a world whose
 hypothesis never uses its age grid never reads it, and a world used by many hypotheses
 (``torque rank``, the demo) reads, locates and clips everything once.
 """
@@ -17,10 +17,8 @@ from ..forces.context import Context
 from ..validate import check_world as _check_world
 from ..validate import require_valid
 from .geojson import read_continents
-from .grids import read_ages, read_flow
+from .grids import read_ages, read_coupling, read_flow, read_topography
 from .world import FROM_AGES, load_world
-
-_PATH_KEYS = {"continents": "continents", "ages": "ages", "flow": "mantle_flow"}
 
 
 class Inputs(WorldData):
@@ -66,14 +64,15 @@ class Inputs(WorldData):
         return None if p is None else Path(p).resolve()
 
     def _read(self, key: str):
-        path = self.world.paths.get(_PATH_KEYS[key])
+        path = self.world.paths.get(self.FILE_KEYS[key])
         if path is None:
             return None
         if key == "continents":
             if path == FROM_AGES:
                 return MaskContinents.from_ages(self._data("ages"))
             return read_continents(path, self.world.winding)
-        return read_ages(path) if key == "ages" else read_flow(path)
+        return {"ages": read_ages, "flow": read_flow, "coupling": read_coupling,
+                "topography": read_topography}[key](path)
 
     def context(self, hypothesis, omega=None) -> Context:
         """A :class:`~torque.forces.context.Context` of a hypothesis on these inputs.

@@ -21,6 +21,8 @@ WORLD_KEYS = {
                   'no-data nodes',
     "ages": "sea-floor age grid (NetCDF or CSV lon,lat,age_myr)",
     "mantle_flow": "mantle velocity grid (NetCDF)",
+    "drag_coupling": "basal drag coupling grid, Pa s/m (NetCDF), for drag coupling = \"grid\"",
+    "topography": "elevation (and crustal thickness) grid (NetCDF), for the 'gpe' force",
     "winding": '"auto" (default) or "strict"',
     "vertex_tolerance_m": "vertices closer than this are one vertex (default 5 m)",
 }
@@ -29,7 +31,8 @@ WORLD_KEYS = {
 FROM_AGES = "from-ages"
 #: Vertices closer than this are one vertex (a digitiser's repeated point): a few metres.
 DEFAULT_VERTEX_TOLERANCE_M = 5.0
-DATA_KEYS = ("plates", "boundaries", "continents", "ages", "mantle_flow")
+DATA_KEYS = ("plates", "boundaries", "continents", "ages", "mantle_flow", "drag_coupling",
+             "topography")
 
 
 def load_world(path) -> World:
