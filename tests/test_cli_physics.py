@@ -57,7 +57,7 @@ def test_velocity_dependent_terms_need_motions(world, tmp_path, cli):
 def test_unknown_kind_names_the_valid_ones(world, tmp_path, cli):
     h = write_hyp(tmp_path, '[[force]]\nkind = "plume"\n')
     assert_bad(cli("torques", world, h, "-o", tmp_path / "t.csv"), tmp_path / "t.csv",
-               "h.toml", "[[force]] 1", "'plume'", "ridge, slab, suction, drag")
+               "h.toml", "[[force]] 1", "'plume'", "ridge, slab, suction, gpe, drag")
 
 
 def test_unknown_key_names_the_valid_ones(world, tmp_path, cli):

@@ -95,6 +95,56 @@ def clip_moments(world, continents: Continents):
     warnings : list of str
         Stretches where a continent edge runs along a plate edge.
     """
+    clip = clip_edges(world, continents)
+    mid_p = sphere.normalize(clip.plate_a + clip.plate_b)
+    inside = continents.contains(mid_p)
+    arcs_a = np.concatenate([clip.margin_a, clip.plate_a[inside]])
+    arcs_b = np.concatenate([clip.margin_b, clip.plate_b[inside]])
+    owner = np.concatenate([clip.margin_plate, clip.plate_owner[inside]])
+    return (*_open_arc_moments(arcs_a, arcs_b, owner, world.geometry.n_plates),
+            list(clip.warnings))
+
+
+@dataclass(frozen=True, eq=False)
+class ClippedEdges:
+    """Continent and plate edges split where they cross.
+
+    Attributes
+    ----------
+    margin_a, margin_b : ndarray, shape (M, 3)
+        Pieces of continent edges, each inside one plate, continent on the left: the
+        continental margins (the edge between continent and ocean within a plate).
+    margin_plate : ndarray of int, shape (M,)
+        The plate that holds each margin piece.
+    plate_a, plate_b : ndarray, shape (E, 3)
+        Pieces of plate edges.
+    plate_owner : ndarray of int, shape (E,)
+        The plate each piece bounds.
+    warnings : tuple of str
+    """
+
+    margin_a: np.ndarray
+    margin_b: np.ndarray
+    margin_plate: np.ndarray
+    plate_a: np.ndarray
+    plate_b: np.ndarray
+    plate_owner: np.ndarray
+    warnings: tuple = ()
+
+
+def clip_edges(world, continents: Continents) -> ClippedEdges:
+    """Split continent and plate edges at their exact crossings (great-circle intersections)
+    and assign each continent piece to the plate that holds it.
+
+    Parameters
+    ----------
+    world : World
+    continents : Continents
+
+    Returns
+    -------
+    ClippedEdges
+    """
     g = world.geometry
     frame = g.locator.frame
     pa, pb, pplate = g.edges
@@ -136,15 +186,9 @@ def clip_moments(world, continents: Continents):
     c0, c1, c_own = _split_arcs(ca, cb, c_split, c_pts)
     p0, p1, p_own = _split_arcs(pa, pb, p_split, p_pts)
 
-    # continent pieces go to the plate that holds them; plate pieces count inside continents
-    mid_c = sphere.normalize(c0 + c1)
-    plate_of_c = world.locate_xyz(mid_c)
-    mid_p = sphere.normalize(p0 + p1)
-    inside = continents.contains(mid_p)
-    arcs_a = np.concatenate([c0, p0[inside]])
-    arcs_b = np.concatenate([c1, p1[inside]])
-    owner = np.concatenate([plate_of_c, pplate[p_own[inside]]])
-    return (*_open_arc_moments(arcs_a, arcs_b, owner, g.n_plates), warnings)
+    # continent pieces go to the plate that holds them
+    plate_of_c = world.locate_xyz(sphere.normalize(c0 + c1))
+    return ClippedEdges(c0, c1, plate_of_c, p0, p1, pplate[p_own], tuple(warnings))
 
 
 def _touches(v, a, b, n, tol=1e-12):

@@ -22,7 +22,7 @@ from functools import cached_property
 import numpy as np
 
 from . import progress, sphere
-from .continents import MaskContinents, clip_moments
+from .continents import MaskContinents, clip_edges, clip_moments
 from .errors import InputError
 
 #: Grids of at least this many nodes show progress while they are located.
@@ -249,6 +249,26 @@ class WorldData:
                 "continental and oceanic parts of plates are sums over its cells",))
         area, first, second, warnings = clip_moments(self.world, self.continents)
         return ContinentalPart(area, first, second, tuple(warnings))
+
+    @cached_property
+    def margins(self):
+        """The continental margins: continent edges inside plates
+        (:class:`~torque.continents.ClippedEdges`), from continent polygons.
+
+        Raises
+        ------
+        InputError
+            Without continents, or with continents taken from an age grid's no-data nodes
+            (their edges are grid cell edges, not margins).
+        """
+        c = self.continents
+        if c is None or isinstance(c, MaskContinents):
+            raise InputError("continental margins need continent polygons: add a "
+                             "'continents' GeoJSON file to the world"
+                             + (' (continents = "from-ages" has no margin lines)'
+                                if c is not None else ""),
+                             file=self.world.paths.get("world"))
+        return clip_edges(self.world, c)
 
     def drag_tensor(self, region: str) -> np.ndarray:
         """``int (I - r r^T) dA`` over a region of each plate, unit sphere, shape (P, 3, 3).

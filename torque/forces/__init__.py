@@ -30,9 +30,9 @@ __all__ = ["ForceTerm", "Pieces", "Context", "empty_term", "KINDS", "build_terms
 
 
 def _registry():
-    from . import drag, mantle, resistance, ridge, slab, suction
+    from . import drag, gpe, mantle, resistance, ridge, slab, suction
     kinds = []
-    for m in (ridge, slab, suction, drag, mantle, resistance):
+    for m in (ridge, slab, suction, gpe, drag, mantle, resistance):
         # a module is one kind, or lists several in KINDS
         kinds += getattr(m, "KINDS", (m,))
     return {k.KIND: k for k in kinds}
@@ -57,7 +57,7 @@ def build_terms(ctx: Context) -> list:
     forces = ctx.hypothesis.forces
     terms = []
     # a bar only where a term works on a grid (the others take milliseconds)
-    gridded = any(s.kind in ("ridge", "mantle") for s in forces)
+    gridded = any(s.kind in ("ridge", "mantle", "gpe") for s in forces)
     with progress.bar(len(forces), "building terms", minimum=1 if gridded else 10**9) as b:
         for spec in forces:
             b.set_postfix_str(spec.label, refresh=False)

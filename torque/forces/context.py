@@ -184,6 +184,31 @@ class Context:
         return Pieces(pa, pb, arcs.line[piece], n, sphere.arc_first_moment(pa, pb), theta,
                       sphere.slerp_points(pa, pb, 0.5))
 
+    def margin_pieces(self, spacing_km: float | None = None):
+        """Pieces of the continental margins (continent edges inside plates), no longer
+        than ``spacing_km``.
+
+        Parameters
+        ----------
+        spacing_km : float, optional
+            Default :attr:`PIECE_KM`.
+
+        Returns
+        -------
+        pieces : Pieces
+            ``n`` points into the continent; ``line`` indexes the margin arcs.
+        plate : ndarray of int, shape (N,)
+            The plate that holds each piece.
+        """
+        clip = self.data.margins
+        step = (spacing_km or self.PIECE_KM) * 1e3 / self.R
+        pa, pb, piece = sphere.densify_arcs(clip.margin_a, clip.margin_b, step)
+        n, theta = sphere.arc_pole(pa, pb)
+        keep = theta > 1e-14                  # splits at a vertex leave empty pieces
+        pa, pb, piece, n, theta = pa[keep], pb[keep], piece[keep], n[keep], theta[keep]
+        return (Pieces(pa, pb, piece, n, sphere.arc_first_moment(pa, pb), theta,
+                       sphere.slerp_points(pa, pb, 0.5)), clip.margin_plate[piece])
+
     def require_lines(self, kind: str, term: str):
         """InputError unless the world has boundaries of ``kind`` (for term ``term``).
 
