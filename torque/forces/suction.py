@@ -26,8 +26,8 @@ import numpy as np
 
 from ..errors import InputError
 from .base import ForceTerm, empty_term
-from .slab import CHOICES as SLAB_CHOICES
-from .slab import KEYS as SLAB_KEYS
+from .slab import BUOYANCY_CHOICES as SLAB_CHOICES
+from .slab import BUOYANCY_KEYS as SLAB_KEYS
 from .slab import POSITIVE, slab_buoyancy, trench_geometry  # noqa: F401
 
 KIND = "suction"

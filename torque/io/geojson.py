@@ -235,8 +235,43 @@ def plates_from_features(feats, path, winding: str = "auto", noun: str = "plate"
 NUMERIC_LINE_KEYS = {
     "slab_depth_km": "depth the slab reaches, km (slab pull and suction)",
     "slab_age_myr": "age of the sinking plate at the trench, Myr",
+    "slab_dip_deg": "dip of the slab, degrees in (0, 90] (slab warming)",
     "ridge_age_myr": "age at which the edge form of ridge push is evaluated, Myr",
 }
+#: Line properties that are true or false.
+BOOLEAN_LINE_KEYS = {
+    "slab_attached": "whether the slab still hangs from the plate (false: a detached slab, "
+                     "no pull)",
+}
+
+
+def check_line_values(values: dict, path, where) -> None:
+    """InputError unless the slab and ridge numbers of a line (GeoJSON properties, or a
+    row of a slab table) are valid.
+
+    Parameters
+    ----------
+    values : dict
+        Property name -> value; keys other than the documented ones are not checked.
+    path : str or Path
+        For the message.
+    where : str
+        The feature or row, for the message.
+    """
+    for k in NUMERIC_LINE_KEYS:
+        v = values.get(k)
+        if v is not None and (not isinstance(v, (int, float)) or isinstance(v, bool)
+                              or not np.isfinite(v) or v <= 0
+                              or (k == "slab_dip_deg" and v > 90)):
+            raise InputError(f"property {k!r} must be a positive number"
+                             + (" of at most 90" if k == "slab_dip_deg" else "")
+                             + f", got {v!r}", file=path, where=where,
+                             hint=NUMERIC_LINE_KEYS[k])
+    for k in BOOLEAN_LINE_KEYS:
+        v = values.get(k)
+        if v is not None and not isinstance(v, bool):
+            raise InputError(f"property {k!r} must be true or false, got {v!r}", file=path,
+                             where=where, hint=BOOLEAN_LINE_KEYS[k])
 
 
 def read_boundaries(path, plate_names) -> tuple[list, list]:
@@ -304,12 +339,7 @@ def _boundary_properties(props, names, path, i, add):
     # every other property passes through to outputs; only the documented numeric
     # overrides are interpreted, and checked
     extra = {k: v for k, v in props.items() if k not in ("kind", "left", "right", "subducting")}
-    for k in NUMERIC_LINE_KEYS:
-        v = extra.get(k)
-        if v is not None and (not isinstance(v, (int, float)) or isinstance(v, bool)
-                              or not np.isfinite(v) or v <= 0):
-            raise InputError(f"property {k!r} must be a positive number, got {v!r}",
-                             file=path, where=where, hint=NUMERIC_LINE_KEYS[k])
+    check_line_values(extra, path, where)
     return kind, left, right, sub, extra, ok
 
 

@@ -3,6 +3,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 from pathlib import Path
 
 import numpy as np
@@ -10,7 +11,8 @@ import numpy as np
 from ..errors import InputError
 from ..world import EARTH_RADIUS_KM, Problem, World, derive_boundaries, trim_along_spikes
 from .files import atomic_write, read_toml
-from .geojson import plates_from_features, read_boundaries, read_plates
+from .geojson import check_line_values, plates_from_features, read_boundaries, read_plates
+from .tables import read_table
 
 WORLD_KEYS = {
     "name": "optional title used in reports",
@@ -23,6 +25,8 @@ WORLD_KEYS = {
     "mantle_flow": "mantle velocity grid (NetCDF)",
     "drag_coupling": "basal drag coupling grid, Pa s/m (NetCDF), for drag coupling = \"grid\"",
     "topography": "elevation (and crustal thickness) grid (NetCDF), for the 'gpe' force",
+    "slabs": "slab table (CSV feature,slab_depth_km,slab_dip_deg,slab_attached,"
+             "slab_age_myr): per subduction line of the boundaries file",
     "winding": '"auto" (default) or "strict"',
     "vertex_tolerance_m": "vertices closer than this are one vertex (default 5 m)",
 }
@@ -32,7 +36,9 @@ FROM_AGES = "from-ages"
 #: Vertices closer than this are one vertex (a digitiser's repeated point): a few metres.
 DEFAULT_VERTEX_TOLERANCE_M = 5.0
 DATA_KEYS = ("plates", "boundaries", "continents", "ages", "mantle_flow", "drag_coupling",
-             "topography")
+             "topography", "slabs")
+#: The columns of a slab table besides ``feature``: line properties of a subduction line.
+SLAB_COLUMNS = ("slab_depth_km", "slab_dip_deg", "slab_attached", "slab_age_myr")
 
 
 def load_world(path) -> World:
@@ -118,12 +124,81 @@ def load_world(path) -> World:
                          + ("" if features[k] in left else "; nothing of it is left"),
                          paths["boundaries"], features[k]) for k, n in trimmed]
         derived = False
+        if "slabs" in paths:
+            boundaries = apply_slab_table(paths["slabs"], boundaries)
     else:
+        if "slabs" in paths:
+            raise InputError("a slab table names lines of the boundaries file; this world "
+                             "has none", file=path, hint="add 'boundaries', or drop 'slabs'")
         boundaries, more = derive_boundaries(geometry, names, tol_rad)
         derived = True
     name = cfg.get("name", path.stem)
     return World(tuple(plates), geometry, tuple(boundaries), float(radius_km) * 1e3, derived,
                  paths, tuple(problems + more), str(name), winding, tol_rad)
+
+
+def apply_slab_table(path, boundaries) -> list:
+    """Boundaries with the slab properties of a slab table merged into their lines.
+
+    The table (CSV) has a column ``feature``, the 0-based index of a subduction line in
+    the boundaries file (as messages name features), and any of :data:`SLAB_COLUMNS`; an
+    empty cell leaves the line as it is. A value the line already has in its own
+    properties is an error (one place says each number).
+
+    Parameters
+    ----------
+    path : str or Path
+    boundaries : list of Boundary
+
+    Returns
+    -------
+    list of Boundary
+    """
+    table = read_table(path, ("feature",), comments=True,
+                       hint="need a column 'feature' and any of " + ", ".join(SLAB_COLUMNS))
+    unknown = [c for c in table.header if c != "feature" and c not in SLAB_COLUMNS]
+    if unknown:
+        raise InputError(f"unknown column(s) {', '.join(map(repr, unknown))}", file=path,
+                         hint=f"valid columns: feature, {', '.join(SLAB_COLUMNS)}")
+    feature = table.numbers("feature")
+    by_feature = {}
+    for b in boundaries:
+        by_feature.setdefault(b.feature, []).append(b)
+    rows = {}
+    for i, f in enumerate(feature):
+        where = f"line {table.line(i)}"
+        if f != int(f) or int(f) not in by_feature:
+            raise InputError(f"feature {f:g} is not a line of the boundaries file", file=path,
+                             where=where, hint="features count from 0 in file order")
+        if by_feature[int(f)][0].kind != "subduction":
+            raise InputError(f"feature {int(f)} is a {by_feature[int(f)][0].kind} line, not a "
+                             "subduction zone", file=path, where=where)
+        if int(f) in rows:
+            raise InputError(f"feature {int(f)} is listed twice", file=path, where=where)
+        values = {}
+        for c in table.header:
+            if c == "feature":
+                continue
+            cell = table.text(c)[i]
+            if cell == "":
+                continue
+            if c == "slab_attached":
+                low = cell.lower()
+                if low not in ("true", "false", "yes", "no", "1", "0"):
+                    raise InputError(f"slab_attached is {cell!r}; write true or false",
+                                     file=path, where=where)
+                values[c] = low in ("true", "yes", "1")
+            else:
+                values[c] = table.numbers(c, blank=np.nan)[i]
+        check_line_values(values, path, where)
+        twice = sorted(set(values) & set(by_feature[int(f)][0].properties))
+        if twice:
+            raise InputError(f"feature {int(f)} already gives {', '.join(twice)} in the "
+                             "boundaries file", file=path, where=where,
+                             hint="say each number in one place")
+        rows[int(f)] = values
+    return [dataclasses.replace(b, properties={**b.properties, **rows[b.feature]})
+            if b.feature in rows else b for b in boundaries]
 
 
 def world_from_rings(plates: dict, boundaries=(), radius_km: float = EARTH_RADIUS_KM,
