@@ -86,6 +86,11 @@ class System:
         The hypothesis' name.
     source : str, optional
         The hypothesis file, named in messages.
+    nonlinear : tuple of (int, object)
+        The terms with a part nonlinear in the motions (a rate-independent resistance),
+        as ``(term index, part)``; each part has ``torque(omega)`` (P, 3) and
+        ``jacobian(omega)`` (P, 3, P, 3) at coefficient 1 (see
+        :class:`torque.forces.base.ForceTerm`).
     """
 
     labels: tuple
@@ -102,6 +107,7 @@ class System:
     plates: tuple
     name: str = "hypothesis"
     source: str | None = None
+    nonlinear: tuple = ()
 
     def __repr__(self) -> str:
         return (f"System({self.name!r}, {self.n_plates} plates, terms "
@@ -128,7 +134,32 @@ class System:
         ndarray, shape (3P, K)
         """
         w = np.asarray(omega, float).reshape(-1)
-        return (self.b + self.A @ w).T
+        G = (self.b + self.A @ w).T
+        for k, part in self.nonlinear:
+            G[:, k] += part.torque(w.reshape(-1, 3)).ravel()
+        return G
+
+    def balance_jacobian(self, coefficients, omega) -> np.ndarray:
+        """d (total torque) / d omega at the given coefficients and motions, (3P, 3P).
+
+        Parameters
+        ----------
+        coefficients : array_like, shape (K,)
+        omega : array_like, shape (P, 3)
+            rad/s.
+
+        Returns
+        -------
+        ndarray, shape (3P, 3P)
+            ``sum_k c_k A_k`` plus the nonlinear parts' Jacobians.
+        """
+        c = np.asarray(coefficients, float)
+        J = np.tensordot(c, self.A, axes=1)
+        for k, part in self.nonlinear:
+            if c[k] != 0:
+                J = J + c[k] * part.jacobian(np.asarray(omega, float).reshape(-1, 3)
+                                             ).reshape(J.shape)
+        return J
 
     def full_coefficients(self, free_values) -> np.ndarray:
         """Every coefficient: the fixed values, with the free ones filled in.
@@ -174,7 +205,9 @@ def assemble(world, hypothesis, terms) -> System:
         b=np.stack([t.driving.reshape(3 * P) for t in terms]),
         A=np.stack([t.resisting.reshape(3 * P, 3 * P) for t in terms]),
         D=D, area=area, radius_m=world.radius_m, plates=tuple(world.plate_names),
-        name=hypothesis.name, source=hypothesis.source)
+        name=hypothesis.name, source=hypothesis.source,
+        nonlinear=tuple((k, t.nonlinear) for k, t in enumerate(terms)
+                        if t.nonlinear is not None))
 
 
 # ----------------------------------------------------------------------------------------
@@ -368,9 +401,83 @@ def predict(system: System, coefficients) -> np.ndarray:
     """
     c = np.asarray(coefficients, float)
     M = np.tensordot(c, system.A, axes=1)
-    d = c @ system.b
     _check_determined(system, M)
-    return np.linalg.solve(M, -d).reshape(-1, 3)
+    w, _ = solve_balance(system, c)
+    return w.reshape(-1, 3)
+
+
+#: Newton's method on a nonlinear balance stops when the torque left over is below this
+#: fraction of the largest term's torque, and the last step below it of the motions.
+NEWTON_TOL = 1e-10
+NEWTON_MAX_STEPS = 100
+
+
+def solve_balance(system: System, coefficients, start=None):
+    """Motions that zero the total torque, and the LU factors of the balance's Jacobian.
+
+    Linear balances take one solve. With a nonlinear part (a rate-independent resistance
+    with a non-zero coefficient) Newton's method starts from ``start``, else from the
+    balance with the nonlinear parts left out, halves a step that does not reduce the
+    torque left over, and stops at :data:`NEWTON_TOL`.
+
+    Parameters
+    ----------
+    system : System
+    coefficients : array_like, shape (K,)
+    start : array_like, shape (3P,), optional
+        rad/s.
+
+    Returns
+    -------
+    omega : ndarray, shape (3P,)
+        rad/s.
+    lu : tuple
+        :func:`scipy.linalg.lu_factor` of the Jacobian at ``omega``.
+
+    Raises
+    ------
+    ModelError
+        When Newton's method does not converge (the message says how far it got).
+    """
+    c = np.asarray(coefficients, float)
+    M = np.tensordot(c, system.A, axes=1)
+    d = c @ system.b
+    lu = linalg.lu_factor(M)
+    w = linalg.lu_solve(lu, -d)
+    parts = [(k, p) for k, p in system.nonlinear if c[k] != 0]
+    if not parts:
+        return w, lu
+    if start is not None:
+        w = np.asarray(start, float).reshape(-1).copy()
+
+    def residual(w):
+        r = M @ w + d
+        for k, p in parts:
+            r = r + c[k] * p.torque(w.reshape(-1, 3)).ravel()
+        return r
+    # the torque scale: the largest driving or nonlinear term at the start
+    scale = max(np.abs(d).max(), *(abs(c[k]) * np.abs(p.torque(w.reshape(-1, 3))).max()
+                                   for k, p in parts), 1e-300)
+    r = residual(w)
+    for step in range(NEWTON_MAX_STEPS):
+        J = system.balance_jacobian(c, w)
+        lu = linalg.lu_factor(J)
+        dw = linalg.lu_solve(lu, -r)
+        t = 1.0
+        while True:                      # backtracking: halve until the residual falls
+            r_new = residual(w + t * dw)
+            if np.linalg.norm(r_new) < np.linalg.norm(r) or t < 1e-6:
+                break
+            t /= 2
+        w, r = w + t * dw, r_new
+        if (np.abs(r).max() <= NEWTON_TOL * scale
+                and np.abs(t * dw).max() <= NEWTON_TOL * max(np.abs(w).max(), 1e-300)):
+            return w, linalg.lu_factor(system.balance_jacobian(c, w))
+    raise ModelError(f"the nonlinear torque balance did not converge in {NEWTON_MAX_STEPS} "
+                     f"Newton steps: the torque left over is {np.abs(r).max() / scale:.2g} "
+                     f"of the largest term's (tolerance {NEWTON_TOL:g})", file=system.source,
+                     hint="raise smoothing_mm_yr of the constant-stress resistance, or check "
+                     "that drag resists every plate")
 
 
 def _check_determined(system: System, M):
@@ -458,11 +565,15 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         c[free] = x * scale
         return c
 
+    last = {}
+
     def solve(x):
         c = coeffs(x)
-        M = np.tensordot(c, system.A, axes=1)
-        lu = linalg.lu_factor(M)
-        w = linalg.lu_solve(lu, -(c @ system.b))
+        # a nonlinear balance starts Newton from the last solution (the optimiser's steps
+        # are small)
+        w, lu = solve_balance(system, c, last.get("w"))
+        if system.nonlinear:
+            last["w"] = w
         return c, lu, w
 
     def frame(x):
@@ -475,7 +586,7 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     def jacobian(x):
         _, lu, w = solve(x[:k_free])
         # d w / d c_k = -M^{-1} (A_k w + b_k), for the free k
-        rhs = (system.A[free] @ w + system.b[free]).T                 # (3P, k)
+        rhs = system.columns(w.reshape(-1, 3))[:, free]                # (3P, k)
         J = W @ (-linalg.lu_solve(lu, rhs) * scale)
         return np.hstack([J, frame_cols]) if free_frame else J
 

@@ -85,9 +85,8 @@ def pole_covariance(system: System, coefficients, cov_free, omega_pred) -> np.nd
     ndarray, shape (P, 3, 3)
     """
     c = np.asarray(coefficients, float)
-    M = np.tensordot(c, system.A, axes=1)
-    w = np.asarray(omega_pred).reshape(-1)
-    rhs = (system.A[system.free] @ w + system.b[system.free]).T
+    M = system.balance_jacobian(c, omega_pred)
+    rhs = system.columns(omega_pred)[:, system.free]
     J = -np.linalg.solve(M, rhs)                                     # (3P, k)
     full = J @ cov_free @ J.T
     P = system.n_plates

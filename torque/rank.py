@@ -325,4 +325,15 @@ def _nested(small: System, big: System) -> bool:
             return False
         if not (np.array_equal(small.b[i], big.b[j]) and np.array_equal(small.A[i], big.A[j])):
             return False
+        if _nonlinear_key(small, i) != _nonlinear_key(big, j):
+            return False
     return True
+
+
+def _nonlinear_key(system: System, k: int):
+    """What tells one term's nonlinear part from another's (None without one)."""
+    part = dict(system.nonlinear).get(k)
+    if part is None:
+        return None
+    return (part.r.tobytes(), part.length.tobytes(), part.proj.tobytes(), part.width_m,
+            part.eps_m_s)

@@ -172,9 +172,12 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
     W = plate_weights(system, weighting)
     # columns for every member: G_n = W (b + A w_n)
     K = len(system.labels)
-    Aw = (system.A.reshape(K * 3 * P, 3 * P) @ draws.reshape(n, 3 * P).T)
-    G = (system.b.reshape(K * 3 * P, 1) + Aw).reshape(K, 3 * P, n)
-    G = np.einsum("ij,kjn->nik", W, G)                               # (n, 3P, K)
+    if system.nonlinear:
+        G = np.stack([W @ system.columns(d) for d in draws])        # (n, 3P, K)
+    else:
+        Aw = (system.A.reshape(K * 3 * P, 3 * P) @ draws.reshape(n, 3 * P).T)
+        G = (system.b.reshape(K * 3 * P, 1) + Aw).reshape(K, 3 * P, n)
+        G = np.einsum("ij,kjn->nik", W, G)                           # (n, 3P, K)
     free = system.free
     h = -G[:, :, ~free] @ system.fixed[~free]
     Gf = G[:, :, free]

@@ -29,6 +29,11 @@ class ForceTerm:
         the torque on plate p from the motion of plate q.
     notes : tuple of str
         How the term was computed where a user should know (e.g. synthesised ages).
+    nonlinear : object, optional
+        A part that is not linear in the motions (a rate-independent resistance): it has
+        ``torque(omega) -> (P, 3)`` and ``jacobian(omega) -> (P, 3, P, 3)``, both at
+        coefficient 1 (see :class:`torque.forces.resistance.ConstantStress`). The torque
+        balance is then solved by Newton's method.
     """
 
     label: str
@@ -38,6 +43,7 @@ class ForceTerm:
     driving: np.ndarray
     resisting: np.ndarray
     notes: tuple = ()
+    nonlinear: object = None
 
     def __repr__(self) -> str:
         moving = ", velocity-dependent" if self.velocity_dependent else ""
@@ -50,7 +56,7 @@ class ForceTerm:
 
     @property
     def velocity_dependent(self) -> bool:
-        return bool(np.any(self.resisting != 0))
+        return self.nonlinear is not None or bool(np.any(self.resisting != 0))
 
     def torque(self, omega=None) -> np.ndarray:
         """Torque (N m, shape (P, 3)) at coefficient 1 for angular velocities ``omega``.
@@ -68,7 +74,10 @@ class ForceTerm:
             if self.velocity_dependent:
                 raise ValueError(f"term {self.label!r} depends on plate motion")
             return self.driving.copy()
-        return self.driving + np.einsum("piqj,qj->pi", self.resisting, omega)
+        out = self.driving + np.einsum("piqj,qj->pi", self.resisting, omega)
+        if self.nonlinear is not None:
+            out = out + self.nonlinear.torque(np.asarray(omega, float))
+        return out
 
 
 def empty_term(ctx, spec, unit, notes=()):
