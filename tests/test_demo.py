@@ -101,15 +101,17 @@ def test_demo_world_is_what_the_generator_makes(tmp_path):
     from torque.demo import write
     write(tmp_path)
     for name in ("plates.geojson", "continents.geojson", "boundaries.geojson", "motions.csv",
-                 "true_motions.csv", "truth.json", "world.toml"):
+                 "true_motions.csv", "truth.json", "world.toml", "slabs.csv"):
         assert_same_text_and_numbers((tmp_path / name).read_text(),
                                      (DEMO / name).read_text(), name)
     for h in (DEMO / "hypotheses").glob("*.toml"):
         assert_same_text_and_numbers((tmp_path / "hypotheses" / h.name).read_text(),
                                      h.read_text(), h.name)
-    with xr.open_dataset(tmp_path / "ages.nc") as a, xr.open_dataset(DEMO / "ages.nc") as b:
-        np.testing.assert_allclose(a["age"].values, b["age"].values, rtol=1e-9, atol=1e-9,
-                                   equal_nan=True)
+    for name, var in (("ages.nc", "age"), ("topography.nc", "elevation_m"),
+                      ("drag_coupling.nc", "thickness_m")):
+        with xr.open_dataset(tmp_path / name) as a, xr.open_dataset(DEMO / name) as b:
+            np.testing.assert_allclose(a[var].values, b[var].values, rtol=1e-9, atol=1e-9,
+                                       equal_nan=True)
 
 
 # -- the report in a real browser (issue 14, item 5) -------------------------------------

@@ -160,9 +160,9 @@ def demo_copy(tmp_path, table):
     for f in demo.iterdir():
         if f.is_file():
             shutil.copy(f, tmp_path / f.name)
+    # the demo's world file names slabs.csv (invented dips): this table replaces it
+    assert 'slabs = "slabs.csv"' in (tmp_path / "world.toml").read_text()
     (tmp_path / "slabs.csv").write_text(table)
-    text = (tmp_path / "world.toml").read_text() + 'slabs = "slabs.csv"\n'
-    (tmp_path / "world.toml").write_text(text)
     return tmp_path / "world.toml"
 
 

@@ -9,7 +9,11 @@ The demo is an invented, Earth-sized planet, "Orrery". Everything in it is synth
   collision where continents meet, mostly along-strike: transform), the sinking plate the
   one with older sea floor, iterated with the forward model until the kinds settle;
 * a sea-floor age grid made from the ridges and half spreading rates (0.5 degrees);
-* five hypothesis files, and "observed" motions made by the forward model of the
+* a topography grid (1 degree: sea floor at the cooling model's depth, continents at a few
+  hundred metres with one invented range each), a drag coupling grid (a channel of one
+  viscosity, thinner under continents) and a slab table of invented dips, which only the
+  hypotheses of the newer force models use;
+* eight hypothesis files, and "observed" motions made by the forward model of the
   hypothesis "continental drag" from the true coefficients in TRUE, plus Gaussian noise of
   NOISE_DEG_MYR on every Cartesian component of every Euler vector (seeded). truth.json
   records both, so a user can see the fit recover them.
@@ -37,8 +41,8 @@ from ..forces.context import Context
 from ..grids import MAX_AGE_MYR, AgeGrid
 from ..hypothesis import hypothesis_from_dict
 from ..io import (load_world, read_continents, write_age_grid, write_boundaries_geojson,
-                  write_feature_collection, write_hypothesis, write_json, write_motions,
-                  write_world_file)
+                  write_csv, write_feature_collection, write_hypothesis, write_json,
+                  write_motions, write_netcdf, write_world_file)
 from ..margins import boundary_motion, classify, sample_boundaries
 from ..validate import require_valid
 from ..world import Boundary
@@ -81,7 +85,37 @@ HYPOTHESES = {
         {"kind": "transform", "coefficient": "free"},
         {"kind": "collision", "coefficient": "free"}]),
 }
+HYPOTHESES.update({
+    "slab_geometry": ("ridge, warming upper- and lower-mantle slabs, suction and drag", [
+        {"kind": "ridge", "coefficient": 1.0},
+        {"kind": "slab", "label": "slab_upper", "mantle_part": "upper", "depth_km": 1200.0,
+         "warming": "conductive", "direction": "convergence", "coefficient": "free",
+         "bounds": [0.0, 1.0]},
+        {"kind": "slab", "label": "slab_lower", "mantle_part": "lower", "depth_km": 1200.0,
+         "warming": "conductive", "coefficient": "free", "bounds": [0.0, 1.0]},
+        {"kind": "suction", "form": "per-length", "coefficient": "free"},
+        {"kind": "drag", "region": "ocean", "coefficient": "free"},
+        {"kind": "drag", "region": "continent", "coefficient": "free"}]),
+    "continental_energy": ("ridge, slab, continental potential energy, drag from a grid", [
+        {"kind": "ridge", "coefficient": 1.0},
+        {"kind": "gpe", "form": "distributed", "coefficient": 1.0},
+        {"kind": "slab", "coefficient": "free", "bounds": [0.0, 1.0], "age_myr": 60.0},
+        {"kind": "drag", "label": "drag_grid", "coupling": "grid", "coefficient": "free"}]),
+    "rate_independent": ("ridge, slab, age-coupled drag, constant-stress transforms", [
+        {"kind": "ridge", "coefficient": 1.0},
+        {"kind": "slab", "coefficient": "free", "bounds": [0.0, 1.0], "age_myr": 60.0},
+        {"kind": "drag", "region": "ocean", "coupling": "age", "coefficient": "free"},
+        {"kind": "drag", "region": "continent", "coefficient": "free"},
+        {"kind": "transform", "law": "constant-stress", "coefficient": "free",
+         "bounds": [0.0, 1e8]}]),
+})
 TRUTH_HYPOTHESIS = "continental_drag"
+#: Step (degrees) of the demo's topography and drag coupling grids.
+GRID_STEP_DEG = 1.0
+#: The demo's drag channel: one viscosity, 200 km thick under sea floor and 40 km under
+#: continents (invented; C = eta / h is 2e14 and 1e15 Pa s/m).
+CHANNEL_VISCOSITY_PA_S = 4e19
+CHANNEL_THICKNESS_M = {"ocean": 200e3, "continent": 40e3}
 SPREAD = {"expansivity": {"normal": 0.2e-5}, "plate_thickness_km": {"uniform": [85.0, 105.0]}}
 
 
@@ -243,8 +277,14 @@ def write(outdir: Path) -> dict:
 
     write_boundaries_geojson(outdir / "boundaries.geojson", world.boundaries)
     write_age_grid(outdir / "ages.nc", ages, "Orrery sea-floor ages (synthetic demo data)")
+    _write_slab_table(outdir / "slabs.csv", world)
+    topo, coupling = _extra_grids(world, continents, ages)
+    write_netcdf(outdir / "topography.nc", topo)
+    write_netcdf(outdir / "drag_coupling.nc", coupling)
     write_world_file(outdir / "world.toml", {**keys, "boundaries": "boundaries.geojson",
-                                             "ages": "ages.nc"}, WORLD_COMMENT)
+                                             "ages": "ages.nc", "topography": "topography.nc",
+                                             "drag_coupling": "drag_coupling.nc",
+                                             "slabs": "slabs.csv"}, WORLD_COMMENT)
 
     rng = np.random.default_rng(SEED + 2)
     sigma = NOISE_DEG_MYR * np.pi / 180 / 3.15576e13
@@ -319,6 +359,51 @@ def _settle(world, continents, truth_hyp, omega):
         if len(history) > 1 and history[-1] == history[-2]:
             break
     return world, ages, omega, history
+
+
+def _write_slab_table(path, world) -> None:
+    """Invented dips (30-70 degrees, seeded) for every subduction line, by feature."""
+    rng = np.random.default_rng(SEED + 3)
+    rows = [(k, float(np.round(rng.uniform(30.0, 70.0)))) for k, b in
+            enumerate(world.boundaries) if b.kind == "subduction"]
+    write_csv(path, {"feature": [k for k, _ in rows], "slab_dip_deg": [d for _, d in rows]})
+
+
+def _extra_grids(world, continents, ages):
+    """The demo's topography and drag coupling grids (xarray Datasets)."""
+    import xarray as xr
+    from ..lithosphere import Cooling
+    step = GRID_STEP_DEG
+    lon = np.arange(-180.0, 180.0, step) + step / 2
+    lat = np.arange(-90.0, 90.0, step) + step / 2
+    LON, LAT = np.meshgrid(lon, lat)
+    xyz = sphere.lonlat_to_xyz(LON, LAT)
+    cont = continents.contains(xyz.reshape(-1, 3)).reshape(LON.shape)
+    age = ages.sample(LON.ravel(), LAT.ravel()).reshape(LON.shape)
+    depth = Cooling().depth_m(np.nan_to_num(age, nan=100.0).ravel()).reshape(LON.shape)
+    # continents at 300 m, with one range each: 2.5 km high, a third of the continent wide,
+    # centred half-way out from its centre (invented)
+    land = np.full(LON.shape, 300.0)
+    for k, (lon0, lat0, radius) in enumerate(CONTINENTS):
+        centre = sphere.lonlat_to_xyz(lon0 + 0.5 * radius * np.cos(k), lat0
+                                      + 0.5 * radius * np.sin(k))
+        d = np.degrees(sphere.angle_between(xyz, centre[None, None, :]))
+        land += 2500.0 * np.exp(-(d / (radius / 3)) ** 2)
+    elevation = np.where(cont, land, -depth)
+    thickness = np.where(cont, CHANNEL_THICKNESS_M["continent"], CHANNEL_THICKNESS_M["ocean"])
+    coords = {"lon": ("lon", lon, {"units": "degrees_east"}),
+              "lat": ("lat", lat, {"units": "degrees_north"})}
+    topo = xr.Dataset({"elevation_m": (("lat", "lon"), np.round(elevation, 1),
+                                       {"units": "m", "long_name": "surface elevation "
+                                        "(synthetic)"})}, coords=coords,
+                      attrs={"title": "Orrery topography (synthetic demo data)"})
+    coupling = xr.Dataset({
+        "viscosity_pa_s": (("lat", "lon"), np.full(LON.shape, CHANNEL_VISCOSITY_PA_S),
+                           {"units": "Pa s"}),
+        "thickness_m": (("lat", "lon"), thickness, {"units": "m"})}, coords=coords,
+        attrs={"title": "Orrery drag channel (synthetic demo data): C = viscosity / "
+                        "thickness"})
+    return topo, coupling
 
 
 def _label(f):

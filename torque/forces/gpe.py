@@ -11,9 +11,10 @@ every continent is treated as having the potential energy of the sea floor besid
 plate) a line force of ``U_continent - U_ocean`` per metre acts on the plate, pushing
 oceanward where the continent stands higher in potential energy (passive margins beside
 old sea floor; Coblentz, Richardson and Sandiford 1994). The continent's elevation and
-crust are read from the world's topography grid 30 km inland, else they are the entry's
+crust are read from the continental nodes of the world's topography grid 30 km inland
+(or 1, 2, 3 grid steps where that reads sea floor), else they are the entry's
 ``elevation_m`` (default 0: a continent at sea level, crust by Airy isostasy); the sea
-floor's age 30 km seaward from the age field, else the entry's ``age_myr``, else the
+floor's age likewise seaward from the age field, else the entry's ``age_myr``, else the
 cooling model's old-age limit.
 
 ``form = "distributed"`` (needs a topography grid): the margin force, plus the body force
@@ -36,6 +37,8 @@ energy differences to the global stress field. *Geophys. J. Int.* 179, 787-812.
 """
 
 from __future__ import annotations
+
+import dataclasses
 
 import numpy as np
 
@@ -153,19 +156,30 @@ def margin_force(ctx, spec, model, pcs) -> tuple[np.ndarray, list]:
     notes : list of str
     """
     notes = []
-    off = PROBE_KM * 1e3 / ctx.R
     topo = ctx.data.topography
     if topo is not None:
-        lon, lat = sphere.xyz_to_lonlat(sphere.step_toward(pcs.mid, pcs.n, off))
-        e, c = topo.sample(lon, lat)
+        # only continental nodes speak for the continent: a sample that mixes in sea floor
+        # steps further inland
+        cont = ctx.node_continental(topo)
+        land = dataclasses.replace(
+            topo, elevation_m=np.where(cont, topo.elevation_m, np.nan),
+            crust_m=None if topo.crust_m is None else np.where(cont, topo.crust_m, np.nan))
+        e = probe(ctx, lambda lon, lat: land.sample(lon, lat)[0], pcs, 1.0, topo)
+        c = None if topo.crust_m is None else probe(
+            ctx, lambda lon, lat: land.sample(lon, lat)[1], pcs, 1.0, topo)
+        bare = ~np.isfinite(e)
+        if bare.any():
+            lon, lat = sphere.xyz_to_lonlat(pcs.mid)
+            e0, c0 = topo.sample(lon, lat)
+            e = np.where(bare, e0, e)
+            c = None if c is None else np.where(bare, c0, c)
     else:
         e, c = np.full(len(pcs.theta), float(spec.options.get("elevation_m", 0.0))), None
     U_c = continental_gpe(ctx, spec, model, e, c, "a continental margin")
     age = np.full(len(pcs.theta), np.nan)
     grid = ctx.age_grid_if_any()
     if grid is not None:
-        lon, lat = sphere.xyz_to_lonlat(sphere.step_toward(pcs.mid, -pcs.n, off))
-        age = grid.sample(lon, lat)
+        age = probe(ctx, grid.sample, pcs, -1.0, grid)
     need = ~np.isfinite(age)
     F_ocean = ctx.cooling.ridge_push_lookup(np.nan_to_num(age))
     if need.any():
@@ -176,13 +190,44 @@ def margin_force(ctx, spec, model, pcs) -> tuple[np.ndarray, list]:
             fill, said = ctx.cooling.ridge_push_limit_n_m(), "the cooling model's old-age limit"
         F_ocean = np.where(need, fill, F_ocean)
         notes.append(f"{spec.label}: {int(need.sum())} of {len(age)} margin pieces have no "
-                     f"sea-floor age {PROBE_KM:g} km seaward; they take {said}")
+                     f"sea-floor age within 3 grid steps seaward; they take {said}")
     where = "topography grid" if topo is not None else \
         f"elevation {float(spec.options.get('elevation_m', 0.0)):g} m"
     notes.append(f"{spec.label}: margin force from {where}, {len(pcs.theta)} pieces, "
                  f"{np.min(U_c + F_ocean):.3g} to {np.max(U_c + F_ocean):.3g} N/m oceanward")
     # sea floor of age t has U = -F_rp(t) against a ridge
     return U_c + F_ocean, notes
+
+
+def probe(ctx, sample, pcs, side, grid) -> np.ndarray:
+    """A grid's value off each margin piece: :data:`PROBE_KM` into the continent (``side``
+    +1) or the sea (-1), else 1, 2 and 3 grid steps out where that sample is NaN.
+
+    Parameters
+    ----------
+    ctx : Context
+    sample : callable
+        ``sample(lon, lat) -> values`` (NaN for no data).
+    pcs : Pieces
+        Of the margins, ``n`` into the continent.
+    side : float
+    grid : RegularGrid
+        Its step sets the further distances.
+
+    Returns
+    -------
+    ndarray, shape (N,)
+        NaN where every distance reads no data.
+    """
+    step_km = np.radians(abs(grid.lat[1] - grid.lat[0])) * ctx.R / 1e3
+    out = np.full(len(pcs.theta), np.nan)
+    for km in (PROBE_KM, step_km, 2 * step_km, 3 * step_km):
+        need = ~np.isfinite(out)
+        if not need.any():
+            break
+        xyz = sphere.step_toward(pcs.mid[need], side * pcs.n[need], km * 1e3 / ctx.R)
+        out[need] = sample(*sphere.xyz_to_lonlat(xyz))
+    return out
 
 
 def interior_torque(ctx, spec, model) -> tuple[np.ndarray, str]:

@@ -27,6 +27,7 @@ from __future__ import annotations
 
 import dataclasses
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -149,10 +150,28 @@ class ConstantStress:
     radius_m: float
     n_plates: int
 
+    @cached_property
+    def _maps(self):
+        """Per piece: ``B`` with ``P u = B (omega_left - omega_right)``, ``A`` with the left
+        plate's torque ``A g``, and sparse sums from pieces to plates and to pairs."""
+        from scipy import sparse
+        X = _cross_matrices(self.r)
+        B = -self.radius_m * self.proj @ X
+        A = -self.width_m * self.radius_m ** 2 * self.length[:, None, None] * X
+        P, n = self.n_plates, len(self.r)
+        e = np.arange(n)
+        # torque on plates: +1 on the left plate, -1 on the right one
+        to_plates = sparse.csr_matrix((np.r_[np.ones(n), -np.ones(n)],
+                                       (np.r_[self.left, self.right], np.r_[e, e])),
+                                      shape=(P, n))
+        pairs, inverse = np.unique(self.left * P + self.right, return_inverse=True)
+        to_pairs = sparse.csr_matrix((np.ones(n), (inverse, e)), shape=(len(pairs), n))
+        return B, A, to_plates, to_pairs, pairs // P, pairs % P
+
     def _slip(self, omega):
+        B = self._maps[0]
         omega = np.asarray(omega, float).reshape(-1, 3)
-        u = self.radius_m * np.cross(omega[self.left] - omega[self.right], self.r)
-        pu = np.einsum("eij,ej->ei", self.proj, u)
+        pu = np.einsum("eij,ej->ei", B, omega[self.left] - omega[self.right])
         s = np.sqrt(np.einsum("ei,ei->e", pu, pu) + self.eps_m_s ** 2)
         return pu, s
 
@@ -169,12 +188,10 @@ class ConstantStress:
         ndarray, shape (P, 3)
         """
         pu, s = self._slip(omega)
-        f = -self.width_m * pu / s[:, None]                     # N/m on the left plate
-        tq = self.radius_m ** 2 * self.length[:, None] * np.cross(self.r, f)
-        out = np.zeros((self.n_plates, 3))
-        np.add.at(out, self.left, tq)
-        np.add.at(out, self.right, -tq)
-        return out
+        A, to_plates = self._maps[1], self._maps[2]
+        # the left plate's torque R^2 l r x (-W g), g = P u / s
+        tq = np.einsum("eij,ej->ei", A, pu / s[:, None])
+        return to_plates @ tq
 
     def jacobian(self, omega) -> np.ndarray:
         """d torque / d omega (N m per rad/s, shape (P, 3, P, 3)) at stress 1 Pa.
@@ -189,18 +206,15 @@ class ConstantStress:
         ndarray, shape (P, 3, P, 3)
         """
         pu, s = self._slip(omega)
-        # dg/du = P / s - (P u)(P u)^T P / s^3 ; du/d(delta omega) = -R [r]x
-        dg = (self.proj / s[:, None, None]
-              - np.einsum("ei,ej,ejk->eik", pu, pu, self.proj) / s[:, None, None] ** 3)
-        X = _cross_matrices(self.r)
-        # d tq / d(delta omega) = R^2 l [r]x (-W) dg (-R [r]x)
-        block = (self.width_m * self.radius_m ** 3 * self.length[:, None, None]
-                 * np.einsum("eij,ejk,ekl->eil", X, dg, X))
+        B, A, _, to_pairs, p, q = self._maps
+        # dg/d(delta omega) = (B - g g^T B) / s, g = P u / s
+        g = pu / s[:, None]
+        dg = (B - g[:, :, None] * np.einsum("ej,ejk->ek", g, B)[:, None, :]) / s[:, None, None]
+        S = (to_pairs @ (A @ dg).reshape(-1, 9)).reshape(-1, 3, 3)
         P = self.n_plates
         out = np.zeros((P, 3, P, 3))
-        for p, q, sign in ((self.left, self.left, 1.0), (self.left, self.right, -1.0),
-                           (self.right, self.left, -1.0), (self.right, self.right, 1.0)):
-            np.add.at(out, (p, slice(None), q, slice(None)), sign * block)
+        for a, b, sign in ((p, p, 1.0), (p, q, -1.0), (q, p, -1.0), (q, q, 1.0)):
+            np.add.at(out, (a, slice(None), b, slice(None)), sign * S)
         return out
 
 

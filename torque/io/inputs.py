@@ -35,7 +35,7 @@ class Inputs(WorldData):
     --------
     >>> inputs = Inputs.load("polygons_demo/world.toml")
     >>> inputs
-    Inputs(World('Orrery', 14 plates, 36 boundary lines, radius 6371 km), data: continents, ages)
+    Inputs(World('Orrery', 14 plates, 36 boundary lines, radius 6371 km), data: continents, ages, coupling, topography)
     >>> inputs.ages.age_myr.shape          # read on first use, then kept
     (360, 720)
     >>> inputs.ages is inputs.ages
