@@ -152,3 +152,24 @@ def test_distributed_form_and_its_errors():
     with pytest.raises(InputError, match="crust_density"):
         torque.compute_torques(torque.WorldData(w, continents=cont),
                                hyp({"kind": "gpe", "crust_density": 3400.0}))
+
+
+def test_topography_files_are_read_and_bad_ones_refused(tmp_path):
+    import xarray as xr
+    from torque.io.grids import read_topography
+    lon = np.arange(-180, 180, 2.0) + 1
+    lat = np.arange(-90, 90, 2.0) + 1
+    e = np.full((len(lat), len(lon)), 500.0)
+    coords = {"lon": lon, "lat": lat}
+    xr.Dataset({"elevation_m": (("lat", "lon"), e), "crust_km": (("lat", "lon"), e * 0 + 40)},
+               coords=coords).to_netcdf(tmp_path / "t.nc", engine="h5netcdf")
+    g = read_topography(tmp_path / "t.nc")
+    assert g.crust_m[0, 0] == 40e3 and g.elevation_m[5, 5] == 500.0
+    xr.Dataset({"elevation_m": (("lat", "lon"), e * 100)}, coords=coords).to_netcdf(
+        tmp_path / "km.nc", engine="h5netcdf")
+    with pytest.raises(InputError, match="within \\+-11 km"):
+        read_topography(tmp_path / "km.nc")
+    xr.Dataset({"elevation_m": (("lat", "lon"), e), "crust_km": (("lat", "lon"), -e)},
+               coords=coords).to_netcdf(tmp_path / "c.nc", engine="h5netcdf")
+    with pytest.raises(InputError, match="crust_km must be finite, positive"):
+        read_topography(tmp_path / "c.nc")

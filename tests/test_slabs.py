@@ -194,3 +194,10 @@ def test_slab_table_sets_lines(tmp_path):
 def test_bad_slab_tables_are_refused(tmp_path, table, message):
     with pytest.raises(InputError, match=message):
         torque.load_world(demo_copy(tmp_path, table))
+
+
+def test_a_bad_slab_table_exits_2_naming_file_and_line(tmp_path, cli):
+    from .conftest import assert_refused
+    world = demo_copy(tmp_path, "feature,slab_dip_deg\n0,30\n1,40\n")
+    assert_refused(cli("check", world), None, "slabs.csv", "line 3",
+                   "not a subduction zone")
