@@ -190,7 +190,7 @@ def _fit_note(fit):
     return " ".join(parts) or None
 
 
-def write_markdown(path, run: dict) -> None:
+def write_markdown(path, run: dict, tables=None) -> None:
     """The report's summary as Markdown (tables, figure links), atomically.
 
     Parameters
@@ -199,10 +199,12 @@ def write_markdown(path, run: dict) -> None:
     run : dict
         ``world``, ``summary``, ``truth``, ``rank`` rows, ``fits`` (FitResult by
         hypothesis), ``figures`` (title, relative path).
+    tables : list, optional
+        ``(title, header, rows, note)`` of each table; default those of a fit run.
     """
     lines = [f"# torque report: {run['world']}", "", f"> **Caution.** {CAUTION}", ""]
     lines += [f"- {s}" for s in run.get("summary", [])] + [""]
-    for title, header, rows, note in _tables(run):
+    for title, header, rows, note in (_tables(run) if tables is None else tables):
         lines += [f"## {title}", "", "| " + " | ".join(header) + " |",
                   "|" + "---|" * len(header)]
         lines += ["| " + " | ".join(r) + " |" for r in rows]
@@ -238,7 +240,7 @@ def _html_table(title, header, rows, note) -> list:
     return out
 
 
-def write_html(path, run: dict, base: Path) -> None:
+def write_html(path, run: dict, base: Path, tables=None) -> None:
     """One file: the figures are embedded as data URIs, nothing else is linked.
 
     Parameters
@@ -248,6 +250,8 @@ def write_html(path, run: dict, base: Path) -> None:
         As for :func:`write_markdown`.
     base : Path
         The folder the figures' paths are relative to.
+    tables : list, optional
+        As for :func:`write_markdown`.
     """
     e = html.escape
     parts = ["<!DOCTYPE html>", "<html lang=\"en\"><head><meta charset=\"utf-8\">",
@@ -262,7 +266,7 @@ def write_html(path, run: dict, base: Path) -> None:
              f"<h1>torque report: {e(run['world'])}</h1>",
              f"<p class=\"caution\"><strong>Caution.</strong> {e(CAUTION)}</p>", "<ul>"]
     parts += [f"<li>{e(s)}</li>" for s in run.get("summary", [])] + ["</ul>"]
-    for table in _tables(run):
+    for table in (_tables(run) if tables is None else tables):
         parts += _html_table(*table)
     if run.get("figures"):
         parts.append("<h2>Figures</h2>")
@@ -275,3 +279,97 @@ def write_html(path, run: dict, base: Path) -> None:
     parts.append("</body></html>")
     with atomic_write(path) as fh:
         fh.write("\n".join(parts) + "\n")
+
+
+def _series_tables(result, tables, truth=None) -> list:
+    """(title, header, rows, note) of a series report: coefficients, ranking, the time
+    section, then a section per stage."""
+    fit = result.fit
+    out = []
+    if truth:
+        out.append(("Synthetic data: what made the observed motions",
+                    ["term", "true coefficient"],
+                    [[k, _fmt(v)] for k, v in truth["true_coefficients"].items()],
+                    f"Every stage: {truth['hypothesis']}, noise "
+                    f"{truth['noise_deg_myr_per_component']} deg/Myr per component."))
+    se = [float(x) for x in (fit.cov.diagonal() ** 0.5)]
+    mc = result.monte_carlo
+    rows = []
+    for j, name in enumerate(fit.params):
+        row = [name, _fmt(float(fit.parameters[j])), _fmt(se[j])]
+        if mc is not None:
+            row += [_fmt(float(mc["sd"][j])),
+                    f"{_fmt(float(mc['low'][j]))} to {_fmt(float(mc['high'][j]))}"
+                    if mc["low"] is not None else "-"]
+        rows.append(row)
+    header = ["coefficient", "value", "std. error"] + (
+        ["Monte Carlo sd", "Monte Carlo 95 %"] if mc is not None else [])
+    out.append(("Coefficients fitted to every stage at once", header, rows,
+                f"Minimised: the sum over stages of each stage's "
+                f"{'chi-square' if fit.misfit == 'chi-square' else 'area-integrated squared velocity misfit'}"
+                f"; {fit.n_obs} observations, {len(fit.params)} parameters"
+                + (f"; Monte Carlo: {mc['n']} draws of every stage's motions, seed "
+                   f"{mc['seed']}" if mc is not None else "") + "."))
+    rows = [[str(i + 1), r["name"], _fmt(r["cv_rms_mm_yr"]), _fmt(r["cv_stderr_mm_yr"]),
+             "yes" if r["within_one_se"] else "no", _fmt(r["rms_mm_yr"]), str(r["k"]),
+             f"{r['aic']:.1f}", f"{r['bic']:.1f}"] for i, r in enumerate(result.ranking)]
+    out.append(("Hypotheses over the series, best first", ["rank", "hypothesis",
+                "CV misfit mm/yr", "± se", "within 1 se of best", "RMS misfit mm/yr", "k",
+                "AIC", "BIC"], rows,
+                "CV: leave-one-plate-out (the plate left out of every stage) cross-validation "
+                "error over all stages, with its standard error over plates."))
+    m = tables["misfit"]
+    out.append(("Through time: misfit per stage", ["stage", "time Ma", "RMS misfit mm/yr",
+                                                   "variance reduction %"],
+                [[str(s), _fmt(t), _fmt(r), _fmt(100 * v)] for s, t, r, v in
+                 zip(m["stage"], m["time_ma"], m["rms_velocity_mm_yr"],
+                     m["variance_reduction"])], None))
+    pr, tq = tables["predicted"], tables["torques"]
+    for s, st in enumerate(result.stages, start=1):
+        rows = []
+        for i in range(len(pr["plate"])):
+            if pr["stage"][i] != s:
+                continue
+            plate = pr["plate"][i]
+            terms = [(tq["magnitude_1e25_nm"][j], tq["term"][j]) for j in range(len(tq["term"]))
+                     if tq["stage"][j] == s and tq["plate"][j] == plate
+                     and tq["term"][j] != "total"]
+            top = ", ".join(f"{t} {_fmt(m, 3)}" for m, t in sorted(terms, reverse=True)[:3])
+            rows.append([plate, _fmt(pr["observed_speed_mm_yr"][i]),
+                         _fmt(pr["predicted_speed_mm_yr"][i]), top])
+        coefs = ", ".join(f"{l} {_fmt(float(v))}" for l, v in
+                          zip(fit.labels, fit.values[s - 1]))
+        out.append((f"{st.name}", ["plate", "observed speed mm/yr", "predicted speed mm/yr",
+                                   "largest torques (10^25 N m)"], rows,
+                    f"Coefficients: {coefs}. RMS misfit "
+                    f"{_fmt(float(fit.stage_rms_mm_yr[s - 1]))} mm/yr."))
+    return out
+
+
+def write_series_report(outdir, result, tables, figures, manifest=None, truth=None):
+    """``report.md`` and ``report.html`` (figures embedded) of a stage series run.
+
+    Parameters
+    ----------
+    outdir : Path
+    result : SeriesResult
+    tables : dict
+        :func:`torque.io.series.series_tables`.
+    figures : list of (title, file name in ``outdir``)
+    manifest : dict, optional
+    truth : dict, optional
+        A synthetic series' truth (``true_coefficients``, ``hypothesis``, ...).
+    """
+    outdir = Path(outdir)
+    fit = result.fit
+    summary = [f"{len(result.stages)} stages from {min(st.time_ma for st in result.stages):g} "
+               f"to {max(st.time_ma for st in result.stages):g} Ma, one hypothesis "
+               f"({result.ranking[0]['name']} ranks first)",
+               "fitted: " + ", ".join(f"{n} {_fmt(float(v))}" for n, v in
+                                      zip(fit.params, fit.parameters)),
+               f"tasks ran on {result.executor}"]
+    run = {"world": result.series.name, "summary": summary, "figures": figures,
+           "manifest": manifest}
+    rows = _series_tables(result, tables, truth)
+    write_markdown(outdir / "report.md", run, rows)
+    write_html(outdir / "report.html", run, outdir, rows)

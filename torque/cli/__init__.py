@@ -4,6 +4,7 @@ One module per group of commands, each with an ``add_parser(sub)`` that declares
 commands and a ``run_*`` function per command: :mod:`~torque.cli.world` (check),
 :mod:`~torque.cli.kinematics` (frame, field, boundaries), :mod:`~torque.cli.physics`
 (cooling, torques), :mod:`~torque.cli.balance` (fit, predict, rank),
+:mod:`~torque.cli.stages` (stages),
 :mod:`~torque.cli.figures` (map, demo). Terminal tables are in :mod:`~torque.cli.text`.
 Every command reads its inputs through :mod:`torque.io`, calls the library, and writes its
 outputs atomically. Bad input raises :class:`torque.errors.InputError`, which ends here as
@@ -20,7 +21,7 @@ import time
 
 from .. import progress
 from ..errors import InputError
-from . import balance, figures, kinematics, physics, world
+from . import balance, figures, kinematics, physics, stages, world
 from .common import EXIT_BAD_INPUT, EXIT_BROKEN_PIPE, EXIT_OK, Parser
 
 __all__ = ["EXIT_BAD_INPUT", "EXIT_BROKEN_PIPE", "EXIT_OK", "build_parser", "main"]
@@ -37,6 +38,7 @@ def build_parser() -> Parser:
     kinematics.add_parser(sub)
     physics.add_parser(sub)
     balance.add_parser(sub)
+    stages.add_parser(sub)
     figures.add_parser(sub, main)
     for p in sub.choices.values():
         # after the command too; SUPPRESS keeps a "torque -q fit" from being undone

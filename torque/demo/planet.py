@@ -312,7 +312,7 @@ def write(outdir: Path) -> dict:
     return truth
 
 
-def _settle(world, continents, truth_hyp, omega):
+def _settle(world, continents, truth_hyp, omega, age_step=AGE_STEP_DEG):
     """Boundary kinds, ages and motions that agree with one another.
 
     Kinds come from the motions (classification), ages from the ridges and spreading rates,
@@ -349,7 +349,7 @@ def _settle(world, continents, truth_hyp, omega):
             bnd.append(Boundary(kind, b.left, b.right, b.xyz, None, sink, {}))
         world = dataclasses.replace(world, boundaries=tuple(bnd), boundaries_derived=False)
         ctx = Context(world, truth_hyp, omega, continents=continents)
-        ctx.SYNTH_STEP_DEG = AGE_STEP_DEG
+        ctx.SYNTH_STEP_DEG = age_step
         grid, _ = synthesise_ages(ctx)
         ages = _fill_ocean(grid, world, ctx, omega, MAX_AGE_MYR, AgeGrid)
         ctx = Context(world, truth_hyp, omega, ages=ages, continents=continents)
