@@ -107,8 +107,20 @@ def test_demo_world_is_what_the_generator_makes(tmp_path):
     for h in (DEMO / "hypotheses").glob("*.toml"):
         assert_same_text_and_numbers((tmp_path / "hypotheses" / h.name).read_text(),
                                      h.read_text(), h.name)
+    # and its past stages (torque.demo.through_time)
+    from torque.demo import write_series
+    write_series(tmp_path / "stages", tmp_path)
+    for name in ("series.toml", "truth.json", "rotations.csv"):
+        assert_same_text_and_numbers((tmp_path / "stages" / name).read_text(),
+                                     (DEMO / "stages" / name).read_text(), name)
+    for t in ("t05", "t10", "t15", "t20"):
+        for name in ("plates.geojson", "continents.geojson", "boundaries.geojson",
+                     "motions.csv", "world.toml"):
+            assert_same_text_and_numbers((tmp_path / "stages" / t / name).read_text(),
+                                         (DEMO / "stages" / t / name).read_text(),
+                                         f"{t}/{name}")
     for name, var in (("ages.nc", "age"), ("topography.nc", "elevation_m"),
-                      ("drag_coupling.nc", "thickness_m")):
+                      ("drag_coupling.nc", "thickness_m"), ("stages/t10/ages.nc", "age")):
         with xr.open_dataset(tmp_path / name) as a, xr.open_dataset(DEMO / name) as b:
             np.testing.assert_allclose(a[var].values, b[var].values, rtol=1e-9, atol=1e-9,
                                        equal_nan=True)

@@ -90,7 +90,7 @@ def test_force_modules_do_not_import_the_package():
 # cycle test above keeps imports one way.
 LAYERS = [
     ("torque.errors", "torque.progress", "torque.tabular", "torque.sphere", "torque.grids",
-     "torque.forces.base"),
+     "torque.forces.base", "torque.parallel"),
     ("torque.locate", "torque.euler"),
     ("torque.world", "torque.continents", "torque.lithosphere", "torque.columns"),
     ("torque.margins", "torque.data"),
@@ -99,9 +99,9 @@ LAYERS = [
     ("torque.hypothesis",),
     ("torque.balance", "torque.profile"),
     ("torque.diagnostics", "torque.resample", "torque.torque_table"),
-    ("torque.rank",),
+    ("torque.rank", "torque.stages"),
     ("torque.io",),                             # every file read or written
-    ("torque.maps", "torque.report"),
+    ("torque.maps", "torque.report", "torque.timeplots"),
     ("torque.demo",),
     ("torque.cli",),
     ("torque", "torque.__main__"),

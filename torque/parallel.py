@@ -45,10 +45,18 @@ def spawn_seeds(seed, n: int) -> list:
     return np.random.SeedSequence(seed).spawn(n)
 
 
-def _one_thread(func, item):
+def _warm_up(modules):
+    """Import what the tasks use, once per worker (not in the first task's time)."""
+    import importlib
+    for m in modules:
+        importlib.import_module(m)
+    return True
+
+
+def _one_thread(func, item, shared=None, with_shared=False):
     from threadpoolctl import threadpool_limits
     with threadpool_limits(1):
-        return func(item)
+        return func(shared, item) if with_shared else func(item)
 
 
 class Executor:
@@ -61,6 +69,9 @@ class Executor:
     scheduler : str, optional
         A Dask scheduler address (``tcp://host:port``), or ``local:N`` for a local Dask
         cluster of N workers. Overrides ``jobs``.
+    preload : sequence of str
+        Modules each Dask worker imports when the executor starts, so that the first
+        tasks do not pay for it.
 
     Examples
     --------
@@ -69,11 +80,12 @@ class Executor:
     [2, 3, 5]
     """
 
-    def __init__(self, jobs: int = 1, scheduler: str | None = None):
+    def __init__(self, jobs: int = 1, scheduler: str | None = None, preload=()):
         if not isinstance(jobs, int) or jobs < 1:
             raise InputError(f"--jobs must be a whole number of at least 1, got {jobs!r}")
         self.jobs = jobs
         self.scheduler = scheduler
+        self.preload = tuple(preload)
         self._pool = self._client = self._cluster = None
 
     def __repr__(self) -> str:
@@ -103,6 +115,7 @@ class Executor:
                 except OSError as exc:
                     raise InputError(f"cannot reach the Dask scheduler {self.scheduler}: "
                                      f"{exc}") from None
+            self._client.run(_warm_up, self.preload)
         elif self.jobs > 1:
             from concurrent.futures import ProcessPoolExecutor
             self._pool = ProcessPoolExecutor(max_workers=self.jobs)
@@ -117,8 +130,9 @@ class Executor:
             self._cluster.close()
         self._pool = self._client = self._cluster = None
 
-    def map(self, func, items, progress_bar=None) -> list:
-        """``[func(item) for item in items]``, run where this executor runs tasks.
+    def map(self, func, items, progress_bar=None, shared=None) -> list:
+        """``[func(item) for item in items]`` (or ``func(shared, item)``), run where this
+        executor runs tasks.
 
         Parameters
         ----------
@@ -127,6 +141,10 @@ class Executor:
         items : sequence
         progress_bar : optional
             An object with ``update()``, called as each task finishes.
+        shared : object, optional
+            Data every task needs (say, every stage's balance): sent to each Dask worker
+            once rather than with every task; given, ``func`` is called as
+            ``func(shared, item)``.
 
         Returns
         -------
@@ -134,23 +152,28 @@ class Executor:
             In the order of ``items``.
         """
         items = list(items)
+        with_shared = shared is not None
         if self._client is not None:
             from dask.distributed import as_completed
-            futures = self._client.map(_one_thread, [func] * len(items), items, pure=False)
+            data = self._client.scatter(shared, broadcast=True) if with_shared else None
+            futures = self._client.map(_one_thread, [func] * len(items), items,
+                                       [data] * len(items), [with_shared] * len(items),
+                                       pure=False)
             for _ in as_completed(futures):
                 if progress_bar is not None:
                     progress_bar.update()
             return self._client.gather(futures)
         if self._pool is not None:
             from concurrent.futures import as_completed
-            futures = [self._pool.submit(_one_thread, func, it) for it in items]
+            futures = [self._pool.submit(_one_thread, func, it, shared, with_shared)
+                       for it in items]
             for _ in as_completed(futures):
                 if progress_bar is not None:
                     progress_bar.update()
             return [f.result() for f in futures]
         out = []
         for it in items:
-            out.append(_one_thread(func, it))
+            out.append(_one_thread(func, it, shared, with_shared))
             if progress_bar is not None:
                 progress_bar.update()
         return out

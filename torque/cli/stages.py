@@ -66,7 +66,7 @@ def run_stages(args) -> int:
     if outdir.exists() and not outdir.is_dir():
         raise InputError("exists and is not a folder", file=outdir)
     check_output_path(outdir / "report.html")
-    with Executor(args.jobs, args.scheduler) as ex:
+    with Executor(args.jobs, args.scheduler, preload=("torque.io.series",)) as ex:
         result = run_series(args.series, ex, args.monte_carlo, args.seed)
     plates = args.plates.split(",") if args.plates else default_plates(result)
     known = set(p for st in result.stages for p in st.system.plates)

@@ -292,21 +292,43 @@ def load_stage(task):
 # ----------------------------------------------------------------------------------------
 # the whole job over a series: tasks, and the result
 # ----------------------------------------------------------------------------------------
-def fit_task(task):
-    """A joint fit: ``(stages, per_stage, misfit, exclude_plate)`` -> JointFit (a task for
-    :class:`torque.parallel.Executor`)."""
+def fit_task(shared, task):
+    """A joint fit (a task for :class:`torque.parallel.Executor`).
+
+    Parameters
+    ----------
+    shared : list of list of Stage
+        Every hypothesis' stages.
+    task : tuple
+        ``(hypothesis index, per_stage, misfit, exclude_plate)``.
+
+    Returns
+    -------
+    JointFit
+    """
     from ..stages import fit_joint
-    stages, per_stage, misfit, exclude = task
-    return fit_joint(stages, per_stage, misfit, exclude)
+    h, per_stage, misfit, exclude = task
+    return fit_joint(shared[h], per_stage, misfit, exclude)
 
 
-def monte_carlo_task(task):
-    """Refits on draws of the motions: ``(stages, per_stage, misfit, seed sequences,
-    start)`` -> parameters (n, k), NaN rows for draws whose fit failed."""
+def monte_carlo_task(stages, task):
+    """Refits on draws of the motions (a task for :class:`torque.parallel.Executor`).
+
+    Parameters
+    ----------
+    stages : list of Stage
+    task : tuple
+        ``(per_stage, misfit, seed sequences, start)``.
+
+    Returns
+    -------
+    ndarray, shape (n, k)
+        The parameters of each draw; NaN rows for draws whose fit failed.
+    """
     import dataclasses
 
     from ..stages import draw_motions, fit_joint
-    stages, per_stage, misfit, seeds, start = task
+    per_stage, misfit, seeds, start = task
     out = np.full((len(seeds), len(start)), np.nan)
     for i, ss in enumerate(seeds):
         drawn = [dataclasses.replace(st, omega_obs=w)
@@ -389,11 +411,11 @@ def run_series(path, executor, monte_carlo: int = 0, seed: int = 0,
         raise InputError(f"plates to draw are in no stage: {', '.join(missing)}",
                          file=series.path)
     # every hypothesis' joint fit, and its fits without each plate (cross-validation)
-    tasks = [(stages, series.per_stage, series.misfit, None) for stages in by_hyp]
-    tasks += [(stages, series.per_stage, series.misfit, p) for stages in by_hyp
+    tasks = [(h, series.per_stage, series.misfit, None) for h in range(len(by_hyp))]
+    tasks += [(h, series.per_stage, series.misfit, p) for h in range(len(by_hyp))
               for p in plates]
     with progress.bar(len(tasks), "joint fits and cross-validation", minimum=2) as bar:
-        fits = executor.map(fit_task, tasks, bar)
+        fits = executor.map(fit_task, tasks, bar, shared=by_hyp)
     H = len(hyps)
     ranking = []
     for h in range(H):
@@ -420,11 +442,11 @@ def run_series(path, executor, monte_carlo: int = 0, seed: int = 0,
                              file=series.path, hint="give cov_* columns in the motions")
         seeds = spawn_seeds(seed, monte_carlo)
         start = fits[0].parameters
-        tasks = [(stages, series.per_stage, series.misfit, seeds[i:i + chunk], start)
+        tasks = [(series.per_stage, series.misfit, seeds[i:i + chunk], start)
                  for i in range(0, monte_carlo, chunk)]
         with progress.bar(len(tasks), "Monte Carlo over the stages' motions",
                           minimum=2) as bar:
-            draws = np.vstack(executor.map(monte_carlo_task, tasks, bar))
+            draws = np.vstack(executor.map(monte_carlo_task, tasks, bar, shared=stages))
         ok = np.all(np.isfinite(draws), axis=1)
         good = draws[ok]
         mc = {"draws": draws, "failed": int((~ok).sum()), "seed": seed, "n": monte_carlo,
@@ -446,8 +468,20 @@ def _series_rms(stages, fit) -> float:
 # outputs
 # ----------------------------------------------------------------------------------------
 def plate_speed_mm_yr(system, omega) -> np.ndarray:
-    """RMS speed of each plate over its area (mm/yr, shape (P,)) for Euler vectors
-    ``omega`` (rad/s): ``sqrt(R^2 w^T D_p w / A_p)``."""
+    """RMS speed of each plate over its area: ``sqrt(R^2 w^T D_p w / A_p)``.
+
+    Parameters
+    ----------
+    system : System
+        Its drag tensors, areas and radius.
+    omega : array_like, shape (P, 3)
+        rad/s.
+
+    Returns
+    -------
+    ndarray, shape (P,)
+        mm/yr.
+    """
     from ..euler import M_S_TO_MM_YR
     w = np.asarray(omega, float)
     return (np.sqrt(system.radius_m ** 2 * np.einsum("pi,pij,pj->p", w, system.D, w)
