@@ -165,25 +165,37 @@ def age_grid(step):
 
 def test_distributed_ridge_push_matches_stokes_and_converges():
     # Reference: R^2 oint F(t) dr round each purely oceanic plate (Stokes' theorem).
+    # The grid sum is first order (cells cut by edges); the default line integral along
+    # the exact edges, F fitted one-sided from the grid, third order: measured median
+    # errors over plates 3.3e-6, 5.0e-7, 5.8e-8 at 1, 0.5, 0.25 degree, against the grid
+    # sum's 1.0e-3, 7.5e-4, 1.3e-4
     w = voronoi_world()
     cooling = Cooling(Physics())
     ref = stokes_torques(w, cooling)
-    errs = []
+    errs = {"grid": [], "boundary": []}
     for step in (1.0, 0.5, 0.25):
-        (t,) = compute_torques(w, hyp({"kind": "ridge"}), ages=age_grid(step))
-        errs.append(np.linalg.norm(t.torque() - ref) / np.linalg.norm(ref))
-    assert errs[-1] < 0.01
-    assert errs[0] > errs[1] > errs[2]
-    assert errs[0] / errs[2] > 3.0          # at least first order in the step
+        for q in errs:
+            (t,) = compute_torques(w, hyp({"kind": "ridge", "quadrature": q}),
+                                   ages=age_grid(step))
+            e = np.linalg.norm(t.torque() - ref, axis=1) / np.linalg.norm(ref, axis=1)
+            errs[q].append(np.median(e))
+    g, b = np.array(errs["grid"]), np.array(errs["boundary"])
+    assert g[-1] < 0.01 and g[0] > g[1] > g[2] and g[0] / g[2] > 3.0   # first order
+    assert np.all(b < g / 10)                      # ten times better at every step
+    assert b[0] / b[2] > 16 and b[-1] < 1e-6       # better than second order
 
 
 def test_distributed_ridge_push_is_zero_for_uniform_age():
-    # grad F = 0 for a uniform age field: no torque at all (plate boundaries make no force).
+    # grad F = 0 for a uniform age field: no torque (plate boundaries make no force): the
+    # grid sum exactly, the line integral round each closed edge to rounding
     w = voronoi_world()
     g = age_grid(1.0)
     flat = AgeGrid(g.lon, g.lat, np.full_like(g.age_myr, 60.0))
-    (t,) = compute_torques(w, hyp({"kind": "ridge"}), ages=flat)
+    (t,) = compute_torques(w, hyp({"kind": "ridge", "quadrature": "grid"}), ages=flat)
     assert np.abs(t.torque()).max() == 0.0
+    (t,) = compute_torques(w, hyp({"kind": "ridge"}), ages=flat)
+    F = Cooling(Physics()).ridge_push_n_m(60.0)
+    assert np.abs(t.torque()).max() < 1e-12 * F * R ** 2
 
 
 def _flow_grid(step, omega, extra=None):

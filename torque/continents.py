@@ -95,7 +95,23 @@ def clip_moments(world, continents: Continents):
     warnings : list of str
         Stretches where a continent edge runs along a plate edge.
     """
-    clip = clip_edges(world, continents)
+    return moments_of_clip(world, continents, clip_edges(world, continents))
+
+
+def moments_of_clip(world, continents, clip):
+    """:func:`clip_moments` from edges already clipped (:func:`clip_edges`).
+
+    Parameters
+    ----------
+    world : World
+    continents : Continents
+    clip : ClippedEdges
+
+    Returns
+    -------
+    area, first, second, warnings
+        As :func:`clip_moments`.
+    """
     mid_p = sphere.normalize(clip.plate_a + clip.plate_b)
     inside = continents.contains(mid_p)
     arcs_a = np.concatenate([clip.margin_a, clip.plate_a[inside]])

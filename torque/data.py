@@ -22,7 +22,7 @@ from functools import cached_property
 import numpy as np
 
 from . import progress, sphere
-from .continents import MaskContinents, clip_edges, clip_moments
+from .continents import MaskContinents, clip_edges, moments_of_clip
 from .errors import InputError
 
 #: Grids of at least this many nodes show progress while they are located.
@@ -177,7 +177,10 @@ class WorldData:
                              f"{grid.lat[-1]:g})", file=grid.source)
         if self.continents is None:
             return ()
-        nan = ~np.isfinite(grid.age_myr) & ~self.node_continental(grid)
+        nan = ~np.isfinite(grid.age_myr)
+        if not nan.any():
+            return ()
+        nan = nan & ~self.node_continental(grid)
         if not nan.any():
             return ()
         # no-data nodes in the ocean (a gap in the grid, or land the continents file does
@@ -247,7 +250,8 @@ class WorldData:
             return ContinentalPart(area, first, second, (
                 f"continents are the no-data nodes of the age grid ({c.source}): the "
                 "continental and oceanic parts of plates are sums over its cells",))
-        area, first, second, warnings = clip_moments(self.world, self.continents)
+        area, first, second, warnings = moments_of_clip(self.world, self.continents,
+                                                        self.margins)
         return ContinentalPart(area, first, second, tuple(warnings))
 
     @cached_property
