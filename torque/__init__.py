@@ -14,18 +14,37 @@ Results are model-dependent research estimates, not inputs to hazard or engineer
 decisions.
 """
 
-from .balance import FIT_METHODS, assemble, predict
-from .data import WorldData
-from .diagnostics import FitResult, analyse
-from .errors import InputError, ModelError
-from .euler import Motions, to_no_net_rotation, velocity_field
-from .hypothesis import hypothesis_from_dict
-from .io import (Inputs, check_world, compute_torques, load_hypothesis, load_world,
-                 read_motions, world_from_rings, write_motions)
-from .lithosphere import Cooling, Physics
-from .locate import PlateLocator
-from .rank import rank
-from .world import Boundary, Plate, World
+import importlib
+
+#: Where each name of the package lives: imported on first use (PEP 562), so that
+#: ``import torque`` and ``torque --help`` do not load scipy and the rest.
+_EXPORTS = {
+    "FIT_METHODS": "balance", "assemble": "balance", "predict": "balance",
+    "WorldData": "data", "FitResult": "diagnostics", "analyse": "diagnostics",
+    "InputError": "errors", "ModelError": "errors", "Motions": "euler",
+    "to_no_net_rotation": "euler", "velocity_field": "euler",
+    "hypothesis_from_dict": "hypothesis", "Inputs": "io", "check_world": "io",
+    "compute_torques": "io", "load_hypothesis": "io", "load_world": "io",
+    "read_motions": "io", "world_from_rings": "io", "write_motions": "io",
+    "Cooling": "lithosphere", "Physics": "lithosphere", "PlateLocator": "locate",
+    "rank": "rank", "Boundary": "world", "Plate": "world", "World": "world",
+}
+
+
+def __getattr__(name):
+    if name in _EXPORTS:
+        value = getattr(importlib.import_module(f".{_EXPORTS[name]}", __name__), name)
+        globals()[name] = value
+        return value
+    try:
+        return importlib.import_module(f".{name}", __name__)    # a submodule
+    except ModuleNotFoundError:
+        raise AttributeError(f"module 'torque' has no attribute {name!r}") from None
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_EXPORTS))
+
 
 __all__ = ["Boundary", "Cooling", "FIT_METHODS", "FitResult", "Inputs", "InputError",
            "ModelError", "Motions", "Physics", "Plate", "PlateLocator", "World", "WorldData",

@@ -24,7 +24,7 @@ import numpy as np
 import shapely
 
 from . import sphere
-from .locate import PlateLocator, arc_boxes
+from .locate import PlateLocator, arc_boxes, cached
 
 
 @dataclass(frozen=True, eq=False)
@@ -62,7 +62,7 @@ class Continents:
         ocean_hole = np.arange(n) < n_outer - 1
         plate = np.r_[np.zeros(n, int), np.ones(n, int)]
         is_hole = np.r_[self.ring_is_hole, ocean_hole]
-        return PlateLocator(xyz, start, plate, is_hole, 2)
+        return cached(xyz, start, plate, is_hole, 2)
 
     def contains(self, xyz) -> np.ndarray:
         """Whether each unit vector ``(N, 3)`` lies on a continent.

@@ -18,7 +18,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.spatial.transform import Rotation
 
 from . import sphere
 from .errors import InputError
@@ -156,7 +155,7 @@ def relative(omega_a, omega_b) -> np.ndarray:
 # ----------------------------------------------------------------------------------------
 # finite rotations (scipy does the algebra)
 # ----------------------------------------------------------------------------------------
-def finite_rotation(lat_deg, lon_deg, angle_deg) -> Rotation:
+def finite_rotation(lat_deg, lon_deg, angle_deg):
     """The finite rotation by ``angle_deg`` (counter-clockwise) about a pole.
 
     Parameters
@@ -171,10 +170,11 @@ def finite_rotation(lat_deg, lon_deg, angle_deg) -> Rotation:
     scipy.spatial.transform.Rotation
     """
     axis = sphere.lonlat_to_xyz(lon_deg, lat_deg)
+    from scipy.spatial.transform import Rotation
     return Rotation.from_rotvec(axis * np.radians(np.asarray(angle_deg, float))[..., None])
 
 
-def rotation_pole(rotation: Rotation):
+def rotation_pole(rotation):
     """Pole latitude, longitude and angle (degrees, >= 0) of finite rotations.
 
     Parameters
@@ -191,7 +191,7 @@ def rotation_pole(rotation: Rotation):
     return np.where(angle == 0, 90.0, lat), np.where(angle == 0, 0.0, lon), angle
 
 
-def compose(first: Rotation, then: Rotation) -> Rotation:
+def compose(first, then):
     """The rotation ``first`` followed by ``then``.
 
     Parameters

@@ -24,8 +24,6 @@ from __future__ import annotations
 
 import numpy as np
 import shapely
-from scipy.spatial import cKDTree
-from scipy.spatial.transform import Rotation
 
 from . import sphere
 
@@ -35,9 +33,66 @@ _POLE_CLEARANCE = 1e-3  # radians kept between any vertex or arc and the grid's 
 def _candidate_frames():
     # Fixed, deterministic generic rotations; the first that clears the poles is used.
     for k in range(1, 25):
+        from scipy.spatial.transform import Rotation
         yield Rotation.from_euler(
             "zyz", [17.3 * k + 0.37, 31.1 + 7.7 * k, 5.9 * k + 1.3], degrees=True
         ).as_matrix()
+
+
+def default_cell_deg(n_vertices: int) -> float:
+    """Cell size (degrees) of a locator for rings of ``n_vertices`` vertices: fine cells
+    only where there are many edges to sort into them (set-up grows with the number of
+    cells, queries with the edges per cell).
+
+    Parameters
+    ----------
+    n_vertices : int
+
+    Returns
+    -------
+    float
+        0.25 from 20,000 vertices, 0.5 from 2,000, else 1.
+
+    Examples
+    --------
+    >>> default_cell_deg(100_000), default_cell_deg(5_000), default_cell_deg(300)
+    (0.25, 0.5, 1.0)
+    """
+    return 0.25 if n_vertices >= 20_000 else 0.5 if n_vertices >= 2_000 else 1.0
+
+
+#: Locators built in this process, by the content of their rings (see :func:`cached`).
+_CACHE: dict = {}
+_CACHE_SIZE = 8
+
+
+def cached(xyz, ring_start, ring_plate, ring_is_hole, n_plates: int) -> "PlateLocator":
+    """The locator of these rings, built once per process: a world read again (another
+    command of the same run, another stage with the same plates) reuses it.
+
+    Parameters
+    ----------
+    xyz, ring_start, ring_plate, ring_is_hole, n_plates
+        As :class:`PlateLocator`.
+
+    Returns
+    -------
+    PlateLocator
+    """
+    import hashlib
+    h = hashlib.blake2b(digest_size=16)
+    for a in (xyz, ring_start, ring_plate, ring_is_hole):
+        a = np.ascontiguousarray(a)
+        h.update(str(a.dtype).encode() + str(a.shape).encode())
+        h.update(a.tobytes())
+    key = (h.hexdigest(), int(n_plates))
+    loc = _CACHE.pop(key, None)
+    if loc is None:
+        loc = PlateLocator(xyz, ring_start, ring_plate, ring_is_hole, n_plates)
+    _CACHE[key] = loc                           # most recent last
+    while len(_CACHE) > _CACHE_SIZE:
+        _CACHE.pop(next(iter(_CACHE)))
+    return loc
 
 
 class PlateLocator:
@@ -55,7 +110,7 @@ class PlateLocator:
     n_plates : int
     cell_deg : float, optional
         Size of the grid cells in degrees. Smaller cells cost memory and set-up time, and save
-        time per point near boundaries.
+        time per point near boundaries. Default :func:`default_cell_deg` of the vertex count.
 
     Examples
     --------
@@ -71,13 +126,14 @@ class PlateLocator:
     """
 
     def __init__(self, xyz, ring_start, ring_plate, ring_is_hole, n_plates: int, *,
-                 cell_deg: float = 0.25):
+                 cell_deg: float | None = None):
         xyz = np.asarray(xyz, dtype=float)
         ring_start = np.asarray(ring_start, dtype=np.int64)
         ring_plate = np.asarray(ring_plate, dtype=np.int64)
         ring_is_hole = np.asarray(ring_is_hole, dtype=bool)
         self.n_plates = int(n_plates)
-        self.cell_deg = float(cell_deg)
+        cell_deg = float(cell_deg if cell_deg is not None else default_cell_deg(len(xyz)))
+        self.cell_deg = cell_deg
         self.ncol = int(round(360.0 / cell_deg))
         self.nrow = int(round(180.0 / cell_deg))
         if abs(self.ncol * cell_deg - 360.0) > 1e-9 or abs(self.nrow * cell_deg - 180.0) > 1e-9:
@@ -109,11 +165,17 @@ class PlateLocator:
     # -- set-up ---------------------------------------------------------------------------
     @staticmethod
     def _choose_frame(a, b):
+        # only an arc whose end lies within its own length (plus the clearance) of a pole
+        # can come near it: the exact latitude range is needed for those alone
+        theta = sphere.angle_between(a, b)
         for q in _candidate_frames():
-            ra, rb = a @ q.T, b @ q.T
-            lat_lo, lat_hi = sphere.arc_lat_range(ra, rb)
-            if lat_hi.size == 0 or (np.max(np.abs(np.concatenate([lat_lo, lat_hi])))
-                                    < np.pi / 2 - _POLE_CLEARANCE):
+            colat = np.arccos(np.clip(np.maximum(np.abs(a @ q[2]), np.abs(b @ q[2])), 0, 1))
+            near = colat < theta + 2 * _POLE_CLEARANCE
+            if not near.any():
+                return q
+            lat_lo, lat_hi = sphere.arc_lat_range(a[near] @ q.T, b[near] @ q.T)
+            if (np.max(np.abs(np.concatenate([lat_lo, lat_hi])))
+                    < np.pi / 2 - _POLE_CLEARANCE):
                 return q
         raise ValueError("no rotated frame clears the poles; the rings look degenerate")
 
@@ -175,12 +237,17 @@ class PlateLocator:
         oe = np.argsort(ke)
         ke, pe = ke[oe], pe[oe]
 
-        iw = np.searchsorted(kw, akey, side="right")
-        ie = np.searchsorted(ke, akey, side="left") - 1
-        col_end_w = np.searchsorted(kw, (acol + 1) * 1000.0)
-        col_end_e = np.searchsorted(ke, (acol + 1) * 1000.0)
+        # anchors column by column (keys increasing) for the searches, then back to rows
+        by_col = np.arange(akey.size).reshape(self.nrow, self.ncol).T.ravel()
+        iw = np.empty(akey.size, np.int64)
+        ie = np.empty(akey.size, np.int64)
+        iw[by_col] = np.searchsorted(kw, akey[by_col], side="right")
+        ie[by_col] = np.searchsorted(ke, akey[by_col], side="left") - 1
+        # where each column's keys end (and the eastward ones start): once per column
+        col_end_w = np.searchsorted(kw, (cols + 1) * 1000.0)[acol]
+        col_end_e = np.searchsorted(ke, (cols + 1) * 1000.0)[acol]
         ok_w = (iw < col_end_w)
-        ok_e = (ie >= 0) & (ie >= np.searchsorted(ke, acol * 1000.0))
+        ok_e = (ie >= 0) & (ie >= np.searchsorted(ke, cols * 1000.0)[acol])
 
         # A column that no edge crosses lies wholly in the plate holding the north pole.
         north_plate = int(np.argmax(north_count)) if north_count.max() > 0 else -1
@@ -410,6 +477,7 @@ class ArcIndex:
         self.pa, self.pb, self.owner = sphere.densify_arcs(a, b, step_rad)
         self.half = 0.5 * np.linalg.norm(self.pa - self.pb, axis=1).max() if len(
             self.pa) else 0.0
+        from scipy.spatial import cKDTree
         self.tree = cKDTree(sphere.normalize(self.pa + self.pb)) if len(self.pa) else None
 
     def __repr__(self) -> str:

@@ -20,10 +20,6 @@ import numpy as np
 from . import sphere
 from .errors import InputError
 from .euler import pole_to_vector, velocity_en
-from .forces import build_terms
-from .forces.context import Context
-from .io.files import atomic_path
-from .torque_table import TORQUE_UNIT_NM, TorqueTable
 
 PLATE_COLOURS = ["#9DB8D9", "#E8C77D", "#A9CFA3", "#D9A7BE", "#C9C1E3", "#E6B08F",
                  "#A6D4D1", "#CFCF9C"]
@@ -336,6 +332,7 @@ def _legend(ax, extra=()):
 
 def _save(fig, path):
     plt = _plt()
+    from .io.files import atomic_path
     with atomic_path(path) as tmp:
         fig.savefig(tmp, dpi=110, bbox_inches="tight", format=str(path).rsplit(".", 1)[-1])
     plt.close(fig)
@@ -653,6 +650,7 @@ def torque_chart(path, world, terms, coefficients, omega):
     fig, ax = plt.subplots(figsize=(max(8, 0.6 * P), 4.5))
     width = 0.8 / len(terms)
     cols = force_colours([t.label for t in terms])
+    from .torque_table import TorqueTable
     mags = TorqueTable.from_terms(world, terms, coefficients, omega).magnitude.T  # (K, P)
     top = float(np.max(mags)) or 1.0
     for k, (t, mag) in enumerate(zip(terms, mags)):
@@ -696,6 +694,7 @@ def torque_globe(path, world, terms, coefficients, omega):
     import cartopy.crs as ccrs
     from matplotlib.lines import Line2D
     plt = _plt()
+    from .torque_table import TORQUE_UNIT_NM, TorqueTable
     table = TorqueTable.from_terms(world, terms, coefficients, omega)
     force = table.equivalent_force_n()                                  # (P, K, 2)
     # arrows scaled as torques: |F| R = |tau perpendicular to c|
@@ -795,6 +794,8 @@ class MapKind:
 
 
 def _fitted_terms(inp: MapInputs):
+    from .forces import build_terms
+    from .forces.context import Context
     terms = build_terms(Context(inp.inputs, inp.hypothesis, inp.observed))
     return terms, inp.fit.values([t.label for t in terms], file=inp.fit_path)
 

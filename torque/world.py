@@ -17,13 +17,11 @@ from dataclasses import dataclass, field
 from functools import cached_property
 
 import numpy as np
-from scipy.sparse import coo_matrix
-from scipy.sparse.csgraph import connected_components
-from scipy.spatial import cKDTree
 
 from . import sphere
 from .errors import InputError
-from .locate import ArcIndex, PlateLocator
+from .locate import ArcIndex
+from .locate import cached as cached_locator
 
 EARTH_RADIUS_KM = 6371.0
 BOUNDARY_KINDS = ("ridge", "subduction", "transform", "collision", "unclassified")
@@ -276,7 +274,7 @@ class PlateGeometry:
 
     @cached_property
     def locator(self):
-        return PlateLocator(self.xyz, self.ring_start, self.ring_plate, self.ring_is_hole,
+        return cached_locator(self.xyz, self.ring_start, self.ring_plate, self.ring_is_hole,
                             self.n_plates)
 
 
@@ -628,6 +626,9 @@ def as_written(geometry: PlateGeometry) -> PlateGeometry:
 
 def _vertex_ids(xyz, tol_rad: float) -> np.ndarray:
     """One id per group of vertices closer than ``tol_rad`` (chains of them too)."""
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import connected_components
+    from scipy.spatial import cKDTree
     pairs = cKDTree(xyz).query_pairs(r=tol_rad, output_type="ndarray")
     n = len(xyz)
     graph = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(n, n))

@@ -8,16 +8,7 @@ from contextlib import ExitStack
 
 import numpy as np
 
-from ..balance import add_covariances, assemble, model_error_covariance, predict
-from ..diagnostics import analyse
 from ..errors import InputError, require_memory
-from ..euler import Motions, net_rotation, pole_to_vector
-from ..forces import build_terms
-from ..io import (atomic_path, atomic_write, dumps, load_hypothesis, output_suffix,
-                  read_coefficients, read_covariance, read_motions, write_csv, write_json,
-                  write_motions)
-from ..rank import rank
-from ..resample import bootstrap, monte_carlo_motions, monte_carlo_physics
 from . import text
 from .common import EXIT_OK, arg_type, count, frame_warning, inputs, manifest
 
@@ -170,6 +161,8 @@ class Problem:
         -------
         Problem
         """
+        from ..balance import assemble
+        from ..forces import build_terms
         omega = motions.for_world(data.world) if motions is not None else None
         terms = build_terms(data.context(hypothesis, omega))
         return cls(data, hypothesis, motions, omega, terms,
@@ -187,6 +180,8 @@ class Problem:
         -------
         System
         """
+        from ..balance import assemble
+        from ..forces import build_terms
         hyp = dataclasses.replace(self.hypothesis, physics=physics)
         return assemble(self.inputs.world, hyp,
                         build_terms(self.inputs.context(hyp, self.omega)))
@@ -197,6 +192,7 @@ class Problem:
 
 
 def _problem(args, motions_path=None) -> Problem:
+    from ..io import load_hypothesis, read_motions
     data = inputs(args)
     motions = read_motions(motions_path) if motions_path else None
     return Problem.build(data, load_hypothesis(args.hypothesis), motions)
@@ -215,6 +211,9 @@ def run_fit(args) -> int:
     int
         The exit status (0).
     """
+    from ..diagnostics import analyse
+    from ..io import output_suffix, write_json
+    from ..resample import bootstrap, monte_carlo_motions, monte_carlo_physics
     output_suffix(args.output, (".json",))
     pb = _problem(args, args.motions)
     cov = covariances(args, pb.motions, pb.inputs.world, pb.system)
@@ -308,6 +307,8 @@ def covariances(args, motions, world, system) -> Covariances:
     InputError
         For a chi-square misfit with no covariance at all, or a model error without it.
     """
+    from ..balance import add_covariances, model_error_covariance
+    from ..io import read_covariance
     notes = []
     if args.covariance:
         data = read_covariance(args.covariance, world.plate_names)
@@ -338,6 +339,7 @@ def covariances(args, motions, world, system) -> Covariances:
 
 def _mantle_rotation(text):
     """``--mantle-rotation LAT,LON,RATE`` as an Euler vector (rad/s), or None."""
+    from ..euler import pole_to_vector
     if text is None:
         return None
     try:
@@ -393,6 +395,9 @@ def run_predict(args) -> int:
     int
         The exit status (0).
     """
+    from ..balance import predict
+    from ..euler import Motions, net_rotation
+    from ..io import output_suffix, read_coefficients, write_motions
     output_suffix(args.output, (".csv",))
     pb = _problem(args, args.motions)
     s = pb.system
@@ -431,6 +436,9 @@ def run_rank(args) -> int:
     int
         The exit status (0).
     """
+    from ..io import (atomic_path, atomic_write, dumps, load_hypothesis, output_suffix,
+                      read_motions, write_csv)
+    from ..rank import rank
     if args.output:
         output_suffix(args.output, (".csv",))
     if args.json:

@@ -4,12 +4,14 @@ from __future__ import annotations
 
 import argparse
 import sys
+from typing import TYPE_CHECKING
 from pathlib import Path
 
 import numpy as np
 
-from .. import progress
-from ..io import Inputs, read_motions
+if TYPE_CHECKING:                       # imported when a command runs (fast --help)
+    from ..io import Inputs
+
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
 EXIT_BROKEN_PIPE = 141     # 128 + SIGPIPE, what a shell reports for a reader that went away
@@ -86,6 +88,8 @@ def inputs(args, path=None, *, valid: bool = True) -> Inputs:
     -------
     Inputs
     """
+    from .. import progress
+    from ..io import Inputs
     path = Path(path if path is not None else args.world)
     pre = getattr(args, "preloaded", None)
     if pre is not None and pre.path == path.resolve():
@@ -142,6 +146,7 @@ def motions_for(path, world):
     motions : Motions
     omega : ndarray, shape (P, 3)
     """
+    from ..io import read_motions
     motions = read_motions(path)
     return motions, motions.for_world(world)
 

@@ -2,10 +2,7 @@
 
 from __future__ import annotations
 
-from .. import progress
 from ..errors import InputError
-from ..io import load_hypothesis, output_suffix, read_fit
-from ..maps import KINDS, MapInputs
 from .common import EXIT_OK, inputs, motions_for
 
 
@@ -19,6 +16,7 @@ def add_parser(sub, main) -> None:
     main : callable
         :func:`torque.cli.main`.
     """
+    from ..maps import KINDS
     p = sub.add_parser("map", help="maps and charts",
                        description="Draw a map or chart (PNG, SVG or PDF). Kinds: "
                        + "; ".join(f"{k}: {v.shows}" for k, v in KINDS.items()) + ".")
@@ -55,6 +53,9 @@ def run_map(args) -> int:
     int
         The exit status (0).
     """
+    from .. import progress
+    from ..io import load_hypothesis, output_suffix, read_fit
+    from ..maps import KINDS, MapInputs
     output_suffix(args.output, (".png", ".svg", ".pdf"))
     kind = KINDS[args.kind]
     given = {k for k in ("motions", "predicted", "fit", "hypothesis") if getattr(args, k)}

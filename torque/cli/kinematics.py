@@ -8,19 +8,6 @@ import dataclasses
 import numpy as np
 
 from ..errors import InputError, require_memory
-from ..euler import (grid_lonlat, net_rotation, speed_azimuth, to_no_net_rotation,
-                     velocity_field)
-from ..io import (field_dataset, output_suffix, read_motions, read_points,
-                  write_boundaries_geojson, write_csv, write_motions, write_netcdf,
-                  write_points_geojson)
-from ..data import WorldData
-from ..forces.context import Context
-from ..hypothesis import Hypothesis
-from ..lithosphere import Physics
-from ..margins import (MIN_RUN_KM, TRANSFORM_WITHIN_DEG, boundary_motion, classify_pieces,
-                       sample_boundaries)
-from ..sphere import xyz_to_lonlat
-from ..world import Boundary
 from . import text
 from .common import EXIT_OK, inputs, motions_for, positive
 
@@ -34,6 +21,7 @@ def add_parser(sub) -> None:
     ----------
     sub : argparse subparsers
     """
+    from ..margins import MIN_RUN_KM
     p = sub.add_parser("frame", help="change the reference frame of a set of motions",
                        description="Express plate motions in the no-net-rotation frame (the "
                        "frame in which the surface integral of r x v vanishes, computed "
@@ -92,6 +80,8 @@ def run_frame(args) -> int:
     int
         The exit status (0).
     """
+    from ..euler import net_rotation, to_no_net_rotation
+    from ..io import output_suffix, read_motions, write_motions
     output_suffix(args.output, (".csv",))
     world = inputs(args, args.world).world
     motions = read_motions(args.motions)
@@ -130,6 +120,9 @@ def run_field(args) -> int:
     int
         The exit status (0).
     """
+    from ..euler import grid_lonlat, speed_azimuth, velocity_field
+    from ..io import (field_dataset, output_suffix, read_points, write_csv, write_netcdf,
+                      write_points_geojson)
     suffix = output_suffix(args.output, FIELD_SUFFIXES)
     world = inputs(args).world
     _, omega = motions_for(args.motions, world)
@@ -165,6 +158,11 @@ def run_field(args) -> int:
 def _ages_for_classification(data, motion, omega):
     """Ages synthesised from the ridges a first classification finds (no age grid): the
     sinking plate of a convergent boundary is then the one with the older sea floor."""
+    from ..data import WorldData
+    from ..forces.context import Context
+    from ..hypothesis import Hypothesis
+    from ..lithosphere import Physics
+    from ..margins import classify_pieces
     first, _ = classify_pieces(data.world, motion)
     world = dataclasses.replace(data.world, boundaries=tuple(first), boundaries_derived=False)
     if not any(b.kind == "ridge" for b in first):
@@ -187,6 +185,11 @@ def run_boundaries(args) -> int:
     int
         The exit status (0).
     """
+    from ..io import output_suffix, write_boundaries_geojson, write_csv
+    from ..margins import (TRANSFORM_WITHIN_DEG, boundary_motion, classify_pieces,
+                           sample_boundaries)
+    from ..sphere import xyz_to_lonlat
+    from ..world import Boundary
     output_suffix(args.output, (".csv",))
     if args.geojson:
         output_suffix(args.geojson, (".geojson", ".json"))

@@ -6,10 +6,6 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from ..hypothesis import Hypothesis, cooling_table, slab_depth_km
-from ..io import dumps, load_hypothesis, output_suffix, read_coefficients, write_csv
-from ..lithosphere import Physics
-from ..torque_table import TorqueTable
 from . import text
 from .common import EXIT_OK, inputs, manifest, motions_for
 
@@ -86,6 +82,9 @@ def run_cooling(args) -> int:
     int
         The exit status (0).
     """
+    from ..hypothesis import Hypothesis, cooling_table, slab_depth_km
+    from ..io import dumps, load_hypothesis, output_suffix, write_csv
+    from ..lithosphere import Physics
     if args.output:
         output_suffix(args.output, (".csv",))
     hyp = load_hypothesis(args.physics) if args.physics else Hypothesis("defaults", Physics(), ())
@@ -115,6 +114,8 @@ def run_torques(args) -> int:
     int
         The exit status (0).
     """
+    from ..io import load_hypothesis, output_suffix, read_coefficients, write_csv
+    from ..torque_table import TorqueTable
     from ..forces import build_terms
 
     output_suffix(args.output, (".csv",))

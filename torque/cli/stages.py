@@ -6,8 +6,6 @@ import json
 from pathlib import Path
 
 from ..errors import InputError
-from ..io import write_csv, write_json
-from ..io.files import check_output_path
 from .common import EXIT_OK, arg_type, count
 
 jobs_type = arg_type(int, "a whole number", lambda n: n >= 1, "must be 1 or more")
@@ -57,6 +55,8 @@ def run_stages(args) -> int:
     -------
     int
     """
+    from ..io import write_csv, write_json
+    from ..io.files import check_output_path
     from ..io.manifest import run_manifest
     from ..io.series import run_series, series_record, series_tables
     from ..parallel import Executor

@@ -8,8 +8,6 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..diagnostics import chi_square_summary, fits_disagree, frame_summary
-from ..euler import vector_to_pole
 from .common import CAUTION
 
 
@@ -24,6 +22,7 @@ def pole(omega) -> str:
     -------
     str
     """
+    from ..euler import vector_to_pole
     lat, lon, rate = vector_to_pole(omega)
     if float(rate) < 5e-7:       # zero to the printed precision: its pole means nothing
         return "none (no rotation to 1e-6 deg/Myr, so no pole)"
@@ -145,6 +144,7 @@ def fit(d: dict) -> str:
     -------
     str
     """
+    from ..diagnostics import chi_square_summary, fits_disagree, frame_summary
     lines = [f"hypothesis {d['hypothesis']!r}: velocity-space fit (preferred) and "
              "torque-space fit",
              f"{'term':<16} {'value':>11} {'std. error':>10}  {'95 % profile interval':<23} "

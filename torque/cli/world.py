@@ -4,8 +4,6 @@ from __future__ import annotations
 
 import sys
 
-from ..io import dumps
-from ..validate import check_world
 from . import text
 from .common import EXIT_BAD_INPUT, EXIT_OK, inputs, manifest
 
@@ -39,6 +37,8 @@ def run_check(args) -> int:
     int
         0, or 2 when the world has errors.
     """
+    from ..io import dumps
+    from ..validate import check_world
     data = inputs(args, valid=False)
     report = check_world(data)
     print(dumps({**report.as_dict(), "run": manifest(args, data)}) if args.json

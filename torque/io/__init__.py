@@ -19,16 +19,41 @@ module                     formats
 =========================  =====================================================
 """
 
-from .files import atomic_path, atomic_write, output_suffix, read_toml
-from .fit import dumps, read_coefficients, read_fit, write_json
-from .geojson import (read_boundaries, read_continents, read_plates, write_boundaries_geojson,
-                      write_feature_collection, write_points_geojson)
-from .grids import (field_dataset, read_ages, read_flow, write_age_grid, write_netcdf)
-from .hypothesis import hypothesis_toml, load_hypothesis, write_hypothesis
-from .inputs import Inputs, check_world, compute_torques
-from .motions import read_covariance, read_motions, write_covariance, write_motions
-from .tables import Table, read_points, read_table, write_csv
-from .world import load_world, world_from_rings, write_world_file
+import importlib
+
+#: Where each name lives: imported on first use (PEP 562), so that a command imports the
+#: readers it uses and not every one.
+_EXPORTS = {
+    "atomic_path": "files", "atomic_write": "files", "output_suffix": "files",
+    "read_toml": "files", "dumps": "fit", "read_coefficients": "fit", "read_fit": "fit",
+    "write_json": "fit", "read_boundaries": "geojson", "read_continents": "geojson",
+    "read_plates": "geojson", "write_boundaries_geojson": "geojson",
+    "write_feature_collection": "geojson", "write_points_geojson": "geojson",
+    "field_dataset": "grids", "read_ages": "grids", "read_flow": "grids",
+    "write_age_grid": "grids", "write_netcdf": "grids", "hypothesis_toml": "hypothesis",
+    "load_hypothesis": "hypothesis", "write_hypothesis": "hypothesis", "Inputs": "inputs",
+    "check_world": "inputs", "compute_torques": "inputs", "read_covariance": "motions",
+    "read_motions": "motions", "write_covariance": "motions", "write_motions": "motions",
+    "Table": "tables", "read_points": "tables", "read_table": "tables",
+    "write_csv": "tables", "load_world": "world", "world_from_rings": "world",
+    "write_world_file": "world",
+}
+
+
+def __getattr__(name):
+    if name in _EXPORTS:
+        value = getattr(importlib.import_module(f".{_EXPORTS[name]}", __name__), name)
+        globals()[name] = value
+        return value
+    try:
+        return importlib.import_module(f".{name}", __name__)    # a submodule
+    except ModuleNotFoundError:
+        raise AttributeError(f"module 'torque.io' has no attribute {name!r}") from None
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_EXPORTS))
+
 
 __all__ = ["Inputs", "Table", "atomic_path", "atomic_write", "check_world", "compute_torques",
            "dumps",

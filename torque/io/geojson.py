@@ -16,7 +16,7 @@ import numpy as np
 from .. import sphere
 from ..continents import Continents
 from ..errors import InputError
-from ..locate import PlateLocator
+from ..locate import cached as cached_locator
 from ..world import (BOUNDARY_KINDS, EARTH_RADIUS_KM, Boundary, Plate, Problem,
                      SAME_VERTEX_RAD, geometry_from_rings, remove_spikes)
 from .files import atomic_write, read_json
@@ -412,7 +412,7 @@ def read_continents(path, winding: str = "auto") -> Continents:
     c = Continents(geom.xyz, geom.ring_start, geom.ring_is_hole, geom.ring_polygon, str(path))
     # continents alone (not a tiling): a cell held by two of them is an overlap
     n_poly = int(geom.ring_polygon.max()) + 1
-    alone = PlateLocator(geom.xyz, geom.ring_start, geom.ring_polygon, geom.ring_is_hole,
+    alone = cached_locator(geom.xyz, geom.ring_start, geom.ring_polygon, geom.ring_is_hole,
                          n_poly)
     where = alone.overlaps()
     if len(where):
