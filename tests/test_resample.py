@@ -79,7 +79,9 @@ def test_physics_draws_follow_the_spread(kinded):
         seen.append(physics.expansivity)
         return s
     out = monte_carlo_physics(build, Physics(), spread, omega, 400, seed=3)
-    assert out["members"] == 400 and len(seen) == 400
+    # once at the central physics (the fit every member starts from), then once per draw
+    assert out["members"] == 400 and len(seen) == 401
+    assert seen.pop(0) == Physics().expansivity
     assert np.std(seen, ddof=1) == pytest.approx(0.2e-5, rel=4 / np.sqrt(800))
     assert np.mean(seen) == pytest.approx(Physics().expansivity, abs=4 * 0.2e-5 / 20)
 

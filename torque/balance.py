@@ -53,9 +53,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import linalg, optimize
-from threadpoolctl import threadpool_limits
 
 from .errors import InputError, ModelError
+from .parallel import small_solves
 
 WEIGHTINGS = ("velocity", "area", "none")
 CONFIDENCE = 0.95
@@ -818,21 +818,6 @@ def _covariance(J, rss: float, n: int):
         return rss / dof * np.linalg.inv(J.T @ J), dof
     except np.linalg.LinAlgError:
         return np.full((k, k), np.nan), dof
-
-
-def small_solves():
-    """A context in which BLAS runs on one thread.
-
-    The balance solves many small dense systems (3P x 3P, a few hundred rows): threads cost
-    more than they give there, and on a busy machine a threaded BLAS can take a hundred
-    times longer per solve. Fits, predictions, ranking and resampling run inside this.
-
-    Returns
-    -------
-    threadpoolctl.threadpool_limits
-        A context manager.
-    """
-    return threadpool_limits(limits=1, user_api="blas")
 
 
 def on_one_blas_thread(func):

@@ -315,6 +315,25 @@ class WorldData:
             self._synth_cache[key] = make()
         return self._synth_cache[key]
 
+    def derived(self, key, make):
+        """``make()`` the first time for ``key``, then the same result: for what a term
+        derives from the world's data alone, whatever the physics (the ridge push's
+        boundary map, say), so that every hypothesis and every physics draw shares it.
+
+        Parameters
+        ----------
+        key : hashable
+        make : callable
+
+        Returns
+        -------
+        object
+        """
+        key = ("derived",) + tuple(key)
+        if key not in self._node_cache:
+            self._node_cache[key] = make()
+        return self._node_cache[key]
+
     @property
     def used_synthesised_ages(self) -> bool:
         """Whether a force term used sea-floor ages synthesised from the motions (no age

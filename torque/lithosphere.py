@@ -244,22 +244,36 @@ class Cooling:
 
     # -- column integrals by quadrature ---------------------------------------------------
     def _layer_integrals(self, age_myr):
-        """``I0 = int (1 - theta) dz`` and ``I1 = int z (1 - theta) dz`` over the layer."""
+        """``I0 = int (1 - theta) dz`` and ``I1 = int z (1 - theta) dz`` over the layer.
+
+        In closed form. Half-space: ``I0 = 2 sqrt(kappa t / pi)``, ``I1 = kappa t`` (from
+        ``int_0^inf erfc = 1/sqrt(pi)`` and ``int_0^inf x erfc = 1/4``). Plate model, from
+        the series of ``theta`` term by term over ``[0, a]`` with ``y = pi^2 kappa t /
+        a^2``: ``I0 = a/2 - sum_{n odd} 4 a e^{-n^2 y} / (n pi)^2`` and ``I1 = a^2/6 -
+        sum_n 2 a^2 (-1)^(n+1) e^{-n^2 y} / (n pi)^2`` (Turcotte and Schubert 2002, sec.
+        4-23 give the series).
+        """
         t = np.atleast_1d(np.asarray(age_myr, float))
         I0 = np.zeros(t.shape)
         I1 = np.zeros(t.shape)
         pos = t > 0
-        if pos.any():
-            ts = t[pos] * MYR_S
-            H = _LAYER_SCALES * np.sqrt(self.p.diffusivity * ts)
-            if self.p.model == "plate":
-                H = np.minimum(H, self.a)
-            # nodes mapped to [0, H] for every age: shape (n_ages, n_nodes)
-            z = 0.5 * H[:, None] * (_GL_NODES[None, :] + 1.0)
-            w = 0.5 * H[:, None] * _GL_WEIGHTS[None, :]
-            one_minus = 1.0 - self.theta(z, t[pos][:, None])
-            I0[pos] = (w * one_minus).sum(axis=1)
-            I1[pos] = (w * z * one_minus).sum(axis=1)
+        if not pos.any():
+            return I0, I1
+        kt = self.p.diffusivity * t[pos] * MYR_S
+        if self.p.model == "half-space":
+            I0[pos] = 2.0 * np.sqrt(kt / np.pi)
+            I1[pos] = kt
+            return I0, I1
+        a = self.a
+        y = np.pi ** 2 * kt / a ** 2
+        N = self._series_terms(float(t[pos].min()) * MYR_S)
+        n = np.arange(1, N + 1, dtype=float)
+        # the terms die as exp(-n^2 y): stop where the youngest age's reach 1e-18
+        n = n[n ** 2 * y.min() < 41.5]
+        e = np.exp(-np.outer(y, n ** 2)) / (n * np.pi) ** 2                      # (m, N)
+        odd = (n % 2 == 1)
+        I0[pos] = a / 2.0 - 4.0 * a * e[:, odd].sum(axis=1)
+        I1[pos] = a ** 2 / 6.0 - 2.0 * a ** 2 * (e * np.where(odd, 1.0, -1.0)).sum(axis=1)
         return I0, I1
 
     def excess_mass_kg_m2(self, age_myr) -> np.ndarray:
@@ -317,13 +331,18 @@ class Cooling:
         >>> [round(float(c.ridge_push_n_m(t)) / 1e12, 2) for t in (10.0, 80.0, 200.0)]
         [0.39, 2.01, 2.3]
         """
+        return _shape(self._push_and_mass(self._layer_integrals(age_myr))[0], age_myr)
+
+    def _push_and_mass(self, integrals):
+        """Ridge push (N/m) and excess mass (kg/m^2) from the layer integrals ``(I0, I1)``
+        (one quadrature serves both)."""
         p = self.p
-        I0, I1 = self._layer_integrals(age_myr)
+        I0, I1 = integrals
         drho = p.mantle_density - p.water_density
-        d = p.ridge_depth_m + p.mantle_density * p.expansivity * p.temperature_contrast * I0 / drho
-        cooled = p.mantle_density * p.expansivity * p.temperature_contrast * (d * I0 + I1)
-        F = p.gravity * (-drho * (d ** 2 - p.ridge_depth_m ** 2) / 2.0 + cooled)
-        return _shape(F, age_myr)
+        ra = p.mantle_density * p.expansivity * p.temperature_contrast
+        d = p.ridge_depth_m + ra * I0 / drho
+        F = p.gravity * (-drho * (d ** 2 - p.ridge_depth_m ** 2) / 2.0 + ra * (d * I0 + I1))
+        return F, ra * I0
 
     def ridge_push_limit_n_m(self) -> float:
         """Old-age limit of ridge push: the plate model at steady state (linear geotherm).
@@ -401,6 +420,23 @@ class Cooling:
 
     # -- fast lookup ----------------------------------------------------------------------
     @cached_property
+    def knot_values(self):
+        """Ridge push (N/m) and the slab's excess mass (kg/m^2) at the lookups' knots
+        (:func:`lookup_knots`): the data of their splines, and all that a term kept as a
+        linear map of the spline (:func:`lookup_basis`) needs of the physics."""
+        t = lookup_knots() ** 2
+        F, M = np.empty_like(t), np.empty_like(t)
+        young = t < HALF_SPACE_BELOW_MYR if self.p.model == "plate" else np.zeros(len(t), bool)
+        # young plate-model sea floor is half-space sea floor: the plate's bottom enters as
+        # image terms erfc(a / sqrt(kappa t)), about 1e-21 at 2 Myr for a 95 km plate, and
+        # the plate series converges slowly there
+        early = Cooling(dataclasses.replace(self.p, model="half-space"))
+        for mask, model in ((young, early), (~young, self)):
+            if mask.any():
+                F[mask], M[mask] = model._push_and_mass(model._layer_integrals(t[mask]))
+        return F, M
+
+    @cached_property
     def _splines(self):
         """Cubic splines of ridge push and the slab's excess mass in ``sqrt(age)``.
 
@@ -410,17 +446,8 @@ class Cooling:
         (tested against the direct quadrature), built once per physics.
         """
         from scipy.interpolate import CubicSpline
-        s = np.linspace(0.0, np.sqrt(LOOKUP_MAX_AGE_MYR), LOOKUP_NODES)
-        t = s ** 2
-        F, M = np.empty_like(t), np.empty_like(t)
-        young = t < HALF_SPACE_BELOW_MYR if self.p.model == "plate" else np.zeros(len(t), bool)
-        # young plate-model sea floor is half-space sea floor: the plate's bottom enters as
-        # image terms erfc(a / sqrt(kappa t)), about 1e-21 at 2 Myr for a 95 km plate, and
-        # the plate series converges slowly there
-        early = Cooling(dataclasses.replace(self.p, model="half-space"))
-        for mask, model in ((young, early), (~young, self)):
-            if mask.any():
-                F[mask], M[mask] = model.ridge_push_n_m(t[mask]), model.excess_mass_kg_m2(t[mask])
+        F, M = self.knot_values
+        s = lookup_knots()
         return CubicSpline(s, F), CubicSpline(s, M)
 
     @staticmethod
@@ -468,6 +495,37 @@ LOOKUP_NODES = 400
 LOOKUP_MAX_AGE_MYR = 300.0
 #: Below this age the plate model's lookups take the half-space values (see _splines).
 HALF_SPACE_BELOW_MYR = 2.0
+
+
+def lookup_knots() -> np.ndarray:
+    """The knots (``sqrt`` of age in Myr) of the cooling lookups' splines, the same for
+    every physics.
+
+    Returns
+    -------
+    ndarray, shape (LOOKUP_NODES,)
+    """
+    return np.linspace(0.0, np.sqrt(LOOKUP_MAX_AGE_MYR), LOOKUP_NODES)
+
+
+def lookup_basis(age_myr) -> np.ndarray:
+    """The lookups' spline as a matrix: ``lookup(age) = B @ knot values`` for any physics.
+
+    A cubic spline is linear in its data, so ``B`` (the spline through each unit vector,
+    at ``age``) is fixed by the knots alone; a term that applies ``B`` to the physics'
+    :attr:`Cooling.knot_values` gives :meth:`Cooling.ridge_push_lookup` to rounding.
+
+    Parameters
+    ----------
+    age_myr : array_like, shape (N,)
+
+    Returns
+    -------
+    ndarray, shape (N, LOOKUP_NODES)
+    """
+    from scipy.interpolate import CubicSpline
+    s = lookup_knots()
+    return CubicSpline(s, np.eye(len(s)))(Cooling._root_age(np.asarray(age_myr, float)))
 
 
 def _shape(values, like):

@@ -18,9 +18,53 @@ the same numbers however the draws are split into tasks.
 
 from __future__ import annotations
 
+import functools
+import threading
+
 import numpy as np
 
 from .errors import InputError
+
+
+def small_solves():
+    """A context in which BLAS runs on one thread.
+
+    The balance solves many small dense systems (3P x 3P, a few hundred rows): threads cost
+    more than they give there, and on a busy machine a threaded BLAS can take a hundred
+    times longer per solve. Fits, predictions, ranking and resampling run inside this.
+
+    Returns
+    -------
+    context manager
+        Nested uses limit once: the outermost sets the limit, the inner ones do nothing
+        (asking threadpoolctl scans the loaded libraries, about 1.5 ms a time).
+    """
+    return _OneThread()
+
+
+@functools.lru_cache(maxsize=1)
+def _blas_controller():
+    from threadpoolctl import ThreadpoolController
+    return ThreadpoolController()
+
+
+class _OneThread:
+    """BLAS on one thread for the outermost ``with`` of this thread (see small_solves)."""
+
+    _depth = threading.local()
+
+    def __enter__(self):
+        depth = getattr(self._depth, "n", 0)
+        self._depth.n = depth + 1
+        self._limit = _blas_controller().limit(limits=1, user_api="blas") if depth == 0 \
+            else None
+        return self
+
+    def __exit__(self, *exc):
+        self._depth.n -= 1
+        if self._limit is not None:
+            self._limit.restore_original_limits()
+        return False
 
 
 def spawn_seeds(seed, n: int) -> list:
@@ -54,8 +98,7 @@ def _warm_up(modules):
 
 
 def _one_thread(func, item, shared=None, with_shared=False):
-    from threadpoolctl import threadpool_limits
-    with threadpool_limits(1):
+    with small_solves():
         return func(shared, item) if with_shared else func(item)
 
 

@@ -233,6 +233,8 @@ def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
     rng = np.random.default_rng(seed)
     out, failed = [], 0
     system = None
+    # every member starts from the fit at the central physics (near every draw's optimum)
+    start = _start(build_system(physics), omega_obs, weighting, fit, obs_cov)
     with _progress(n, "physics Monte Carlo") as bar:
         for _ in range(n):
             for _try in range(10):
@@ -253,7 +255,7 @@ def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
                 continue
             system = build_system(draw)
             try:
-                out.append(_refit(system, omega_obs, weighting, fit, None, obs_cov=obs_cov))
+                out.append(_refit(system, omega_obs, weighting, fit, start, obs_cov=obs_cov))
             except InputError:
                 failed += 1
             bar.update()

@@ -35,6 +35,9 @@ that of the old sea floor beside it.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+from functools import cached_property
+
 import numpy as np
 
 from .. import sphere
@@ -185,8 +188,9 @@ def boundary_torque(ctx, grid, a, b, owner) -> np.ndarray:
     """``R^2 oint F dr`` round each plate's oceanic region, ``F`` read one-sided from the
     grid (see the module), shape (P, 3), N m.
 
-    Edges longer than half the grid step are cut into pieces no longer than the step, each
-    integrated by :data:`GAUSS_POINTS`-point Gauss-Legendre; shorter ones by their midpoint.
+    The integral is linear in ``F`` at the grid's nodes, so it is kept as a map (built
+    once per world and grid, :class:`BoundaryMap`) and applied to the ridge push of each
+    physics.
 
     Parameters
     ----------
@@ -200,6 +204,127 @@ def boundary_torque(ctx, grid, a, b, owner) -> np.ndarray:
     Returns
     -------
     ndarray, shape (P, 3)
+    """
+    m = ctx.data.derived(("ridge boundary map", id(grid)),
+                         lambda: boundary_map(ctx, grid, a, b, owner))
+    # a small map is composed once with the cooling lookups' spline, so that every
+    # physics (rank, a Monte Carlo draw) costs a product with its 400 knot values; a large
+    # one reads the lookup at its nodes (composing would cost more than it saves). Which
+    # one depends on the map alone, so the numbers do not depend on the order of calls.
+    if m.size <= KNOT_MAP_MAX_SIZE:
+        return m.torque_from_knots(ctx.cooling.knot_values[0])
+    return m.torque(ctx.cooling.ridge_push_lookup)
+
+
+@dataclass(frozen=True, eq=False)
+class BoundaryMap:
+    """The ridge push line integral as a linear map of ``F`` at grid nodes.
+
+    Attributes
+    ----------
+    parts : tuple of (ages, index, K, plate)
+        ``ages`` (U,): the age (Myr; 0 where the grid has none, with weight 0) of each node
+        the part reads; ``index`` (n, k) into them per cell; ``K`` (n, 3, k) the torque
+        (N m) per N/m of ridge push at each node; ``plate`` (n,) the plate of each cell.
+    n_plates : int
+    """
+
+    parts: tuple
+    n_plates: int
+
+    @property
+    def size(self) -> int:
+        """Entries of the map's torque arrays (its cost to apply)."""
+        return int(sum(K.size for _, _, K, _ in self.parts))
+
+    @cached_property
+    def knot_map(self) -> np.ndarray:
+        """The torque per unit ridge push at each knot of the cooling lookups' spline,
+        shape (P, 3, LOOKUP_NODES), so that a physics needs only its knot values (a Monte
+        Carlo draw: 3P x 400 numbers, not the grid).
+
+        The spline is piecewise cubic, ``F(s) = sum_p c_pj (s - s_j)^(3 - p)`` on interval
+        j, with coefficients ``c`` linear in the knot values (``c = C y``, fixed by the
+        knots): the map sums each node's weight times ``(s - s_j)^(3 - p)`` into its
+        interval, then applies ``C``.
+        """
+        from scipy.interpolate import CubicSpline
+
+        from ..lithosphere import Cooling, lookup_knots
+        knots = lookup_knots()
+        C = CubicSpline(knots, np.eye(len(knots))).c          # (4, J, knots)
+        J = C.shape[1]
+        GE = np.zeros((self.n_plates * 3, 4 * J))
+        for ages, index, K, plate in self.parts:
+            x = Cooling._root_age(ages)
+            j = np.clip(np.searchsorted(knots, x, side="right") - 1, 0, J - 1)
+            dx = x - knots[j]
+            for p in range(4):
+                w = K * (dx ** (3 - p))[index][:, None, :]                   # (n, 3, k)
+                rows = 3 * plate[:, None, None] + np.arange(3)[None, :, None]
+                key = (rows * (4 * J) + 4 * j[index][:, None, :] + p).ravel()
+                GE += np.bincount(key, w.ravel(), GE.size).reshape(GE.shape)
+        # (3P, 4J) @ (4J, knots), with C's (p, j) order matching 4 j + p
+        return (GE @ np.transpose(C, (1, 0, 2)).reshape(4 * J, -1)).reshape(
+            self.n_plates, 3, -1)
+
+    def torque_from_knots(self, knot_values) -> np.ndarray:
+        """Torque (N m, shape (P, 3)) for ridge push given at the lookups' knots.
+
+        Parameters
+        ----------
+        knot_values : ndarray, shape (LOOKUP_NODES,)
+            :attr:`torque.lithosphere.Cooling.knot_values` (its first).
+
+        Returns
+        -------
+        ndarray, shape (P, 3)
+        """
+        return self.knot_map @ knot_values
+
+    def torque(self, ridge_push) -> np.ndarray:
+        """Torque (N m, shape (P, 3)) for a ridge push law.
+
+        Parameters
+        ----------
+        ridge_push : callable
+            ``ridge_push(age_myr) -> N/m`` (a cooling model's lookup).
+
+        Returns
+        -------
+        ndarray, shape (P, 3)
+        """
+        out = np.zeros((self.n_plates, 3))
+        for ages, index, K, plate in self.parts:
+            t = np.einsum("nik,nk->ni", K, ridge_push(ages)[index])
+            out += np.stack([np.bincount(plate, t[:, i], self.n_plates) for i in range(3)],
+                            axis=1)
+        return out
+
+
+def boundary_map(ctx, grid, a, b, owner) -> BoundaryMap:
+    """Build the :class:`BoundaryMap` of the oceanic edges ``a -> b`` of plates ``owner``.
+
+    Edges longer than half the grid step are cut into pieces no longer than the step, each
+    integrated by :data:`GAUSS_POINTS`-point Gauss-Legendre, shorter ones by their
+    midpoint. For every grid cell that holds points of a plate, a quadratic surface about
+    the cell's centre is fitted by weighted least squares (weights ``exp(-(d/h)^2)``) to
+    ``F`` at the plate's oceanic nodes of the :data:`STENCIL` x :data:`STENCIL` stencil
+    round the cell and evaluated at its points; a plane where fewer than six nodes are
+    valid or they do not hold a quadratic; their weighted mean where fewer than three. A
+    cell whose stencil has no valid node (an oceanic sliver narrower than the grid step)
+    takes a stencil twice as wide, then the oceanic nodes of any plate.
+
+    Parameters
+    ----------
+    ctx : Context
+    grid : AgeGrid
+    a, b : ndarray, shape (E, 3)
+    owner : ndarray of int, shape (E,)
+
+    Returns
+    -------
+    BoundaryMap
     """
     step = np.radians(min(abs(grid.lat[1] - grid.lat[0]), abs(grid.lon[1] - grid.lon[0])))
     pa, pb, piece = sphere.densify_arcs(a, b, step)
@@ -222,44 +347,10 @@ def boundary_torque(ctx, grid, a, b, owner) -> np.ndarray:
         d += ((exact - d.sum(axis=1)) / k)[:, None, :]
         drs.append(d.reshape(-1, 3))
         plates.append(np.repeat(owner[piece[sel]], k))
-    r, dr, plate = np.concatenate(pts), np.concatenate(drs), np.concatenate(plates)
-    F = one_sided_ridge_push(ctx, grid, r, plate) if len(r) else np.zeros(0)
-    contrib = F[:, None] * dr
+    xyz, dr, plate = np.concatenate(pts), np.concatenate(drs), np.concatenate(plates)
     P = ctx.world.geometry.n_plates
-    out = np.stack([np.bincount(plate, contrib[:, i], P) for i in range(3)], axis=1)
-    return out * ctx.R ** 2
-
-
-#: The fitted surface's terms, as powers of (x, y): a quadratic, whose first three are
-#: the plane.
-BASIS = ((0, 0), (1, 0), (0, 1), (2, 0), (1, 1), (0, 2))
-#: Cells fitted at a time (bounds the stencils' memory: about 100 MB).
-CHUNK = 40_000
-
-
-def one_sided_ridge_push(ctx, grid, xyz, plate) -> np.ndarray:
-    """Ridge push (N/m) at points on a plate's oceanic edge, from that plate's oceanic
-    nodes only.
-
-    For every grid cell that holds points of a plate, a quadratic surface about the cell's
-    centre is fitted by weighted least squares (weights ``exp(-(d/h)^2)``, ``d`` from the
-    centre) to ``F`` at the plate's valid nodes of the :data:`STENCIL` x :data:`STENCIL`
-    stencil round the cell, and evaluated at each of its points; a plane where fewer than
-    six nodes are valid or they do not hold a quadratic; their weighted mean where fewer
-    than three. A cell whose stencil has no valid node (an oceanic sliver narrower than
-    the grid step) takes a stencil twice as wide, then the oceanic nodes of any plate.
-
-    Parameters
-    ----------
-    ctx : Context
-    grid : AgeGrid
-    xyz : ndarray, shape (N, 3)
-    plate : ndarray of int, shape (N,)
-
-    Returns
-    -------
-    ndarray, shape (N,)
-    """
+    if not len(xyz):
+        return BoundaryMap((), P)
     lon, lat = sphere.xyz_to_lonlat(xyz)
     dlon, dlat = grid.lon[1] - grid.lon[0], grid.lat[1] - grid.lat[0]
     fi = (np.mod(lon - grid.lon[0], 360.0) if grid.global_lon else lon - grid.lon[0]) / dlon
@@ -271,30 +362,51 @@ def one_sided_ridge_push(ctx, grid, xyz, plate) -> np.ndarray:
     first = np.zeros(len(cells), np.int64)
     first[member[::-1]] = np.arange(len(member))[::-1]
     cplate, cci, ccj = plate[first], ci[first], cj[first]
-    # offsets (in grid steps, east and north) of each point from its cell's centre
     clon = grid.lon[0] + (cci + 0.5) * dlon
     clat = grid.lat[0] + (ccj + 0.5) * dlat
+    # each point's offset (grid steps, east and north) from its cell's centre, and the
+    # cell's sum of dr times the surface's terms there: D (cells, 3, 6)
     ex = (np.mod(lon - clon[member] + 180.0, 360.0) - 180.0) / abs(dlat) \
         * np.cos(np.radians(clat[member]))
     ey = (lat - clat[member]) / abs(dlat)
-    coef = np.full((len(cells), 6), np.nan)
+    terms = np.stack([ex ** a_ * ey ** b_ for a_, b_ in BASIS], axis=1)          # (N, 6)
+    outer = (dr[:, :, None] * terms[:, None, :]).reshape(len(xyz), 18)
+    D = np.stack([np.bincount(member, outer[:, c], len(cells)) for c in range(18)],
+                 axis=1).reshape(-1, 3, 6) * ctx.R ** 2
+    parts = []
+    left = np.arange(len(cells))
     for m, same in ((STENCIL, True), (2 * STENCIL, True), (2 * STENCIL, False)):
-        left = np.nonzero(np.isnan(coef[:, 0]))[0]
         if not len(left):
             break
+        done = []
         for c in range(0, len(left), CHUNK):
             sel = left[c:c + CHUNK]
-            coef[sel] = _fit(ctx, grid, cci[sel], ccj[sel], clat[sel], cplate[sel], m, same)
-    c = np.nan_to_num(coef[member])
-    return (c[:, 0] + c[:, 1] * ex + c[:, 2] * ey + c[:, 3] * ex * ex + c[:, 4] * ex * ey
-            + c[:, 5] * ey * ey)
+            ages, index, K, ok = _stencil_map(ctx, grid, cci[sel], ccj[sel], clat[sel],
+                                              cplate[sel], m, same, D[sel])
+            parts.append((ages, index[ok], K[ok], cplate[sel][ok]))
+            done.append(sel[ok])
+        left = np.setdiff1d(left, np.concatenate(done) if done else np.zeros(0, int))
+    return BoundaryMap(tuple(parts), P)
 
 
-def _fit(ctx, grid, ci, cj, clat, plate, m, same_plate) -> np.ndarray:
-    """Coefficients (n, 6) of the fit about the centres of cells ``(ci, cj)`` on an m x m
-    stencil (see :func:`one_sided_ridge_push`; NaN where no node is valid); a plane or a
-    mean has zeros for the terms it lacks. ``same_plate`` False takes the oceanic nodes
-    of any plate."""
+#: Boundary maps up to this many entries are composed with the cooling spline (the demo's:
+#: about 1.5 M; the 100k-vertex benchmark world's: 40 M).
+KNOT_MAP_MAX_SIZE = 5_000_000
+#: The fitted surface's terms, as powers of (x, y): a quadratic, whose first three are
+#: the plane.
+BASIS = ((0, 0), (1, 0), (0, 1), (2, 0), (1, 1), (0, 2))
+#: Cells fitted at a time (bounds the stencils' memory: about 100 MB).
+CHUNK = 40_000
+
+
+def _stencil_map(ctx, grid, ci, cj, clat, plate, m, same_plate, D):
+    """For cells ``(ci, cj)``: the ages (Myr, 0 for none) of the nodes their m x m stencils
+    read, each stencil's indices into them (n, k), the torque ``K`` (n, 3, k) per unit
+    ``F`` at each node, and whether any node was valid (n,).
+
+    With ``c = A^-1 X^T W F`` the fitted surface's coefficients and ``D`` (n, 3, 6) each
+    cell's sum of ``dr`` times the surface's terms, ``K = D A^-1 X^T W``, computed as
+    ``(A^-1 D^T)^T X^T W`` (three right-hand sides, not k)."""
     nlat, nlon = len(grid.lat), len(grid.lon)
     di = np.arange(m) - (m // 2 - 1)
     I = ci[:, None, None] + di[None, None, :]                              # (n, m, m)
@@ -303,51 +415,44 @@ def _fit(ctx, grid, ci, cj, clat, plate, m, same_plate) -> np.ndarray:
     I, J = np.broadcast_arrays(I, J)
     inside = (J >= 0) & (J < nlat)
     J = np.clip(J, 0, nlat - 1)
-    nodes, inverse = np.unique((J * nlon + I).ravel(), return_inverse=True)
+    flat = (J * nlon + I).reshape(len(ci), m * m)
+    nodes, inverse = np.unique(flat.ravel(), return_inverse=True)
     node_age = grid.age_myr.ravel()[nodes]
     jn, in_ = np.divmod(nodes, nlon)
     node_xyz = sphere.lonlat_to_xyz(grid.lon[in_], grid.lat[jn])
     node_ok = np.isfinite(node_age)
     if ctx.continents is not None:
         node_ok[node_ok] = ~ctx.continents.contains(node_xyz[node_ok])
-    shape = I.shape
-    ok = node_ok[inverse].reshape(shape) & inside
+    n, k = len(ci), m * m
+    ok = node_ok[inverse].reshape(n, k) & inside.reshape(n, k)
     if same_plate:
         node_plate = np.full(len(nodes), -1)
         node_plate[node_ok] = ctx.world.locate_xyz(node_xyz[node_ok])
-        ok &= node_plate[inverse].reshape(shape) == plate[:, None, None]
-    Fn = ctx.cooling.ridge_push_lookup(np.nan_to_num(node_age))[inverse].reshape(shape)
+        ok &= node_plate[inverse].reshape(n, k) == plate[:, None]
     # offsets (in grid steps) of the nodes from the cells' centres: x east (scaled by the
     # cosine of the cell's latitude), y north
     dlat = grid.lat[1] - grid.lat[0]
     x0 = np.broadcast_to(((di - 0.5) * (grid.lon[1] - grid.lon[0]) / abs(dlat))[None, :],
                          (m, m)).ravel()
     y0 = np.broadcast_to(((di - 0.5) * np.sign(dlat))[:, None], (m, m)).ravel()
-    n, k = len(ci), m * m
     c = np.cos(np.radians(clat))
-    ok = ok.reshape(n, k)
     w = np.where(ok, np.exp(-((c[:, None] * x0) ** 2 + y0 ** 2)), 0.0)
-    Fn = Fn.reshape(n, k)
     count = ok.sum(axis=1)
     # the normal equations from moments: sum_k w x^a y^b (a + b <= 4) for every cell in one
     # product, then scaled by cos(lat)^a (x = cos(lat) x0)
-    powers = [(a, b) for a in range(5) for b in range(5 - a)]
-    M = np.stack([x0 ** a * y0 ** b for a, b in powers], axis=1)          # (k, 15)
-    S = w @ M                                                              # (n, 15)
-    T = (w * Fn) @ M                                                       # (n, 15)
+    powers = [(a_, b_) for a_ in range(5) for b_ in range(5 - a_)]
     col = {p: i for i, p in enumerate(powers)}
-    out = np.full((n, 6), np.nan)
+    S = w @ np.stack([x0 ** a_ * y0 ** b_ for a_, b_ in powers], axis=1)     # (n, 15)
+    K = np.zeros((n, 3, k))
     todo = count > 0
     for q, need in ((6, 6), (3, 3)):
-        sel = todo & (count >= need)
-        if not sel.any():
+        sel = np.nonzero(todo & (count >= need))[0]
+        if not len(sel):
             continue
         basis = BASIS[:q]
         cs = c[sel]
-        A = np.empty((int(sel.sum()), q, q))
-        rhs = np.empty((int(sel.sum()), q))
+        A = np.empty((len(sel), q, q))
         for i, (ai, bi) in enumerate(basis):
-            rhs[:, i] = T[sel, col[(ai, bi)]] * cs ** ai
             for j, (aj, bj) in enumerate(basis):
                 A[:, i, j] = S[sel, col[(ai + aj, bi + bj)]] * cs ** (ai + aj)
         # well posed (the nodes hold the surface): the Cholesky factor's diagonal keeps
@@ -356,15 +461,17 @@ def _fit(ctx, grid, ci, cj, clat, plate, m, same_plate) -> np.ndarray:
         L = np.linalg.cholesky(A + jitter)
         d = np.einsum("nii->ni", L) ** 2
         fine = d.min(axis=1) > 1e-6 * d.max(axis=1)
-        idx = np.nonzero(sel)[0][fine]
+        idx = sel[fine]
         if len(idx):
-            out[idx] = 0.0
-            out[idx, :q] = np.linalg.solve(A[fine], rhs[fine][..., None])[..., 0]
+            Y = np.linalg.solve(A[fine], np.swapaxes(D[idx, :, :q], 1, 2))     # (s, q, 3)
+            # X^T (q, k) is cos(lat)^a times the fixed x0^a y0^b: fold cos into Y
+            ca = np.stack([c[idx] ** ai for ai, _ in basis], axis=1)         # (s, q)
+            P0 = np.stack([x0 ** ai * y0 ** bi for ai, bi in basis])          # (q, k)
+            K[idx] = np.matmul(np.swapaxes(Y * ca[:, :, None], 1, 2), P0) * w[idx, None, :]
             todo[idx] = False
-    mean = todo & (count > 0)
-    out[mean] = 0.0
-    out[mean, 0] = (w[mean] * Fn[mean]).sum(axis=1) / w[mean].sum(axis=1)
-    return out
+    mean = np.nonzero(todo & (count > 0))[0]
+    K[mean] = D[mean, :, 0, None] * (w[mean] / w[mean].sum(axis=1, keepdims=True))[:, None, :]
+    return np.nan_to_num(node_age), inverse.reshape(n, k), K, count > 0
 
 
 def _gradient(F, ok_p, ok_m, step):

@@ -170,11 +170,15 @@ def slab_buoyancy(ctx, spec, pcs, sub_left, sinking) -> tuple[np.ndarray, list]:
     need = ~np.isfinite(age)
     grid = ctx.age_grid_if_any()
     if need.any() and grid is not None:
-        off = ctx.TRENCH_PROBE_KM * 1e3 / ctx.R
-        side = np.where(sub_left, 1.0, -1.0)[:, None]
-        probe = sphere.step_toward(pcs.mid, side * pcs.n, off)
-        lon, lat = sphere.xyz_to_lonlat(probe)
-        age = np.where(need, grid.sample(lon, lat), age)
+        # the age field 30 km inside the sinking plate: the same for every physics
+        def probe_ages():
+            off = ctx.TRENCH_PROBE_KM * 1e3 / ctx.R
+            side = np.where(sub_left, 1.0, -1.0)[:, None]
+            probe = sphere.step_toward(pcs.mid, side * pcs.n, off)
+            return grid.sample(*sphere.xyz_to_lonlat(probe))
+        sampled = ctx.data.derived(("trench ages", id(grid), ctx.TRENCH_PROBE_KM,
+                                    len(pcs.mid)), probe_ages)
+        age = np.where(need, sampled, age)
         need = ~np.isfinite(age)
     if need.any():
         entry = float(spec.options.get("age_myr", DEFAULT_AGE_MYR))
