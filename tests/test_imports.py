@@ -90,7 +90,7 @@ def test_force_modules_do_not_import_the_package():
 # cycle test above keeps imports one way.
 LAYERS = [
     ("torque.errors", "torque.progress", "torque.tabular", "torque.sphere", "torque.grids",
-     "torque.forces.base", "torque.parallel"),
+     "torque.forces.base", "torque.parallel", "torque._lazy"),
     ("torque.locate", "torque.euler"),
     ("torque.world", "torque.continents", "torque.lithosphere", "torque.columns"),
     ("torque.margins", "torque.data"),

@@ -14,7 +14,7 @@ Results are model-dependent research estimates, not inputs to hazard or engineer
 decisions.
 """
 
-import importlib
+from ._lazy import lazy_exports
 
 #: Where each name of the package lives: imported on first use (PEP 562), so that
 #: ``import torque`` and ``torque --help`` do not load scipy and the rest.
@@ -31,20 +31,7 @@ _EXPORTS = {
 }
 
 
-def __getattr__(name):
-    if name in _EXPORTS:
-        value = getattr(importlib.import_module(f".{_EXPORTS[name]}", __name__), name)
-        globals()[name] = value
-        return value
-    try:
-        return importlib.import_module(f".{name}", __name__)    # a submodule
-    except ModuleNotFoundError:
-        raise AttributeError(f"module 'torque' has no attribute {name!r}") from None
-
-
-def __dir__():
-    return sorted(set(globals()) | set(_EXPORTS))
-
+__getattr__, __dir__ = lazy_exports(__name__, globals(), _EXPORTS)
 
 __all__ = ["Boundary", "Cooling", "FIT_METHODS", "FitResult", "Inputs", "InputError",
            "ModelError", "Motions", "Physics", "Plate", "PlateLocator", "World", "WorldData",

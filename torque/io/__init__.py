@@ -19,7 +19,7 @@ module                     formats
 =========================  =====================================================
 """
 
-import importlib
+from .._lazy import lazy_exports
 
 #: Where each name lives: imported on first use (PEP 562), so that a command imports the
 #: readers it uses and not every one.
@@ -40,20 +40,7 @@ _EXPORTS = {
 }
 
 
-def __getattr__(name):
-    if name in _EXPORTS:
-        value = getattr(importlib.import_module(f".{_EXPORTS[name]}", __name__), name)
-        globals()[name] = value
-        return value
-    try:
-        return importlib.import_module(f".{name}", __name__)    # a submodule
-    except ModuleNotFoundError:
-        raise AttributeError(f"module 'torque.io' has no attribute {name!r}") from None
-
-
-def __dir__():
-    return sorted(set(globals()) | set(_EXPORTS))
-
+__getattr__, __dir__ = lazy_exports(__name__, globals(), _EXPORTS)
 
 __all__ = ["Inputs", "Table", "atomic_path", "atomic_write", "check_world", "compute_torques",
            "dumps",
