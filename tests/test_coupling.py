@@ -86,8 +86,8 @@ def test_coupling_grid_by_region_and_its_errors(tmp_path):
 
 
 def test_coupling_grid_file_from_viscosity_and_thickness(tmp_path):
-    # C = eta / h per node (the channel of a Couette flow; Turcotte and Schubert 2002,
-    # sec. 6-2: shear stress eta u / h)
+    # C = eta / h per node (the channel of a Couette flow, shear stress eta u / h;
+    # Turcotte and Schubert 2002, ch. 6, the section number from memory)
     import xarray as xr
     from torque.io.grids import read_coupling
     lon = np.arange(-180, 180, 2.0) + 1

@@ -311,15 +311,18 @@ def _teeth(ax, world, b, spacing_km, colour):
     mid = sphere.normalize(pa + pb)
     t = np.cross(n, mid)
     side = 1.0 if b.subducting == b.right else -1.0      # overriding plate's side of n
+    from matplotlib.collections import PolyCollection
     h, w = 260e3 / R, 150e3 / R
-    for m, nn, tt in zip(mid, n, t):
-        apex = sphere.normalize(m + side * h * nn)
-        left = sphere.normalize(m - w * tt)
-        right = sphere.normalize(m + w * tt)
-        lo, la = sphere.xyz_to_lonlat(np.stack([left, apex, right]))
-        if np.ptp(lo) > 180:            # straddles the antimeridian: skip this tooth
-            continue
-        ax.fill(lo, la, transform=ccrs.PlateCarree(), color=colour, lw=0, zorder=4)
+    apex = sphere.normalize(mid + side * h * n)
+    left = sphere.normalize(mid - w * t)
+    right = sphere.normalize(mid + w * t)
+    lo, la = sphere.xyz_to_lonlat(np.stack([left, apex, right], axis=1))     # (N, 3)
+    keep = np.ptp(lo, axis=1) <= 180            # a tooth across the antimeridian is skipped
+    if keep.any():
+        # one collection of triangles, not an artist per tooth
+        ax.add_collection(PolyCollection(np.stack([lo[keep], la[keep]], axis=-1),
+                                         transform=ccrs.PlateCarree(), facecolor=colour,
+                                         edgecolor="none", linewidth=0, zorder=4))
 
 
 def _legend(ax, extra=()):
