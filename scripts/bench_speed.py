@@ -7,7 +7,9 @@ a temporary git worktree; every figure is measured in a fresh subprocess per tre
 one BLAS thread:
 
 * all torques (every force kind) of the 60-plate, 100k-vertex world at 0.1 degree
-  (6.48 M age nodes), the point locator's set-up included, and the process's peak memory;
+  (6.48 M age nodes), the point locator's set-up included (after the same on a small
+  world, so that modules imported on first use are not counted), and the process's peak
+  memory;
 * the same at 2 arcmin (58 M nodes; skipped with --quick);
 * ``torque --help`` and ``import torque`` (wall time of the process, best of 5);
 * the plate locator's set-up on the demo world and on the 100k-vertex world;
@@ -37,9 +39,13 @@ import synthetic_world as sw
 from bench_torques import HYPOTHESIS
 from torque import compute_torques
 from torque.hypothesis import hypothesis_from_dict
+hyp = hypothesis_from_dict(HYPOTHESIS)
+# a small world first: the modules a term imports on first use are not the torques' time
+small = sw.world(12, 2_000)
+compute_torques(small, hyp, sw.motions(12), ages=sw.ages(4.0), flow=sw.flow(6.0),
+                continents=sw.continents())
 world = sw.world(); ages = sw.ages({step}); flow = sw.flow(1.0); cont = sw.continents()
 omega = sw.motions(60)
-hyp = hypothesis_from_dict(HYPOTHESIS)
 t = time.perf_counter()
 terms = compute_torques(world, hyp, omega, ages=ages, flow=flow, continents=cont)
 dt = time.perf_counter() - t

@@ -443,12 +443,9 @@ class Cooling:
         Both grow like ``sqrt(t)`` or ``t`` near the ridge, so in ``s = sqrt(t)`` they are
         smooth down to age 0, where a table linear in age was 37 % off below 1 Myr (0.25 Myr
         steps). 400 nodes from 0 to 300 Myr give a relative error below 1e-9 at every age
-        (tested against the direct quadrature), built once per physics.
+        (tested against the direct quadrature), built once per physics, each on first use.
         """
-        from scipy.interpolate import CubicSpline
-        F, M = self.knot_values
-        s = lookup_knots()
-        return CubicSpline(s, F), CubicSpline(s, M)
+        return _LazyPair(self)
 
     @staticmethod
     def _root_age(age_myr):
@@ -495,6 +492,20 @@ LOOKUP_NODES = 400
 LOOKUP_MAX_AGE_MYR = 300.0
 #: Below this age the plate model's lookups take the half-space values (see _splines).
 HALF_SPACE_BELOW_MYR = 2.0
+
+
+class _LazyPair:
+    """The two lookup splines of a :class:`Cooling`, each built when first asked for."""
+
+    def __init__(self, cooling):
+        self._cooling = cooling
+        self._made = {}
+
+    def __getitem__(self, i):
+        if i not in self._made:
+            from scipy.interpolate import CubicSpline
+            self._made[i] = CubicSpline(lookup_knots(), self._cooling.knot_values[i])
+        return self._made[i]
 
 
 def lookup_knots() -> np.ndarray:

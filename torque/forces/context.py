@@ -177,12 +177,16 @@ class Context:
         -------
         Pieces
         """
-        arcs = self.world.boundary_set.of_kind(kind)
         step = (spacing_km or self.PIECE_KM) * 1e3 / self.R
-        pa, pb, piece = sphere.densify_arcs(arcs.a, arcs.b, step)
-        n, theta = sphere.arc_pole(pa, pb)
-        return Pieces(pa, pb, arcs.line[piece], n, sphere.arc_first_moment(pa, pb), theta,
-                      sphere.slerp_points(pa, pb, 0.5))
+
+        def make():
+            arcs = self.world.boundary_set.of_kind(kind)
+            pa, pb, piece = sphere.densify_arcs(arcs.a, arcs.b, step)
+            n, theta = sphere.arc_pole(pa, pb)
+            return Pieces(pa, pb, arcs.line[piece], n, sphere.arc_first_moment(pa, pb),
+                          theta, sphere.slerp_points(pa, pb, 0.5))
+        # the world's geometry alone: shared by every hypothesis and physics draw
+        return self.data.derived(("pieces", kind, step), make)
 
     def margin_pieces(self, spacing_km: float | None = None):
         """Pieces of the continental margins (continent edges inside plates), no longer
