@@ -175,6 +175,7 @@ class Cooling:
         physics.validate()
         self.p = physics
         self.a = physics.plate_thickness_km * 1e3
+        self._splines = {}
 
     # -- temperature ----------------------------------------------------------------------
     def _series_terms(self, t_s_min: float) -> int:
@@ -436,16 +437,19 @@ class Cooling:
                 F[mask], M[mask] = model._push_and_mass(model._layer_integrals(t[mask]))
         return F, M
 
-    @cached_property
-    def _splines(self):
-        """Cubic splines of ridge push and the slab's excess mass in ``sqrt(age)``.
+    def _spline(self, i):
+        """Cubic spline in ``sqrt(age)`` of ridge push (i = 0) or the slab's excess mass
+        (i = 1), each built on first use.
 
         Both grow like ``sqrt(t)`` or ``t`` near the ridge, so in ``s = sqrt(t)`` they are
         smooth down to age 0, where a table linear in age was 37 % off below 1 Myr (0.25 Myr
         steps). 400 nodes from 0 to 300 Myr give a relative error below 1e-9 at every age
-        (tested against the direct quadrature), built once per physics, each on first use.
+        (tested against the direct quadrature), built once per physics.
         """
-        return _LazyPair(self)
+        if i not in self._splines:
+            from scipy.interpolate import CubicSpline
+            self._splines[i] = CubicSpline(lookup_knots(), self.knot_values[i])
+        return self._splines[i]
 
     @staticmethod
     def _root_age(age_myr):
@@ -467,7 +471,7 @@ class Cooling:
         ndarray
             N/m.
         """
-        return self._splines[0](self._root_age(age_myr))
+        return self._spline(0)(self._root_age(age_myr))
 
     def slab_pull_lookup(self, age_myr, depth_km=660.0) -> np.ndarray:
         """:meth:`slab_pull_n_m` from the same kind of spline (relative error below 1e-9).
@@ -484,28 +488,14 @@ class Cooling:
             N/m.
         """
         return (self.p.gravity * np.asarray(depth_km) * 1e3
-                * self._splines[1](self._root_age(age_myr)))
+                * self._spline(1)(self._root_age(age_myr)))
 
 
 #: The lookups' splines: nodes, and the oldest age they cover (Myr).
 LOOKUP_NODES = 400
 LOOKUP_MAX_AGE_MYR = 300.0
-#: Below this age the plate model's lookups take the half-space values (see _splines).
+#: Below this age the plate model's lookups take the half-space values (see Cooling._spline).
 HALF_SPACE_BELOW_MYR = 2.0
-
-
-class _LazyPair:
-    """The two lookup splines of a :class:`Cooling`, each built when first asked for."""
-
-    def __init__(self, cooling):
-        self._cooling = cooling
-        self._made = {}
-
-    def __getitem__(self, i):
-        if i not in self._made:
-            from scipy.interpolate import CubicSpline
-            self._made[i] = CubicSpline(lookup_knots(), self._cooling.knot_values[i])
-        return self._made[i]
 
 
 def lookup_knots() -> np.ndarray:

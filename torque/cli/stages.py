@@ -94,8 +94,7 @@ def run_stages(args) -> int:
     write_series_report(outdir, result, tables, figures, manifest, truth)
     fit = result.fit
     print(f"series {series.name!r}: {len(result.stages)} stages, hypothesis "
-          f"{result.ranking[[r['file'] for r in result.ranking].index(series.hypothesis)]['name']!r}"
-          f", tasks on {result.executor}")
+          f"{result.hypothesis_name!r}, tasks on {result.executor}")
     se = fit.cov.diagonal() ** 0.5
     for j, name in enumerate(fit.params):
         extra = ""

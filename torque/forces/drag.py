@@ -78,7 +78,22 @@ def resisting_blocks(ctx, region) -> np.ndarray:
     -------
     ndarray, shape (P, 3, P, 3)
     """
-    D = ctx.drag_tensor(region)
+    return diagonal_blocks(ctx, ctx.drag_tensor(region))
+
+
+def diagonal_blocks(ctx, D) -> np.ndarray:
+    """``-R^4 D_p`` on the diagonal blocks of a resisting array, shape (P, 3, P, 3).
+
+    Parameters
+    ----------
+    ctx : Context
+    D : ndarray, shape (P, 3, 3)
+        A drag tensor per plate on the unit sphere (exact, or a grid sum).
+
+    Returns
+    -------
+    ndarray, shape (P, 3, P, 3)
+    """
     P = D.shape[0]
     out = np.zeros((P, 3, P, 3))
     out[np.arange(P), :, np.arange(P), :] = -ctx.R ** 4 * D
@@ -182,8 +197,7 @@ def _age_coupled(ctx, spec) -> ForceTerm:
         f"{spec.label}: coupling weighted by sea-floor age (channel base {H:g} km, C at "
         f"{t_ref:g} Myr; weights {w[ocean].min():.3g} to {w[ocean].max():.3g}), summed over "
         f"{int(ocean.sum()):,} oceanic nodes of {grid.source}"])
-    P = D.shape[0]
-    term.resisting[np.arange(P), :, np.arange(P), :] = -ctx.R ** 4 * D
+    term.resisting[:] = diagonal_blocks(ctx, D)
     return term
 
 

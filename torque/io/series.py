@@ -357,7 +357,6 @@ class SeriesResult:
     monte_carlo : dict or None
         ``draws`` (n, k) of the parameters, ``failed``, ``seed``, ``sd``, ``low``,
         ``high`` (2.5 and 97.5 percentiles).
-    notes : list of str
     executor : str
         Where the tasks ran.
     """
@@ -367,8 +366,12 @@ class SeriesResult:
     fit: object
     ranking: list
     monte_carlo: dict | None
-    notes: list
     executor: str
+
+    @property
+    def hypothesis_name(self) -> str:
+        """The name of the series' own hypothesis (the one fitted and reported)."""
+        return next(r["name"] for r in self.ranking if r["file"] == self.series.hypothesis)
 
 
 def run_series(path, executor, monte_carlo: int = 0, seed: int = 0,
@@ -454,7 +457,7 @@ def run_series(path, executor, monte_carlo: int = 0, seed: int = 0,
                                                                            np.nan),
               "low": np.percentile(good, 2.5, axis=0) if len(good) else None,
               "high": np.percentile(good, 97.5, axis=0) if len(good) else None}
-    return SeriesResult(series, by_hyp[0], fits[0], ranking, mc, [], executor.describe())
+    return SeriesResult(series, by_hyp[0], fits[0], ranking, mc, executor.describe())
 
 
 def _series_rms(stages, fit) -> float:
@@ -573,8 +576,7 @@ def series_record(result: SeriesResult, manifest=None) -> dict:
                          else float(mc["high"][j]))
         params[name] = entry
     out = {"series": result.series.name, "file": result.series.path,
-           "hypothesis": result.ranking[[r["file"] for r in result.ranking].index(
-               result.series.hypothesis)]["name"],
+           "hypothesis": result.hypothesis_name,
            "misfit": fit.misfit, "per_stage": list(fit.per_stage),
            "parameters": params,
            "stages": [{"stage": s + 1, "name": st.name, "time_ma": st.time_ma,
