@@ -128,7 +128,7 @@ def test_multipolygon_plate():
 @pytest.mark.parametrize("lon0,step,lat_nodes", [(-179.75, 0.5, "centred"),
                                                  (0.0, 0.7, "poles"), (-30.0, 1.3, "part")])
 def test_locate_grid_agrees_node_for_node(lon0, step, lat_nodes):
-    # The block shortcut must give exactly what locating every node gives.
+    # The runs between crossings must give exactly what locating every node gives.
     gen, sv, loc = voronoi_locator(40, seed=6)
     lon = lon0 + step * np.arange(int(360 / step))
     if lat_nodes == "centred":
@@ -138,7 +138,7 @@ def test_locate_grid_agrees_node_for_node(lon0, step, lat_nodes):
     else:
         lat = np.arange(-60.0, 75.0, step)
         lon = lon[: len(lon) // 2]
-    grid = loc.locate_grid(lon, lat, block=8)
+    grid = loc.locate_grid(lon, lat)
     LON, LAT = np.meshgrid(lon, lat)
     assert np.array_equal(grid, loc.locate_lonlat(LON, LAT))
     # and equals the nearest generator (definition of a Voronoi cell)

@@ -22,6 +22,8 @@ points that lie on a plate edge to rounding error (either plate is then a right 
 
 from __future__ import annotations
 
+from functools import cached_property
+
 import numpy as np
 import shapely
 
@@ -156,7 +158,7 @@ class PlateLocator:
         self._pole, _ = sphere.arc_pole(pa, pb)
         self._plate = plate[owner]
 
-        lo, hi, dlon, lat_lo, lat_hi = sphere.arc_lonlat_box(pa, pb)
+        lo, hi, dlon, lat_lo, lat_hi = sphere.arc_lonlat_box(pa, pb, self._pole)
 
         self._build_cells(lo, hi, lat_lo, lat_hi)
         north_count = self._plates_holding_north(rxyz, ring_start, ring_plate, ring_is_hole)
@@ -197,7 +199,14 @@ class PlateLocator:
         cell = row * self.ncol + col
         order = np.argsort(cell, kind="stable")
         self._cell_pieces = piece[order]
-        self._cell_start = np.searchsorted(cell[order], np.arange(self.ncol * self.nrow + 1))
+        cell = cell[order]
+        self._cell_start = np.r_[0, np.cumsum(np.bincount(cell, minlength=self.ncol * self.nrow))]
+        # the first of the crossing tests, the anchor's side of each listed piece's circle,
+        # is fixed by the cell: kept per entry
+        self._piece_n = sphere.cross(self._pa, self._pb)
+        row, col = np.divmod(cell, self.ncol)
+        self._entry_anchor_side = sphere.dot(self._piece_n[self._cell_pieces],
+                                             self._anchor_xyz(col, row))
 
     def _plates_holding_north(self, rxyz, ring_start, ring_plate, ring_is_hole):
         north = np.array([[0.0, 0.0, 1.0]])
@@ -223,43 +232,73 @@ class PlateLocator:
                                     * np.sign(n[:, 2]), np.abs(n[:, 2])))
         west = dlon[piece] < 0
         key = col * 1000.0 + (lat + 90.0)
+        plate_of = self._plate[piece]
 
-        rows = np.arange(self.nrow)
-        cols = np.arange(self.ncol)
-        anchor_lat = -90.0 + (rows + 0.5) * d
-        akey = (cols[None, :] * 1000.0 + (anchor_lat[:, None] + 90.0)).ravel()  # row-major
-        acol = np.broadcast_to(cols[None, :], (self.nrow, self.ncol)).ravel()
+        # Per column, anchors (row r, key akey_r increasing with r) and crossings: a crossing
+        # is north of anchor r when key > akey_r. Its slot, the number of the column's
+        # anchors below it, comes from those same comparisons (first guessed from the
+        # latitude, then corrected), so that ties fall as in a search over the keys.
+        nrow, ncol = self.nrow, self.ncol
+        anchor_off = -90.0 + (np.arange(nrow) + 0.5) * d + 90.0
+        base = col * 1000.0
 
-        kw, pw = key[west], self._plate[piece][west]
-        ow = np.argsort(kw)
-        kw, pw = kw[ow], pw[ow]
-        ke, pe = key[~west], self._plate[piece][~west]
-        oe = np.argsort(ke)
-        ke, pe = ke[oe], pe[oe]
+        def slots(strict):
+            r = np.clip(np.floor((lat + 90.0) / d - 0.5).astype(np.int64) + 1, 0, nrow)
+            for _ in range(2):
+                below = base + anchor_off[np.clip(r - 1, 0, nrow - 1)]
+                r = np.where((r > 0) & ((below >= key) if strict else (below > key)), r - 1, r)
+                at = base + anchor_off[np.clip(r, 0, nrow - 1)]
+                r = np.where((r < nrow) & ((at < key) if strict else (at <= key)), r + 1, r)
+            return r
 
-        # anchors column by column (keys increasing) for the searches, then back to rows
-        by_col = np.arange(akey.size).reshape(self.nrow, self.ncol).T.ravel()
-        iw = np.empty(akey.size, np.int64)
-        ie = np.empty(akey.size, np.int64)
-        iw[by_col] = np.searchsorted(kw, akey[by_col], side="right")
-        ie[by_col] = np.searchsorted(ke, akey[by_col], side="left") - 1
-        # where each column's keys end (and the eastward ones start): once per column
-        col_end_w = np.searchsorted(kw, (cols + 1) * 1000.0)[acol]
-        col_end_e = np.searchsorted(ke, (cols + 1) * 1000.0)[acol]
-        ok_w = (iw < col_end_w)
-        ok_e = (ie >= 0) & (ie >= np.searchsorted(ke, cols * 1000.0)[acol])
+        # westward crossings: the nearest one north of an anchor (smallest key, the first
+        # of equal keys in key order) gives its plate; eastward: the nearest one south
+        # (largest key, the last of equal keys), the plate the anchor is in when no
+        # westward crossing lies north of it
+        # Each as one number per slot, slot * M + its rank in key order, so that one running
+        # minimum (north to south) or maximum (south to north) down every column finds it.
+        M = 1 << int(len(key)).bit_length()              # a power of 2 above the ranks
+        picked, self._slots = {}, {}
+        for name, sel, strict in (("w", west, True), ("e", ~west, False)):
+            order = np.argsort(key[sel])
+            s_ = slots(strict)[sel][order]
+            flat = s_ * ncol + col[sel][order]
+            val = s_ * M + np.arange(len(flat))
+            if name == "w":
+                V = np.full((nrow + 1) * ncol, np.iinfo(np.int64).max)
+                V[flat[::-1]] = val[::-1]                   # the first of each slot
+                # slots s > r of anchor r: the running minimum from the north, one row on
+                V = np.minimum.accumulate(V.reshape(nrow + 1, ncol)[::-1], axis=0)[::-1][1:]
+                found = V < np.iinfo(np.int64).max
+            else:
+                V = np.full((nrow + 1) * ncol, -1, np.int64)
+                V[flat] = val                               # the last of each slot
+                V = np.maximum.accumulate(V.reshape(nrow + 1, ncol), axis=0)[:nrow]
+                found = V >= 0
+            plates = plate_of[sel][order]
+            picked[name] = (found, plates[np.where(found, V & (M - 1), 0)] if len(plates)
+                            else None)
+            self._slots[name] = flat
 
         # A column that no edge crosses lies wholly in the plate holding the north pole.
         north_plate = int(np.argmax(north_count)) if north_count.max() > 0 else -1
-        plate = np.full(akey.shape, north_plate, dtype=np.int64)
-        plate = np.where(ok_e, pe[np.clip(ie, 0, max(len(pe) - 1, 0))] if len(pe) else -1,
-                         plate)
-        plate = np.where(ok_w, pw[np.clip(iw, 0, max(len(pw) - 1, 0))] if len(pw) else -1,
-                         plate)
-        self._cell_plate = plate.astype(np.int32)
-        # How many plates hold each anchor (1 everywhere for a tiling).
-        coverage = (north_count.sum() + (col_end_w - iw) - (col_end_e - (ie + 1)))
-        self._cell_coverage = coverage.astype(np.int32)
+        plate = np.full((nrow, ncol), north_plate, dtype=np.int32)
+        for name in ("e", "w"):                            # a westward crossing wins
+            found, plates = picked[name]
+            if plates is not None:
+                plate[found] = plates[found]
+        self._cell_plate = plate.ravel()
+        self._north_total = int(north_count.sum())
+
+    @cached_property
+    def _cell_coverage(self):
+        # How many plates hold each anchor (1 everywhere for a tiling): the north pole's,
+        # plus the plates entered (westward crossings north of it), less those left
+        # (eastward crossings north of it). Only the checks of a tiling ask.
+        size = (self.nrow + 1) * self.ncol
+        north = {k: np.cumsum(np.bincount(v, minlength=size).reshape(self.nrow + 1, self.ncol)
+                              [::-1], axis=0)[::-1][1:] for k, v in self._slots.items()}
+        return (self._north_total + north["w"] - north["e"]).astype(np.int32).ravel()
 
     # -- queries --------------------------------------------------------------------------
     def _cells(self, rxyz):
@@ -294,25 +333,38 @@ class PlateLocator:
         busy = np.nonzero(count > 0)[0]
         if busy.size == 0:
             return plate
-        # point-piece pairs in touched cells
+        # point-piece pairs in touched cells; the tests of sphere.arcs_cross (anchor -> point
+        # against each piece), cheapest first: the point's side of the piece's circle
+        # against the anchor's (kept per cell entry), then the piece's ends against the
+        # anchor-to-point circle, then which of the two circles' meetings they share
         cnt = count[busy]
-        pt = np.repeat(busy, cnt)
-        k = np.arange(pt.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
-        pc = self._cell_pieces[start[pt] + k]
-        anchor = self._anchor_xyz(col[pt], row[pt])
-        p = r[pt]
-        ea, eb, en = self._pa[pc], self._pb[pc], self._pole[pc]
-        hit = sphere.arcs_cross(anchor, p, ea, eb) & (sphere.dot(en, p) > 0)
+        local = np.repeat(np.arange(busy.size), cnt)
+        entry = (np.arange(local.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+                 + start[busy][local])
+        pc = self._cell_pieces[entry]
+        p = r[busy]
+        s_p = sphere.dot(self._piece_n[pc], p[local])
+        s_anchor = self._entry_anchor_side[entry]
+        keep = (s_anchor * s_p < 0) & (sphere.dot(self._pole[pc], p[local]) > 0)
+        local, pc = local[keep], pc[keep]
+        anchor = self._anchor_xyz(col[busy], row[busy])
+        n1 = sphere.cross(anchor, p)
+        ea, eb = self._pa[pc], self._pb[pc]
+        keep = sphere.dot(n1[local], ea) * sphere.dot(n1[local], eb) < 0
+        local, pc, ea, eb = local[keep], pc[keep], ea[keep], eb[keep]
+        x = sphere.cross(n1[local], self._piece_n[pc])
+        hit = np.sign(sphere.dot(x, anchor[local] + p[local])) == np.sign(sphere.dot(x, ea + eb))
         if not hit.any():
             return plate
-        pt, anchor, p, en, pc = pt[hit], anchor[hit], p[hit], en[hit], pc[hit]
-        x = np.cross(np.cross(anchor, p), en)
-        x *= np.sign(sphere.dot(x, anchor + p))[:, None]
-        nearness = sphere.dot(sphere.normalize(x), p)
-        order = np.lexsort((nearness, pt))
-        last = np.r_[pt[order][1:] != pt[order][:-1], True]
+        local, pc = local[hit], pc[hit]
+        a_, p_, en = anchor[local], p[local], self._pole[pc]
+        x = sphere.cross(sphere.cross(a_, p_), en)
+        x *= np.sign(sphere.dot(x, a_ + p_))[:, None]
+        nearness = sphere.dot(sphere.normalize(x), p_)
+        order = np.lexsort((nearness, local))
+        last = np.r_[local[order][1:] != local[order][:-1], True]
         chosen = order[last]
-        plate[pt[chosen]] = self._plate[pc[chosen]]
+        plate[busy[local[chosen]]] = self._plate[pc[chosen]]
         return plate
 
     def locate_lonlat(self, lon_deg, lat_deg) -> np.ndarray:
@@ -329,13 +381,15 @@ class PlateLocator:
         shape = np.broadcast(np.asarray(lon_deg), np.asarray(lat_deg)).shape
         return self.locate(sphere.lonlat_to_xyz(lon_deg, lat_deg).reshape(-1, 3)).reshape(shape)
 
-    def locate_grid(self, lon_deg, lat_deg, block: int = 8) -> np.ndarray:
+    def locate_grid(self, lon_deg, lat_deg) -> np.ndarray:
         """Plate index of every node of a regular lon/lat grid, shape (nlat, nlon).
 
-        Exact, like :meth:`locate`, and much faster on fine grids: the nodes are grouped in
-        blocks of ``block x block``; a block whose lon/lat rectangle no plate edge's box
-        touches lies wholly in one plate, so one located node labels all of it. Only the
-        blocks that edges touch are located node by node.
+        Exact, like :meth:`locate` (it gives the same index node for node), and much
+        faster on fine grids: each row of nodes is a parallel, and the plate edges cross
+        it at longitudes found in closed form (:meth:`_row_bands`, each with a bound on
+        its rounding). Between two crossings the row lies in one plate, so one node,
+        located by :meth:`locate`, labels the whole run; the nodes within a crossing's
+        bound are located one by one.
 
         Parameters
         ----------
@@ -343,6 +397,17 @@ class PlateLocator:
             Evenly spaced, increasing.
         lat_deg : ndarray, shape (nlat,)
             Evenly spaced, increasing.
+
+        Returns
+        -------
+        ndarray of int32, shape (nlat, nlon)
+            -1 where no plate holds the node.
+
+        Notes
+        -----
+        The work is :meth:`locate` for about two nodes per crossing and one pass to write
+        the labels: on a 0.1 degree grid of a 100,000-vertex world, 40,000 crossings for
+        6.5 M nodes.
         """
         lon = np.asarray(lon_deg, float)
         lat = np.asarray(lat_deg, float)
@@ -351,52 +416,106 @@ class PlateLocator:
             LON, LAT = np.meshgrid(lon, lat)
             return self.locate_lonlat(LON, LAT)
         dlon = (lon[-1] - lon[0]) / (nlon - 1)
-        dlat = (lat[-1] - lat[0]) / (nlat - 1)
-        k = int(block)
-        nbi, nbj = -(-nlon // k), -(-nlat // k)
-        touched = np.zeros((nbj, nbi), bool)
+        row, lo, hi = self._row_bands(lat)
+        # each band as a range of node columns, copied a turn to the west so that a band
+        # near the grid's east end also covers the nodes it wraps onto
+        lo0 = lo - 360.0 * np.floor((lo - lon[0]) / 360.0)
+        hi0 = hi + (lo0 - lo)
+        full = hi - lo >= 360.0 - dlon
+        row = np.concatenate([row, row])
+        i0 = np.floor((np.concatenate([lo0, lo0 - 360.0]) - lon[0]) / dlon).astype(np.int64)
+        i1 = np.ceil((np.concatenate([hi0, hi0 - 360.0]) - lon[0]) / dlon).astype(np.int64)
+        full = np.concatenate([full, full])
+        i0, i1 = np.where(full, 0, i0), np.where(full, nlon - 1, i1)
+        keep = (i1 >= 0) & (i0 <= nlon - 1)
+        row, i0, i1 = row[keep], np.maximum(i0[keep], 0), np.minimum(i1[keep], nlon - 1)
+        # the grid, flattened, cut into segments: every node within a band alone, and the
+        # runs between; each segment takes the plate of its first node
+        length = i1 - i0 + 1
+        first = np.repeat(row * nlon + i0 - np.cumsum(length) + length, length) \
+            + np.arange(length.sum())
+        cuts = np.unique(np.concatenate([np.arange(nlat + 1) * nlon, first, first + 1]))
+        jj, ii = np.divmod(cuts[:-1], nlon)
+        plate = self.locate_lonlat(lon[ii], lat[jj]).astype(np.int32)
+        return np.repeat(plate, np.diff(cuts)).reshape(nlat, nlon)
 
-        # edge pieces back in the world frame, with exact lon/lat boxes
+    def _row_bands(self, lat_deg):
+        """Where the plate edges may cross the parallels ``lat_deg``: ``(row, lo, hi)``,
+        one longitude band (degrees, world frame, ``lo`` to ``hi`` eastward, not wrapped)
+        per crossing of a piece and a parallel, that holds the exact crossing.
+
+        On a piece ``x(t) = a cos t + u sin t`` (``0 <= t <= theta``) the height is
+        ``z = R cos(t - t0)``, so it meets the parallel ``z = sin(phi)`` at ``t = t0 +/-
+        arccos(sin(phi) / R)``. The band's half-width bounds that root's rounding: with
+        ``c = sin(phi)/R`` known to ``eps``, ``|dt| <= min(eps / sqrt(1 - c^2),
+        sqrt(2 eps))``, which is large only where the piece runs along the parallel, and a
+        step ``dt`` along the arc moves the longitude by at most ``dt / cos(phi)``.
+        Pieces that run along the parallel over their whole length (an equatorial arc, a
+        tangent) or pass within a degree of a pole get a band as wide as the row.
+
+        Parameters
+        ----------
+        lat_deg : ndarray, shape (nlat,)
+            Increasing.
+
+        Returns
+        -------
+        row : ndarray of int, shape (B,)
+        lo, hi : ndarray, shape (B,)
+        """
+        a, u, theta, R, t0, lat_lo, lat_hi, polar = self._world_pieces
+        lat = np.asarray(lat_deg, float)
+        nlat = len(lat)
+        pad = 1e-9
+        j0 = np.searchsorted(lat, lat_lo - pad, side="left")
+        j1 = np.searchsorted(lat, lat_hi + pad, side="right")
+        cnt = np.maximum(j1 - j0, 0)
+        piece = np.repeat(np.arange(len(a)), cnt)
+        row = np.repeat(j0, cnt) + np.arange(piece.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+        row = np.minimum(row, nlat - 1)
+        phi = np.radians(lat[row])
+        Rp = R[piece]
+        flat = Rp < 1e-9
+        with np.errstate(divide="ignore", invalid="ignore"):
+            c = np.where(flat, 0.0, np.sin(phi) / np.where(flat, 1.0, Rp))
+        over = np.maximum(np.abs(c) - 1.0, 0.0)
+        cc = np.clip(c, -1.0, 1.0)
+        eps = 1e-15 / np.maximum(Rp, 1e-300) + 1e-13
+        s = np.sqrt(1.0 - cc * cc)
+        with np.errstate(divide="ignore"):
+            dt = np.minimum(eps / s, np.sqrt(2 * eps)) + np.sqrt(2 * over) + 1e-12
+        wide = flat | polar[piece] | (dt >= 0.5 * theta[piece]) | (over > 1e-9)
+        cphi = np.cos(phi)
+        with np.errstate(divide="ignore"):
+            half = np.degrees(dt / cphi) + 1e-9
+        half = np.where(wide | (cphi < 1e-6), 360.0, half)
+        acs = np.arccos(cc)
+        rows, los, his = [row[wide]], [np.full(wide.sum(), -180.0)], [np.full(wide.sum(), 540.0)]
+        th = theta[piece]
+        for sign in (1.0, -1.0):
+            t = np.mod(t0[piece] + sign * acs + np.pi, 2 * np.pi) - np.pi
+            ok = ~wide & (t >= -dt) & (t <= th + dt)
+            tc = np.clip(t[ok], 0.0, th[ok])
+            p = piece[ok]
+            x = np.cos(tc)[:, None] * a[p] + np.sin(tc)[:, None] * u[p]
+            lam = np.degrees(np.arctan2(x[:, 1], x[:, 0]))
+            rows.append(row[ok])
+            los.append(lam - half[ok])
+            his.append(lam + half[ok])
+        return np.concatenate(rows), np.concatenate(los), np.concatenate(his)
+
+    @cached_property
+    def _world_pieces(self):
+        # the pieces back in the world frame, each as x(t) = a cos t + u sin t, with its
+        # height's amplitude and phase (z = R cos(t - t0)) and latitude range (degrees)
         a, b = self._pa @ self.frame, self._pb @ self.frame
-        lo_a, _, dl, lat_lo, lat_hi = sphere.arc_lonlat_box(a, b)
-        _, lat_a = sphere.xyz_to_lonlat(a)
-        _, lat_b = sphere.xyz_to_lonlat(b)
-        # near a pole longitude means little: such pieces touch every column
-        polar = (np.abs(lat_a) > 90 - 1e-7) | (np.abs(lat_b) > 90 - 1e-7) | (
-            np.maximum(np.abs(lat_lo), np.abs(lat_hi)) > 90 - 1e-7) | (np.abs(dl) > 179.0)
-        pad = 1e-7
-        lo = np.where(polar, 0.0, np.mod(lo_a - lon[0] - pad, 360.0))
-        width = np.where(polar, 360.0, np.abs(dl) + 2 * pad)
-        # block rows: blocks whose node-lat span [lat[jk], lat[jk+k-1]] meets the box
-        j0 = np.ceil(((lat_lo - pad - lat[0]) / dlat - (k - 1)) / k).astype(np.int64)
-        j1 = np.floor(((lat_hi + pad - lat[0]) / dlat) / k).astype(np.int64)
-        j0, j1 = np.clip(j0, 0, nbj - 1), np.clip(j1, 0, nbj - 1)
-        span_lon = nlon * dlon if abs(nlon * dlon - 360.0) < 1e-6 else 720.0
-        for start, wid in ((lo, width), (lo - span_lon, width)):
-            i0 = np.ceil(((start) / dlon - (k - 1)) / k).astype(np.int64)
-            i1 = np.floor(((start + wid) / dlon) / k).astype(np.int64)
-            i0, i1 = np.clip(i0, 0, nbi - 1), np.clip(i1, -1, nbi - 1)
-            full = wid >= 359.0
-            i0, i1 = np.where(full, 0, i0), np.where(full, nbi - 1, i1)
-            ok = (i1 >= i0) & (j1 >= j0)
-            ni, nj = (i1 - i0 + 1) * ok, (j1 - j0 + 1) * ok
-            cnt = ni * nj
-            piece = np.repeat(np.arange(len(lo)), cnt)
-            q = np.arange(piece.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
-            touched[j0[piece] + q // ni[piece], i0[piece] + q % ni[piece]] = True
-
-        out = np.empty((nlat, nlon), np.int64)
-        # one node per untouched block
-        bj, bi = np.nonzero(~touched)
-        rep = self.locate_lonlat(lon[bi * k], lat[bj * k])
-        block_plate = np.full((nbj, nbi), -1, np.int64)
-        block_plate[bj, bi] = rep
-        out[:] = np.repeat(np.repeat(block_plate, k, axis=0), k, axis=1)[:nlat, :nlon]
-        # every node of a touched block
-        mask = np.repeat(np.repeat(touched, k, axis=0), k, axis=1)[:nlat, :nlon]
-        jj, ii = np.nonzero(mask)
-        out[jj, ii] = self.locate_lonlat(lon[ii], lat[jj])
-        return out
+        n, theta = sphere.arc_pole(a, b)
+        u = sphere.cross(n, a)
+        R = np.hypot(a[:, 2], u[:, 2])
+        t0 = np.arctan2(u[:, 2], a[:, 2])
+        lat_lo, lat_hi = (np.degrees(x) for x in sphere.arc_lat_range(a, b))
+        polar = np.maximum(np.abs(lat_lo), np.abs(lat_hi)) > 89.0
+        return a, u, theta, R, t0, lat_lo, lat_hi, polar
 
     def overlaps(self) -> np.ndarray:
         """Cell centres (world frame, shape (K, 3)) held by more than one region.

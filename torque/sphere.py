@@ -326,18 +326,21 @@ def densify_arcs(a, b, max_angle: float):
     owner = np.repeat(np.arange(len(a)), k)
     first = np.cumsum(k) - k
     j = np.arange(owner.size) - first[owner]
-    f0 = j / k[owner]
-    f1 = (j + 1) / k[owner]
-    pa = slerp_points(a[owner], b[owner], f0)
-    pb = slerp_points(a[owner], b[owner], f1)
-    # Keep the original vertices bit for bit, so shared edges stay shared.
-    pa[j == 0] = a[owner[j == 0]]
-    last = j == k[owner] - 1
-    pb[last] = b[owner[last]]
+    # the original vertices bit for bit, so shared edges stay shared; points in between
+    # only for arcs cut in several pieces
+    pa, pb = a[owner], b[owner]
+    cut = np.flatnonzero(k[owner] > 1)
+    if len(cut):
+        oc, jc, kc = owner[cut], j[cut], k[owner[cut]]
+        inner = jc > 0
+        pa[cut[inner]] = slerp_points(a[oc[inner]], b[oc[inner]], jc[inner] / kc[inner])
+        inner = jc < kc - 1
+        pb[cut[inner]] = slerp_points(a[oc[inner]], b[oc[inner]],
+                                      (jc[inner] + 1) / kc[inner])
     return pa, pb, owner
 
 
-def arc_lat_range(a, b) -> tuple[np.ndarray, np.ndarray]:
+def arc_lat_range(a, b, pole=None) -> tuple[np.ndarray, np.ndarray]:
     """Exact minimum and maximum latitude (radians) reached along the arcs ``a -> b``.
 
     A great-circle arc can rise above both of its end points; its highest point is where the
@@ -347,13 +350,15 @@ def arc_lat_range(a, b) -> tuple[np.ndarray, np.ndarray]:
     ----------
     a, b : array_like, shape (..., 3)
         Unit vectors: the start and end of each arc.
+    pole : ndarray, shape (..., 3), optional
+        The arcs' unit poles (:func:`arc_pole`), when the caller has them.
 
     Returns
     -------
     lat_min, lat_max : ndarray, shape (...)
         Radians.
     """
-    n, _ = arc_pole(a, b)
+    n = arc_pole(a, b)[0] if pole is None else pole
     lat_a = np.arcsin(np.clip(a[..., 2], -1, 1))
     lat_b = np.arcsin(np.clip(b[..., 2], -1, 1))
     lo = np.minimum(lat_a, lat_b)
@@ -374,7 +379,7 @@ def arc_lat_range(a, b) -> tuple[np.ndarray, np.ndarray]:
     return lo, hi
 
 
-def arc_lonlat_box(a, b):
+def arc_lonlat_box(a, b, pole=None):
     """Longitude span and latitude range (degrees) of arcs ``a -> b``.
 
     Returns ``lo, hi, dlon, lat_lo, lat_hi``: the arc runs from longitude ``lo`` to ``hi``
@@ -386,6 +391,8 @@ def arc_lonlat_box(a, b):
     ----------
     a, b : ndarray, shape (E, 3)
         Unit vectors.
+    pole : ndarray, shape (E, 3), optional
+        The arcs' unit poles, when the caller has them.
 
     Returns
     -------
@@ -395,7 +402,7 @@ def arc_lonlat_box(a, b):
     lon_a, _ = xyz_to_lonlat(a)
     lon_b, _ = xyz_to_lonlat(b)
     dlon = np.mod(lon_b - lon_a + 180.0, 360.0) - 180.0
-    lat_lo, lat_hi = (np.degrees(t) for t in arc_lat_range(a, b))
+    lat_lo, lat_hi = (np.degrees(t) for t in arc_lat_range(a, b, pole))
     return lon_a + np.minimum(dlon, 0.0), lon_a + np.maximum(dlon, 0.0), dlon, lat_lo, lat_hi
 
 
