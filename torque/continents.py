@@ -21,10 +21,9 @@ from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
-import shapely
 
 from . import sphere
-from .locate import PlateLocator, arc_boxes, cached
+from .locate import PlateLocator, cached
 
 
 @dataclass(frozen=True, eq=False)
@@ -162,20 +161,14 @@ def clip_edges(world, continents: Continents) -> ClippedEdges:
     ClippedEdges
     """
     g = world.geometry
-    frame = g.locator.frame
     pa, pb, pplate = g.edges
     nxt = sphere.ring_next(continents.ring_start)
     ca, cb = continents.xyz, continents.xyz[nxt]
     keep_c = np.any(ca != cb, axis=1)
     ca, cb = ca[keep_c], cb[keep_c]
 
-    # candidate crossings from boxes, then exact tests
-    boxes_c, own_c = arc_boxes(ca @ frame.T, cb @ frame.T)
-    boxes_p, own_p = arc_boxes(pa @ frame.T, pb @ frame.T)
-    tree = shapely.STRtree(boxes_p)
-    qi, ti = tree.query(boxes_c, predicate="intersects")
-    ic, ip = np.unique(np.stack([own_c[qi], own_p[ti]], axis=1), axis=0).T \
-        if len(qi) else (np.zeros(0, int), np.zeros(0, int))
+    # candidate crossings from the plate locator's cells, then exact tests
+    ic, ip = g.locator.edges_near(ca, cb)
     hit = sphere.arcs_cross(ca[ic], cb[ic], pa[ip], pb[ip])
     n1 = np.cross(ca[ic], cb[ic])
     n2 = np.cross(pa[ip], pb[ip])

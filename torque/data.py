@@ -235,7 +235,7 @@ class WorldData:
             c = self.continents
             self._node_cache[key] = (grid, c.on_grid(grid.lon, grid.lat)
                                      if isinstance(c, MaskContinents)
-                                     else c.locator.locate_grid(grid.lon, grid.lat) == 0)
+                                     else c.locator.locate_grid(grid.lon, grid.lat, region=0))
         return self._node_cache[key][1]
 
     @cached_property

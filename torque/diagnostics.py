@@ -120,9 +120,6 @@ def pole_ellipse(omega, cov, confidence: float = CONFIDENCE) -> dict:
         return {"major_deg": None, "minor_deg": None, "azimuth_deg": None,
                 "rate_stderr_deg_myr": None, "confidence": confidence}
     u = omega / rate
-    # the local basis at the pole, as sphere.east_north, but normalised as a single vector:
-    # the ellipse of a rank-deficient covariance (a minor axis of 1e-8 degrees) is rounding
-    # noise, and this keeps it the same noise as the recorded outputs
     east = np.cross([0.0, 0.0, 1.0], u)
     east = east / np.linalg.norm(east) if np.linalg.norm(east) > 1e-12 else np.array([0, 1.0,
                                                                                         0])
@@ -130,10 +127,17 @@ def pole_ellipse(omega, cov, confidence: float = CONFIDENCE) -> dict:
     T = np.stack([east, north]) / rate                                # (2, 3)
     c2 = T @ cov @ T.T
     vals, vecs = np.linalg.eigh(c2)
+    # A covariance of rank below 3 (fewer coefficients than pole and rate) gives axes that
+    # are rounding noise of the largest variance (1e-8 degrees, say): they are 0, and a
+    # circle's azimuth, undefined, is 0, so that the numbers do not change with the order
+    # of a sum.
+    floor = 1e-12 * max(np.linalg.eigvalsh(np.asarray(cov, float))[-1], 0.0) / rate ** 2
+    vals = np.where(vals > floor, vals, 0.0)
     k = np.sqrt(stats.chi2.ppf(confidence, 2))
-    major = np.degrees(k * np.sqrt(max(vals[1], 0)))
-    minor = np.degrees(k * np.sqrt(max(vals[0], 0)))
-    az = np.degrees(np.arctan2(vecs[0, 1], vecs[1, 1])) % 180.0
+    major = np.degrees(k * np.sqrt(vals[1]))
+    minor = np.degrees(k * np.sqrt(vals[0]))
+    az = (np.degrees(np.arctan2(vecs[0, 1], vecs[1, 1])) % 180.0
+          if vals[1] - vals[0] > floor else 0.0)
     rate_se = np.sqrt(max(u @ cov @ u, 0)) / RAD_S_PER_DEG_MYR
     return {"major_deg": float(major), "minor_deg": float(minor), "azimuth_deg": float(az),
             "rate_stderr_deg_myr": float(rate_se), "confidence": confidence}

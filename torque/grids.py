@@ -213,11 +213,8 @@ def bilinear(glon, glat, values, lon_deg, lat_deg, global_lon: bool) -> np.ndarr
     lat = np.asarray(lat_deg, dtype=float)
     a = values
     x = np.mod(lon - glon[0], 360.0)
-    if global_lon:
-        glon_ext = np.r_[glon - glon[0], 360.0]
-        a = np.concatenate([a, a[:, :1]], axis=1)
-    else:
-        glon_ext = glon - glon[0]
+    # a global grid's last cell closes on its first column (read in place, not copied)
+    glon_ext = np.r_[glon - glon[0], 360.0] if global_lon else glon - glon[0]
     i = np.searchsorted(glon_ext, x, side="right") - 1
     j = np.searchsorted(glat, lat, side="right") - 1
     # a point on the last node of an axis belongs to the last cell
@@ -228,6 +225,7 @@ def bilinear(glon, glat, values, lon_deg, lat_deg, global_lon: bool) -> np.ndarr
     j = np.clip(j, 0, len(glat) - 2)
     fx = (x - glon_ext[i]) / (glon_ext[i + 1] - glon_ext[i])
     fy = (lat - glat[j]) / (glat[j + 1] - glat[j])
-    out = ((1 - fx) * (1 - fy) * a[j, i] + fx * (1 - fy) * a[j, i + 1]
-           + (1 - fx) * fy * a[j + 1, i] + fx * fy * a[j + 1, i + 1])
+    i1 = np.where(i + 1 == a.shape[1], 0, i + 1)
+    out = ((1 - fx) * (1 - fy) * a[j, i] + fx * (1 - fy) * a[j, i1]
+           + (1 - fx) * fy * a[j + 1, i] + fx * fy * a[j + 1, i1])
     return np.where(inside, out, np.nan)

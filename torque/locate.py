@@ -157,12 +157,20 @@ class PlateLocator:
         self._pa, self._pb = pa, pb
         self._pole, _ = sphere.arc_pole(pa, pb)
         self._plate = plate[owner]
+        self._piece_edge = np.flatnonzero(keep)[owner]     # the ring edge of each piece
+        self._n_edges = len(xyz)
 
         lo, hi, dlon, lat_lo, lat_hi = sphere.arc_lonlat_box(pa, pb, self._pole)
 
         self._build_cells(lo, hi, lat_lo, lat_hi)
         north_count = self._plates_holding_north(rxyz, ring_start, ring_plate, ring_is_hole)
         self._label_anchors(lo, hi, dlon, north_count)
+
+    @property
+    def label_dtype(self):
+        """The integer type of :meth:`locate_grid`'s labels: int16 for fewer than 32,767
+        plates, else int32."""
+        return np.int16 if self.n_plates < np.iinfo(np.int16).max else np.int32
 
     # -- set-up ---------------------------------------------------------------------------
     @staticmethod
@@ -181,9 +189,10 @@ class PlateLocator:
                 return q
         raise ValueError("no rotated frame clears the poles; the rings look degenerate")
 
-    def _build_cells(self, lo, hi, lat_lo, lat_hi):
+    def _box_cells(self, lo, hi, lat_lo, lat_hi):
+        # (piece, cell) for every cell that each piece's lon/lat box (in the frame) touches,
+        # padded by the bulge of an anchor-to-point arc beyond its cell (< d^2/16 radians)
         d = self.cell_deg
-        # Margin for the bulge of an anchor-to-point arc beyond its cell (< d^2/16 radians).
         pad = np.degrees(np.radians(d) ** 2 / 4.0) + 1e-9
         c0 = np.floor((lo - pad + 180.0) / d).astype(np.int64)
         c1 = np.floor((hi + pad + 180.0) / d).astype(np.int64)
@@ -196,11 +205,16 @@ class PlateLocator:
         k = np.arange(piece.size) - np.repeat(np.cumsum(count) - count, count)
         col = np.mod(c0[piece] + k % nc[piece], self.ncol)
         row = r0[piece] + k // nc[piece]
-        cell = row * self.ncol + col
+        return piece, row * self.ncol + col
+
+    def _build_cells(self, lo, hi, lat_lo, lat_hi):
+        piece, cell = self._box_cells(lo, hi, lat_lo, lat_hi)
         order = np.argsort(cell, kind="stable")
         self._cell_pieces = piece[order]
         cell = cell[order]
-        self._cell_start = np.r_[0, np.cumsum(np.bincount(cell, minlength=self.ncol * self.nrow))]
+        self._cell_start = np.zeros(self.ncol * self.nrow + 1, np.int32 if len(cell) < 2**31
+                                    else np.int64)
+        np.cumsum(np.bincount(cell, minlength=self.ncol * self.nrow), out=self._cell_start[1:])
         # the first of the crossing tests, the anchor's side of each listed piece's circle,
         # is fixed by the cell: kept per entry
         self._piece_n = sphere.cross(self._pa, self._pb)
@@ -381,7 +395,7 @@ class PlateLocator:
         shape = np.broadcast(np.asarray(lon_deg), np.asarray(lat_deg)).shape
         return self.locate(sphere.lonlat_to_xyz(lon_deg, lat_deg).reshape(-1, 3)).reshape(shape)
 
-    def locate_grid(self, lon_deg, lat_deg) -> np.ndarray:
+    def locate_grid(self, lon_deg, lat_deg, region: int | None = None) -> np.ndarray:
         """Plate index of every node of a regular lon/lat grid, shape (nlat, nlon).
 
         Exact, like :meth:`locate` (it gives the same index node for node), and much
@@ -397,11 +411,14 @@ class PlateLocator:
             Evenly spaced, increasing.
         lat_deg : ndarray, shape (nlat,)
             Evenly spaced, increasing.
+        region : int, optional
+            Return only whether each node lies in this plate (a boolean grid, without the
+            labels' memory).
 
         Returns
         -------
-        ndarray of int32, shape (nlat, nlon)
-            -1 where no plate holds the node.
+        ndarray of :attr:`label_dtype`, shape (nlat, nlon)
+            -1 where no plate holds the node; of bool with ``region``.
 
         Notes
         -----
@@ -414,7 +431,8 @@ class PlateLocator:
         nlon, nlat = len(lon), len(lat)
         if nlon < 2 or nlat < 2:
             LON, LAT = np.meshgrid(lon, lat)
-            return self.locate_lonlat(LON, LAT)
+            out = self.locate_lonlat(LON, LAT)
+            return out if region is None else out == region
         dlon = (lon[-1] - lon[0]) / (nlon - 1)
         row, lo, hi = self._row_bands(lat)
         # each band as a range of node columns, copied a turn to the west so that a band
@@ -436,7 +454,9 @@ class PlateLocator:
             + np.arange(length.sum())
         cuts = np.unique(np.concatenate([np.arange(nlat + 1) * nlon, first, first + 1]))
         jj, ii = np.divmod(cuts[:-1], nlon)
-        plate = self.locate_lonlat(lon[ii], lat[jj]).astype(np.int32)
+        plate = self.locate_lonlat(lon[ii], lat[jj])
+        # labels in the smallest type that holds them (a 2-arcmin grid has 58 M nodes)
+        plate = plate.astype(self.label_dtype) if region is None else plate == region
         return np.repeat(plate, np.diff(cuts)).reshape(nlat, nlon)
 
     def _row_bands(self, lat_deg):
@@ -513,9 +533,37 @@ class PlateLocator:
         u = sphere.cross(n, a)
         R = np.hypot(a[:, 2], u[:, 2])
         t0 = np.arctan2(u[:, 2], a[:, 2])
-        lat_lo, lat_hi = (np.degrees(x) for x in sphere.arc_lat_range(a, b))
+        lat_lo, lat_hi = (np.degrees(x) for x in sphere.arc_lat_range(a, b, n))
         polar = np.maximum(np.abs(lat_lo), np.abs(lat_hi)) > 89.0
         return a, u, theta, R, t0, lat_lo, lat_hi, polar
+
+    def edges_near(self, a, b):
+        """Candidate pairs of arcs ``a -> b`` and the rings' edges that may cross or touch
+        them: every such pair is among them (both pass through a common cell).
+
+        Parameters
+        ----------
+        a, b : ndarray, shape (N, 3)
+            Unit vectors, world frame.
+
+        Returns
+        -------
+        arc, edge : ndarray of int, shape (K,)
+            Each pair once; ``edge`` indexes the rings' vertices (edge ``e`` runs from
+            vertex ``e`` to the next of its ring).
+        """
+        ra, rb = np.asarray(a, float) @ self.frame.T, np.asarray(b, float) @ self.frame.T
+        pa, pb, owner = sphere.densify_arcs(ra, rb, np.radians(self.cell_deg))
+        n, _ = sphere.arc_pole(pa, pb)
+        lo, hi, _, lat_lo, lat_hi = sphere.arc_lonlat_box(pa, pb, n)
+        piece, cell = self._box_cells(lo, hi, lat_lo, lat_hi)
+        start = self._cell_start[cell]
+        cnt = self._cell_start[cell + 1] - start
+        arc = np.repeat(owner[piece], cnt)
+        entry = np.repeat(start - np.cumsum(cnt) + cnt, cnt) + np.arange(cnt.sum())
+        edge = self._piece_edge[self._cell_pieces[entry]]
+        key = np.unique(arc * np.int64(self._n_edges) + edge)
+        return np.divmod(key, self._n_edges)
 
     def overlaps(self) -> np.ndarray:
         """Cell centres (world frame, shape (K, 3)) held by more than one region.

@@ -222,10 +222,11 @@ class BoundaryMap:
 
     Attributes
     ----------
-    parts : tuple of (ages, index, K, plate)
-        ``ages`` (U,): the age (Myr; 0 where the grid has none, with weight 0) of each node
-        the part reads; ``index`` (n, k) into them per cell; ``K`` (n, 3, k) the torque
-        (N m) per N/m of ridge push at each node; ``plate`` (n,) the plate of each cell.
+    parts : tuple of (ages, G, plate)
+        ``ages`` (U,): the age (Myr; 0 where the grid has none) of each node a part reads;
+        ``G`` (U, 3): the torque (N m) per N/m of ridge push at the node, summed over the
+        cells whose fits read it; ``plate`` (U,): the plate that torque acts on. A node
+        may appear in more than one part.
     n_plates : int
     """
 
@@ -235,7 +236,7 @@ class BoundaryMap:
     @property
     def size(self) -> int:
         """Entries of the map's torque arrays (its cost to apply)."""
-        return int(sum(K.size for _, _, K, _ in self.parts))
+        return int(sum(G.size for _, G, _ in self.parts))
 
     @cached_property
     def knot_map(self) -> np.ndarray:
@@ -255,15 +256,15 @@ class BoundaryMap:
         C = CubicSpline(knots, np.eye(len(knots))).c          # (4, J, knots)
         J = C.shape[1]
         GE = np.zeros((self.n_plates * 3, 4 * J))
-        for ages, index, K, plate in self.parts:
+        for ages, G, plate in self.parts:
             x = Cooling._root_age(ages)
             j = np.clip(np.searchsorted(knots, x, side="right") - 1, 0, J - 1)
             dx = x - knots[j]
+            rows = 3 * plate[:, None] + np.arange(3)[None, :]                    # (U, 3)
             for p in range(4):
-                w = K * (dx ** (3 - p))[index][:, None, :]                   # (n, 3, k)
-                rows = 3 * plate[:, None, None] + np.arange(3)[None, :, None]
-                key = (rows * (4 * J) + 4 * j[index][:, None, :] + p).ravel()
-                GE += np.bincount(key, w.ravel(), GE.size).reshape(GE.shape)
+                key = (rows * (4 * J) + (4 * j + p)[:, None]).ravel()
+                GE += np.bincount(key, (G * (dx ** (3 - p))[:, None]).ravel(),
+                                  GE.size).reshape(GE.shape)
         # (3P, 4J) @ (4J, knots), with C's (p, j) order matching 4 j + p
         return (GE @ np.transpose(C, (1, 0, 2)).reshape(4 * J, -1)).reshape(
             self.n_plates, 3, -1)
@@ -295,8 +296,8 @@ class BoundaryMap:
         ndarray, shape (P, 3)
         """
         out = np.zeros((self.n_plates, 3))
-        for ages, index, K, plate in self.parts:
-            t = np.einsum("nik,nk->ni", K, ridge_push(ages)[index])
+        for ages, G, plate in self.parts:
+            t = G * ridge_push(ages)[:, None]
             out += np.stack([np.bincount(plate, t[:, i], self.n_plates) for i in range(3)],
                             axis=1)
         return out
@@ -356,8 +357,9 @@ def boundary_map(ctx, grid, a, b, owner) -> BoundaryMap:
     fi = (np.mod(lon - grid.lon[0], 360.0) if grid.global_lon else lon - grid.lon[0]) / dlon
     fj = (lat - grid.lat[0]) / dlat
     ci, cj = np.floor(fi).astype(np.int64), np.floor(fj).astype(np.int64)
-    key = (plate.astype(np.int64) * (len(grid.lat) + 2) + (cj + 1)) * (len(grid.lon) + 2) \
-        + (ci + 1)
+    # cells in grid order (row, column, then plate), so that a chunk of them reads a band
+    # of rows
+    key = ((cj + 1) * (len(grid.lon) + 2) + (ci + 1)) * P + plate.astype(np.int64)
     cells, member = np.unique(key, return_inverse=True)
     first = np.zeros(len(cells), np.int64)
     first[member[::-1]] = np.arange(len(member))[::-1]
@@ -369,24 +371,40 @@ def boundary_map(ctx, grid, a, b, owner) -> BoundaryMap:
     ex = (np.mod(lon - clon[member] + 180.0, 360.0) - 180.0) / abs(dlat) \
         * np.cos(np.radians(clat[member]))
     ey = (lat - clat[member]) / abs(dlat)
-    terms = np.stack([ex ** a_ * ey ** b_ for a_, b_ in BASIS], axis=1)          # (N, 6)
-    outer = (dr[:, :, None] * terms[:, None, :]).reshape(len(xyz), 18)
-    D = np.stack([np.bincount(member, outer[:, c], len(cells)) for c in range(18)],
-                 axis=1).reshape(-1, 3, 6) * ctx.R ** 2
+    D = np.empty((len(cells), 3, len(BASIS)))
+    for j, (a_, b_) in enumerate(BASIS):
+        term = ex ** a_ * ey ** b_
+        for i in range(3):
+            D[:, i, j] = np.bincount(member, dr[:, i] * term, len(cells))
+    D *= ctx.R ** 2
     parts = []
     left = np.arange(len(cells))
     for m, same in ((STENCIL, True), (2 * STENCIL, True), (2 * STENCIL, False)):
         if not len(left):
             break
-        done = []
+        done = np.zeros(len(left), bool)
         for c in range(0, len(left), CHUNK):
             sel = left[c:c + CHUNK]
-            ages, index, K, ok = _stencil_map(ctx, grid, cci[sel], ccj[sel], clat[sel],
-                                              cplate[sel], m, same, D[sel])
-            parts.append((ages, index[ok], K[ok], cplate[sel][ok]))
-            done.append(sel[ok])
-        left = np.setdiff1d(left, np.concatenate(done) if done else np.zeros(0, int))
+            part, done[c:c + CHUNK] = _stencil_map(ctx, grid, cci[sel], ccj[sel], clat[sel],
+                                                   cplate[sel], m, same, D[sel])
+            parts.append(part)
+        left = left[~done]
     return BoundaryMap(tuple(parts), P)
+
+
+def _unique(flat):
+    """The distinct values of ``flat`` (non-negative ints, in no particular order) and each
+    entry's index into them: :func:`numpy.unique` without its sort, by marks in a scratch
+    array over the values' range (for a chunk of cells in grid order, a band of rows)."""
+    flat = flat.ravel()
+    base = flat.min()
+    local = flat - base
+    mark = np.empty(int(local.max()) + 1, np.int32)
+    entry = np.arange(flat.size, dtype=np.int32)
+    mark[local] = entry                        # the last entry of each value wins...
+    first = local[mark[local] == entry]        # ...and stands for it
+    mark[first] = np.arange(len(first), dtype=np.int32)
+    return first + base, mark[local]
 
 
 #: Boundary maps up to this many entries are composed with the cooling spline (the demo's:
@@ -395,18 +413,20 @@ KNOT_MAP_MAX_SIZE = 5_000_000
 #: The fitted surface's terms, as powers of (x, y): a quadratic, whose first three are
 #: the plane.
 BASIS = ((0, 0), (1, 0), (0, 1), (2, 0), (1, 1), (0, 2))
-#: Cells fitted at a time (bounds the stencils' memory: about 100 MB).
-CHUNK = 40_000
+#: Cells fitted at a time (bounds the stencils' scratch memory to about 10 MB, which the
+#: allocator then reuses chunk after chunk instead of asking the system for more).
+CHUNK = 10_000
 
 
 def _stencil_map(ctx, grid, ci, cj, clat, plate, m, same_plate, D):
-    """For cells ``(ci, cj)``: the ages (Myr, 0 for none) of the nodes their m x m stencils
-    read, each stencil's indices into them (n, k), the torque ``K`` (n, 3, k) per unit
-    ``F`` at each node, and whether any node was valid (n,).
+    """For cells ``(ci, cj)`` of plates ``plate``: the part ``(ages, G, plate)`` of the
+    :class:`BoundaryMap` that their m x m stencils' fits make, and whether each cell's
+    stencil had a valid node (n,).
 
     With ``c = A^-1 X^T W F`` the fitted surface's coefficients and ``D`` (n, 3, 6) each
-    cell's sum of ``dr`` times the surface's terms, ``K = D A^-1 X^T W``, computed as
-    ``(A^-1 D^T)^T X^T W`` (three right-hand sides, not k)."""
+    cell's sum of ``dr`` times the surface's terms, the torque per unit ``F`` at the
+    stencil's nodes is ``K = D A^-1 X^T W``, computed as ``(A^-1 D^T)^T X^T W`` (three
+    right-hand sides, not k), and summed per node into ``G``."""
     nlat, nlon = len(grid.lat), len(grid.lon)
     di = np.arange(m) - (m // 2 - 1)
     I = ci[:, None, None] + di[None, None, :]                              # (n, m, m)
@@ -416,19 +436,17 @@ def _stencil_map(ctx, grid, ci, cj, clat, plate, m, same_plate, D):
     inside = (J >= 0) & (J < nlat)
     J = np.clip(J, 0, nlat - 1)
     flat = (J * nlon + I).reshape(len(ci), m * m)
-    nodes, inverse = np.unique(flat.ravel(), return_inverse=True)
+    nodes, inverse = _unique(flat)
+    inverse = inverse.reshape(flat.shape)
     node_age = grid.age_myr.ravel()[nodes]
-    jn, in_ = np.divmod(nodes, nlon)
-    node_xyz = sphere.lonlat_to_xyz(grid.lon[in_], grid.lat[jn])
-    node_ok = np.isfinite(node_age)
-    if ctx.continents is not None:
-        node_ok[node_ok] = ~ctx.continents.contains(node_xyz[node_ok])
+    # the grid's nodes are located once per grid (plates and continents), each stencil
+    # reads its own
+    node_ok = np.isfinite(node_age) & ~ctx.node_continental(grid).ravel()[nodes]
     n, k = len(ci), m * m
-    ok = node_ok[inverse].reshape(n, k) & inside.reshape(n, k)
+    ok = node_ok[inverse] & inside.reshape(n, k)
+    node_plate = ctx.node_plates(grid).ravel()[nodes]
     if same_plate:
-        node_plate = np.full(len(nodes), -1)
-        node_plate[node_ok] = ctx.world.locate_xyz(node_xyz[node_ok])
-        ok &= node_plate[inverse].reshape(n, k) == plate[:, None]
+        ok &= node_plate[inverse] == plate[:, None]
     # offsets (in grid steps) of the nodes from the cells' centres: x east (scaled by the
     # cosine of the cell's latitude), y north
     dlat = grid.lat[1] - grid.lat[0]
@@ -443,7 +461,23 @@ def _stencil_map(ctx, grid, ci, cj, clat, plate, m, same_plate, D):
     powers = [(a_, b_) for a_ in range(5) for b_ in range(5 - a_)]
     col = {p: i for i, p in enumerate(powers)}
     S = w @ np.stack([x0 ** a_ * y0 ** b_ for a_, b_ in powers], axis=1)     # (n, 15)
-    K = np.zeros((n, 3, k))
+    if same_plate:
+        # every node a cell reads is its own plate's: G by node
+        slot, g_age, g_plate = inverse, node_age, node_plate
+    else:
+        # cells may read other plates' nodes: G by (plate, node)
+        u = len(nodes)
+        key, slot = np.unique(plate[:, None] * u + inverse, return_inverse=True)
+        slot = slot.reshape(inverse.shape)
+        g_age, g_plate = node_age[key % u], key // u
+    G = np.zeros((len(g_age), 3))
+
+    def add(cells, K):
+        # K (s, 3, k) of these cells into G
+        idx = slot[cells].ravel()
+        for i in range(3):
+            G[:, i] += np.bincount(idx, K[:, i, :].ravel(), len(G))
+
     todo = count > 0
     for q, need in ((6, 6), (3, 3)):
         sel = np.nonzero(todo & (count >= need))[0]
@@ -464,16 +498,19 @@ def _stencil_map(ctx, grid, ci, cj, clat, plate, m, same_plate, D):
         idx = sel[fine]
         if len(idx):
             Y = np.linalg.solve(A[fine], np.swapaxes(D[idx, :, :q], 1, 2))     # (s, q, 3)
-            # X^T (q, k) is cos(lat)^a times the fixed x0^a y0^b: fold cos into Y
+            # X^T (q, k) is cos(lat)^a times the fixed x0^a y0^b: fold cos into Y, and
+            # make one (3s, q) x (q, k) product, not s small ones
             ca = np.stack([c[idx] ** ai for ai, _ in basis], axis=1)         # (s, q)
             P0 = np.stack([x0 ** ai * y0 ** bi for ai, bi in basis])          # (q, k)
-            K[idx] = np.matmul(np.swapaxes(Y * ca[:, :, None], 1, 2), P0) * w[idx, None, :]
+            Yt = np.swapaxes(Y * ca[:, :, None], 1, 2).reshape(-1, q)
+            add(idx, (Yt @ P0).reshape(len(idx), 3, k) * w[idx, None, :])
             todo[idx] = False
     mean = np.nonzero(todo & (count > 0))[0]
-    K[mean] = D[mean, :, 0, None] * (w[mean] / w[mean].sum(axis=1, keepdims=True))[:, None, :]
-    return np.nan_to_num(node_age), inverse.reshape(n, k), K, count > 0
-
-
+    if len(mean):
+        add(mean, D[mean, :, 0, None]
+            * (w[mean] / w[mean].sum(axis=1, keepdims=True))[:, None, :])
+    used = np.flatnonzero(np.any(G != 0, axis=1))
+    return (np.nan_to_num(g_age[used]), G[used], g_plate[used]), count > 0
 def _gradient(F, ok_p, ok_m, step):
     """dF/dx along axis 1: central where both neighbours count, one-sided where one does."""
     Fp = np.roll(F, -1, axis=1)
