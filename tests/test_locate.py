@@ -144,3 +144,58 @@ def test_locate_grid_agrees_node_for_node(lon0, step, lat_nodes):
     # and equals the nearest generator (definition of a Voronoi cell)
     _, nearest = cKDTree(gen).query(sphere.lonlat_to_xyz(LON, LAT).reshape(-1, 3))
     assert np.array_equal(grid.ravel(), nearest)
+
+
+def _grid_aligned_locator():
+    # Ten plates whose every vertex is a node of the grids below: two caps beyond 60 N and
+    # 60 S (great-circle edges between vertices 10 degrees apart on those parallels), and
+    # eight quads between them split at the equator (edges along it: exact great circles)
+    # and at the meridians 90 degrees apart. Nodes lie exactly on plate edges along the
+    # equator, the meridians and at every vertex.
+    def parallel(lat, lon0, lon1):
+        n = int(round(abs(lon1 - lon0) / 10))
+        return [(lon0 + (lon1 - lon0) * i / n, lat) for i in range(n)]
+
+    def meridian(lon, lat0, lat1):
+        n = int(round(abs(lat1 - lat0) / 30))
+        return [(lon, lat0 + (lat1 - lat0) * i / n) for i in range(n)]
+
+    rings = [parallel(60.0, -180.0, 180.0), parallel(-60.0, 180.0, -180.0)]
+    for lat0, lat1 in ((0.0, 60.0), (-60.0, 0.0)):
+        for lon0 in (-180.0, -90.0, 0.0, 90.0):
+            lon1 = lon0 + 90.0
+            rings.append(parallel(lat0, lon0, lon1) + meridian(lon1, lat0, lat1)
+                         + parallel(lat1, lon1, lon0) + meridian(lon0, lat1, lat0))
+    xyz = [sphere.lonlat_to_xyz(*np.asarray(r, float).T) for r in rings]
+    start = np.r_[0, np.cumsum([len(x) for x in xyz])]
+    n = len(rings)
+    return PlateLocator(np.concatenate(xyz), start, np.arange(n), np.zeros(n, bool), n)
+
+
+@pytest.mark.parametrize("lon0,step,lat_nodes", [(-180.0, 0.5, "poles"),
+                                                 (-180.0, 2.5, "poles"),
+                                                 (0.0, 1 / 3, "poles"),
+                                                 (-45.0, 0.25, "part")])
+def test_locate_grid_agrees_on_nodes_that_lie_on_edges(lon0, step, lat_nodes):
+    # Nodes on the equator's edges, on meridian edges and at vertices (on an edge to
+    # rounding): locate_grid must give what locate gives them, node for node. Away from the
+    # edges the plate is known from the construction (definition of the tiling).
+    loc = _grid_aligned_locator()
+    lon = lon0 + step * np.arange(int(round(360 / step)))
+    lat = np.linspace(-90, 90, int(round(180 / step)) + 1)
+    if lat_nodes == "part":
+        lon, lat = lon[: len(lon) // 3], lat[(lat > -70) & (lat < 35)]
+    grid = loc.locate_grid(lon, lat)
+    LON, LAT = np.meshgrid(lon, lat)
+    assert np.array_equal(grid, loc.locate_lonlat(LON, LAT))
+    assert np.array_equal(loc.locate_grid(lon, lat, region=3), grid == 3)
+    lonw = np.mod(LON + 180.0, 360.0) - 180.0
+    clear = ((np.abs(np.abs(LAT) - 60.0) > 1.0) & (np.abs(LAT) > 1e-9)
+             & (np.abs(np.mod(lonw, 90.0)) > 1e-9))
+    quad = np.floor((lonw + 180.0) / 90.0).astype(int)
+    want = np.where(LAT > 60, 0, np.where(LAT < -60, 1, np.where(LAT > 0, 2 + quad, 6 + quad)))
+    assert clear.sum() > 0.5 * clear.size
+    assert np.array_equal(grid[clear], want[clear])
+    # nodes on the equator are on an edge: either neighbour is a right answer
+    eq = (np.abs(LAT) < 1e-9) & (np.abs(np.mod(lonw, 90.0)) > 1e-9)
+    assert np.all((grid[eq] == 2 + quad[eq]) | (grid[eq] == 6 + quad[eq]))
