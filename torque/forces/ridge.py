@@ -486,10 +486,10 @@ def _stencil_map(ctx, grid, ci, cj, clat, plate, m, same_plate, D):
             continue
         basis = BASIS[:q]
         cs = c[sel]
-        A = np.empty((len(sel), q, q))
-        for i, (ai, bi) in enumerate(basis):
-            for j, (aj, bj) in enumerate(basis):
-                A[:, i, j] = S[sel, col[(ai + aj, bi + bj)]] * cs ** (ai + aj)
+        # A_ij = S[(a_i + a_j, b_i + b_j)] cos^(a_i + a_j), all entries at once
+        moment = np.array([[col[(ai + aj, bi + bj)] for aj, bj in basis] for ai, bi in basis])
+        power = np.array([[ai + aj for aj, _ in basis] for ai, _ in basis])
+        A = S[sel][:, moment] * cs[:, None, None] ** power
         # well posed (the nodes hold the surface): the Cholesky factor's diagonal keeps
         # its range, with a relative jitter so that a singular matrix factorises too
         jitter = 1e-12 * np.einsum("nii->n", A)[:, None, None] * np.eye(q)
