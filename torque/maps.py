@@ -113,7 +113,8 @@ def caption(fig, text: str) -> None:
     fig : matplotlib Figure
     text : str
     """
-    fig.draw_without_rendering()            # apply the maps' aspect before measuring
+    for a in fig.axes:                      # the maps' aspect, before measuring
+        a.apply_aspect()
     renderer = fig.canvas.get_renderer()
     inv = fig.transFigure.inverted()
     # below everything drawn: axes with their tick labels, and legends
