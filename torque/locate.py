@@ -163,8 +163,8 @@ class PlateLocator:
         lo, hi, dlon, lat_lo, lat_hi = sphere.arc_lonlat_box(pa, pb, self._pole)
 
         self._build_cells(lo, hi, lat_lo, lat_hi)
-        north_count = self._plates_holding_north(rxyz, ring_start, ring_plate, ring_is_hole)
-        self._label_anchors(lo, hi, dlon, north_count)
+        self._rings = (rxyz, ring_start, ring_plate, ring_is_hole)
+        self._label_anchors(lo, hi, dlon)
 
     @property
     def label_dtype(self):
@@ -230,7 +230,13 @@ class PlateLocator:
                      - np.bincount(ring_plate, weights=ring_is_hole, minlength=self.n_plates))
         return np.rint(per_plate).astype(np.int64)
 
-    def _label_anchors(self, lo, hi, dlon, north_count):
+    @cached_property
+    def _north_count(self):
+        # how many plates hold the frame's north pole, per plate (asked for only where a
+        # column has no crossing, and by the checks)
+        return self._plates_holding_north(*self._rings)
+
+    def _label_anchors(self, lo, hi, dlon):
         d = self.cell_deg
         # columns whose centre meridian lies in [lo, hi) of each piece
         first = np.ceil((lo + 180.0) / d - 0.5).astype(np.int64)
@@ -294,15 +300,17 @@ class PlateLocator:
                             else None)
             self._slots[name] = flat
 
-        # A column that no edge crosses lies wholly in the plate holding the north pole.
-        north_plate = int(np.argmax(north_count)) if north_count.max() > 0 else -1
-        plate = np.full((nrow, ncol), north_plate, dtype=np.int32)
+        plate = np.empty((nrow, ncol), dtype=np.int32)
         for name in ("e", "w"):                            # a westward crossing wins
             found, plates = picked[name]
             if plates is not None:
                 plate[found] = plates[found]
+        # A column that no edge crosses lies wholly in the plate holding the north pole.
+        alone = ~(picked["e"][0] | picked["w"][0])
+        if alone.any():
+            north = self._north_count
+            plate[alone] = int(np.argmax(north)) if north.max() > 0 else -1
         self._cell_plate = plate.ravel()
-        self._north_total = int(north_count.sum())
 
     @cached_property
     def _cell_coverage(self):
@@ -312,7 +320,7 @@ class PlateLocator:
         size = (self.nrow + 1) * self.ncol
         north = {k: np.cumsum(np.bincount(v, minlength=size).reshape(self.nrow + 1, self.ncol)
                               [::-1], axis=0)[::-1][1:] for k, v in self._slots.items()}
-        return (self._north_total + north["w"] - north["e"]).astype(np.int32).ravel()
+        return (int(self._north_count.sum()) + north["w"] - north["e"]).astype(np.int32).ravel()
 
     # -- queries --------------------------------------------------------------------------
     def _cells(self, rxyz):

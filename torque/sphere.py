@@ -371,7 +371,7 @@ def arc_lat_range(a, b, pole=None) -> tuple[np.ndarray, np.ndarray]:
     lat_e = np.arcsin(np.clip(e[..., 2], -1, 1))
     for sign in (1.0, -1.0):
         es = sign * e
-        on_arc = (dot(np.cross(a, es), n) >= 0) & (dot(np.cross(es, b), n) >= 0) & (en > 0)
+        on_arc = (dot(cross(a, es), n) >= 0) & (dot(cross(es, b), n) >= 0) & (en > 0)
         if sign > 0:
             hi = np.where(on_arc, np.maximum(hi, lat_e), hi)
         else:
