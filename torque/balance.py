@@ -568,12 +568,17 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     last = {}
 
     def solve(x):
+        # the optimiser asks for the residual and then the Jacobian at the same point:
+        # one balance serves both
+        if "x" in last and np.array_equal(x, last["x"]):
+            return last["solved"]
         c = coeffs(x)
         # a nonlinear balance starts Newton from the last solution (the optimiser's steps
         # are small)
         w, lu = solve_balance(system, c, last.get("w"))
         if system.nonlinear:
             last["w"] = w
+        last["x"], last["solved"] = np.array(x, float), (c, lu, w)
         return c, lu, w
 
     def frame(x):
