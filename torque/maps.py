@@ -151,7 +151,8 @@ def place_labels(ax, lon, lat, names, fontsize=8.0, priority=None, obstacles=Non
     """
     import cartopy.crs as ccrs
     fig = ax.figure
-    fig.canvas.draw()                      # layout must be final for the extents
+    for a in fig.axes:                     # layout must be final for the extents
+        a.apply_aspect()
     renderer = fig.canvas.get_renderer()
     lon, lat = np.asarray(lon, float), np.asarray(lat, float)
     xy = ax.projection.transform_points(ccrs.PlateCarree(), lon, lat)[:, :2]
