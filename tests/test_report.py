@@ -3,7 +3,7 @@ the mantle frame and net rotation, every interval, and how the run was made (no 
 are computed here: they come from the fit)."""
 
 from torque.diagnostics import Coefficient, FitResult
-from torque.report import _fit_note, _frame_table, _tables, _uncertainty_tables, _warnings
+from torque.report import _fit_note, _frame_table, _uncertainty_tables, _warnings
 
 
 def _fit():

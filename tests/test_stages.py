@@ -6,7 +6,6 @@ generator states how it was made) for the recovery within 3 standard errors.
 """
 
 import json
-import shutil
 
 import numpy as np
 import pytest
