@@ -597,7 +597,8 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
 
     M0 = np.tensordot(start.values, system.A, axes=1)
     _check_determined(system, M0)
-    lo, hi = (system.bounds[free] / scale[:, None]).T
+    with np.errstate(over="ignore"):     # a bound past the float range in these units is none
+        lo, hi = (system.bounds[free] / scale[:, None]).T
     x_start = np.clip(x0 / scale, lo, hi)
     if free_frame:
         # the best frame for the starting coefficients: the misfit is linear in it
