@@ -106,6 +106,29 @@ def test_pole_ellipse_against_chi_square():
     assert e["rate_stderr_deg_myr"] == pytest.approx(0.01)
 
 
+def test_pole_ellipse_of_a_rank_deficient_covariance():
+    # A covariance s^2 v v^T moves the Euler vector along v only. Along the pole itself (v
+    # = the rate's direction) the pole does not move: both axes 0, whatever rounding adds;
+    # along a tangent direction, the major axis is sqrt(chi2_2(0.95)) s / w along v and the
+    # minor is 0 (definition of the linearised ellipse; scipy.stats.chi2). A circle's
+    # azimuth is undefined and reported as 0.
+    rate = RAD_S_PER_DEG_MYR
+    w = np.array([0.0, 0.0, 1.0]) * rate
+    s = 0.01 * rate
+    noise = 1e-18 * s ** 2 * np.array([[1.0, 0.3, 0.0], [0.3, 2.0, 0.0], [0.0, 0.0, 0.0]])
+    along = diagnostics.pole_ellipse(w, s ** 2 * np.outer([0, 0, 1.0], [0, 0, 1.0]) + noise)
+    assert along["major_deg"] == 0.0 and along["minor_deg"] == 0.0
+    assert along["rate_stderr_deg_myr"] == pytest.approx(0.01)
+    east = diagnostics.pole_ellipse(np.array([1.0, 0.0, 0.0]) * rate,
+                                    s ** 2 * np.outer([0, 1.0, 0], [0, 1.0, 0]) + noise)
+    k = np.sqrt(stats.chi2.ppf(0.95, 2))
+    assert east["major_deg"] == pytest.approx(np.degrees(k * s / rate))
+    assert east["minor_deg"] == 0.0
+    assert east["azimuth_deg"] == pytest.approx(90.0)
+    circle = diagnostics.pole_ellipse(w, s ** 2 * np.eye(3) + noise)
+    assert circle["azimuth_deg"] == 0.0
+
+
 def test_fit_result_round_trips_its_json(demo_fit, tmp_path):
     # What torque fit writes is read back into the same record (JSON keeps every digit of
     # a float: Python writes the shortest repr that reads back exactly).

@@ -401,8 +401,8 @@ def _unique(flat):
     local = flat - base
     mark = np.empty(int(local.max()) + 1, np.int32)
     entry = np.arange(flat.size, dtype=np.int32)
-    mark[local] = entry                        # the last entry of each value wins...
-    first = local[mark[local] == entry]        # ...and stands for it
+    mark[local] = entry                        # one entry of each value is written last...
+    first = local[mark[local] == entry]        # ...and stands for it, whichever it is
     mark[first] = np.arange(len(first), dtype=np.int32)
     return first + base, mark[local]
 
