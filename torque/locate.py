@@ -18,6 +18,11 @@ The method, in the words of the code below:
 
 Every step is an exact sign test on great-circle arcs; there is no tolerance except for
 points that lie on a plate edge to rounding error (either plate is then a right answer).
+
+5. The nodes of a regular grid go row by row: where each edge piece crosses a row's
+   parallel comes in closed form, with a bound on its rounding; the nodes between two
+   crossings lie in one plate, so step 4 labels one node of each run, and the nodes within
+   a crossing's bound one by one. The labels are those of step 4 node for node.
 """
 
 from __future__ import annotations
