@@ -13,16 +13,11 @@ import pytest
 import torque
 from torque.errors import InputError
 from torque.grids import CouplingGrid
-from torque.hypothesis import hypothesis_from_dict
 
 from .conftest import here
-from .worlds import hemispheres
+from .worlds import hemispheres, hyp
 
 R = 6371e3
-
-
-def hyp(*forces):
-    return hypothesis_from_dict({"force": list(forces)})
 
 
 def grid(step, values):

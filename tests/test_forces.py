@@ -26,7 +26,7 @@ from torque.lithosphere import Cooling, Physics
 from torque.world import Boundary
 
 from .conftest import here
-from .worlds import east_west, hemispheres, voronoi_world
+from .worlds import east_west, hemispheres, hyp, voronoi_world
 
 R = 6371e3
 
@@ -35,13 +35,6 @@ def line(coords, Q=None):
     lon, lat = np.asarray(coords, float).T
     xyz = sphere.lonlat_to_xyz(lon, lat)
     return xyz if Q is None else xyz @ Q.T
-
-
-def hyp(*forces, **physics):
-    cfg = {"force": list(forces)}
-    if physics:
-        cfg["physics"] = physics
-    return hypothesis_from_dict(cfg)
 
 
 def test_line_force_along_a_meridian():

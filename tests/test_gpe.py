@@ -20,19 +20,11 @@ from torque.columns import ColumnModel
 from torque.continents import Continents
 from torque.errors import InputError
 from torque.grids import TopographyGrid
-from torque.hypothesis import hypothesis_from_dict
 from torque.lithosphere import Cooling, Physics
 
-from .worlds import hemispheres
+from .worlds import hemispheres, hyp
 
 R = 6371e3
-
-
-def hyp(*forces, **physics):
-    cfg = {"force": list(forces)}
-    if physics:
-        cfg["physics"] = physics
-    return hypothesis_from_dict(cfg)
 
 
 def quad(corners):

@@ -21,21 +21,13 @@ import torque
 from torque import compute_torques, sphere
 from torque.errors import InputError
 from torque.euler import MYR_S, RAD_S_PER_DEG_MYR
-from torque.hypothesis import hypothesis_from_dict
 from torque.lithosphere import Physics
 from torque.world import Boundary
 
 from .conftest import here
-from .worlds import hemispheres
+from .worlds import hemispheres, hyp
 
 R = 6371e3
-
-
-def hyp(*forces, **physics):
-    cfg = {"force": list(forces)}
-    if physics:
-        cfg["physics"] = physics
-    return hypothesis_from_dict(cfg)
 
 
 def trench_world(**props):

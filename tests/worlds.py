@@ -91,6 +91,14 @@ def east_west(boundaries=()):
 TRUE = {"slab": 0.07, "drag": 4e14, "transform": 3e20, "trench": 8e20}
 
 
+def hyp(*forces, **physics):
+    """A hypothesis of these force entries (dicts), with physics options if given."""
+    cfg = {"force": list(forces)}
+    if physics:
+        cfg["physics"] = physics
+    return hypothesis_from_dict(cfg)
+
+
 def forces(free=True):
     """Ridge push (edge, fixed), slab pull, drag, transform and trench resistance: free, or
     fixed at :data:`TRUE`."""
