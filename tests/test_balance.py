@@ -302,3 +302,63 @@ def test_small_solves_run_on_one_blas_thread():
     with balance.small_solves():
         blas = [i for i in threadpool_info() if i["user_api"] == "blas"]
     assert blas and all(i["num_threads"] == 1 for i in blas)
+
+
+def _misfit_gradient(fit, omega):
+    """d(misfit)/d(coefficient) of a velocity-space fit, by central differences of the
+    prediction (no free frame)."""
+    s = fit.system
+    W, _ = balance.misfit_whitening(s)
+    out = {}
+    for i in np.flatnonzero(s.free):
+        h = 1e-6 * max(abs(fit.values[i]), 1e-3)
+        rss = []
+        for c in (fit.values[i] - h, fit.values[i] + h):
+            v = fit.values.copy()
+            v[i] = c
+            r = W @ (balance.predict(s, v) - omega).ravel()
+            rss.append(r @ r)
+        out[s.labels[i]] = (rss[1] - rss[0]) / (2 * h)
+    return out
+
+
+def test_a_minimum_on_a_bound_is_returned_on_it_and_meets_the_kkt_conditions():
+    # Nocedal and Wright (2006), Numerical Optimization, sec. 12.3: at a bounded minimum the
+    # misfit's gradient vanishes in the free coefficients and points out of the box in the
+    # held ones. Demo truth slab 0.05 (truth.json); a lower bound of 0.06 holds it there.
+    from .conftest import demo_system
+    system, obs, _ = demo_system()
+    i = system.labels.index("slab")
+    bounds = system.bounds.copy()
+    bounds[i] = [0.06, 1.0]
+    held = dataclasses.replace(system, bounds=bounds)
+    fit = balance.fit_velocity(held, obs)
+    assert fit.values[i] == 0.06 and fit.active_bounds == ("slab",)
+    g = _misfit_gradient(fit, obs)
+    assert g["slab"] > 0                         # the misfit falls only below the bound
+    for label in ("drag_ocean", "drag_continent"):
+        # per relative change of each coefficient, against the held slab's
+        j = system.labels.index(label)
+        assert abs(g[label] * fit.values[j]) < 1e-5 * g["slab"] * 0.06
+    # started on the bound of a box whose minimum is inside, the fit leaves the bound
+    free = balance.fit_velocity(system, obs)
+    on_bound = balance.fit_velocity(system, obs, dataclasses.replace(
+        free, values=np.where(np.arange(len(free.values)) == i, 0.0, free.values)))
+    assert on_bound.active_bounds == ()
+    np.testing.assert_allclose(on_bound.values, free.values, rtol=1e-6)
+
+
+def test_a_nonlinear_term_at_its_bound_is_exactly_zero():
+    # the demo's constant-stress transforms fit to their lower bound 0 (the truth has none,
+    # truth.json): held there exactly, the balance is linear and the rest fits as without it
+    from .conftest import demo_system
+    system, obs, _ = demo_system("rate_independent")
+    fit = balance.fit_velocity(system, obs)
+    k = system.labels.index("transform")
+    assert fit.values[k] == 0.0 and "transform" in fit.active_bounds
+    v = fit.values.copy()
+    v[k] = 1e4                                   # 1e-2 of its 95 % interval's width, Pa
+    W, _ = balance.misfit_whitening(system)
+    r0 = W @ (balance.predict(system, fit.values) - obs).ravel()
+    r1 = W @ (balance.predict(system, v) - obs).ravel()
+    assert r1 @ r1 > r0 @ r0

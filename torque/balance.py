@@ -607,32 +607,107 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         w_start = np.linalg.lstsq(frame_cols, gap, rcond=None)[0]
         x_start = np.r_[x_start, w_start]
         lo, hi = np.r_[lo, [-np.inf] * 3], np.r_[hi, [np.inf] * 3]
-    res = optimize.least_squares(residual, x_start, jac=jacobian, bounds=(lo, hi),
-                                 method="trf", x_scale="jac", xtol=1e-15, ftol=1e-15,
-                                 gtol=1e-15, max_nfev=200)
-    x = res.x[:k_free] * scale
+    x_opt, nfev, status, held = _minimise_bounded(residual, jacobian, x_start, lo, hi, k_free)
+    x = x_opt[:k_free] * scale
     units = np.r_[scale, [w_scale] * (3 if free_frame else 0)]
-    rss = float(res.fun @ res.fun)
+    r_opt = residual(x_opt)
+    rss = float(r_opt @ r_opt)
     # the frame's three parameters and the three directions the data lost are the same
     # rigid rotations: count them once
     extra = max(3 if free_frame else 0, lost_dof)
-    cov_all, dof = _covariance(jacobian(res.x) / units, rss,
+    cov_all, dof = _covariance(jacobian(x_opt) / units, rss,
                                n_obs - extra + 3 * free_frame)
     cov = cov_all[:k_free, :k_free]
     values = system.full_coefficients(x)
     stderr = np.zeros(len(values))
     stderr[free] = np.sqrt(np.clip(np.diag(cov), 0, None))
     free_labels = [l for l, f in zip(system.labels, system.free) if f]
-    active = tuple(free_labels[i] for i in np.nonzero(res.active_mask[:k_free])[0])
-    info = {"evaluations": int(res.nfev), "status": int(res.status),
+    active = tuple(free_labels[i] for i in np.nonzero(held[:k_free])[0])
+    info = {"evaluations": nfev, "status": status,
             "observations": n_obs, "effective_observations": n_obs - lost_dof,
             "parameters": k_free + extra - lost_dof}
     if obs_cov is not None:
         info.update(misfit="chi-square", chi_square=rss, dof=dof, reduced_chi_square=rss / dof)
     if free_frame:
-        info["frame_rotation"] = frame(res.x)
+        info["frame_rotation"] = frame(x_opt)
         info["frame_cov"] = cov_all[k_free:, k_free:]
     return Fit(system, "velocity", values, stderr, cov, rss, dof, active, info)
+
+
+
+def _least_squares(residual, jacobian, x_init, keep, lo, hi):
+    """scipy's bounded trust-region least squares over the parameters ``keep``, the others
+    held at ``x_init``: (x, evaluations, status, at-bound mask)."""
+    if not keep.any():
+        return x_init.copy(), 1, 1, np.zeros(len(x_init), bool)
+
+    def embed(y):
+        x = x_init.copy()
+        x[keep] = y
+        return x
+    res = optimize.least_squares(lambda y: residual(embed(y)), x_init[keep],
+                                 jac=lambda y: jacobian(embed(y))[:, keep],
+                                 bounds=(lo[keep], hi[keep]), method="trf", x_scale="jac",
+                                 xtol=1e-15, ftol=1e-15, gtol=1e-15, max_nfev=200)
+    active = np.zeros(len(x_init), bool)
+    active[np.flatnonzero(keep)[res.active_mask != 0]] = True
+    return embed(res.x), int(res.nfev), int(res.status), active
+
+
+def _minimise_bounded(residual, jacobian, x_start, lo, hi, k_free):
+    """The bounded least-squares minimum, with the parameters at a bound held exactly there.
+
+    The trust-region method keeps its iterates strictly inside the bounds, so a parameter
+    whose minimum lies on a bound only approaches it, a fixed fraction of the remaining
+    distance per step: dozens of steps to reach 1e-300 of its scale, never the bound itself.
+    Instead the parameters (of the first ``k_free``) that start on a bound, or that the
+    optimiser finds at one, are held on it and the others refitted; that point is kept if it
+    satisfies the Karush-Kuhn-Tucker conditions (the misfit's gradient points out of the
+    feasible box in every held parameter; Nocedal and Wright 2006, Numerical Optimization,
+    sec. 12.3), else every parameter is fitted freely within the bounds.
+
+    Returns
+    -------
+    x : ndarray
+    evaluations, status : int
+        Residual evaluations and scipy's status of the last solve.
+    held : ndarray of bool
+        The parameters on a bound.
+    """
+    n = len(x_start)
+    coef = np.arange(n) < k_free
+
+    def kkt(x, held):
+        # d(|r|^2)/dx = 2 J^T r: >= 0 at a lower bound, <= 0 at an upper one (to rounding)
+        J, r = jacobian(x), residual(x)
+        g = J.T @ r
+        tol = 1e-10 * np.linalg.norm(J, axis=0) * np.linalg.norm(r)
+        at_lo = held & (x == lo)
+        return bool(np.all(g[at_lo] >= -tol[at_lo]) and np.all(g[held & ~at_lo]
+                                                             <= tol[held & ~at_lo]))
+
+    evaluations = 0
+    held = coef & ((x_start == lo) | (x_start == hi))
+    if held.any():
+        x, nfev, status, more = _least_squares(residual, jacobian, x_start, ~held, lo, hi)
+        evaluations += nfev
+        if not more.any() and kkt(x, held):
+            return x, evaluations, status, held
+        x_start = x
+    x, nfev, status, active = _least_squares(residual, jacobian, x_start, np.ones(n, bool),
+                                             lo, hi)
+    evaluations += nfev
+    active &= coef
+    if active.any():
+        # put the parameters the optimiser left next to a bound on it, and refit the rest
+        x_on = np.where(active & (np.abs(x - lo) <= np.abs(x - hi)), lo,
+                        np.where(active, hi, x))
+        y, nfev, status_on, more = _least_squares(residual, jacobian, x_on, ~active, lo, hi)
+        evaluations += nfev
+        r_y, r_x = residual(y), residual(x)
+        if not more.any() and kkt(y, active) and r_y @ r_y <= r_x @ r_x * (1 + 1e-12):
+            return y, evaluations, status_on, active
+    return x, evaluations, status, active
 
 
 def misfit_whitening(system: System, obs_cov=None, plates=None):
