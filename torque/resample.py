@@ -15,7 +15,8 @@ import dataclasses
 import numpy as np
 from scipy import optimize
 
-from .balance import System, fit_torque, fit_velocity, on_one_blas_thread, plate_weights
+from .balance import (System, fit_torque, fit_velocity, fit_velocity_many,
+                      on_one_blas_thread, plate_weights)
 from . import progress
 from .errors import InputError
 
@@ -50,6 +51,24 @@ def _refit(system, omega_obs, weighting, fit, start, plates=None, obs_cov=None):
         start = fit_torque(system, omega_obs, weighting)
     return fit_velocity(system, omega_obs, start, plates=plates,
                         obs_cov=obs_cov).values[system.free]
+
+
+@on_one_blas_thread
+def _refit_many(system, omega_obs, start, plates, obs_cov, desc, block=250):
+    """Velocity-space refits of many members, together (:func:`fit_velocity_many`), a
+    block at a time for the progress bar: (free coefficients (n, k), number failed)."""
+    n = len(omega_obs) if np.ndim(omega_obs) == 3 else len(plates)
+    rows = []
+    with _progress(n, desc) as bar:
+        for a in range(0, n, block):
+            part = slice(a, min(a + block, n))
+            rows.append(fit_velocity_many(
+                system, omega_obs[part] if np.ndim(omega_obs) == 3 else omega_obs, start,
+                plates=None if plates is None else plates[part], obs_cov=obs_cov))
+            bar.update(part.stop - part.start)
+    values = np.concatenate(rows)[:, system.free]
+    ok = ~np.isnan(values).any(axis=1)
+    return values[ok], int((~ok).sum())
 
 
 def _start(system, omega_obs, weighting, fit, obs_cov=None):
@@ -92,15 +111,18 @@ def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
     P = system.n_plates
     out, failed = [], 0
     start = _start(system, omega_obs, weighting, fit, obs_cov)
-    with _progress(n, "bootstrap") as bar:
-        for _ in range(n):
-            idx = rng.integers(P, size=P)
-            try:
-                out.append(_refit(system, omega_obs, weighting, fit, start, plates=idx,
-                                  obs_cov=obs_cov))
-            except InputError:       # a draw that cannot separate the coefficients
-                failed += 1
-            bar.update()
+    draws = [rng.integers(P, size=P) for _ in range(n)]
+    if fit == "velocity":
+        out, failed = _refit_many(system, omega_obs, start, draws, obs_cov, "bootstrap")
+    else:
+        with _progress(n, "bootstrap") as bar:
+            for idx in draws:
+                try:
+                    out.append(_refit(system, omega_obs, weighting, fit, start, plates=idx,
+                                      obs_cov=obs_cov))
+                except InputError:       # a draw that cannot separate the coefficients
+                    failed += 1
+                bar.update()
     extra = ({"covariance": "each plate's own block of the full covariance (a plate drawn "
                             "twice cannot keep its correlations)"}
              if obs_cov is not None and np.ndim(obs_cov) == 2 else {})
@@ -159,14 +181,8 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
         draws = omega_obs[None] + np.einsum("pij,npj->npi", L, rng.standard_normal((n, P, 3)))
     if fit != "torque":
         start = _start(system, omega_obs, weighting, fit, obs_cov)
-        out, failed = [], 0
-        with _progress(n, "Monte Carlo over motions") as bar:
-            for d in draws:
-                try:
-                    out.append(_refit(system, d, weighting, fit, start, obs_cov=obs_cov))
-                except InputError:
-                    failed += 1
-                bar.update()
+        out, failed = _refit_many(system, draws, start, None, obs_cov,
+                                  "Monte Carlo over motions")
         return _summary(system, np.array(out).reshape(-1, system.n_free), failed,
                         method="Monte Carlo over motion uncertainties", seed=seed, fit=fit)
     W = plate_weights(system, weighting)
