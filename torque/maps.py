@@ -286,6 +286,10 @@ def _line_lonlat(xyz, step_rad=np.radians(1.0)):
 def draw_boundaries(ax, world, teeth_spacing_km=700.0):
     """Draw boundaries by kind, with teeth on the overriding side of subduction zones.
 
+    Each kind's lines are projected once, together (cartopy cuts them at the map's edge
+    and, on a hemisphere, at the horizon), and drawn as one collection in the map's own
+    coordinates: matplotlib then has nothing left to project when the figure is drawn.
+
     Parameters
     ----------
     ax : cartopy GeoAxes
@@ -293,38 +297,52 @@ def draw_boundaries(ax, world, teeth_spacing_km=700.0):
     teeth_spacing_km : float
     """
     import cartopy.crs as ccrs
-    seen = set()
+    import shapely
+    from matplotlib.collections import LineCollection
+    by_kind = {}
     for b in world.boundaries:
-        st = KIND_STYLE.get(b.kind, KIND_STYLE["unclassified"])
-        lo, la = _line_lonlat(b.xyz)
-        ax.plot(lo, la, transform=ccrs.Geodetic(), color=st["color"], lw=st["lw"],
-                ls=st["ls"], label=None if b.kind in seen else b.kind, zorder=3)
-        seen.add(b.kind)
-        if b.kind == "subduction" and b.subducting:
-            _teeth(ax, world, b, teeth_spacing_km, st["color"])
+        by_kind.setdefault(b.kind, []).append(np.column_stack(_line_lonlat(b.xyz)))
+    for kind, lines in by_kind.items():
+        st = KIND_STYLE.get(kind, KIND_STYLE["unclassified"])
+        projected = ax.projection.project_geometry(shapely.MultiLineString(lines),
+                                                   ccrs.Geodetic())
+        parts = [np.asarray(g.coords) for g in getattr(projected, "geoms", [projected])
+                 if not g.is_empty]
+        ax.add_collection(LineCollection(parts, colors=st["color"], linewidths=st["lw"],
+                                         linestyles=[st["ls"]], label=kind, zorder=3,
+                                         transform=ax.transData), autolim=False)
+    subducting = [b for b in world.boundaries if b.kind == "subduction" and b.subducting]
+    if subducting:
+        _teeth(ax, world, subducting, teeth_spacing_km,
+               KIND_STYLE["subduction"]["color"])
 
 
-def _teeth(ax, world, b, spacing_km, colour):
-    """Triangles along a subduction line, pointing into the overriding plate."""
+def _teeth(ax, world, lines, spacing_km, colour):
+    """Triangles along subduction lines, pointing into the overriding plate: one
+    collection, projected once."""
     import cartopy.crs as ccrs
-    R = world.radius_m
-    pa, pb, _ = sphere.densify_arcs(b.xyz[:-1], b.xyz[1:], spacing_km * 1e3 / R)
-    n, _ = sphere.arc_pole(pa, pb)
-    mid = sphere.normalize(pa + pb)
-    t = np.cross(n, mid)
-    side = 1.0 if b.subducting == b.right else -1.0      # overriding plate's side of n
     from matplotlib.collections import PolyCollection
+    R = world.radius_m
     h, w = 260e3 / R, 150e3 / R
-    apex = sphere.normalize(mid + side * h * n)
-    left = sphere.normalize(mid - w * t)
-    right = sphere.normalize(mid + w * t)
-    lo, la = sphere.xyz_to_lonlat(np.stack([left, apex, right], axis=1))     # (N, 3)
-    keep = np.ptp(lo, axis=1) <= 180            # a tooth across the antimeridian is skipped
+    triangles = []
+    for b in lines:
+        pa, pb, _ = sphere.densify_arcs(b.xyz[:-1], b.xyz[1:], spacing_km * 1e3 / R)
+        n, _ = sphere.arc_pole(pa, pb)
+        mid = sphere.normalize(pa + pb)
+        t = np.cross(n, mid)
+        side = 1.0 if b.subducting == b.right else -1.0      # overriding plate's side of n
+        apex = sphere.normalize(mid + side * h * n)
+        triangles.append(np.stack([sphere.normalize(mid - w * t), apex,
+                                   sphere.normalize(mid + w * t)], axis=1))   # (N, 3, 3)
+    lo, la = sphere.xyz_to_lonlat(np.concatenate(triangles))                 # (N, 3)
+    xy = ax.projection.transform_points(ccrs.PlateCarree(), lo.ravel(), la.ravel())
+    xy = xy[:, :2].reshape(*lo.shape, 2)
+    # a tooth across the antimeridian, or past a hemisphere's horizon, is skipped
+    keep = (np.ptp(lo, axis=1) <= 180) & np.isfinite(xy).all(axis=(1, 2))
     if keep.any():
-        # one collection of triangles, not an artist per tooth
-        ax.add_collection(PolyCollection(np.stack([lo[keep], la[keep]], axis=-1),
-                                         transform=ccrs.PlateCarree(), facecolor=colour,
-                                         edgecolor="none", linewidth=0, zorder=4))
+        ax.add_collection(PolyCollection(xy[keep], transform=ax.transData, facecolor=colour,
+                                         edgecolor="none", linewidth=0, zorder=4),
+                          autolim=False)
 
 
 def _legend(ax, extra=()):
