@@ -607,16 +607,31 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         w_start = np.linalg.lstsq(frame_cols, gap, rcond=None)[0]
         x_start = np.r_[x_start, w_start]
         lo, hi = np.r_[lo, [-np.inf] * 3], np.r_[hi, [np.inf] * 3]
-    x_opt, nfev, status, held = _minimise_bounded(residual, jacobian, x_start, lo, hi, k_free)
-    if not held.any() and not any(coeffs(x_opt[:k_free])[k] for k, _ in system.nonlinear):
-        # the trust-region method stops where the misfit stops falling (to rounding), which
-        # leaves the coefficients up to ~1e-8 from the minimum: Gauss-Newton steps go on to
-        # where the misfit's gradient vanishes
-        x_gn, done = _velocity_gauss_newton(
+    # Gauss-Newton steps serve a linear balance started inside the bounds; the trust-region
+    # method (scipy), which keeps to the bounds, takes over where they would leave them
+    linear = all(not free[k] and fixed_c[k] == 0 for k, _ in system.nonlinear)
+
+    def gauss_newton(x):
+        x_gn, done, steps = _velocity_gauss_newton(
             system, W[None], (W @ omega_obs.ravel())[None],
-            frame_cols[None] if free_frame else None, scale, x_opt[None], lo, hi)
-        if done[0]:
-            x_opt = x_gn[0]
+            frame_cols[None] if free_frame else None, scale, x[None], lo, hi)
+        return (x_gn[0], int(steps[0])) if done[0] else (None, int(steps[0]))
+
+    inside = np.all((x_start[:k_free] > lo[:k_free]) & (x_start[:k_free] < hi[:k_free]))
+    x_opt, nfev = gauss_newton(x_start) if linear and inside else (None, 0)
+    status, held = GAUSS_NEWTON_STATUS, np.zeros(len(x_start), bool)
+    if x_opt is None:
+        x_opt, more, status, held = _minimise_bounded(residual, jacobian, x_start, lo, hi,
+                                                      k_free)
+        nfev += more
+        if linear and not held.any():
+            # the trust-region method stops where the misfit stops falling (to rounding),
+            # which leaves the coefficients up to ~1e-8 from the minimum: Gauss-Newton
+            # steps go on to where its gradient vanishes
+            x_gn, more = gauss_newton(x_opt)
+            nfev += more
+            if x_gn is not None:
+                x_opt, status = x_gn, GAUSS_NEWTON_STATUS
     x = x_opt[:k_free] * scale
     units = np.r_[scale, [w_scale] * (3 if free_frame else 0)]
     r_opt = residual(x_opt)
@@ -711,8 +726,9 @@ def fit_velocity_many(system: System, omega_obs, start: Fit, plates=None,
             m = np.arange(a, min(a + chunk, B))
             W = np.stack([misfit_whitening(system, obs_cov, draw[i])[0] for i in m])
             target = np.einsum("bij,bj->bi", W, obs[m].reshape(len(m), N))
-            x, done = _velocity_gauss_newton(system, W, target, None, scale,
-                                             np.tile(x0 / scale, (len(m), 1)), lo_s, hi_s)
+            x, done, _ = _velocity_gauss_newton(system, W, target, None, scale,
+                                                np.tile(x0 / scale, (len(m), 1)), lo_s,
+                                                hi_s)
             out[m[done]] = system.fixed
             out[m[done][:, None], np.flatnonzero(free)] = x[done] * scale
             alone[m[done]] = False
@@ -726,6 +742,9 @@ def fit_velocity_many(system: System, omega_obs, start: Fit, plates=None,
 #: Gauss-Newton stops when its step is below this fraction of every parameter's scale.
 GAUSS_NEWTON_STEP = 1e-11
 GAUSS_NEWTON_MAX_STEPS = 50
+#: ``Fit.info["status"]`` of a fit that Gauss-Newton finished (the others carry scipy's
+#: ``least_squares`` status, 1 to 4).
+GAUSS_NEWTON_STATUS = 5
 
 
 def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, hi):
@@ -760,6 +779,8 @@ def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, 
     done : ndarray of bool, shape (B,)
         Members that converged (a full step below :data:`GAUSS_NEWTON_STEP`) inside the
         bounds; the others are left where they stopped, for a bounded method to finish.
+    evaluations : ndarray of int, shape (B,)
+        Balances solved for each member.
     """
     free = system.free
     k = int(free.sum())
@@ -772,10 +793,11 @@ def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, 
         # residuals and Jacobians of members m at their points x
         C = fixed + np.zeros((len(x), 1))
         C[:, free] = x[:, :k] * scale
-        Minv = np.linalg.inv((C @ A_flat).reshape(-1, N, N))
-        w = -np.einsum("bij,bj->bi", Minv, C @ system.b)
+        M = (C @ A_flat).reshape(-1, N, N)
+        # two batched solves cost less than one batched inverse (LU against Gauss-Jordan)
+        w = -np.linalg.solve(M, (C @ system.b)[..., None])[..., 0]
         cols = np.einsum("kij,bj->bik", A_free, w) + b_free.T          # (B, N, k)
-        Jw = -np.matmul(Minv, cols) * scale
+        Jw = -np.linalg.solve(M, cols) * scale
         r = np.einsum("bij,bj->bi", W[m], w) - target[m]
         J = np.matmul(W[m], Jw)
         if frame_cols is not None:
@@ -788,10 +810,11 @@ def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, 
     done = np.zeros(B, bool)
     live = np.ones(B, bool)
     t = np.ones(B)
+    evaluations = np.ones(B, int)
     try:
         r, J = evaluate(x, np.arange(B))
     except np.linalg.LinAlgError:
-        return x, done
+        return x, done, evaluations
     rss = np.einsum("bi,bi->b", r, r)
     for _ in range(GAUSS_NEWTON_MAX_STEPS):
         idx = np.flatnonzero(live)
@@ -806,6 +829,7 @@ def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, 
             r_new, J_new = evaluate(x_new, idx)
         except np.linalg.LinAlgError:
             break
+        evaluations[idx] += 1
         outside = np.any((x_new < lo) | (x_new > hi), axis=1)
         rss_new = np.einsum("bi,bi->b", r_new, r_new)
         converged = np.abs(full).max(axis=1) <= GAUSS_NEWTON_STEP
@@ -818,7 +842,7 @@ def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, 
         done[idx[better & converged]] = True
         live[idx[(better & converged) | outside]] = False
         live[idx[t[idx] < 1e-6]] = False
-    return x, done
+    return x, done, evaluations
 
 def _least_squares(residual, jacobian, x_init, keep, lo, hi):
     """scipy's bounded trust-region least squares over the parameters ``keep``, the others

@@ -13,6 +13,7 @@ subduction zones carry teeth on the overriding plate's side, as geologists draw 
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass
 
 import numpy as np
@@ -57,6 +58,11 @@ def force_colours(labels) -> dict:
     return {l: FORCE_COLOURS[k % len(FORCE_COLOURS)] for k, l in enumerate(labels)}
 
 
+#: Dots per inch of every figure, drawn and saved alike (text measured while laying a
+#: figure out is measured once: matplotlib caches text extents per resolution).
+DPI = 110
+
+
 def _plt():
     import matplotlib
     matplotlib.use("Agg")
@@ -97,7 +103,7 @@ def label_size(n_plates: int) -> float:
 def _axes(title=None, n_plates=14):
     import cartopy.crs as ccrs
     plt = _plt()
-    fig = plt.figure(figsize=figure_size(n_plates))
+    fig = plt.figure(figsize=figure_size(n_plates), dpi=DPI)
     ax = fig.add_subplot(1, 1, 1, projection=ccrs.EqualEarth())
     ax.set_global()
     if title:
@@ -115,14 +121,16 @@ def caption(fig, text: str) -> None:
     """
     for a in fig.axes:                      # the maps' aspect, before measuring
         a.apply_aspect()
-    renderer = fig.canvas.get_renderer()
-    inv = fig.transFigure.inverted()
-    # below everything drawn: axes with their tick labels, and legends
-    boxes = [a.get_tightbbox(renderer) for a in fig.axes]
-    boxes += [l.get_window_extent(renderer) for l in fig.legends]
-    bottom = min(inv.transform((0, b.y0))[1] for b in boxes if b is not None)
-    fig.text(0.5, bottom - 0.02, text, ha="center", va="top", fontsize=7.5,
-             style="italic", wrap=True)
+    # below everything drawn (axes with their tick labels, legends, texts); the box is kept
+    # for saving, which then measures only the caption
+    box = fig.get_tightbbox(fig.canvas.get_renderer())                 # inches
+    t = fig.text(0.5, box.y0 / fig.get_figheight() - 0.02, text, ha="center", va="top",
+                 fontsize=7.5, style="italic", wrap=True)
+    _MEASURED[fig] = (box, t)
+
+
+#: Figures with a caption: the tight box of what was drawn before it, and the caption.
+_MEASURED = weakref.WeakKeyDictionary()
 
 
 def place_labels(ax, lon, lat, names, fontsize=8.0, priority=None, obstacles=None):
@@ -356,8 +364,19 @@ def _legend(ax, extra=()):
 def _save(fig, path):
     plt = _plt()
     from .io.files import atomic_path
+    # the tight box of what is drawn, measured here: savefig's own "tight" would first draw
+    # the whole figure once more without output to measure it
+    renderer = fig.canvas.get_renderer()
+    if fig in _MEASURED:
+        from matplotlib.transforms import Bbox
+        drawn, text = _MEASURED.pop(fig)
+        box = Bbox.union([drawn, text.get_window_extent(renderer).transformed(
+            fig.dpi_scale_trans.inverted())])
+    else:
+        box = fig.get_tightbbox(renderer)
+    box = box.padded(plt.rcParams["savefig.pad_inches"])
     with atomic_path(path) as tmp:
-        fig.savefig(tmp, dpi=110, bbox_inches="tight", format=str(path).rsplit(".", 1)[-1])
+        fig.savefig(tmp, dpi=DPI, bbox_inches=box, format=str(path).rsplit(".", 1)[-1])
     plt.close(fig)
     return path
 
@@ -493,7 +512,7 @@ def poles_map(world, path, fit):
     ncol = min(7, max(len(plates), 1))
     nrow = -(-len(plates) // ncol)
     width, height = figure_size(len(plates))
-    fig = plt.figure(figsize=(width, height + 1.6 * nrow))
+    fig = plt.figure(figsize=(width, height + 1.6 * nrow), dpi=DPI)
     grid = fig.add_gridspec(1 + nrow, ncol, height_ratios=[6] + [1.6] * nrow, hspace=0.3,
                             wspace=0.35)
     ax = fig.add_subplot(grid[0, :], projection=ccrs.EqualEarth())
@@ -575,6 +594,9 @@ def _pole_zoom(ax, plate, styles):
     ax.set_ylim(-extent, extent)
     ax.set_aspect("equal")
     ax.set_title(plate["plate"], fontsize=7, pad=2)
+    from matplotlib.ticker import MaxNLocator
+    for axis in (ax.xaxis, ax.yaxis):           # three ticks a side: -a, 0, a
+        axis.set_major_locator(MaxNLocator(2, symmetric=True))
     ax.tick_params(labelsize=5, length=2, pad=1)
 
 
@@ -631,7 +653,7 @@ def budget_chart(path, fit):
     plt = _plt()
     plates = [p["plate"] for p in fit.plates]
     labels = list(fit.coefficients)
-    fig, ax = plt.subplots(figsize=(9, 0.35 * len(plates) + 1.5))
+    fig, ax = plt.subplots(figsize=(9, 0.35 * len(plates) + 1.5), dpi=DPI)
     left_pos = np.zeros(len(plates))
     left_neg = np.zeros(len(plates))
     cols = force_colours(labels)
@@ -670,7 +692,7 @@ def torque_chart(path, world, terms, coefficients, omega):
     """
     plt = _plt()
     P = len(world.plates)
-    fig, ax = plt.subplots(figsize=(max(8, 0.6 * P), 4.5))
+    fig, ax = plt.subplots(figsize=(max(8, 0.6 * P), 4.5), dpi=DPI)
     width = 0.8 / len(terms)
     cols = force_colours([t.label for t in terms])
     from .torque_table import TorqueTable
@@ -726,7 +748,7 @@ def torque_globe(path, world, terms, coefficients, omega):
     cols = force_colours(table.labels)
     longest = float(np.max(np.linalg.norm(arrow, axis=-1))) or 1.0
     key = float(f"{longest / 2:.0g}") or longest / 2
-    fig = plt.figure(figsize=(13, 6.8))
+    fig = plt.figure(figsize=(13, 6.8), dpi=DPI)
     for i, centre in enumerate((0.0, 180.0)):
         ax = fig.add_subplot(1, 2, i + 1, projection=ccrs.Orthographic(centre, 0.0))
         ax.set_global()

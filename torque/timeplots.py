@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .maps import _plt, _save, caption, force_colours
+from .maps import DPI, _plt, _save, caption, force_colours
 
 
 def default_plates(result, n: int = 4) -> list:
@@ -32,7 +32,7 @@ def _panels(plates):
     cols = min(n, 2)
     rows = int(np.ceil(n / cols))
     fig, axes = plt.subplots(rows, cols, figsize=(5.2 * cols, 3.2 * rows), squeeze=False,
-                             sharex=True)
+                             sharex=True, dpi=DPI)
     for ax in axes.ravel()[n:]:
         ax.set_visible(False)
     return fig, axes.ravel()[:n]

@@ -14,6 +14,7 @@ one message on stderr and exit status 2.
 from __future__ import annotations
 
 import argparse
+import functools
 import os
 import signal
 import sys
@@ -56,6 +57,12 @@ def _terminate(signum, frame):
     raise SystemExit(128 + signum)
 
 
+@functools.lru_cache(maxsize=1)
+def _parser() -> Parser:
+    # built once per process: parsing leaves it as it was (the demo runs 17 commands)
+    return build_parser()
+
+
 def main(argv=None, *, preloaded=None) -> int:
     """Run the ``torque`` command; returns the exit status.
 
@@ -74,7 +81,7 @@ def main(argv=None, *, preloaded=None) -> int:
         and what is wrong; 141 (quietly) when the reader of standard output goes away
         (``torque cooling --json | head``). SIGTERM removes partly written outputs.
     """
-    parser = build_parser()
+    parser = _parser()
     argv = list(sys.argv[1:] if argv is None else argv)
     args = parser.parse_args(argv)
     args.preloaded = preloaded

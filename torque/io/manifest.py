@@ -36,6 +36,13 @@ def sha256(path) -> str:
     str
         64 hexadecimal digits.
     """
+    st = Path(path).stat()
+    return _sha256(str(Path(path).resolve()), st.st_size, st.st_mtime_ns)
+
+
+@functools.lru_cache(maxsize=256)
+def _sha256(path, size, mtime_ns):
+    # keyed by size and modification time too: a file changed since is read again
     h = hashlib.sha256()
     with open(path, "rb") as fh:
         for block in iter(lambda: fh.read(1 << 20), b""):
@@ -61,7 +68,9 @@ def _commit():
     return rev + ("-dirty" if dirty else "")
 
 
+@functools.lru_cache(maxsize=None)
 def _version(name):
+    # the versions imported into this process do not change while it runs
     try:
         return importlib.metadata.version(name)
     except importlib.metadata.PackageNotFoundError:
