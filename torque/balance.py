@@ -609,29 +609,28 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         lo, hi = np.r_[lo, [-np.inf] * 3], np.r_[hi, [np.inf] * 3]
     # Gauss-Newton steps serve a linear balance started inside the bounds; the trust-region
     # method (scipy), which keeps to the bounds, takes over where they would leave them
-    linear = all(not free[k] and fixed_c[k] == 0 for k, _ in system.nonlinear)
+    position = {k: i for i, k in enumerate(np.flatnonzero(free))}
 
-    def gauss_newton(x):
+    def gauss_newton(x, keep=None):
+        """Gauss-Newton over the parameters ``keep`` (default all), the others held:
+        (x, evaluations), x None where it does not apply or converge."""
+        keep = np.ones(len(x), bool) if keep is None else keep
+        # linear: every nonlinear part's coefficient fixed or held at 0
+        if not all(x[position[k]] == 0 and not keep[position[k]] if free[k]
+                   else fixed_c[k] == 0 for k, _ in system.nonlinear):
+            return None, 0
         x_gn, done, steps = _velocity_gauss_newton(
             system, W[None], (W @ omega_obs.ravel())[None],
-            frame_cols[None] if free_frame else None, scale, x[None], lo, hi)
+            frame_cols[None] if free_frame else None, scale, x[None], lo, hi, keep)
         return (x_gn[0], int(steps[0])) if done[0] else (None, int(steps[0]))
 
     inside = np.all((x_start[:k_free] > lo[:k_free]) & (x_start[:k_free] < hi[:k_free]))
-    x_opt, nfev = gauss_newton(x_start) if linear and inside else (None, 0)
+    x_opt, nfev = gauss_newton(x_start) if inside else (None, 0)
     status, held = GAUSS_NEWTON_STATUS, np.zeros(len(x_start), bool)
     if x_opt is None:
         x_opt, more, status, held = _minimise_bounded(residual, jacobian, x_start, lo, hi,
-                                                      k_free)
+                                                      k_free, gauss_newton)
         nfev += more
-        if linear and not held.any():
-            # the trust-region method stops where the misfit stops falling (to rounding),
-            # which leaves the coefficients up to ~1e-8 from the minimum: Gauss-Newton
-            # steps go on to where its gradient vanishes
-            x_gn, more = gauss_newton(x_opt)
-            nfev += more
-            if x_gn is not None:
-                x_opt, status = x_gn, GAUSS_NEWTON_STATUS
     x = x_opt[:k_free] * scale
     units = np.r_[scale, [w_scale] * (3 if free_frame else 0)]
     r_opt = residual(x_opt)
@@ -747,7 +746,8 @@ GAUSS_NEWTON_MAX_STEPS = 50
 GAUSS_NEWTON_STATUS = 5
 
 
-def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, hi):
+def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, hi,
+                           keep=None):
     """Gauss-Newton on many velocity-space misfits of one linear balance at once.
 
     Member ``m`` minimises ``|W_m w(c) + F_m f - t_m|^2`` over its coefficients
@@ -772,6 +772,8 @@ def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, 
         Starting points, in units of ``scale``.
     lo, hi : ndarray, shape (k,) or (k + 3,)
         Bounds in the same units.
+    keep : ndarray of bool, shape like ``lo``, optional
+        The parameters fitted (default all); the others stay at their starting values.
 
     Returns
     -------
@@ -806,7 +808,8 @@ def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, 
         return r, J
 
     x = np.array(x, float)
-    B = len(x)
+    B, n = x.shape
+    keep = np.ones(n, bool) if keep is None else np.asarray(keep, bool)
     done = np.zeros(B, bool)
     live = np.ones(B, bool)
     t = np.ones(B)
@@ -820,10 +823,11 @@ def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, 
         idx = np.flatnonzero(live)
         if not len(idx):
             break
-        Ji, ri = J[idx], r[idx]
+        Ji, ri = J[idx][:, :, keep], r[idx]
         try:
-            full = -np.linalg.solve(np.einsum("bik,bil->bkl", Ji, Ji),
-                                    np.einsum("bik,bi->bk", Ji, ri)[..., None])[..., 0]
+            full = np.zeros((len(idx), n))
+            full[:, keep] = -np.linalg.solve(np.einsum("bik,bil->bkl", Ji, Ji),
+                                             np.einsum("bik,bi->bk", Ji, ri)[..., None])[..., 0]
             step = full * t[idx, None]
             x_new = x[idx] + step
             r_new, J_new = evaluate(x_new, idx)
@@ -863,7 +867,7 @@ def _least_squares(residual, jacobian, x_init, keep, lo, hi):
     return embed(res.x), int(res.nfev), int(res.status), active
 
 
-def _minimise_bounded(residual, jacobian, x_start, lo, hi, k_free):
+def _minimise_bounded(residual, jacobian, x_start, lo, hi, k_free, gauss_newton):
     """The bounded least-squares minimum, with the parameters at a bound held exactly there.
 
     The trust-region method keeps its iterates strictly inside the bounds, so a parameter
@@ -874,6 +878,12 @@ def _minimise_bounded(residual, jacobian, x_start, lo, hi, k_free):
     satisfies the Karush-Kuhn-Tucker conditions (the misfit's gradient points out of the
     feasible box in every held parameter; Nocedal and Wright 2006, Numerical Optimization,
     sec. 12.3), else every parameter is fitted freely within the bounds.
+
+    ``gauss_newton(x, keep)`` (x, evaluations) fits the parameters ``keep`` from ``x`` by
+    Gauss-Newton, or returns x None where it does not apply (a nonlinear balance) or does
+    not converge inside the bounds; it is tried before the trust-region method on each
+    subproblem, and after it to go on from where the misfit stops falling (to rounding,
+    up to ~1e-8 from the minimum) to where its gradient vanishes.
 
     Returns
     -------
@@ -896,23 +906,36 @@ def _minimise_bounded(residual, jacobian, x_start, lo, hi, k_free):
                                                              <= tol[held & ~at_lo]))
 
     evaluations = 0
+
+    def fit(x_init, keep):
+        # Gauss-Newton where it serves, else the trust-region method and then Gauss-Newton
+        nonlocal evaluations
+        x, nfev = gauss_newton(x_init, keep)
+        evaluations += nfev
+        if x is not None:
+            return x, GAUSS_NEWTON_STATUS, np.zeros(n, bool)
+        x, nfev, status, active = _least_squares(residual, jacobian, x_init, keep, lo, hi)
+        evaluations += nfev
+        if not (active & coef).any():
+            y, nfev = gauss_newton(x, keep)
+            evaluations += nfev
+            if y is not None:
+                return y, GAUSS_NEWTON_STATUS, active
+        return x, status, active
+
     held = coef & ((x_start == lo) | (x_start == hi))
     if held.any():
-        x, nfev, status, more = _least_squares(residual, jacobian, x_start, ~held, lo, hi)
-        evaluations += nfev
+        x, status, more = fit(x_start, ~held)
         if not more.any() and kkt(x, held):
             return x, evaluations, status, held
         x_start = x
-    x, nfev, status, active = _least_squares(residual, jacobian, x_start, np.ones(n, bool),
-                                             lo, hi)
-    evaluations += nfev
+    x, status, active = fit(x_start, np.ones(n, bool))
     active &= coef
     if active.any():
         # put the parameters the optimiser left next to a bound on it, and refit the rest
         x_on = np.where(active & (np.abs(x - lo) <= np.abs(x - hi)), lo,
                         np.where(active, hi, x))
-        y, nfev, status_on, more = _least_squares(residual, jacobian, x_on, ~active, lo, hi)
-        evaluations += nfev
+        y, status_on, more = fit(x_on, ~active)
         r_y, r_x = residual(y), residual(x)
         if not more.any() and kkt(y, active) and r_y @ r_y <= r_x @ r_x * (1 + 1e-12):
             return y, evaluations, status_on, active
