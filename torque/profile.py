@@ -124,10 +124,16 @@ def profile_intervals(fit, omega_obs, free_frame: bool = False, obs_cov=None,
         lo, hi = (float(b) for b in system.bounds[i])
         step = se if se > 0 else max(abs(value), 1e-300) * 0.1
 
-        def excess(c):
-            return _misfit_at(fixed_at(system, label, c), omega_obs, free_frame, obs_cov,
-                              fit) - threshold
+        seen = {}
 
+        def excess(c):
+            # brentq evaluates its bracket's ends again: each refit is made once
+            if c not in seen:
+                seen[c] = _misfit_at(fixed_at(system, label, c), omega_obs, free_frame,
+                                     obs_cov, fit) - threshold
+            return seen[c]
+
+        seen[value] = fit.rss - threshold           # the estimate itself
         tol = 1e-9 * max(abs(value), 1.0)
         ends = {}
         for side, bound in (("low", lo), ("high", hi)):

@@ -29,7 +29,6 @@ import dataclasses
 from pathlib import Path
 
 import numpy as np
-from scipy.spatial import SphericalVoronoi
 
 from .. import sphere
 from ..balance import assemble, predict
@@ -157,6 +156,7 @@ def voronoi_regions(gen: np.ndarray):
     sv : scipy.spatial.SphericalVoronoi
     regions : list of list of int
     """
+    from scipy.spatial import SphericalVoronoi      # only when a world is generated
     sv = SphericalVoronoi(gen)
     sv.sort_vertices_of_regions()
     regions = []
