@@ -59,16 +59,18 @@ def fixed_at(system: System, label: str, value: float) -> System:
 
 
 def _misfit_at(system, omega_obs, free_frame, obs_cov, start):
-    """The least misfit of ``system`` over its free coefficients (and the frame)."""
+    """The least misfit of ``system`` over its free coefficients (and the frame), and the
+    refit (None when nothing is left free)."""
     if system.free.any():
-        return fit_velocity(system, omega_obs, start, free_frame, obs_cov=obs_cov).rss
+        refit = fit_velocity(system, omega_obs, start, free_frame, obs_cov=obs_cov)
+        return refit.rss, refit
     # nothing left free: the prediction is fixed; the frame, if free, enters linearly
     W, _ = misfit_whitening(system, obs_cov)
     r = W @ (predict(system, system.fixed) - omega_obs).ravel()
     if free_frame:
         F = W @ np.tile(np.eye(3), (system.n_plates, 1))
         r = r - F @ np.linalg.lstsq(F, r, rcond=None)[0]
-    return float(r @ r)
+    return float(r @ r), None
 
 
 @on_one_blas_thread
@@ -124,13 +126,18 @@ def profile_intervals(fit, omega_obs, free_frame: bool = False, obs_cov=None,
         lo, hi = (float(b) for b in system.bounds[i])
         step = se if se > 0 else max(abs(value), 1e-300) * 0.1
 
-        seen = {}
+        seen, refits = {}, {}
 
         def excess(c):
-            # brentq evaluates its bracket's ends again: each refit is made once
+            # brentq evaluates its bracket's ends again: each refit is made once, started
+            # from the refit nearest to it (the coefficients move little between them)
             if c not in seen:
-                seen[c] = _misfit_at(fixed_at(system, label, c), omega_obs, free_frame,
-                                     obs_cov, fit) - threshold
+                near = min(refits, key=lambda b: abs(b - c), default=None)
+                rss, refit = _misfit_at(fixed_at(system, label, c), omega_obs, free_frame,
+                                        obs_cov, fit if near is None else refits[near])
+                seen[c] = rss - threshold
+                if refit is not None:
+                    refits[c] = refit
             return seen[c]
 
         seen[value] = fit.rss - threshold           # the estimate itself

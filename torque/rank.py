@@ -45,7 +45,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import progress
-from .balance import System, fit_torque, fit_velocity, on_one_blas_thread, predict
+from .balance import (System, fit_torque, fit_velocity, fit_velocity_many, on_one_blas_thread,
+                      predict)
 from .diagnostics import analyse, f_test, likelihood_ratio_test, velocity_misfit
 from .errors import InputError
 from .tabular import html_table
@@ -161,24 +162,24 @@ def cross_validation_errors(system: System, omega_obs, weighting="velocity",
         NaN everywhere if a refit fails.
     """
     P = system.n_plates
-    out = np.empty(P)
-    start = None
-    for p in range(P):
-        keep = np.r_[0:p, p + 1:P]
-        try:
-            left_out = fit_torque(system, omega_obs, weighting, plates=keep)
-            if fit == "velocity":
-                if start is None:
-                    start = fit_velocity(system, omega_obs,
-                                         fit_torque(system, omega_obs, weighting),
-                                         obs_cov=obs_cov)
-                left_out = fit_velocity(system, omega_obs, start, plates=keep,
-                                        obs_cov=obs_cov)
-            pred = predict(system, left_out.values)
-        except InputError:
-            return np.full(P, np.nan)
-        rms, _ = velocity_misfit(system, pred, omega_obs)
-        out[p] = rms[p] ** 2
+    keeps = [np.r_[0:p, p + 1:P] for p in range(P)]
+    try:
+        # the torque-space refits, which also refuse what the data cannot separate
+        values = np.array([fit_torque(system, omega_obs, weighting, plates=k).values
+                           for k in keeps])
+        if fit == "velocity":
+            start = fit_velocity(system, omega_obs, fit_torque(system, omega_obs, weighting),
+                                 obs_cov=obs_cov)
+            values = fit_velocity_many(system, omega_obs, start, plates=keeps,
+                                       obs_cov=obs_cov)
+            if np.isnan(values).any():
+                return np.full(P, np.nan)
+        out = np.empty(P)
+        for p in range(P):
+            rms, _ = velocity_misfit(system, predict(system, values[p]), omega_obs)
+            out[p] = rms[p] ** 2
+    except InputError:
+        return np.full(P, np.nan)
     return out
 
 
