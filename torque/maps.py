@@ -599,9 +599,9 @@ def poles_map(world, path, fit):
         Line2D([], [], marker="^", ls="", color=PREDICTED_COLOUR, label="predicted pole"),
         Line2D([], [], color=PREDICTED_COLOUR, label=f"its 95 % ellipse ({what})")],
         loc="upper center", bbox_to_anchor=(0.5, -0.01), ncol=4, fontsize=7, frameon=False)
-    caption(fig, "Poles of observed and predicted Euler vectors in the frame where the mantle "
-            "is at rest; below, each plate's poles zoomed (degrees of arc east and north of "
-            "their midpoint).")
+    caption(fig, "Observed and predicted Euler poles in the frame where the mantle is at "
+            "rest; below, each plate's poles zoomed (north up; corner: the box's half-width "
+            "in degrees).")
     return _save(fig, path)
 
 
@@ -641,10 +641,13 @@ def _pole_zoom(ax, plate, styles):
     ax.set_ylim(-extent, extent)
     ax.set_aspect("equal")
     ax.set_title(plate["plate"], fontsize=7, pad=2)
-    from matplotlib.ticker import MaxNLocator
-    for axis in (ax.xaxis, ax.yaxis):           # three ticks a side: -a, 0, a
-        axis.set_major_locator(MaxNLocator(2, symmetric=True))
-    ax.tick_params(labelsize=5, length=2, pad=1)
+    # the box's half-width instead of tick labels on every panel; a cross at the midpoint
+    ax.set_xticks([])
+    ax.set_yticks([])
+    ax.plot([-0.06 * extent, 0.06 * extent], [0, 0], color="#888888", lw=0.6)
+    ax.plot([0, 0], [-0.06 * extent, 0.06 * extent], color="#888888", lw=0.6)
+    ax.text(0.04, 0.04, f"\u00b1{extent:.2g}\u00b0", transform=ax.transAxes, fontsize=5.5,
+            color="#444444", ha="left", va="bottom")
 
 
 def misfit_map(world, path, omega_obs, omega_pred):
