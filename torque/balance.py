@@ -618,7 +618,7 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         # linear: every nonlinear part's coefficient fixed or held at 0
         if not all(x[position[k]] == 0 and not keep[position[k]] if free[k]
                    else fixed_c[k] == 0 for k, _ in system.nonlinear):
-            return None, 0
+            return _gauss_newton(residual, jacobian, x, keep, lo, hi)
         x_gn, done, steps = _velocity_gauss_newton(
             system, W[None], (W @ omega_obs.ravel())[None],
             frame_cols[None] if free_frame else None, scale, x[None], lo, hi, keep)
@@ -847,6 +847,37 @@ def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, 
         live[idx[(better & converged) | outside]] = False
         live[idx[t[idx] < 1e-6]] = False
     return x, done, evaluations
+
+def _gauss_newton(residual, jacobian, x, keep, lo, hi):
+    """Gauss-Newton on one misfit given by its residual and Jacobian functions (a nonlinear
+    balance, solved by Newton's method at each point): the parameters ``keep`` from ``x``,
+    the others held. (x, evaluations), x None where a step would leave the bounds or it
+    does not converge (a full step below :data:`GAUSS_NEWTON_STEP`)."""
+    x = np.array(x, float)
+    r = residual(x)
+    rss, evaluations, t = float(r @ r), 1, 1.0
+    J = jacobian(x)[:, keep]
+    for _ in range(GAUSS_NEWTON_MAX_STEPS):
+        full = np.zeros(len(x))
+        full[keep] = np.linalg.lstsq(J, -r, rcond=None)[0]
+        step = t * full
+        x_new = x + step
+        if np.any((x_new < lo) | (x_new > hi)):
+            return None, evaluations
+        r_new = residual(x_new)
+        evaluations += 1
+        rss_new = float(r_new @ r_new)
+        # near the minimum the misfit changes below its rounding: take the step there
+        if rss_new <= rss or np.abs(step).max() <= 1e-6:
+            x, r, rss, t = x_new, r_new, rss_new, 1.0
+            if np.abs(full).max() <= GAUSS_NEWTON_STEP:
+                return x, evaluations
+            J = jacobian(x)[:, keep]
+        else:
+            t /= 2
+            if t < 1e-6:
+                break
+    return None, evaluations
 
 def _least_squares(residual, jacobian, x_init, keep, lo, hi):
     """scipy's bounded trust-region least squares over the parameters ``keep``, the others
