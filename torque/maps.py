@@ -275,8 +275,8 @@ def _grid_image(ax, step, values, **imshow):
     """
     proj = ax.projection
     fig = ax.figure
-    # about one image pixel per screen pixel, on a grid shared by maps of the same size
-    nx = max(100, 100 * round(ax.get_position().width * fig.get_figwidth() * DPI / 100))
+    # about one image pixel per screen pixel, on a grid shared by maps of about one size
+    nx = max(200, 200 * round(ax.get_position().width * fig.get_figwidth() * DPI / 200))
     lon, lat, inside = _pixel_lonlat(proj, nx)
     rows, cols = values.shape
     i = np.clip(((lat + 90.0) / step).astype(np.intp, casting="unsafe"), 0, rows - 1)
@@ -751,6 +751,10 @@ def torque_chart(path, world, terms, coefficients, omega):
                label=t.label, color=cols[t.label])
     ax.set_yscale("log")
     ax.set_ylim(top * 1e-4, top * 3)
+    # plain numbers (0.01, 0.1, 1, 10) rather than typeset powers of ten: the unit says 10^25
+    from matplotlib.ticker import FuncFormatter, NullFormatter
+    ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+    ax.yaxis.set_minor_formatter(NullFormatter())
     ax.set_xticks(np.arange(P) + 0.4 - width / 2)
     ax.set_xticklabels(world.plate_names, rotation=45, ha="right", fontsize=8)
     ax.set_ylabel("|torque| (10^25 N m)")
