@@ -121,6 +121,15 @@ class System:
     def n_free(self) -> int:
         return int(self.free.sum())
 
+    @functools.cached_property
+    def block_diagonal(self) -> bool:
+        """Whether each plate's torques depend on its own motion alone (drag and mantle
+        terms, no resistance between plates): the balance then splits into one 3x3
+        system per plate."""
+        P = self.n_plates
+        between = np.kron(~np.eye(P, dtype=bool), np.ones((3, 3), dtype=bool))
+        return not np.any(self.A[:, between])
+
     def columns(self, omega) -> np.ndarray:
         """Torque of every term at coefficient 1 for motions ``omega`` (P, 3): (3P, K).
 
@@ -791,15 +800,26 @@ def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, 
     A_free, b_free = system.A[free], system.b[free]
     fixed = np.where(free, 0.0, system.fixed)
 
+    P = N // 3
+    if system.block_diagonal:
+        # each plate balances on its own: (K, P * 9), one 3x3 block per plate
+        A_flat = system.A.reshape(K, P, 3, P, 3)[:, np.arange(P), :, np.arange(P), :]
+        A_flat = A_flat.transpose(1, 0, 2, 3).reshape(K, P * 9)
+
+    def solve(C, rhs):
+        # two batched solves cost less than one batched inverse (LU against Gauss-Jordan)
+        if system.block_diagonal:
+            M = (C @ A_flat).reshape(-1, P, 3, 3)
+            return np.linalg.solve(M, rhs.reshape(len(C), P, 3, -1)).reshape(rhs.shape)
+        return np.linalg.solve((C @ A_flat).reshape(-1, N, N), rhs)
+
     def evaluate(x, m):
         # residuals and Jacobians of members m at their points x
         C = fixed + np.zeros((len(x), 1))
         C[:, free] = x[:, :k] * scale
-        M = (C @ A_flat).reshape(-1, N, N)
-        # two batched solves cost less than one batched inverse (LU against Gauss-Jordan)
-        w = -np.linalg.solve(M, (C @ system.b)[..., None])[..., 0]
+        w = -solve(C, (C @ system.b)[..., None])[..., 0]
         cols = np.einsum("kij,bj->bik", A_free, w) + b_free.T          # (B, N, k)
-        Jw = -np.linalg.solve(M, cols) * scale
+        Jw = -solve(C, cols) * scale
         r = np.einsum("bij,bj->bi", W[m], w) - target[m]
         J = np.matmul(W[m], Jw)
         if frame_cols is not None:
