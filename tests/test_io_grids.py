@@ -280,3 +280,28 @@ def test_continents_from_the_age_grids_no_data_nodes(tmp_path, cli):
     (tmp_path / "w2.toml").write_text('plates = "plates.geojson"\ncontinents = "from-ages"\n')
     status, out, err = cli("check", tmp_path / "w2.toml")
     assert status == 2 and "needs an age grid" in err
+
+
+@pytest.mark.parametrize("on_grid", [True, False])
+def test_the_field_file_opens_in_xarray_as_the_field_dataset(tmp_path, on_grid):
+    # the reference is xarray itself: the file written through h5netcdf directly reads back
+    # identical (values, dimensions, coordinates, attributes) to the Dataset the library
+    # builds, on a grid and at scattered points
+    import xarray as xr
+    from torque.euler import grid_lonlat, velocity_field
+    from torque.io import field_dataset, load_world, read_motions, write_field
+    from .conftest import here
+    demo = here().parent / "polygons_demo"
+    world = load_world(demo / "world.toml")
+    omega = read_motions(demo / "motions.csv").for_world(world)
+    if on_grid:
+        glon, glat = grid_lonlat(10.0)
+        LON, LAT = np.meshgrid(glon, glat)
+        lon, lat, grid = LON.ravel(), LAT.ravel(), (glon, glat)
+    else:
+        lon, lat, grid = np.array([-170.0, 3.5, 120.0]), np.array([-60.0, 0.0, 45.0]), None
+    plate, ve, vn = velocity_field(world, omega, lon, lat)
+    write_field(tmp_path / "f.nc", world, lon, lat, plate, ve, vn, grid)
+    with xr.open_dataset(tmp_path / "f.nc") as got:
+        xr.testing.assert_identical(got.load(), field_dataset(world, lon, lat, plate, ve, vn,
+                                                             grid))

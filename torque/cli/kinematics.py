@@ -121,8 +121,7 @@ def run_field(args) -> int:
         The exit status (0).
     """
     from ..euler import grid_lonlat, speed_azimuth, velocity_field
-    from ..io import (field_dataset, output_suffix, read_points, write_csv, write_netcdf,
-                      write_points_geojson)
+    from ..io import output_suffix, read_points, write_csv, write_field, write_points_geojson
     suffix = output_suffix(args.output, FIELD_SUFFIXES)
     world = inputs(args).world
     _, omega = motions_for(args.motions, world)
@@ -149,7 +148,7 @@ def run_field(args) -> int:
             "plate": names, "ve_mm_yr": ve, "vn_mm_yr": vn, "speed_mm_yr": speed,
             "azimuth_deg": azimuth})
     else:
-        write_netcdf(args.output, field_dataset(world, lon, lat, plate, ve, vn, grid))
+        write_field(args.output, world, lon, lat, plate, ve, vn, grid)
     print(f"velocity at {len(lon):,} points: speed {speed.min():.2f} to {speed.max():.2f} "
           f"mm/yr, mean {speed.mean():.2f} mm/yr; wrote {args.output}")
     return EXIT_OK

@@ -30,7 +30,8 @@ _EXPORTS = {
     "read_plates": "geojson", "write_boundaries_geojson": "geojson",
     "write_feature_collection": "geojson", "write_points_geojson": "geojson",
     "field_dataset": "grids", "read_ages": "grids", "read_flow": "grids",
-    "write_age_grid": "grids", "write_netcdf": "grids", "hypothesis_toml": "hypothesis",
+    "write_age_grid": "grids", "write_field": "grids", "write_netcdf": "grids",
+    "hypothesis_toml": "hypothesis",
     "load_hypothesis": "hypothesis", "write_hypothesis": "hypothesis", "Inputs": "inputs",
     "check_world": "inputs", "compute_torques": "inputs", "read_covariance": "motions",
     "read_motions": "motions", "write_covariance": "motions", "write_motions": "motions",
@@ -43,10 +44,10 @@ _EXPORTS = {
 __getattr__, __dir__ = lazy_exports(__name__, globals(), _EXPORTS)
 
 __all__ = ["Inputs", "Table", "atomic_path", "atomic_write", "check_world", "compute_torques",
-           "dumps",
-           "field_dataset", "hypothesis_toml", "load_hypothesis", "load_world",
-           "output_suffix", "read_ages", "read_boundaries", "read_coefficients",
-           "read_continents", "read_covariance", "read_flow", "read_fit", "read_motions", "read_plates",
+           "dumps", "field_dataset", "hypothesis_toml", "load_hypothesis", "load_world",
+           "output_suffix", "read_ages", "read_boundaries", "read_coefficients", "read_continents",
+           "read_covariance", "read_fit", "read_flow", "read_motions", "read_plates",
            "read_points", "read_table", "read_toml", "world_from_rings", "write_age_grid",
-           "write_boundaries_geojson", "write_covariance", "write_csv", "write_feature_collection", "write_hypothesis", "write_json",
-           "write_motions", "write_netcdf", "write_points_geojson", "write_world_file"]
+           "write_boundaries_geojson", "write_covariance", "write_csv", "write_feature_collection",
+           "write_field", "write_hypothesis", "write_json", "write_motions", "write_netcdf",
+           "write_points_geojson", "write_world_file"]
