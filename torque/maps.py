@@ -275,8 +275,9 @@ def _grid_image(ax, step, values, **imshow):
     """
     proj = ax.projection
     fig = ax.figure
-    # about one image pixel per screen pixel, on a grid shared by maps of about one size
-    nx = max(200, 200 * round(ax.get_position().width * fig.get_figwidth() * DPI / 200))
+    # about one image pixel per screen pixel (the cells are several pixels wide), on a grid
+    # that maps of about one size share
+    nx = max(400, 400 * round(ax.get_position().width * fig.get_figwidth() * DPI / 400))
     lon, lat, inside = _pixel_lonlat(proj, nx)
     rows, cols = values.shape
     i = np.clip(((lat + 90.0) / step).astype(np.intp, casting="unsafe"), 0, rows - 1)
@@ -350,18 +351,9 @@ def draw_boundaries(ax, world, teeth_spacing_km=700.0):
     world : World
     teeth_spacing_km : float
     """
-    import cartopy.crs as ccrs
-    import shapely
     from matplotlib.collections import LineCollection
-    by_kind = {}
-    for b in world.boundaries:
-        by_kind.setdefault(b.kind, []).append(np.column_stack(_line_lonlat(b.xyz)))
-    for kind, lines in by_kind.items():
+    for kind, parts in _projected_boundaries(world, ax.projection).items():
         st = KIND_STYLE.get(kind, KIND_STYLE["unclassified"])
-        projected = ax.projection.project_geometry(shapely.MultiLineString(lines),
-                                                   ccrs.Geodetic())
-        parts = [np.asarray(g.coords) for g in getattr(projected, "geoms", [projected])
-                 if not g.is_empty]
         ax.add_collection(LineCollection(parts, colors=st["color"], linewidths=st["lw"],
                                          linestyles=[st["ls"]], label=kind, zorder=3,
                                          transform=ax.transData), autolim=False)
@@ -369,6 +361,30 @@ def draw_boundaries(ax, world, teeth_spacing_km=700.0):
     if subducting:
         _teeth(ax, world, subducting, teeth_spacing_km,
                KIND_STYLE["subduction"]["color"])
+
+
+#: Boundary lines projected, per world and projection (maps of one world share them).
+_BOUNDARIES = weakref.WeakKeyDictionary()
+
+
+def _projected_boundaries(world, projection) -> dict:
+    """``{kind: [(n, 2) arrays]}``: each kind's lines in the projection's coordinates, cut
+    where the map ends."""
+    import cartopy.crs as ccrs
+    import shapely
+    done = _BOUNDARIES.setdefault(world, {})
+    if projection not in done:
+        by_kind = {}
+        for b in world.boundaries:
+            by_kind.setdefault(b.kind, []).append(np.column_stack(_line_lonlat(b.xyz)))
+        done[projection] = {}
+        for kind, lines in by_kind.items():
+            projected = projection.project_geometry(shapely.MultiLineString(lines),
+                                                    ccrs.Geodetic())
+            done[projection][kind] = [np.asarray(g.coords) for g in
+                                      getattr(projected, "geoms", [projected])
+                                      if not g.is_empty]
+    return done[projection]
 
 
 def _teeth(ax, world, lines, spacing_km, colour):
