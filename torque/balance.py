@@ -848,25 +848,36 @@ def _velocity_gauss_newton(system: System, W, target, frame_cols, scale, x, lo, 
             full = np.zeros((len(idx), n))
             full[:, keep] = -np.linalg.solve(np.einsum("bik,bil->bkl", Ji, Ji),
                                              np.einsum("bik,bi->bk", Ji, ri)[..., None])[..., 0]
-            step = full * t[idx, None]
-            x_new = x[idx] + step
-            r_new, J_new = evaluate(x_new, idx)
         except np.linalg.LinAlgError:
             break
-        evaluations[idx] += 1
+        step = full * t[idx, None]
+        x_new = x[idx] + step
         outside = np.any((x_new < lo) | (x_new > hi), axis=1)
+        # a converged step is below 1e-6 of the scales, so it is taken whatever the misfit
+        # does there: its end needs no evaluation (the caller evaluates the fit)
+        finish = ~outside & (np.abs(full).max(axis=1) <= GAUSS_NEWTON_STEP)
+        x[idx[finish]] = x_new[finish]
+        done[idx[finish]] = True
+        live[idx[finish | outside]] = False
+        go = ~finish & ~outside
+        if not go.any():
+            continue
+        g = idx[go]
+        try:
+            r_new, J_new = evaluate(x_new[go], g)
+        except np.linalg.LinAlgError:
+            break
+        evaluations[g] += 1
         rss_new = np.einsum("bi,bi->b", r_new, r_new)
-        converged = np.abs(full).max(axis=1) <= GAUSS_NEWTON_STEP
-        better = ~outside & ((rss_new <= rss[idx]) | (np.abs(step).max(axis=1) <= 1e-6))
-        take = idx[better]
-        x[take], r[take], J[take], rss[take] = (x_new[better], r_new[better],
+        better = (rss_new <= rss[g]) | (np.abs(step[go]).max(axis=1) <= 1e-6)
+        take = g[better]
+        x[take], r[take], J[take], rss[take] = (x_new[go][better], r_new[better],
                                                 J_new[better], rss_new[better])
         t[take] = 1.0
-        t[idx[~better]] /= 2
-        done[idx[better & converged]] = True
-        live[idx[(better & converged) | outside]] = False
-        live[idx[t[idx] < 1e-6]] = False
+        t[g[~better]] /= 2
+        live[g[t[g] < 1e-6]] = False
     return x, done, evaluations
+
 
 def _gauss_newton(residual, jacobian, x, keep, lo, hi):
     """Gauss-Newton on one misfit given by its residual and Jacobian functions (a nonlinear
@@ -884,14 +895,14 @@ def _gauss_newton(residual, jacobian, x, keep, lo, hi):
         x_new = x + step
         if np.any((x_new < lo) | (x_new > hi)):
             return None, evaluations
+        if np.abs(full).max() <= GAUSS_NEWTON_STEP:
+            return x_new, evaluations      # taken whatever the misfit does: no evaluation
         r_new = residual(x_new)
         evaluations += 1
         rss_new = float(r_new @ r_new)
         # near the minimum the misfit changes below its rounding: take the step there
         if rss_new <= rss or np.abs(step).max() <= 1e-6:
             x, r, rss, t = x_new, r_new, rss_new, 1.0
-            if np.abs(full).max() <= GAUSS_NEWTON_STEP:
-                return x, evaluations
             J = jacobian(x)[:, keep]
         else:
             t /= 2
