@@ -24,12 +24,18 @@ motion-independent torques and ``A_k`` the torque per angular velocity of term k
   area-integrated squared velocity misfit between predicted and observed motions,
   ``sum_p int |(w_pred - w_obs) x R r|^2 dA = R^4 sum_p dw^T D_p dw``, exact through the drag
   tensors, started from the torque-space fit and using the exact Jacobian
-  ``d omega / d c_k = -M^{-1} (A_k omega + b_k)``.
+  ``d omega / d c_k = -M^{-1} (A_k omega + b_k)``. It is solved by Gauss-Newton steps to
+  where the misfit's gradient vanishes (a step below 1e-11 of every coefficient's scale),
+  by scipy's bounded trust-region method where a step would leave the bounds, and with a
+  coefficient whose minimum lies on a bound held exactly there when the Karush-Kuhn-Tucker
+  conditions confirm it (Nocedal and Wright 2006, *Numerical Optimization*, secs. 10.3 and
+  12.3). Resampled members (bootstrap, Monte Carlo, cross-validation) take their
+  Gauss-Newton steps together in stacked arrays (:func:`fit_velocity_many`).
 
 Prefer the velocity-space fit: it measures misfit in what is observed (plate velocities),
 and does not depend on a weighting of torques. The torque-space fit is linear, fast and
-always available; it is the starting point and the engine of the bootstrap, Monte Carlo and
-cross-validation.
+always available; it is the starting point, and resampling can use it (``fit="torque"``)
+when speed matters more than the errors-in-variables bias.
 
 Drag acts relative to the mantle, so predicted motions are in the frame where the mantle is
 at rest. Observed motions are taken to be in that frame unless the fit estimates the
@@ -553,6 +559,18 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     Returns
     -------
     Fit
+        ``info["status"]`` is :data:`GAUSS_NEWTON_STATUS` where Gauss-Newton finished the
+        fit, else scipy's ``least_squares`` status; ``active_bounds`` names the
+        coefficients held on a bound.
+
+    Notes
+    -----
+    Gauss-Newton from the start where the balance is linear (or Newton's method solves
+    it at each point) and the steps stay inside the bounds; otherwise the parameters that
+    start on a bound are held there and the others refitted, kept if the misfit's gradient
+    points out of the bounds in every held one, else every parameter is fitted by scipy's
+    bounded trust-region method and Gauss-Newton goes on from where it stops (where the
+    misfit stopped falling, up to ~1e-8 from the minimum) to where the gradient vanishes.
     """
     _check_fittable(system)
     if start is None:

@@ -3,9 +3,11 @@ the observed motions' uncertainties and over physics parameters given as distrib
 
 All draws come from ``numpy.random.default_rng(seed)``, so a run is reproducible. Each
 member is refitted by the preferred fit (velocity space, :func:`torque.balance.fit_velocity`,
-warm-started from the fit to the data, a few milliseconds each) unless ``fit="torque"``
-asks for the linear torque-space fit, which is faster but whose regressors hold the noisy
-observed motions (errors in variables), so its spread is biased.
+started from the fit to the data; bootstrap and motion draws of a linear balance are
+fitted together by :func:`torque.balance.fit_velocity_many`, 0.3 ms a member on the
+demo, a quarter of one alone) unless ``fit="torque"`` asks for the linear torque-space fit,
+whose regressors hold the noisy observed motions (errors in variables), so its spread is
+biased.
 """
 
 from __future__ import annotations
