@@ -14,6 +14,7 @@ subduction zones carry teeth on the overriding plate's side, as geologists draw 
 from __future__ import annotations
 
 import functools
+import textwrap
 import weakref
 from dataclasses import dataclass
 
@@ -124,9 +125,15 @@ def caption(fig, text: str) -> None:
         a.apply_aspect()
     # below everything drawn (axes with their tick labels, legends, texts); the box is kept
     # for saving, which then measures only the caption
-    box = fig.get_tightbbox(fig.canvas.get_renderer())                 # inches
+    renderer = fig.canvas.get_renderer()
+    box = fig.get_tightbbox(renderer)                                  # inches
     t = fig.text(0.5, box.y0 / fig.get_figheight() - 0.02, text, ha="center", va="top",
-                 fontsize=7.5, style="italic", wrap=True)
+                 fontsize=7.5, style="italic")
+    # wider than the figure: broken into lines of about equal length, from one measure of
+    # the whole (matplotlib's own wrapping measures the line again after every word)
+    lines = int(np.ceil(t.get_window_extent(renderer).width / (0.98 * fig.bbox.width)))
+    if lines > 1:
+        t.set_text("\n".join(textwrap.wrap(text, int(np.ceil(len(text) / lines)) + 2)))
     _MEASURED[fig] = (box, t)
 
 
