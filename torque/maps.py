@@ -592,20 +592,27 @@ def poles_map(world, path, fit):
     draw_plates(ax, world, labels=False)
     styles = ((predicted_key, "predicted", PREDICTED_COLOUR, "-"),
               ("observed_pole_ellipse", "observed", OBSERVED_COLOUR, "--"))
-    for p in plates:
-        o, q = p["observed"], p["predicted"]
-        ax.plot(o["lon"], o["lat"], "o", ms=6, mfc="white", mec=OBSERVED_COLOUR,
-                transform=ccrs.PlateCarree(), zorder=6)
-        ax.plot(q["lon"], q["lat"], "^", ms=6, color=PREDICTED_COLOUR,
-                transform=ccrs.PlateCarree(), zorder=6)
-        # ellipses over the markers, so that small ones still show as rings
-        for key, which, colour, style in styles:
-            e = p.get(key) or {}
-            if e.get("major_deg"):
-                lo, la = _ellipse_lonlat(p[which]["lat"], p[which]["lon"], e["major_deg"],
-                                         e["minor_deg"], e["azimuth_deg"])
-                ax.plot(lo, la, transform=ccrs.Geodetic(), color=colour, lw=1.4, ls=style,
-                        zorder=7)
+    import shapely
+    from matplotlib.collections import LineCollection
+    # markers, one artist per kind; ellipses over them (so that small ones still show as
+    # rings), projected once, one collection per kind
+    for which, marker in (("observed", dict(marker="o", mfc="white", mec=OBSERVED_COLOUR)),
+                          ("predicted", dict(marker="^", color=PREDICTED_COLOUR))):
+        ax.plot([p[which]["lon"] for p in plates], [p[which]["lat"] for p in plates],
+                ls="", ms=6, transform=ccrs.PlateCarree(), zorder=6, **marker)
+    for key, which, colour, style in styles:
+        rings = [np.column_stack(_ellipse_lonlat(p[which]["lat"], p[which]["lon"],
+                                                 e["major_deg"], e["minor_deg"],
+                                                 e["azimuth_deg"]))
+                 for p in plates for e in [p.get(key) or {}] if e.get("major_deg")]
+        if rings:
+            lines = ax.projection.project_geometry(shapely.MultiLineString(rings),
+                                                   ccrs.Geodetic())
+            parts = [np.asarray(g.coords) for g in getattr(lines, "geoms", [lines])
+                     if not g.is_empty]
+            ax.add_collection(LineCollection(parts, colors=colour, linewidths=1.4,
+                                             linestyles=[style], zorder=7,
+                                             transform=ax.transData), autolim=False)
     markers = ([p[w]["lon"] for p in plates for w in ("observed", "predicted")],
                [p[w]["lat"] for p in plates for w in ("observed", "predicted")])
     place_labels(ax, [p["predicted"]["lon"] for p in plates],
