@@ -18,6 +18,7 @@ from ..forces import build_terms
 from ..io import Inputs, atomic_write, load_hypothesis, read_fit, read_motions
 from ..io.files import check_output_path, read_json
 from ..io.manifest import run_manifest
+from ..parallel import small_solves
 from ..report import write_html, write_markdown
 from .. import maps
 from .planet import BUNDLED, TRUTH_HYPOTHESIS, write
@@ -53,6 +54,14 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
         ``outdir``, the ``best`` hypothesis' name and the run time in ``seconds``.
     """
     outdir = _output_folder(outdir, force)
+    # the demo's world is small: every matrix product and solve in it is, where BLAS threads
+    # cost more CPU than they save (a second of the demo's 6 s on two cores)
+    with small_solves():
+        return _run(main, outdir, echo)
+
+
+def _run(main, outdir, echo) -> dict:
+    """:func:`run` after its output folder is made."""
     t0 = time.perf_counter()
     started = time.time()
     commands = []
