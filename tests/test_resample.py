@@ -214,3 +214,20 @@ def test_members_fitted_together_are_the_members_fitted_one_by_one(demo):
         np.testing.assert_allclose(together, alone, rtol=1e-10, atol=0)
     on_bound = balance.fit_velocity_many(tight, obs, tight_fit, plates=draws)[:, i] == 0.0502
     assert 0 < on_bound.sum() < len(draws)
+
+
+def test_block_diagonal_balances_solve_plate_by_plate_to_the_same_members(demo):
+    # drag-only balances (the demo's truth) split into one 3x3 system per plate; the same
+    # members solved as one dense system agree to rounding (linear algebra: the LU of a
+    # block-diagonal matrix is the LU of its blocks)
+    system, obs, _, fit = demo
+    assert system.block_diagonal
+    dense = dataclasses.replace(system)
+    dense.__dict__["block_diagonal"] = False           # the general path, same system
+    draws = np.random.default_rng(7).integers(system.n_plates, size=(25, system.n_plates))
+    np.testing.assert_allclose(balance.fit_velocity_many(system, obs, fit, plates=draws),
+                               balance.fit_velocity_many(dense, obs, fit, plates=draws),
+                               rtol=1e-12, atol=0)
+    from .conftest import demo_system
+    coupled, _, _ = demo_system("boundary_resistance")
+    assert not coupled.block_diagonal                # resistances couple neighbours
