@@ -634,17 +634,19 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         w_start = np.linalg.lstsq(frame_cols, gap, rcond=None)[0]
         x_start = np.r_[x_start, w_start]
         lo, hi = np.r_[lo, [-np.inf] * 3], np.r_[hi, [np.inf] * 3]
-    # Gauss-Newton steps serve a linear balance started inside the bounds; the trust-region
+    # Gauss-Newton steps from the start while they stay inside the bounds; the trust-region
     # method (scipy), which keeps to the bounds, takes over where they would leave them
     position = {k: i for i, k in enumerate(np.flatnonzero(free))}
 
     def gauss_newton(x, keep=None):
         """Gauss-Newton over the parameters ``keep`` (default all), the others held:
-        (x, evaluations), x None where it does not apply or converge."""
+        (x, evaluations), x None where it does not converge inside the bounds."""
         keep = np.ones(len(x), bool) if keep is None else keep
-        # linear: every nonlinear part's coefficient fixed or held at 0
-        if not all(x[position[k]] == 0 and not keep[position[k]] if free[k]
-                   else fixed_c[k] == 0 for k, _ in system.nonlinear):
+        # the balance is linear where every nonlinear part's coefficient is fixed at 0 or
+        # held at 0: then the members' batched steps, else Newton's method at each point
+        linear = all(x[position[k]] == 0 and not keep[position[k]] if free[k]
+                     else fixed_c[k] == 0 for k, _ in system.nonlinear)
+        if not linear:
             return _gauss_newton(residual, jacobian, x, keep, lo, hi)
         x_gn, done, steps = _velocity_gauss_newton(
             system, W[None], (W @ omega_obs.ravel())[None],
@@ -682,7 +684,6 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         info["frame_rotation"] = frame(x_opt)
         info["frame_cov"] = cov_all[k_free:, k_free:]
     return Fit(system, "velocity", values, stderr, cov, rss, dof, active, info)
-
 
 
 def fit_velocity_many(system: System, omega_obs, start: Fit, plates=None,
@@ -764,6 +765,7 @@ def fit_velocity_many(system: System, omega_obs, start: Fit, plates=None,
         except InputError:
             pass
     return out
+
 
 #: Gauss-Newton stops when its step is below this fraction of every parameter's scale.
 GAUSS_NEWTON_STEP = 1e-11
@@ -927,6 +929,7 @@ def _gauss_newton(residual, jacobian, x, keep, lo, hi):
             if t < 1e-6:
                 break
     return None, evaluations
+
 
 def _least_squares(residual, jacobian, x_init, keep, lo, hi):
     """scipy's bounded trust-region least squares over the parameters ``keep``, the others

@@ -296,8 +296,8 @@ def likelihood_ratio_test(chi2_small: float, k_small: int, chi2_big: float,
     With known variances ``-2 ln L = chi^2 + const``, so the likelihood-ratio statistic is
     ``chi2_small - chi2_big``, asymptotically chi-square distributed with
     ``k_big - k_small`` degrees of freedom when the smaller model is true; p-value from
-    ``scipy.stats.chi2`` (its survival function, ``scipy.special.chdtrc``). It is only as right as the covariance (a reduced chi-square
-    near 1).
+    ``scipy.stats.chi2`` (its survival function, ``scipy.special.chdtrc``). It is only as
+    right as the covariance (a reduced chi-square near 1).
 
     Parameters
     ----------
