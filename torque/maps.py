@@ -377,21 +377,25 @@ _BOUNDARIES = weakref.WeakKeyDictionary()
 def _projected_boundaries(world, projection) -> dict:
     """``{kind: [(n, 2) arrays]}``: each kind's lines in the projection's coordinates, cut
     where the map ends."""
-    import cartopy.crs as ccrs
-    import shapely
     done = _BOUNDARIES.setdefault(world, {})
     if projection not in done:
         by_kind = {}
         for b in world.boundaries:
             by_kind.setdefault(b.kind, []).append(np.column_stack(_line_lonlat(b.xyz)))
-        done[projection] = {}
-        for kind, lines in by_kind.items():
-            projected = projection.project_geometry(shapely.MultiLineString(lines),
-                                                    ccrs.Geodetic())
-            done[projection][kind] = [np.asarray(g.coords) for g in
-                                      getattr(projected, "geoms", [projected])
-                                      if not g.is_empty]
+        done[projection] = {kind: _project_lines(projection, lines)
+                            for kind, lines in by_kind.items()}
     return done[projection]
+
+
+def _project_lines(projection, lines) -> list:
+    """Lines of (lon, lat) points, joined by great circles, in a projection's coordinates:
+    one cartopy projection of them all, cut at the map's edge (and a hemisphere's horizon);
+    a list of (n, 2) arrays."""
+    import cartopy.crs as ccrs
+    import shapely
+    projected = projection.project_geometry(shapely.MultiLineString(lines), ccrs.Geodetic())
+    return [np.asarray(g.coords) for g in getattr(projected, "geoms", [projected])
+            if not g.is_empty]
 
 
 def _teeth(ax, world, lines, spacing_km, colour):
@@ -592,7 +596,6 @@ def poles_map(world, path, fit):
     draw_plates(ax, world, labels=False)
     styles = ((predicted_key, "predicted", PREDICTED_COLOUR, "-"),
               ("observed_pole_ellipse", "observed", OBSERVED_COLOUR, "--"))
-    import shapely
     from matplotlib.collections import LineCollection
     # markers, one artist per kind; ellipses over them (so that small ones still show as
     # rings), projected once, one collection per kind
@@ -606,11 +609,8 @@ def poles_map(world, path, fit):
                                                  e["azimuth_deg"]))
                  for p in plates for e in [p.get(key) or {}] if e.get("major_deg")]
         if rings:
-            lines = ax.projection.project_geometry(shapely.MultiLineString(rings),
-                                                   ccrs.Geodetic())
-            parts = [np.asarray(g.coords) for g in getattr(lines, "geoms", [lines])
-                     if not g.is_empty]
-            ax.add_collection(LineCollection(parts, colors=colour, linewidths=1.4,
+            ax.add_collection(LineCollection(_project_lines(ax.projection, rings),
+                                             colors=colour, linewidths=1.4,
                                              linestyles=[style], zorder=7,
                                              transform=ax.transData), autolim=False)
     markers = ([p[w]["lon"] for p in plates for w in ("observed", "predicted")],
