@@ -295,11 +295,12 @@ def _grid_image(ax, step, values, **imshow):
                      interpolation="nearest", **imshow)
 
 
-@functools.lru_cache(maxsize=8)
+@functools.lru_cache(maxsize=4)
 def _pixel_lonlat(projection, nx):
     """Longitude and latitude of the centres of an ``nx``-wide pixel grid over a
-    projection's extent, and which pixels lie on the globe (a hemisphere's disc; outside
-    an outline the axes' clip to the map hides them)."""
+    projection's extent (float32: they only pick grid cells; about 6 MB for a 1,200-pixel
+    map), and which pixels lie on the globe (a hemisphere's disc; outside an outline the
+    axes' clip to the map hides them)."""
     import cartopy.crs as ccrs
     (x0, x1), (y0, y1) = projection.x_limits, projection.y_limits
     ny = max(1, round(nx * (y1 - y0) / (x1 - x0)))
@@ -308,7 +309,8 @@ def _pixel_lonlat(projection, nx):
     ll = ccrs.PlateCarree().transform_points(projection, X.ravel(), Y.ravel())
     lon, lat = ll[:, 0].reshape(ny, nx), ll[:, 1].reshape(ny, nx)
     inside = np.isfinite(lon) & np.isfinite(lat)
-    return np.where(inside, lon, 0.0), np.where(inside, lat, 0.0), inside
+    return (np.where(inside, lon, 0.0).astype(np.float32),
+            np.where(inside, lat, 0.0).astype(np.float32), inside)
 
 
 def draw_plates(ax, world, continents=None, labels=True):
