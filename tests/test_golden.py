@@ -21,7 +21,8 @@ ROOT = Path(__file__).resolve().parents[1]
 GOLDEN = Path(__file__).resolve().parent / "golden"
 HYP = "demo/hypotheses/ridge_slab_drag.toml"
 
-# (output file, argv); an output ending in .stdout is what the command prints
+# (output file, argv[, path written under out/]); an output ending in .stdout is what the
+# command prints
 COMMANDS = [
     ("check.stdout", ["check", "demo/world.toml", "--json"]),
     ("cooling.stdout", ["cooling", "--physics", HYP, "--ages", "1,5,20,50,80,120,200",
@@ -49,6 +50,23 @@ COMMANDS = [
                        *[f"demo/hypotheses/{h}.toml" for h in (
                            "boundary_resistance", "continental_drag", "ridge_drag",
                            "ridge_slab_drag", "slab_drag")], "--json", "out/rank_all.json"]),
+    # the paths issue 25 carves (recorded before moving the code): the chi-square misfit,
+    # a free mantle frame and what is computed from its fit, and a stage series
+    ("fit_chi_square.json", ["fit", "demo/world.toml", "demo/hypotheses/continental_drag.toml",
+                             "demo/motions.csv", "--misfit", "chi-square",
+                             "-o", "out/fit_chi_square.json"]),
+    ("fit_free_frame.json", ["fit", "demo/world.toml", HYP, "demo/motions.csv", "--free-frame",
+                             "-o", "out/fit_free_frame.json"]),
+    ("torques_free_frame.csv", ["torques", "demo/world.toml", HYP, "--motions",
+                                "demo/motions.csv", "--coefficients", "out/fit_free_frame.json",
+                                "-o", "out/torques_free_frame.csv"]),
+    ("rank_chi_square.csv", ["rank", "demo/world.toml", "demo/motions.csv",
+                             "demo/hypotheses/ridge_drag.toml", HYP,
+                             "demo/hypotheses/continental_drag.toml", "--misfit", "chi-square",
+                             "-o", "out/rank_chi_square.csv"]),
+    ("stages_series_fit.json", ["stages", "demo/stages/series.toml", "-o", "out/stages", "-q"],
+     "stages/series_fit.json"),
+    ("stages_rank.csv", None, "stages/rank.csv"),
 ]
 
 
@@ -61,13 +79,17 @@ def produce(folder: Path) -> dict:
     here = os.getcwd()
     os.chdir(folder)            # relative paths, so that no output names the folder
     try:
-        for name, argv in COMMANDS:
+        for name, argv, *written in COMMANDS:
+            # an entry with no argv is another file written by the command before it
             buf = io.StringIO()
-            with contextlib.redirect_stdout(buf):
-                status = main(argv)
-            assert status == 0, (name, argv)
-            texts[name] = _without_manifest(buf.getvalue() if name.endswith(".stdout") else
-                                            (folder / "out" / name).read_text())
+            if argv is not None:
+                with contextlib.redirect_stdout(buf):
+                    status = main(argv)
+                assert status == 0, (name, argv)
+            text = (buf.getvalue() if name.endswith(".stdout") else
+                    (folder / "out" / (written[0] if written else name)).read_text())
+            # a series record names its file by its absolute path
+            texts[name] = _without_manifest(text).replace(str(folder.resolve()), ".")
     finally:
         os.chdir(here)
     return texts
