@@ -41,12 +41,12 @@ import synthetic_world as sw  # noqa: E402
 from bench_balance import TRUE as BALANCE_TRUE  # noqa: E402
 from bench_torques import HYPOTHESIS  # noqa: E402
 
-from torque import balance, sphere  # noqa: E402
+from torque import inference, sphere  # noqa: E402
 from torque.euler import RAD_S_PER_DEG_MYR, velocity_field  # noqa: E402
 from torque import compute_torques  # noqa: E402
 from torque.hypothesis import hypothesis_from_dict  # noqa: E402
 from torque.io import write_boundaries_geojson  # noqa: E402
-from torque.resample import monte_carlo_motions  # noqa: E402
+from torque.inference.resampling import monte_carlo_motions
 from torque.sphere import region_moments  # noqa: E402
 from torque import check_world  # noqa: E402
 from torque.io import load_world
@@ -235,18 +235,18 @@ def run(size, out):
 
     # the balance on a hypothesis with known true coefficients
     truth = hypothesis_from_dict({"force": BALANCE_TRUE})
-    sys_true = balance.assemble(world, truth, compute_torques(world, truth, np.zeros((P, 3))))
-    om = balance.predict(sys_true, sys_true.fixed)
+    sys_true = inference.assemble(world, truth, compute_torques(world, truth, np.zeros((P, 3))))
+    om = inference.predict(sys_true, sys_true.fixed)
     rng = np.random.default_rng(0)
     sigma = 0.01 * RAD_S_PER_DEG_MYR
     obs = om + sigma * rng.standard_normal(om.shape)
     free = [dict(f, coefficient="free") if i else dict(f) for i, f in enumerate(BALANCE_TRUE)]
     hyp_free = hypothesis_from_dict({"force": free})
-    system = balance.assemble(world, hyp_free, compute_torques(world, hyp_free, obs))
-    t_fit, rpt = median_time(lambda: balance.fit_velocity(system, obs,
-                                                          balance.fit_torque(system, obs)),
+    system = inference.assemble(world, hyp_free, compute_torques(world, hyp_free, obs))
+    t_fit, rpt = median_time(lambda: inference.fit_velocity(system, obs,
+                                                          inference.fit_torque(system, obs)),
                              rep * 4)
-    t_pred, _ = median_time(lambda: balance.predict(system, rpt.values), rep * 4)
+    t_pred, _ = median_time(lambda: inference.predict(system, rpt.values), rep * 4)
     row("fit (torque + velocity space)", f"{P} plates, {system.n_free} free", t_fit)
     row("prediction", f"{P} plates", t_pred, "fit + prediction <= 50 ms",
         t_fit + t_pred <= 0.05)

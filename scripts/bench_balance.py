@@ -18,11 +18,11 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 import numpy as np  # noqa: E402
 import synthetic_world as sw  # noqa: E402
 
-from torque import balance, diagnostics  # noqa: E402
+from torque import inference  # noqa: E402
 from torque.euler import RAD_S_PER_DEG_MYR  # noqa: E402
 from torque import compute_torques  # noqa: E402
 from torque.hypothesis import hypothesis_from_dict  # noqa: E402
-from torque.resample import monte_carlo_motions  # noqa: E402
+from torque.inference.resampling import monte_carlo_motions
 
 TRUE = [{"kind": "ridge", "form": "edge", "coefficient": 1.0},
         {"kind": "slab", "age_myr": 80.0, "coefficient": 0.07},
@@ -38,13 +38,13 @@ def build(world, free):
         for f in forces[1:]:
             f["coefficient"] = "free"
     hyp = hypothesis_from_dict({"force": forces})
-    return balance.assemble(world, hyp, compute_torques(world, hyp, np.zeros((60, 3))))
+    return inference.assemble(world, hyp, compute_torques(world, hyp, np.zeros((60, 3))))
 
 
 def setup():
     world = sw.world()
     truth = build(world, free=False)
-    omega = balance.predict(truth, truth.fixed)
+    omega = inference.predict(truth, truth.fixed)
     rng = np.random.default_rng(0)
     sigma = 0.01 * RAD_S_PER_DEG_MYR
     obs = omega + sigma * rng.standard_normal(omega.shape)
@@ -62,7 +62,7 @@ def main():
     times = []
     for _ in range(args.repeat):
         t = time.perf_counter()
-        rep = diagnostics.analyse(system, obs)
+        rep = inference.analyse(system, obs)
         times.append(time.perf_counter() - t)
     t_fit = float(np.median(times))
     t = time.perf_counter()

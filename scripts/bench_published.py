@@ -23,7 +23,7 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-from torque import balance  # noqa: E402
+from torque.inference import solvers  # noqa: E402
 from torque.cli import main  # noqa: E402
 
 MODEL = ROOT.parent / "shared" / "data" / "global-plates-2003"
@@ -85,13 +85,13 @@ def run(model: Path, repeat: int = 3) -> str:
         ]
         for name, argv in steps:
             rows.append((name, timed(argv, 1 if name.startswith("frame") else repeat)))
-        limits = balance.small_solves
-        balance.small_solves = contextlib.nullcontext    # let BLAS use its threads
+        limits = solvers.small_solves
+        solvers.small_solves = contextlib.nullcontext    # let BLAS use its threads
         try:
             rows.append(("rank (4 hypotheses), BLAS threads allowed",
                          timed(steps[-1][1], repeat)))
         finally:
-            balance.small_solves = limits
+            solvers.small_solves = limits
     lines = [f"Machine: {platform.machine()}, Python {platform.python_version()}, numpy "
              f"{np.__version__}; medians of {repeat} runs in one process.", "",
              "| command on the published model (52 plates) | time |", "|---|---|"]

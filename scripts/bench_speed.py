@@ -76,7 +76,7 @@ import sys, time, json
 sys.path.insert(0, "{root}")
 import torque
 from torque.cli.balance import Problem
-from torque.resample import monte_carlo_physics
+from torque.inference.resampling import monte_carlo_physics
 inputs = torque.Inputs.load("{root}/polygons_demo/world.toml")
 hyp = torque.load_hypothesis("{root}/polygons_demo/hypotheses/continental_drag.toml")
 pb = Problem.build(inputs, hyp, torque.read_motions("{root}/polygons_demo/motions.csv"))

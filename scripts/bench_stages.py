@@ -52,7 +52,7 @@ def one_draw_of_the_series():
 
     from torque.io.series import load_stage, read_series
     from torque.parallel import spawn_seeds
-    from torque.stages import draw_motions, fit_joint
+    from torque.inference.stages import draw_motions, fit_joint
     s = read_series(SERIES)
     stages = [load_stage((st, s.hypothesis)) for st in s.stages]
     start = fit_joint(stages).parameters

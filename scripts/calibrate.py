@@ -10,7 +10,7 @@ well under a tenth of a standard error.
 
 With ``--free-frame`` every realisation also adds a random rigid rotation to the
 observations, which the fit must recover. With ``--profile`` the preferred fit's
-profile-likelihood intervals (torque.profile) are calibrated too.
+profile-likelihood intervals (torque.inference.profile) are calibrated too.
 
     python scripts/calibrate.py [--realisations N] [--seed S] [--free-frame] [--gls]
                                 [--profile]
@@ -29,8 +29,8 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
 import torque  # noqa: E402
-from torque import balance  # noqa: E402
-from torque.diagnostics import analyse  # noqa: E402
+from torque import parallel  # noqa: E402
+from torque.inference.analysis import analyse
 from torque.euler import RAD_S_PER_DEG_MYR  # noqa: E402
 
 DEMO = ROOT / "polygons_demo"
@@ -76,7 +76,7 @@ def calibrate(n: int = 200, seed: int = 0, free_frame: bool = False,
     se = {"velocity": [], "torque": []}
     frame_z = []
     inside = []
-    with balance.small_solves():
+    with parallel.small_solves():
         for _ in range(n):
             obs = true + sigma * rng.standard_normal(true.shape)
             spin = np.zeros(3)

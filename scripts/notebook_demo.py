@@ -12,9 +12,9 @@ import sys
 from pathlib import Path
 
 import torque
-from torque import maps
-from torque.diagnostics import analyse
-from torque.rank import rank
+from torque.present import maps
+from torque.inference.analysis import analyse
+from torque.inference.ranking import rank
 from torque.torque_table import TorqueTable
 
 ROOT = Path(__file__).resolve().parents[1]

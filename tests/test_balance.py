@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 from scipy.spatial.transform import Rotation
 
-from torque import balance, diagnostics, sphere
+from torque import inference, parallel, sphere
 from torque.errors import InputError
 from torque.euler import RAD_S_PER_DEG_MYR
 from torque.hypothesis import hypothesis_from_dict
@@ -31,10 +31,10 @@ R = 6371e3
 def test_round_trip_predict_then_fit():
     # Motions made by predict with known coefficients are fitted back to 1e-6 relative.
     w = voronoi_world(16, 2, kinds=KIND_CYCLE)
-    omega = balance.predict(system_for(w, forces(False)), system_for(w, forces(False)).fixed)
+    omega = inference.predict(system_for(w, forces(False)), system_for(w, forces(False)).fixed)
     s = system_for(w, forces(True))
-    tf = balance.fit_torque(s, omega)
-    vf = balance.fit_velocity(s, omega, tf)
+    tf = inference.fit_torque(s, omega)
+    vf = inference.fit_velocity(s, omega, tf)
     truth = np.array([1.0] + [TRUE[k] for k in ("slab", "drag", "transform", "trench")])
     np.testing.assert_allclose(tf.values, truth, rtol=1e-6)
     np.testing.assert_allclose(vf.values, truth, rtol=1e-6)
@@ -61,7 +61,7 @@ def test_two_plate_closed_form():
         {"kind": "slab", "coefficient": 1.0, "force_per_length": F},
         {"kind": "drag", "coefficient": C}, {"kind": "transform", "coefficient": c}]})
     s = system_for(w, hyp)
-    omega = balance.predict(s, s.fixed)
+    omega = inference.predict(s, s.fixed)
     T, a, k = 2 * F * R**2, C * R**4 * 4 * np.pi / 3, c * R**3 * np.pi / 2
     wl = T * (a + k) / (a * (a + 2 * k))
     wu = T * k / (a * (a + 2 * k))
@@ -72,12 +72,12 @@ def test_rotating_the_world_rotates_predictions_and_keeps_coefficients():
     Q = Rotation.from_euler("zyx", [20, 35, -50], degrees=True).as_matrix()
     w0, w1 = voronoi_world(16, 2, kinds=KIND_CYCLE), voronoi_world(16, 2, Q=Q, kinds=KIND_CYCLE)
     s0, s1 = system_for(w0, forces(False)), system_for(w1, forces(False))
-    o0, o1 = balance.predict(s0, s0.fixed), balance.predict(s1, s1.fixed)
+    o0, o1 = inference.predict(s0, s0.fixed), inference.predict(s1, s1.fixed)
     np.testing.assert_allclose(o1, o0 @ Q.T, atol=1e-9 * np.abs(o0).max())
     rng = np.random.default_rng(0)
     noisy = o0 * (1 + 0.05 * rng.standard_normal(o0.shape))
-    f0 = balance.fit_velocity(system_for(w0, forces()), noisy)
-    f1 = balance.fit_velocity(system_for(w1, forces()), noisy @ Q.T)
+    f0 = inference.fit_velocity(system_for(w0, forces()), noisy)
+    f1 = inference.fit_velocity(system_for(w1, forces()), noisy @ Q.T)
     np.testing.assert_allclose(f1.values, f0.values, rtol=1e-6)
 
 
@@ -91,10 +91,10 @@ def test_unbounded_lsq_linear_agrees_with_numpy_lstsq():
         {"kind": "transform", "bounds": [-np.inf, np.inf]}]})
     s0 = system_for(w, forces(False))
     rng = np.random.default_rng(1)
-    omega = balance.predict(s0, s0.fixed) * (1 + 0.2 * rng.standard_normal((16, 3)))
+    omega = inference.predict(s0, s0.fixed) * (1 + 0.2 * rng.standard_normal((16, 3)))
     s = system_for(w, hyp, omega)
-    fit = balance.fit_torque(s, omega, "velocity")
-    Wt = balance.plate_weights(s, "velocity")
+    fit = inference.fit_torque(s, omega, "velocity")
+    Wt = inference.plate_weights(s, "velocity")
     G = Wt @ s.columns(omega)
     scale = np.linalg.norm(G[:, 1:], axis=0)        # columns differ by ~30 orders
     x, *_ = np.linalg.lstsq(G[:, 1:] / scale, -G[:, 0], rcond=None)
@@ -110,22 +110,22 @@ def test_net_rotation_undetermined_without_drag():
         {"kind": "collision", "coefficient": 1e20}]})
     s = system_for(w, hyp)
     with pytest.raises(InputError, match="net rotation is undetermined"):
-        balance.predict(s, s.fixed)
+        inference.predict(s, s.fixed)
 
 
 def test_nothing_fixed_and_inseparable_coefficients():
     w = voronoi_world(16, 2, kinds=KIND_CYCLE)
     s0 = system_for(w, forces(False))
-    omega = balance.predict(s0, s0.fixed)
+    omega = inference.predict(s0, s0.fixed)
     hyp = hypothesis_from_dict({"force": [{"kind": "slab", "age_myr": 80.0},
                                           {"kind": "drag"}]})
     with pytest.raises(InputError, match="homogeneous"):
-        balance.fit_torque(system_for(w, hyp, omega), omega)
+        inference.fit_torque(system_for(w, hyp, omega), omega)
     hyp = hypothesis_from_dict({"force": [
         {"kind": "ridge", "form": "edge", "coefficient": 1.0},
         {"kind": "drag", "label": "d1"}, {"kind": "drag", "label": "d2"}]})
     with pytest.raises(InputError, match="cannot separate.*'d1', 'd2'"):
-        balance.fit_torque(system_for(w, hyp, omega), omega)
+        inference.fit_torque(system_for(w, hyp, omega), omega)
 
 
 def test_fitted_drag_implies_a_plausible_asthenosphere_viscosity(tmp_path):
@@ -149,7 +149,7 @@ def test_fitted_drag_implies_a_plausible_asthenosphere_viscosity(tmp_path):
     hyp = hypothesis_from_dict({"force": [
         {"kind": "ridge", "form": "edge", "coefficient": 1.0},
         {"kind": "slab", "age_myr": 80.0, "coefficient": 0.1}, {"kind": "drag"}]})
-    fit = balance.fit_velocity(system_for(w, hyp, omega), omega)
+    fit = inference.fit_velocity(system_for(w, hyp, omega), omega)
     C = fit.values[2]
     assert 1e18 <= C * 100e3 and C * 200e3 <= 1e21
 
@@ -177,7 +177,7 @@ def demo_files(tmp_path):
     (tmp_path / "world.toml").write_text('plates = "plates.geojson"\n'
                                          'boundaries = "boundaries.geojson"\n')
     s = system_for(w, forces(False))
-    omega = balance.predict(s, s.fixed)
+    omega = inference.predict(s, s.fixed)
     rng = np.random.default_rng(9)
     noisy = omega + 0.02 * RAD_S_PER_DEG_MYR * rng.standard_normal(omega.shape)
     cov = np.broadcast_to((0.02 * RAD_S_PER_DEG_MYR) ** 2 * np.eye(3), (16, 3, 3)).copy()
@@ -234,7 +234,7 @@ def test_predict_with_fitted_coefficients_and_rank(demo_files, cli):
     pred = read_motions(d / "pred.csv")
     obs = read_motions(d / "obs.csv")
     assert len(pred.plates) == 16
-    assert np.median(diagnostics.pole_distance_deg(pred.omega, obs.omega)) < 10
+    assert np.median(inference.pole_distance_deg(pred.omega, obs.omega)) < 10
     # the world has no age grid: slab ages are synthesised from the motions being fitted,
     # so rank asks to be told that this is meant
     status, out, err = cli("rank", d / "world.toml", d / "obs.csv", d / "small.toml",
@@ -299,7 +299,7 @@ def test_predict_without_coefficients_for_free_terms(demo_files, cli):
 def test_small_solves_run_on_one_blas_thread():
     # threadpoolctl reports the BLAS thread count inside the fits' context
     from threadpoolctl import threadpool_info
-    with balance.small_solves():
+    with parallel.small_solves():
         blas = [i for i in threadpool_info() if i["user_api"] == "blas"]
     assert blas and all(i["num_threads"] == 1 for i in blas)
 
@@ -308,7 +308,7 @@ def _misfit_gradient(fit, omega):
     """d(misfit)/d(coefficient) of a velocity-space fit, by central differences of the
     prediction (no free frame)."""
     s = fit.system
-    W, _ = balance.misfit_whitening(s)
+    W, _ = inference.misfit_whitening(s)
     out = {}
     for i in np.flatnonzero(s.free):
         h = 1e-6 * max(abs(fit.values[i]), 1e-3)
@@ -316,7 +316,7 @@ def _misfit_gradient(fit, omega):
         for c in (fit.values[i] - h, fit.values[i] + h):
             v = fit.values.copy()
             v[i] = c
-            r = W @ (balance.predict(s, v) - omega).ravel()
+            r = W @ (inference.predict(s, v) - omega).ravel()
             rss.append(r @ r)
         out[s.labels[i]] = (rss[1] - rss[0]) / (2 * h)
     return out
@@ -332,7 +332,7 @@ def test_a_minimum_on_a_bound_is_returned_on_it_and_meets_the_kkt_conditions():
     bounds = system.bounds.copy()
     bounds[i] = [0.06, 1.0]
     held = dataclasses.replace(system, bounds=bounds)
-    fit = balance.fit_velocity(held, obs)
+    fit = inference.fit_velocity(held, obs)
     assert fit.values[i] == 0.06 and fit.active_bounds == ("slab",)
     g = _misfit_gradient(fit, obs)
     assert g["slab"] > 0                         # the misfit falls only below the bound
@@ -341,8 +341,8 @@ def test_a_minimum_on_a_bound_is_returned_on_it_and_meets_the_kkt_conditions():
         j = system.labels.index(label)
         assert abs(g[label] * fit.values[j]) < 1e-5 * g["slab"] * 0.06
     # started on the bound of a box whose minimum is inside, the fit leaves the bound
-    free = balance.fit_velocity(system, obs)
-    on_bound = balance.fit_velocity(system, obs, dataclasses.replace(
+    free = inference.fit_velocity(system, obs)
+    on_bound = inference.fit_velocity(system, obs, dataclasses.replace(
         free, values=np.where(np.arange(len(free.values)) == i, 0.0, free.values)))
     assert on_bound.active_bounds == ()
     np.testing.assert_allclose(on_bound.values, free.values, rtol=1e-6)
@@ -353,12 +353,12 @@ def test_a_nonlinear_term_at_its_bound_is_exactly_zero():
     # truth.json): held there exactly, the balance is linear and the rest fits as without it
     from .conftest import demo_system
     system, obs, _ = demo_system("rate_independent")
-    fit = balance.fit_velocity(system, obs)
+    fit = inference.fit_velocity(system, obs)
     k = system.labels.index("transform")
     assert fit.values[k] == 0.0 and "transform" in fit.active_bounds
     v = fit.values.copy()
     v[k] = 1e4                                   # 1e-2 of its 95 % interval's width, Pa
-    W, _ = balance.misfit_whitening(system)
-    r0 = W @ (balance.predict(system, fit.values) - obs).ravel()
-    r1 = W @ (balance.predict(system, v) - obs).ravel()
+    W, _ = inference.misfit_whitening(system)
+    r0 = W @ (inference.predict(system, fit.values) - obs).ravel()
+    r1 = W @ (inference.predict(system, v) - obs).ravel()
     assert r1 @ r1 > r0 @ r0

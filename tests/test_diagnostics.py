@@ -15,13 +15,15 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from torque import balance, compute_torques, diagnostics
-from torque.balance import assemble, predict
-from torque.diagnostics import FitResult, analyse
+from torque import compute_torques, inference
+from torque.inference.system import assemble
+from torque.inference.solvers import predict
+from torque.results import FitResult
+from torque.inference.analysis import analyse
 from torque.errors import InputError, ModelError
 from torque.euler import RAD_S_PER_DEG_MYR
 from torque.hypothesis import hypothesis_from_dict
-from torque.maps import MapInputs
+from torque.present.maps import MapInputs
 from torque.io import Inputs, dumps, load_hypothesis, load_world, read_fit, read_motions, write_json
 
 from .conftest import here
@@ -85,11 +87,11 @@ def test_f_test_equals_t_squared_and_information_criteria():
     s2 = rss[1] / (n - 3)
     se = np.sqrt(s2 * np.linalg.inv(X.T @ X)[2, 2])
     t = b[2] / se
-    res = diagnostics.f_test(rss[0], 2, rss[1], 3, n)
+    res = inference.f_test(rss[0], 2, rss[1], 3, n)
     assert res["F"] == pytest.approx(t**2, rel=1e-10)
     assert res["p_value"] == pytest.approx(2 * stats.t.sf(abs(t), n - 3), rel=1e-8)
     # Burnham and Anderson (2002): AIC = n ln(RSS/n) + 2k; BIC = n ln(RSS/n) + k ln n
-    ic = diagnostics.information_criteria(rss[1], n, 3)
+    ic = inference.information_criteria(rss[1], n, 3)
     assert ic["aic"] == pytest.approx(n * np.log(rss[1] / n) + 6)
     assert ic["bic"] == pytest.approx(n * np.log(rss[1] / n) + 3 * np.log(n))
     assert ic["aicc"] == pytest.approx(ic["aic"] + 2 * 3 * 4 / (n - 4))
@@ -100,7 +102,7 @@ def test_pole_ellipse_against_chi_square():
     # region of angular radius sqrt(chi2_2(0.95)) s / w (scipy.stats.chi2).
     w = np.array([0.0, 0.0, 1.0]) * RAD_S_PER_DEG_MYR
     s = 0.01 * RAD_S_PER_DEG_MYR
-    e = diagnostics.pole_ellipse(w, s**2 * np.eye(3))
+    e = inference.pole_ellipse(w, s**2 * np.eye(3))
     r = np.degrees(np.sqrt(stats.chi2.ppf(0.95, 2)) * s / np.linalg.norm(w))
     assert e["major_deg"] == pytest.approx(r) and e["minor_deg"] == pytest.approx(r)
     assert e["rate_stderr_deg_myr"] == pytest.approx(0.01)
@@ -116,16 +118,16 @@ def test_pole_ellipse_of_a_rank_deficient_covariance():
     w = np.array([0.0, 0.0, 1.0]) * rate
     s = 0.01 * rate
     noise = 1e-18 * s ** 2 * np.array([[1.0, 0.3, 0.0], [0.3, 2.0, 0.0], [0.0, 0.0, 0.0]])
-    along = diagnostics.pole_ellipse(w, s ** 2 * np.outer([0, 0, 1.0], [0, 0, 1.0]) + noise)
+    along = inference.pole_ellipse(w, s ** 2 * np.outer([0, 0, 1.0], [0, 0, 1.0]) + noise)
     assert along["major_deg"] == 0.0 and along["minor_deg"] == 0.0
     assert along["rate_stderr_deg_myr"] == pytest.approx(0.01)
-    east = diagnostics.pole_ellipse(np.array([1.0, 0.0, 0.0]) * rate,
+    east = inference.pole_ellipse(np.array([1.0, 0.0, 0.0]) * rate,
                                     s ** 2 * np.outer([0, 1.0, 0], [0, 1.0, 0]) + noise)
     k = np.sqrt(stats.chi2.ppf(0.95, 2))
     assert east["major_deg"] == pytest.approx(np.degrees(k * s / rate))
     assert east["minor_deg"] == 0.0
     assert east["azimuth_deg"] == pytest.approx(90.0)
-    circle = diagnostics.pole_ellipse(w, s ** 2 * np.eye(3) + noise)
+    circle = inference.pole_ellipse(w, s ** 2 * np.eye(3) + noise)
     assert circle["azimuth_deg"] == 0.0
 
 
@@ -160,11 +162,11 @@ def test_a_new_fit_method_plugs_in_without_editing_analyse(demo_fit, monkeypatch
     def halfway(system, omega_obs, earlier, weighting):
         seen.update(earlier)
         t, v = earlier["torque"], earlier["velocity"]
-        return balance.Fit(system, "halfway", (t.values + v.values) / 2, v.stderr, v.cov,
+        return inference.Fit(system, "halfway", (t.values + v.values) / 2, v.stderr, v.cov,
                            v.rss, v.dof)
 
-    monkeypatch.setitem(balance.FIT_METHODS, "halfway",
-                        balance.FitMethod("halfway", halfway, "the mean of the others"))
+    monkeypatch.setitem(inference.FIT_METHODS, "halfway",
+                        inference.FitMethod("halfway", halfway, "the mean of the others"))
     report = analyse(system, motions.for_world(world))
     assert list(report.fits) == ["torque", "velocity", "halfway"]
     assert set(seen) == {"torque", "velocity"}

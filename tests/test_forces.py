@@ -274,7 +274,7 @@ def test_a_fit_recovers_a_suction_per_length():
     forces[2] = {"kind": "suction", "form": "per-length"}
     free_h = hypothesis_from_dict({"force": forces})
     free = torque.assemble(inputs.world, free_h, torque.compute_torques(inputs, free_h, omega))
-    fit = torque.balance.fit_velocity(free, omega)
+    fit = torque.inference.solvers.fit_velocity(free, omega)
     assert fit.values[2] == pytest.approx(2e12, rel=1e-6) and free.units[2] == "N/m"
 
 

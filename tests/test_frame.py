@@ -14,7 +14,8 @@ import numpy as np
 import pytest
 
 import torque
-from torque.diagnostics import FitResult, analyse
+from torque.results import FitResult
+from torque.inference.analysis import analyse
 from torque.euler import RAD_S_PER_DEG_MYR, pole_to_vector
 
 from .conftest import here

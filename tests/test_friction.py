@@ -20,7 +20,7 @@ import numpy as np
 import pytest
 
 from torque import assemble, compute_torques, predict, sphere
-from torque.balance import fit_velocity
+from torque.inference.solvers import fit_velocity
 from torque.errors import InputError
 from torque.euler import RAD_S_PER_DEG_MYR
 from torque.hypothesis import hypothesis_from_dict

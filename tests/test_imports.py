@@ -97,11 +97,17 @@ LAYERS = [
     ("torque.validate", "torque.forces.ages_synth"),
     ("torque.forces",),                         # the context, the kinds and the registry
     ("torque.hypothesis",),
-    ("torque.balance", "torque.profile"),
-    ("torque.diagnostics", "torque.resample", "torque.torque_table"),
-    ("torque.rank", "torque.stages"),
+    ("torque.results",),                        # typed records, no computation
+    # the inference layer, bottom up: the balance, its solvers, what is built on them
+    ("torque.inference.system", "torque.inference.covariance", "torque.inference._optimise"),
+    ("torque.inference.solvers",),
+    ("torque.inference.methods", "torque.inference.statistics", "torque.inference.profile"),
+    ("torque.inference.analysis", "torque.inference.resampling", "torque.torque_table"),
+    ("torque.inference.ranking", "torque.inference.stages"),
+    ("torque.inference",),                      # the package: its names, lazily
     ("torque.io",),                             # every file read or written
-    ("torque.maps", "torque.report", "torque.timeplots"),
+    ("torque.present",),                        # maps, charts, report, sentences
+    ("torque.workflows",),                      # the recipes every caller uses
     ("torque.demo",),
     ("torque.cli",),
     ("torque", "torque.__main__"),

@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 from torque.io import load_world
-from torque.maps import KINDS, plate_colours
+from torque.present.maps import KINDS, plate_colours
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "polygons_demo"
@@ -76,7 +76,7 @@ def test_map_command_writes_a_figure(tmp_path, cli):
                  "--motions", str(DEMO / "motions.csv")]),
 ])
 def test_chart_kinds_draw_through_the_command_line(demo_fit, tmp_path, cli, kind, extra):
-    # every kind is one entry of torque.maps.KINDS; the charts are the quick ones to draw
+    # every kind is one entry of torque.present.maps.KINDS; the charts are the quick ones to draw
     fit = demo_fit
     status, _, err = cli("map", DEMO / "world.toml", "--kind", kind, "--fit", fit, *extra,
                          "-o", tmp_path / f"{kind}.svg")
@@ -88,7 +88,7 @@ def test_the_poles_map_zooms_on_every_plate(demo_fit, tmp_path, monkeypatch):
     # one globe and one zoom panel per plate, each holding both poles (common practice, no
     # source: small ellipses must be visible)
     import numpy as np
-    from torque import maps
+    from torque.present import maps
     from torque.io import read_fit
     fit = read_fit(demo_fit)
     seen = {}
@@ -112,7 +112,7 @@ def test_the_poles_map_zooms_on_every_plate(demo_fit, tmp_path, monkeypatch):
 @pytest.fixture
 def figures(monkeypatch):
     """Every figure a map function saves, kept open for inspection."""
-    from torque import maps
+    from torque.present import maps
     kept = []
     real_save = maps._save
 
@@ -153,14 +153,14 @@ def test_every_kind_carries_a_caption_and_a_legend(demo_fit, tmp_path, cli, figu
 
 
 def test_force_terms_never_take_a_plate_colour():
-    from torque.maps import FORCE_COLOURS, PLATE_COLOURS, force_colours
+    from torque.present.maps import FORCE_COLOURS, PLATE_COLOURS, force_colours
     assert not set(map(str.lower, FORCE_COLOURS)) & set(map(str.lower, PLATE_COLOURS))
     assert force_colours(["a", "b"]) == {"a": FORCE_COLOURS[0], "b": FORCE_COLOURS[1]}
 
 
 def test_labels_do_not_overlap_on_the_published_model(tmp_path):
     # 52 plates, many small (Bird 2003, ../shared/data/global-plates-2003)
-    from torque import maps
+    from torque.present import maps
     model = ROOT.parent / "shared" / "data" / "global-plates-2003" / "world.toml"
     if not model.is_file():
         pytest.skip(f"no published model at {model}")
@@ -179,7 +179,7 @@ def test_labels_do_not_overlap_on_the_published_model(tmp_path):
 
 
 def test_the_misfit_scale_is_clipped_and_says_so(demo_fit, tmp_path, figures):
-    from torque import maps
+    from torque.present import maps
     from torque.io import read_fit
     maps.KINDS["misfit"].draw(maps.MapInputs(torque_inputs(), fit=read_fit(demo_fit)),
                               tmp_path / "m.png")

@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 import torque
-from torque.rank import rank
+from torque.inference.ranking import rank
 from torque.torque_table import TorqueTable
 
 from .conftest import demo_system, here

@@ -14,9 +14,9 @@ import numpy as np
 import pytest
 
 import torque
-from torque import balance
+from torque import inference
 from torque.euler import RAD_S_PER_DEG_MYR
-from torque.profile import Z95, fixed_at, profile_intervals
+from torque.inference.profile import Z95, fixed_at, profile_intervals
 
 from .conftest import demo_system, here
 from .worlds import trench_hemispheres
@@ -27,10 +27,10 @@ DEMO = here().parent / "polygons_demo"
 def test_for_a_linear_model_the_profile_is_the_standard_error_interval():
     # Draper and Smith (1998), sec. 24.5: exact for a model linear in its parameter
     system = trench_hemispheres(slab_bounds=(-10.0, 10.0))
-    g = balance.predict(system, [1.0, 5e14])
+    g = inference.predict(system, [1.0, 5e14])
     rng = np.random.default_rng(2)
     obs = 0.3 * g + 0.01 * RAD_S_PER_DEG_MYR * rng.normal(size=g.shape)
-    fit = balance.fit_velocity(system, obs)
+    fit = inference.fit_velocity(system, obs)
     p = profile_intervals(fit, obs)["slab"]
     c, se = fit.values[0], fit.stderr[0]
     assert p["low"] == pytest.approx(c - Z95 * se, rel=1e-6)
@@ -49,7 +49,7 @@ def test_far_from_its_bound_the_profile_agrees_with_the_standard_error(demo):
     # interval as the model becomes linear over the errors' range; the demo's coefficients
     # are known to 2-3 %, so the two agree to a few % of the interval's width
     system, obs = demo
-    fit = balance.fit_velocity(system, obs)
+    fit = inference.fit_velocity(system, obs)
     prof = profile_intervals(fit, obs)
     for label, p in prof.items():
         i = system.labels.index(label)
@@ -63,11 +63,11 @@ def test_far_from_its_bound_the_profile_agrees_with_the_standard_error(demo):
 def test_an_interval_end_is_where_the_misfit_has_risen_by_the_threshold(demo):
     # the definition of the profile: refit with the coefficient held at an end
     system, obs = demo
-    fit = balance.fit_velocity(system, obs)
+    fit = inference.fit_velocity(system, obs)
     p = profile_intervals(fit, obs)["slab"]
     threshold = fit.rss * (1 + Z95 ** 2 / fit.dof)
     for end in (p["low"], p["high"]):
-        refit = balance.fit_velocity(fixed_at(system, "slab", end), obs, fit)
+        refit = inference.fit_velocity(fixed_at(system, "slab", end), obs, fit)
         assert refit.rss == pytest.approx(threshold, rel=1e-6)
 
 
@@ -79,7 +79,7 @@ def test_a_coefficient_held_at_its_bound_is_flagged_and_its_interval_ends_there(
     bounds = system.bounds.copy()
     bounds[i] = [0.06, 1.0]
     held = dataclasses.replace(system, bounds=bounds)
-    fit = balance.fit_velocity(held, obs)
+    fit = inference.fit_velocity(held, obs)
     assert fit.values[i] == pytest.approx(0.06) and "slab" in fit.active_bounds
     p = profile_intervals(fit, obs)["slab"]
     assert p["at_bound"] == "lower" and p["low"] == 0.06 and p["low_at_bound"]

@@ -21,7 +21,7 @@ from scipy.spatial.transform import Rotation
 
 import torque
 from torque import sphere
-from torque.diagnostics import analyse
+from torque.inference.analysis import analyse
 from torque.euler import RAD_S_PER_DEG_MYR
 from torque.hypothesis import hypothesis_from_dict
 from torque.io import read_motions

@@ -14,11 +14,11 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from torque import balance
-from torque.diagnostics import analyse
+from torque import inference
+from torque.inference.analysis import analyse
 from torque.euler import RAD_S_PER_DEG_MYR
 from torque.hypothesis import hypothesis_from_dict
-from torque.rank import cross_validation, rank
+from torque.inference.ranking import cross_validation, rank
 
 from .worlds import KIND_CYCLE, forces, system_for, voronoi_world
 
@@ -28,7 +28,7 @@ def ranked():
     w = voronoi_world(16, 2, kinds=KIND_CYCLE)
     s0 = system_for(w, forces(False))
     rng = np.random.default_rng(11)
-    omega = balance.predict(s0, s0.fixed)
+    omega = inference.predict(s0, s0.fixed)
     omega = omega + 0.002 * RAD_S_PER_DEG_MYR * rng.standard_normal(omega.shape)
     full = system_for(w, forces(True))
     entries = [e for e in _entries() if e["kind"] != "trench"]
@@ -88,7 +88,7 @@ def test_with_a_covariance_the_nested_pair_gets_likelihood_ratio_and_f_tests(ran
 def test_the_cross_validation_error_and_its_standard_error_over_plates(ranked):
     # the area-weighted mean of the left-out squared errors, and its standard error from
     # their spread over plates by the delta method (common practice, no source)
-    from torque.rank import cross_validation_errors
+    from torque.inference.ranking import cross_validation_errors
     omega, full, small, (rows, _) = ranked
     e = cross_validation_errors(full, omega)
     w = full.area / full.area.sum()

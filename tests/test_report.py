@@ -2,8 +2,8 @@
 the mantle frame and net rotation, every interval, and how the run was made (no numbers
 are computed here: they come from the fit)."""
 
-from torque.diagnostics import Coefficient, FitResult
-from torque.report import _fit_note, _frame_table, _uncertainty_tables, _warnings
+from torque.results import Coefficient, FitResult
+from torque.present.report import _fit_note, _frame_table, _uncertainty_tables, _warnings
 
 
 def _fit():

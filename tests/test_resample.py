@@ -10,12 +10,12 @@ import dataclasses
 import numpy as np
 import pytest
 
-from torque import balance
+from torque import inference
 from torque.errors import InputError
 from torque.euler import RAD_S_PER_DEG_MYR
 from torque.hypothesis import parse_spread
 from torque.lithosphere import Physics
-from torque.resample import bootstrap, monte_carlo_motions, monte_carlo_physics
+from torque.inference.resampling import bootstrap, monte_carlo_motions, monte_carlo_physics
 
 from .worlds import KIND_CYCLE, TRUE, forces, system_for, voronoi_world
 
@@ -27,7 +27,7 @@ def kinded():
     ones)."""
     w = voronoi_world(16, 2, kinds=KIND_CYCLE)
     s0 = system_for(w, forces(False))
-    omega = balance.predict(s0, s0.fixed)
+    omega = inference.predict(s0, s0.fixed)
     return w, omega, system_for(w, forces(True))
 
 
@@ -37,20 +37,20 @@ def test_monte_carlo_spread_matches_linear_propagation():
     # (first-order error propagation; common practice, no source).
     w = voronoi_world(16, 2, kinds=KIND_CYCLE)
     s0 = system_for(w, forces(False))
-    omega = balance.predict(s0, s0.fixed)
+    omega = inference.predict(s0, s0.fixed)
     s = system_for(w, forces(True), omega)
     sigma = 1e-4 * RAD_S_PER_DEG_MYR
     cov = np.broadcast_to(sigma**2 * np.eye(3), (16, 3, 3)).copy()
     mc = monte_carlo_motions(s, omega, cov, 4000, seed=2, fit="torque")
     assert mc["refitted_with_bounds"] == 0
     # linear propagation by finite differences of the torque-space fit
-    base = balance.fit_torque(s, omega).values[s.free]
+    base = inference.fit_torque(s, omega).values[s.free]
     J = np.zeros((len(base), omega.size))
     eps = 1e-3 * sigma
     for j in range(omega.size):
         d = np.zeros(omega.size)
         d[j] = eps
-        J[:, j] = (balance.fit_torque(s, omega + d.reshape(-1, 3)).values[s.free] - base) / eps
+        J[:, j] = (inference.fit_torque(s, omega + d.reshape(-1, 3)).values[s.free] - base) / eps
     sd_lin = sigma * np.sqrt(np.sum(J**2, axis=1))
     sd_mc = np.array([v["std"] for v in mc["coefficients"].values()])
     np.testing.assert_allclose(sd_mc, sd_lin, rtol=0.08)
@@ -106,14 +106,14 @@ def test_velocity_space_monte_carlo_matches_its_linear_propagation(kinded):
     cov = np.broadcast_to(sigma ** 2 * np.eye(3), (16, 3, 3)).copy()
     mc = monte_carlo_motions(s, omega, cov, 800, seed=5)
     assert mc["fit"] == "velocity" and mc["members"] == 800
-    start = balance.fit_velocity(s, omega)
+    start = inference.fit_velocity(s, omega)
     base = start.values[s.free]
     J = np.zeros((len(base), omega.size))
     eps = 1e-3 * sigma
     for j in range(omega.size):
         d = np.zeros(omega.size)
         d[j] = eps
-        J[:, j] = (balance.fit_velocity(s, omega + d.reshape(-1, 3), start).values[s.free]
+        J[:, j] = (inference.fit_velocity(s, omega + d.reshape(-1, 3), start).values[s.free]
                    - base) / eps
     sd_lin = sigma * np.sqrt(np.sum(J ** 2, axis=1))
     sd_mc = np.array([v["std"] for v in mc["coefficients"].values()])
@@ -135,7 +135,7 @@ def test_the_demo_monte_carlo_interval_holds_the_truth():
     motions = torque.read_motions(demo / "motions.csv")
     omega = motions.for_world(inputs.world)
     system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, omega))
-    fitted = balance.fit_velocity(system, omega)
+    fitted = inference.fit_velocity(system, omega)
     mc = monte_carlo_motions(system, omega, motions.cov_for_world(inputs.world), 600, seed=1)
     truth = json.loads((demo / "truth.json").read_text())["true_coefficients"]
     labels = [l for l, f in zip(system.labels, system.free) if f]
@@ -146,7 +146,7 @@ def test_the_demo_monte_carlo_interval_holds_the_truth():
 
 
 def test_intervals_are_printed_and_disagreeing_fits_flagged(tmp_path, cli):
-    from torque.diagnostics import fits_disagree
+    from torque.present.sentences import fits_disagree
     from .conftest import here
     demo = here().parent / "polygons_demo"
     status, out, err = cli("fit", demo / "world.toml",
@@ -167,7 +167,7 @@ def _stationarity(system, values, obs, plates=None):
     """|J_j^T r| / (|J_j| |r|) per free coefficient: 0 at an interior least-squares minimum
     (the normal equations; Nocedal and Wright 2006, Numerical Optimization, sec. 10.1),
     with J written out here from the balance: dw/dc_k = -M^-1 (A_k w + b_k)."""
-    W, _ = balance.misfit_whitening(system, None, plates)
+    W, _ = inference.misfit_whitening(system, None, plates)
     M = np.tensordot(values, system.A, axes=1)
     w = np.linalg.solve(M, -(values @ system.b))
     J = W @ -np.linalg.solve(M, system.columns(w.reshape(-1, 3))[:, system.free])
@@ -179,7 +179,7 @@ def _stationarity(system, values, obs, plates=None):
 def demo():
     from .conftest import demo_system
     system, obs, motions = demo_system()
-    return system, obs, motions, balance.fit_velocity(system, obs)
+    return system, obs, motions, inference.fit_velocity(system, obs)
 
 
 def test_fits_and_members_end_where_the_misfit_gradient_vanishes(demo):
@@ -188,7 +188,7 @@ def test_fits_and_members_end_where_the_misfit_gradient_vanishes(demo):
     system, obs, _, fit = demo
     assert _stationarity(system, fit.values, obs).max() < 1e-11
     draws = np.random.default_rng(3).integers(system.n_plates, size=(20, system.n_plates))
-    many = balance.fit_velocity_many(system, obs, fit, plates=draws)
+    many = inference.fit_velocity_many(system, obs, fit, plates=draws)
     for d, values in zip(draws, many):
         assert _stationarity(system, values, obs, d).max() < 1e-11
 
@@ -204,15 +204,15 @@ def test_members_fitted_together_are_the_members_fitted_one_by_one(demo):
     bounds = system.bounds.copy()
     bounds[i, 1] = 0.0502
     tight = dataclasses.replace(system, bounds=bounds)
-    tight_fit = balance.fit_velocity(tight, obs)
+    tight_fit = inference.fit_velocity(tight, obs)
     for s, start in ((system, fit), (tight, tight_fit)):
-        together = balance.fit_velocity_many(s, obs, start, plates=draws)
-        alone = [balance.fit_velocity(s, obs, start, plates=d).values for d in draws]
+        together = inference.fit_velocity_many(s, obs, start, plates=draws)
+        alone = [inference.fit_velocity(s, obs, start, plates=d).values for d in draws]
         np.testing.assert_allclose(together, alone, rtol=1e-10, atol=0)
-        together = balance.fit_velocity_many(s, noisy, start)
-        alone = [balance.fit_velocity(s, o, start).values for o in noisy]
+        together = inference.fit_velocity_many(s, noisy, start)
+        alone = [inference.fit_velocity(s, o, start).values for o in noisy]
         np.testing.assert_allclose(together, alone, rtol=1e-10, atol=0)
-    on_bound = balance.fit_velocity_many(tight, obs, tight_fit, plates=draws)[:, i] == 0.0502
+    on_bound = inference.fit_velocity_many(tight, obs, tight_fit, plates=draws)[:, i] == 0.0502
     assert 0 < on_bound.sum() < len(draws)
 
 
@@ -225,8 +225,8 @@ def test_block_diagonal_balances_solve_plate_by_plate_to_the_same_members(demo):
     dense = dataclasses.replace(system)
     dense.__dict__["block_diagonal"] = False           # the general path, same system
     draws = np.random.default_rng(7).integers(system.n_plates, size=(25, system.n_plates))
-    np.testing.assert_allclose(balance.fit_velocity_many(system, obs, fit, plates=draws),
-                               balance.fit_velocity_many(dense, obs, fit, plates=draws),
+    np.testing.assert_allclose(inference.fit_velocity_many(system, obs, fit, plates=draws),
+                               inference.fit_velocity_many(dense, obs, fit, plates=draws),
                                rtol=1e-12, atol=0)
     from .conftest import demo_system
     coupled, _, _ = demo_system("boundary_resistance")

@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 from scipy.spatial import SphericalVoronoi
 
-from torque import balance, compute_torques, sphere
+from torque import compute_torques, inference, sphere
 from torque.hypothesis import hypothesis_from_dict
 from torque.io import world_from_rings
 from torque.world import Boundary
@@ -114,7 +114,7 @@ def system_for(world, hyp, omega=None):
     """The balance of a hypothesis on a world (motions zero unless given)."""
     P = world.geometry.n_plates
     omega = np.zeros((P, 3)) if omega is None else omega
-    return balance.assemble(world, hyp, compute_torques(world, hyp, omega))
+    return inference.assemble(world, hyp, compute_torques(world, hyp, omega))
 
 
 def trench_hemispheres(slab_bounds=None):

@@ -19,15 +19,16 @@ from ._lazy import lazy_exports
 #: Where each name of the package lives: imported on first use (PEP 562), so that
 #: ``import torque`` and ``torque --help`` do not load scipy and the rest.
 _EXPORTS = {
-    "FIT_METHODS": "balance", "assemble": "balance", "predict": "balance",
-    "WorldData": "data", "FitResult": "diagnostics", "analyse": "diagnostics",
+    "FIT_METHODS": "inference.methods", "assemble": "inference.system",
+    "predict": "inference.solvers", "WorldData": "data", "FitResult": "results",
+    "analyse": "inference.analysis",
     "InputError": "errors", "ModelError": "errors", "Motions": "euler",
     "to_no_net_rotation": "euler", "velocity_field": "euler",
     "hypothesis_from_dict": "hypothesis", "Inputs": "io", "check_world": "io",
     "compute_torques": "io", "load_hypothesis": "io", "load_world": "io",
     "read_motions": "io", "world_from_rings": "io", "write_motions": "io",
     "Cooling": "lithosphere", "Physics": "lithosphere", "PlateLocator": "locate",
-    "rank": "rank", "Boundary": "world", "Plate": "world", "World": "world",
+    "rank": "inference.ranking", "Boundary": "world", "Plate": "world", "World": "world",
 }
 
 

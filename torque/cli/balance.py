@@ -161,7 +161,7 @@ class Problem:
         -------
         Problem
         """
-        from ..balance import assemble
+        from ..inference.system import assemble
         from ..forces import build_terms
         omega = motions.for_world(data.world) if motions is not None else None
         terms = build_terms(data.context(hypothesis, omega))
@@ -180,7 +180,7 @@ class Problem:
         -------
         System
         """
-        from ..balance import assemble
+        from ..inference.system import assemble
         from ..forces import build_terms
         hyp = dataclasses.replace(self.hypothesis, physics=physics)
         return assemble(self.inputs.world, hyp,
@@ -211,9 +211,9 @@ def run_fit(args) -> int:
     int
         The exit status (0).
     """
-    from ..diagnostics import analyse
+    from ..inference.analysis import analyse
     from ..io import output_suffix, write_json
-    from ..resample import bootstrap, monte_carlo_motions, monte_carlo_physics
+    from ..inference.resampling import bootstrap, monte_carlo_motions, monte_carlo_physics
     output_suffix(args.output, (".json",))
     pb = _problem(args, args.motions)
     cov = covariances(args, pb.motions, pb.inputs.world, pb.system)
@@ -307,7 +307,7 @@ def covariances(args, motions, world, system) -> Covariances:
     InputError
         For a chi-square misfit with no covariance at all, or a model error without it.
     """
-    from ..balance import add_covariances, model_error_covariance
+    from ..inference.covariance import add_covariances, model_error_covariance
     from ..io import read_covariance
     notes = []
     if args.covariance:
@@ -395,7 +395,7 @@ def run_predict(args) -> int:
     int
         The exit status (0).
     """
-    from ..balance import predict
+    from ..inference.solvers import predict
     from ..euler import Motions, net_rotation
     from ..io import output_suffix, read_coefficients, write_motions
     output_suffix(args.output, (".csv",))
@@ -438,7 +438,7 @@ def run_rank(args) -> int:
     """
     from ..io import (atomic_path, atomic_write, dumps, load_hypothesis, output_suffix,
                       read_motions, write_csv)
-    from ..rank import rank
+    from ..inference.ranking import rank
     if args.output:
         output_suffix(args.output, (".csv",))
     if args.json:

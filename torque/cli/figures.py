@@ -16,7 +16,7 @@ def add_parser(sub, main) -> None:
     main : callable
         :func:`torque.cli.main`.
     """
-    from ..maps import KINDS
+    from ..present.maps import KINDS
     p = sub.add_parser("map", help="maps and charts",
                        description="Draw a map or chart (PNG, SVG or PDF). Kinds: "
                        + "; ".join(f"{k}: {v.shows}" for k, v in KINDS.items()) + ".")
@@ -55,7 +55,7 @@ def run_map(args) -> int:
     """
     from .. import progress
     from ..io import load_hypothesis, output_suffix, read_fit
-    from ..maps import KINDS, MapInputs
+    from ..present.maps import KINDS, MapInputs
     output_suffix(args.output, (".png", ".svg", ".pdf"))
     kind = KINDS[args.kind]
     given = {k for k in ("motions", "predicted", "fit", "hypothesis") if getattr(args, k)}

@@ -60,8 +60,8 @@ def run_stages(args) -> int:
     from ..io.manifest import run_manifest
     from ..io.series import run_series, series_record, series_tables
     from ..parallel import Executor
-    from ..report import write_series_report
-    from ..timeplots import default_plates, speed_through_time, torque_through_time
+    from ..present.report import write_series_report
+    from ..present.timeplots import default_plates, speed_through_time, torque_through_time
     outdir = Path(args.outdir)
     if outdir.exists() and not outdir.is_dir():
         raise InputError("exists and is not a folder", file=outdir)

@@ -138,13 +138,13 @@ def fit(d: dict) -> str:
     Parameters
     ----------
     d : dict
-        :meth:`torque.diagnostics.FitResult.as_dict`.
+        :meth:`torque.results.FitResult.as_dict`.
 
     Returns
     -------
     str
     """
-    from ..diagnostics import chi_square_summary, fits_disagree, frame_summary
+    from ..present.sentences import chi_square_summary, fits_disagree, frame_summary
     lines = [f"hypothesis {d['hypothesis']!r}: velocity-space fit (preferred) and "
              "torque-space fit",
              f"{'term':<16} {'value':>11} {'std. error':>10}  {'95 % profile interval':<23} "

@@ -31,7 +31,8 @@ from pathlib import Path
 import numpy as np
 
 from .. import sphere
-from ..balance import assemble, predict
+from ..inference.system import assemble
+from ..inference.solvers import predict
 from ..data import WorldData
 from ..euler import MYR_S, Motions, pole_to_vector
 from ..forces import build_terms

@@ -19,8 +19,8 @@ from ..io import Inputs, atomic_write, load_hypothesis, read_fit, read_motions
 from ..io.files import check_output_path, read_json
 from ..io.manifest import run_manifest
 from ..parallel import small_solves
-from ..report import write_html, write_markdown
-from .. import maps
+from ..present.report import write_html, write_markdown
+from ..present import maps
 from .planet import BUNDLED, TRUTH_HYPOTHESIS, write
 
 #: The seed of every resampling the demo runs.

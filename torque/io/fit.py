@@ -7,7 +7,7 @@ import json
 
 import numpy as np
 
-from ..diagnostics import FitResult
+from ..results import FitResult
 from ..errors import InputError
 from .files import atomic_write, read_json
 

@@ -238,7 +238,7 @@ def stage_motions(stage: StageFile, world):
     omega : ndarray, shape (P, 3)
     cov : ndarray, shape (P, 3, 3), or None
     """
-    from ..stages import stage_euler_vector
+    from ..inference.stages import stage_euler_vector
     from .motions import read_motions
     if stage.motions is not None:
         m = read_motions(stage.motions)
@@ -272,8 +272,8 @@ def load_stage(task):
     Stage
         Problems come back as InputError naming the stage.
     """
-    from ..balance import assemble
-    from ..stages import Stage
+    from ..inference.system import assemble
+    from ..inference.stages import Stage
     from .hypothesis import load_hypothesis
     from .inputs import Inputs, compute_torques
     stage, hyp_path = task
@@ -306,7 +306,7 @@ def fit_task(shared, task):
     -------
     JointFit
     """
-    from ..stages import fit_joint
+    from ..inference.stages import fit_joint
     h, per_stage, misfit, exclude = task
     return fit_joint(shared[h], per_stage, misfit, exclude)
 
@@ -327,7 +327,7 @@ def monte_carlo_task(stages, task):
     """
     import dataclasses
 
-    from ..stages import draw_motions, fit_joint
+    from ..inference.stages import draw_motions, fit_joint
     per_stage, misfit, seeds, start = task
     out = np.full((len(seeds), len(start)), np.nan)
     for i, ss in enumerate(seeds):
@@ -398,7 +398,7 @@ def run_series(path, executor, monte_carlo: int = 0, seed: int = 0,
     """
     from .. import progress
     from ..parallel import spawn_seeds
-    from ..stages import cross_validation_error, information_criteria
+    from ..inference.stages import cross_validation_error, information_criteria
     from .hypothesis import load_hypothesis
     series = read_series(path)
     hyps = (series.hypothesis,) + series.compare

@@ -2,9 +2,9 @@
 the observed motions' uncertainties and over physics parameters given as distributions.
 
 All draws come from ``numpy.random.default_rng(seed)``, so a run is reproducible. Each
-member is refitted by the preferred fit (velocity space, :func:`torque.balance.fit_velocity`,
+member is refitted by the preferred fit (velocity space, :func:`torque.inference.solvers.fit_velocity`,
 started from the fit to the data; bootstrap and motion draws of a linear balance are
-fitted together by :func:`torque.balance.fit_velocity_many`, 0.3 ms a member on the
+fitted together by :func:`torque.inference.solvers.fit_velocity_many`, 0.3 ms a member on the
 demo, a quarter of one alone) unless ``fit="torque"`` asks for the linear torque-space fit,
 whose regressors hold the noisy observed motions (errors in variables), so its spread is
 biased.
@@ -17,10 +17,10 @@ import dataclasses
 import numpy as np
 from scipy import optimize
 
-from .balance import (System, fit_torque, fit_velocity, fit_velocity_many,
-                      on_one_blas_thread, plate_weights)
-from . import progress
-from .errors import InputError
+from .. import progress
+from ..errors import InputError
+from .solvers import fit_torque, fit_velocity, fit_velocity_many, on_one_blas_thread
+from .system import System, plate_weights
 
 PERCENTILES = (2.5, 50.0, 97.5)
 

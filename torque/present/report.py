@@ -9,8 +9,8 @@ import html
 import re
 from pathlib import Path
 
-from .diagnostics import chi_square_summary, fits_disagree
-from .io.files import atomic_write
+from ..io.files import atomic_write
+from .sentences import chi_square_summary, fits_disagree
 
 CAUTION = ("These are model-dependent research estimates. They depend on the plate model, "
            "the cooling model, the hypothesis and the observed motions, and are not inputs "

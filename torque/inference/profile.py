@@ -32,8 +32,10 @@ import dataclasses
 import numpy as np
 from scipy import optimize
 
-from .balance import System, fit_velocity, misfit_whitening, on_one_blas_thread, predict
-from .errors import InputError
+from ..errors import InputError
+from .covariance import misfit_whitening
+from .solvers import fit_velocity, on_one_blas_thread, predict
+from .system import System
 
 Z95 = 1.959963984540054          # the normal 97.5 % quantile (scipy.stats.norm.ppf(0.975))
 
@@ -82,7 +84,7 @@ def profile_intervals(fit, omega_obs, free_frame: bool = False, obs_cov=None,
     Parameters
     ----------
     fit : Fit
-        A velocity-space fit (:func:`torque.balance.fit_velocity`) made with the same
+        A velocity-space fit (:func:`torque.inference.solvers.fit_velocity`) made with the same
         ``free_frame`` and ``obs_cov``.
     omega_obs : array_like, shape (P, 3)
         The observations it was fitted to, rad/s.
@@ -105,7 +107,7 @@ def profile_intervals(fit, omega_obs, free_frame: bool = False, obs_cov=None,
     error interval, to well within its width:
 
     >>> import torque
-    >>> from torque.balance import fit_velocity
+    >>> from torque.inference.solvers import fit_velocity
     >>> inputs = torque.Inputs.load("polygons_demo/world.toml")
     >>> hyp = torque.load_hypothesis("polygons_demo/hypotheses/ridge_slab_drag.toml")
     >>> omega = torque.read_motions("polygons_demo/motions.csv").for_world(inputs.world)

@@ -7,7 +7,7 @@ Euler vectors, one hypothesis shared by all stages (Lithgow-Bertelloni and Richa
 minimises the sum over stages of each stage's velocity misfit (area-integrated, or the
 chi-square with the motions' covariance) with every free coefficient shared by all stages,
 or, for the labels in ``per_stage``, one coefficient per stage. Each stage's balance is
-solved as in :func:`torque.balance.predict`; the Jacobian is exact
+solved as in :func:`torque.inference.solvers.predict`; the Jacobian is exact
 (``d omega / d c = -M^-1 (A_k omega + b_k)`` per stage).
 
 Stage Euler vectors from finite rotations: a finite rotation ``R(t)`` takes a plate from
@@ -28,9 +28,11 @@ import numpy as np
 from scipy import linalg, optimize
 from scipy.spatial.transform import Rotation, Slerp
 
-from .balance import misfit_whitening, plate_weights, solve_balance
-from .errors import InputError, ModelError
-from .euler import M_S_TO_MM_YR, MYR_S
+from ..errors import InputError, ModelError
+from ..euler import M_S_TO_MM_YR, MYR_S
+from .covariance import misfit_whitening
+from .solvers import solve_balance
+from .system import plate_weights
 
 
 # ----------------------------------------------------------------------------------------

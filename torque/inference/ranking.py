@@ -11,7 +11,7 @@ by less than one standard error of the paired difference cannot be told apart fr
 one-standard-error rule of Hastie, Tibshirani and Friedman 2009, sec. 7.10, applied to the
 paired per-plate differences), and the simplest of those is the rule's choice.
 
-Information criteria (AIC, AICc, BIC) come from :meth:`torque.diagnostics.Report.result`,
+Information criteria (AIC, AICc, BIC) come from :meth:`torque.inference.analysis.Report.result`,
 with the effective numbers of observations and parameters (a free frame's three
 parameters, and the three degrees of freedom that motions in the no-net-rotation frame or
 relative to a fixed plate lost). With the area-integrated misfit they assume independent
@@ -44,12 +44,19 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import progress
-from .balance import (System, fit_torque, fit_velocity, fit_velocity_many, on_one_blas_thread,
-                      predict)
-from .diagnostics import analyse, f_test, likelihood_ratio_test, velocity_misfit
-from .errors import InputError
-from .tabular import html_table
+from .. import progress
+from ..errors import InputError
+from ..tabular import html_table
+from .analysis import analyse
+from .solvers import (
+    fit_torque,
+    fit_velocity,
+    fit_velocity_many,
+    on_one_blas_thread,
+    predict,
+)
+from .statistics import f_test, likelihood_ratio_test, velocity_misfit
+from .system import System
 
 
 @dataclass(frozen=True)
@@ -231,7 +238,7 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
     free_frame : bool
         Fit the rotation of the observations' frame relative to the mantle with each
         hypothesis (three more parameters in the information criteria; see
-        :func:`torque.diagnostics.analyse`).
+        :func:`torque.inference.analysis.analyse`).
     fit : {"velocity", "torque"}
         How cross-validation refits (see :func:`cross_validation`).
     obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional

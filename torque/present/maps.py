@@ -20,9 +20,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import sphere
-from .errors import InputError
-from .euler import pole_to_vector, velocity_en
+from .. import sphere
+from ..errors import InputError
+from ..euler import pole_to_vector, velocity_en
 
 PLATE_COLOURS = ["#9DB8D9", "#E8C77D", "#A9CFA3", "#D9A7BE", "#C9C1E3", "#E6B08F",
                  "#A6D4D1", "#CFCF9C"]
@@ -438,7 +438,7 @@ def _legend(ax, extra=()):
 
 def _save(fig, path):
     plt = _plt()
-    from .io.files import atomic_path
+    from ..io.files import atomic_path
     # the tight box of what is drawn, measured here: savefig's own "tight" would first draw
     # the whole figure once more without output to measure it
     renderer = fig.canvas.get_renderer()
@@ -774,7 +774,7 @@ def torque_chart(path, world, terms, coefficients, omega):
     fig, ax = plt.subplots(figsize=(max(8, 0.6 * P), 4.5), dpi=DPI)
     width = 0.8 / len(terms)
     cols = force_colours([t.label for t in terms])
-    from .torque_table import TorqueTable
+    from ..torque_table import TorqueTable
     mags = TorqueTable.from_terms(world, terms, coefficients, omega).magnitude.T  # (K, P)
     top = float(np.max(mags)) or 1.0
     for k, (t, mag) in enumerate(zip(terms, mags)):
@@ -822,7 +822,7 @@ def torque_globe(path, world, terms, coefficients, omega):
     import cartopy.crs as ccrs
     from matplotlib.lines import Line2D
     plt = _plt()
-    from .torque_table import TORQUE_UNIT_NM, TorqueTable
+    from ..torque_table import TORQUE_UNIT_NM, TorqueTable
     table = TorqueTable.from_terms(world, terms, coefficients, omega)
     force = table.equivalent_force_n()                                  # (P, K, 2)
     # arrows scaled as torques: |F| R = |tau perpendicular to c|
@@ -922,8 +922,8 @@ class MapKind:
 
 
 def _fitted_terms(inp: MapInputs):
-    from .forces import build_terms
-    from .forces.context import Context
+    from ..forces import build_terms
+    from ..forces.context import Context
     terms = build_terms(Context(inp.inputs, inp.hypothesis, inp.observed))
     return terms, inp.fit.values([t.label for t in terms], file=inp.fit_path)
 

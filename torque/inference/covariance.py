@@ -1,0 +1,164 @@
+"""Covariance algebra of observed Euler vectors and fitted coefficients: every misfit as one
+whitening matrix, per-plate blocks, the model error, and the covariance of estimates.
+
+A covariance of observed Euler vectors is either per plate, shape (P, 3, 3), or full,
+shape (3P, 3P) (plate by plate, x, y, z), always in (rad/s)^2.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import linalg
+
+from .system import System
+
+
+def misfit_whitening(system: System, obs_cov=None, plates=None):
+    """The matrix ``W`` (3P, 3P) whose residual ``W dw`` has the misfit as squared norm.
+
+    * no covariance: blocks ``R^2 L_p^T`` with ``L_p L_p^T = D_p``, so that ``|W dw|^2 =
+      R^4 sum_p dw_p^T D_p dw_p`` (m^4/s^2), the area-integrated squared velocity misfit;
+    * a covariance ``C``, per plate (P, 3, 3) or full (3P, 3P): ``W^T W = C^-1``, so that
+      ``|W dw|^2`` is the chi-square.
+
+    With ``plates`` (plate indices, repeats allowed) each plate's rows count as often as
+    it is drawn. A full covariance is then marginalised to the plates kept when none is
+    repeated (leave-one-out); a draw with repeats (the bootstrap) takes each plate's own
+    3x3 block, since a plate drawn twice cannot be correlated with itself as with
+    another.
+
+    Parameters
+    ----------
+    system : System
+    obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
+        (rad/s)^2.
+    plates : array of int, optional
+
+    Returns
+    -------
+    W : ndarray, shape (3P, 3P)
+    n : int
+        Number of observations counted: 3 per plate, times its count.
+    """
+    P = system.n_plates
+    count = (np.ones(P) if plates is None
+             else np.bincount(np.asarray(plates), minlength=P).astype(float))
+    C = None if obs_cov is None else np.asarray(obs_cov, float)
+    if C is not None and C.ndim == 2:
+        if plates is None or count.max() <= 1:
+            rows = np.repeat(count > 0, 3)
+            sub = C[np.ix_(rows, rows)]
+            sub = sub + 1e-12 * np.trace(sub) / len(sub) * np.eye(len(sub))
+            W = np.zeros((3 * P, 3 * P))
+            # L^-1 with L L^T = C: |L^-1 dw|^2 = dw^T C^-1 dw
+            W[np.ix_(rows, rows)] = linalg.solve_triangular(
+                linalg.cholesky(sub, lower=True), np.eye(len(sub)), lower=True)
+            return W, int(rows.sum())
+        C = covariance_blocks(C)
+    blocks = (system.radius_m ** 2 * np.swapaxes(np.linalg.cholesky(system.D), 1, 2)
+              if C is None else _whitening(C))
+    blocks = blocks * np.sqrt(count)[:, None, None]
+    W = np.zeros((P, 3, P, 3))
+    W[np.arange(P), :, np.arange(P), :] = blocks
+    return W.reshape(3 * P, 3 * P), 3 * int(count.sum())
+
+
+def covariance_blocks(cov) -> np.ndarray:
+    """Each plate's own 3x3 block of a covariance, shape (P, 3, 3).
+
+    Parameters
+    ----------
+    cov : ndarray, shape (P, 3, 3) or (3P, 3P)
+
+    Returns
+    -------
+    ndarray, shape (P, 3, 3)
+    """
+    C = np.asarray(cov, float)
+    if C.ndim == 3:
+        return C
+    P = len(C) // 3
+    return C.reshape(P, 3, P, 3)[np.arange(P), :, np.arange(P), :]
+
+
+def model_error_covariance(system: System, floor_mm_yr: float) -> np.ndarray:
+    """Covariance (rad/s)^2 of a model error of RMS velocity ``floor_mm_yr`` on each plate.
+
+    The model error of plate p is taken as a random rigid rotation ``e_p``, independent
+    between plates, whose velocity has mean square ``floor^2`` over the plate:
+    ``E[R^2 e^T D_p e] / A_p = floor^2``. The isotropic choice (in the plate's own misfit
+    measure) is ``C_p = floor^2 A_p / (3 R^2) D_p^-1``: a big plate's Euler vector is held
+    more tightly, since the same error velocity needs a smaller rotation there. Added to
+    the observations' covariance, it stands for what the physics leaves out (real misfits
+    are mostly model error, not measurement error).
+
+    Parameters
+    ----------
+    system : System
+    floor_mm_yr : float
+        RMS velocity of the model error over each plate, mm/yr (>= 0).
+
+    Returns
+    -------
+    ndarray, shape (P, 3, 3)
+
+    Examples
+    --------
+    The mean square velocity of such an error over a plate is the floor squared:
+
+    >>> import torque
+    >>> from torque.euler import M_S_TO_MM_YR
+    >>> inputs = torque.Inputs.load("polygons_demo/world.toml")
+    >>> hyp = torque.load_hypothesis("polygons_demo/hypotheses/ridge_drag.toml")
+    >>> system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp))
+    >>> C = model_error_covariance(system, 2.0)
+    >>> ms = system.radius_m ** 2 * np.einsum("pij,pji->p", system.D, C) / system.area
+    >>> np.allclose(np.sqrt(ms) * M_S_TO_MM_YR, 2.0)
+    True
+    """
+    from ..euler import M_S_TO_MM_YR
+    sigma = float(floor_mm_yr) / M_S_TO_MM_YR                           # m/s
+    return (sigma ** 2 * system.area[:, None, None] / (3 * system.radius_m ** 2)
+            * np.linalg.inv(system.D))
+
+
+def add_covariances(cov, blocks) -> np.ndarray:
+    """A covariance plus per-plate blocks, in the shape of ``cov``.
+
+    Parameters
+    ----------
+    cov : ndarray, shape (P, 3, 3) or (3P, 3P), or None
+    blocks : ndarray, shape (P, 3, 3)
+
+    Returns
+    -------
+    ndarray
+        (P, 3, 3), or (3P, 3P) when ``cov`` is full.
+    """
+    blocks = np.asarray(blocks, float)
+    if cov is None:
+        return blocks
+    C = np.array(cov, float)
+    if C.ndim == 3:
+        return C + blocks
+    P = len(blocks)
+    C.reshape(P, 3, P, 3)[np.arange(P), :, np.arange(P), :] += blocks
+    return C
+
+
+def _whitening(obs_cov) -> np.ndarray:
+    """Blocks ``U_p^T`` (P, 3, 3) with ``U U^T = C^-1``: ``|U^T dw|^2 = dw^T C^-1 dw``
+    (a vanishing covariance is kept factorisable by a jitter relative to the largest)."""
+    C = np.asarray(obs_cov, float)
+    C = C + 1e-12 * np.trace(C, axis1=1, axis2=2).max() * np.eye(3)
+    return np.swapaxes(np.linalg.cholesky(np.linalg.inv(C)), 1, 2)
+
+
+def _covariance(J, rss: float, n: int):
+    """Covariance of least-squares estimates, ``rss / dof (J^T J)^-1``, and the dof."""
+    k = J.shape[1]
+    dof = max(n - k, 1)
+    try:
+        return rss / dof * np.linalg.inv(J.T @ J), dof
+    except np.linalg.LinAlgError:
+        return np.full((k, k), np.nan), dof
