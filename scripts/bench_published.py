@@ -71,8 +71,8 @@ def run(model: Path, repeat: int = 3) -> str:
         nnr = tmp / "nnr.csv"
         steps = [
             ("check", ["check", world]),
-            ("frame (to no-net-rotation)", ["frame", model / "motions_G01_fixed.csv",
-                                            "--world", world, "--to", "nnr", "-o", nnr]),
+            ("frame (to no-net-rotation)", ["frame", world, model / "motions_G01_fixed.csv",
+                                             "--to", "nnr", "-o", nnr]),
             ("field (1 degree)", ["field", world, nnr, "--step", "1", "-o", tmp / "f.nc"]),
             ("boundaries", ["boundaries", world, nnr, "-o", tmp / "b.csv"]),
             ("torques (synthesised ages)", ["torques", world, hyps[1], "--motions", nnr,

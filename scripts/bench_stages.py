@@ -32,7 +32,7 @@ SERIES = ROOT / "polygons_demo" / "stages" / "series.toml"
 
 
 def series_times(draws):
-    from torque.io.series import run_series
+    from torque.workflows import run_series
     from torque.parallel import Executor
     out = {}
     for label, kw in (("1 process", {"jobs": 1}), ("pool of 2", {"jobs": 2}),

@@ -15,7 +15,7 @@ import torque
 from torque.present import maps
 from torque.inference.analysis import analyse
 from torque.inference.ranking import rank
-from torque.torque_table import TorqueTable
+from torque.results import TorqueTable
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "polygons_demo"

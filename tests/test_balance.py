@@ -291,7 +291,7 @@ def test_coefficients_from_another_hypothesis(demo_files, cli):
 def test_predict_without_coefficients_for_free_terms(demo_files, cli):
     d = demo_files
     assert_bad(cli("predict", d / "world.toml", d / "full.toml", "-o", d / "p.csv"),
-               d / "p.csv", "need values", "--coefficients")
+               d / "p.csv", "need values", "--fit")
 
 
 

@@ -151,7 +151,7 @@ def test_covariance_not_positive_semi_definite(demo, cli, tmp_path):
     # |cov_xy| > sqrt(cov_xx cov_yy) = 1e-4 makes the 2x2 minor negative
     plate = _spoil_covariance(demo, "0.01")
     out = tmp_path / "m.csv"
-    assert_refused(cli("frame", demo / "motions.csv", "--world", demo / "world.toml",
+    assert_refused(cli("frame", demo / "world.toml", demo / "motions.csv",
                        "--to", "nnr", "-o", out), out, "motions.csv", plate,
                    "positive semi-definite")
 

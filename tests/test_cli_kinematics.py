@@ -112,16 +112,16 @@ def test_frame_nnr_and_fixed_plate(voronoi_world_file, cli, tmp_path):
     rows = [f"P{i},{rng.uniform(-80, 80):.6f},{rng.uniform(-180, 180):.6f},"
             f"{rng.uniform(0.1, 2):.6f}" for i in range(12)]
     (tmp_path / "m.csv").write_text("plate,lat,lon,rate\n" + "\n".join(rows) + "\n")
-    status, out, err = cli("frame", tmp_path / "m.csv", "--world", path, "--to", "nnr", "-o",
+    status, out, err = cli("frame", path, tmp_path / "m.csv", "--to", "nnr", "-o",
                            tmp_path / "nnr.csv")
     assert status == 0, err
     assert "net rotation" in out
-    status, out, _ = cli("frame", tmp_path / "nnr.csv", "--world", path, "--to", "nnr", "-o",
+    status, out, _ = cli("frame", path, tmp_path / "nnr.csv", "--to", "nnr", "-o",
                          tmp_path / "nnr2.csv")
     first_line = out.splitlines()[0]
     # motions in the frame already: no rotation to the printed precision, and no pole
     assert "no rotation to 1e-6 deg/Myr, so no pole" in first_line
-    status, _, _ = cli("frame", tmp_path / "m.csv", "--world", path, "--to", "plate:P5", "-o",
+    status, _, _ = cli("frame", path, tmp_path / "m.csv", "--to", "plate:P5", "-o",
                        tmp_path / "fixed.csv")
     fixed = {r["plate"]: r for r in read_csv(tmp_path / "fixed.csv")}
     assert float(fixed["P5"]["rate"]) == 0.0
@@ -181,7 +181,7 @@ def test_motions_name_unknown_plate(hemi, cli):
 def test_plate_without_motion(hemi, cli):
     world, motions, tmp = hemi
     m = motions(["Upper,90,0,0"])
-    assert_refused(cli("frame", m, "--world", world, "--to", "nnr", "-o", tmp / "o.csv"),
+    assert_refused(cli("frame", world, m, "--to", "nnr", "-o", tmp / "o.csv"),
                    tmp / "o.csv", "no motion for plate(s) 'Lower'")
 
 
@@ -202,9 +202,9 @@ def test_pole_out_of_range(hemi, cli):
 def test_frame_to_unknown_plate(hemi, cli):
     world, motions, tmp = hemi
     m = motions(["Upper,90,0,0", "Lower,0,90,1"])
-    assert_refused(cli("frame", m, "--world", world, "--to", "plate:Middle", "-o",
+    assert_refused(cli("frame", world, m, "--to", "plate:Middle", "-o",
                        tmp / "o.csv"), tmp / "o.csv", "no plate named 'Middle'")
-    assert_refused(cli("frame", m, "--world", world, "--to", "sideways", "-o",
+    assert_refused(cli("frame", world, m, "--to", "sideways", "-o",
                        tmp / "o.csv"), tmp / "o.csv", "'sideways' is not a frame")
 
 
@@ -250,9 +250,9 @@ def test_a_zero_rotation_has_no_pole(tmp_path, cli):
     from torque.cli.text import pole
     demo = here().parent / "polygons_demo"
     nnr = tmp_path / "nnr.csv"
-    assert cli("frame", demo / "motions.csv", "--world", demo / "world.toml", "--to", "nnr",
+    assert cli("frame", demo / "world.toml", demo / "motions.csv", "--to", "nnr",
                "-o", nnr)[0] == 0
-    status, out, _ = cli("frame", nnr, "--world", demo / "world.toml", "--to", "nnr",
+    status, out, _ = cli("frame", demo / "world.toml", nnr, "--to", "nnr",
                          "-o", tmp_path / "again.csv")
     assert status == 0 and "no rotation to 1e-6 deg/Myr, so no pole" in out
     assert pole([0.0, 0.0, 0.0]).startswith("none")

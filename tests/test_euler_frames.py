@@ -77,7 +77,7 @@ def test_frame_command_writes_the_propagated_covariance(tmp_path, cli):
     src = read_motions(DEMO / "motions.csv")
     fixed = world.plate_names[0]
     out = tmp_path / "fixed.csv"
-    status, _, err = cli("frame", DEMO / "motions.csv", "--world", DEMO / "world.toml",
+    status, _, err = cli("frame", DEMO / "world.toml", DEMO / "motions.csv",
                          "--to", f"plate:{fixed}", "-o", out)
     assert status == 0, err
     with open(out) as fh:

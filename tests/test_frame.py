@@ -70,7 +70,7 @@ def test_the_frame_is_reported_and_counted(demo, tmp_path, cli):
     assert m["aic"] == pytest.approx(n * np.log(m["velocity_rss_m4_s2"] / n) + 2 * (k + 3))
     # the command line: motions relative to a fixed plate need no frame change first
     rel = tmp_path / "rel.csv"
-    assert cli("frame", DEMO / "motions.csv", "--world", DEMO / "world.toml", "--to",
+    assert cli("frame", DEMO / "world.toml", DEMO / "motions.csv", "--to",
                "plate:Vessane", "-o", rel)[0] == 0
     status, out, err = cli("fit", DEMO / "world.toml",
                            DEMO / "hypotheses" / "continental_drag.toml", rel,

@@ -34,7 +34,7 @@ COMMANDS = [
                        "-o", "out/predicted.csv"]),
     ("field.csv", ["field", "demo/world.toml", "demo/motions.csv", "--step", "15", "-o",
                    "out/field.csv"]),
-    ("nnr.csv", ["frame", "demo/motions.csv", "--world", "demo/world.toml", "--to", "nnr",
+    ("nnr.csv", ["frame", "demo/world.toml", "demo/motions.csv", "--to", "nnr",
                  "-o", "out/nnr.csv"]),
     ("boundaries.csv", ["boundaries", "demo/world.toml", "demo/motions.csv",
                         "--spacing-km", "500", "-o", "out/boundaries.csv"]),

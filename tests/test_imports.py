@@ -90,7 +90,7 @@ def test_force_modules_do_not_import_the_package():
 # cycle test above keeps imports one way.
 LAYERS = [
     ("torque.errors", "torque.progress", "torque.tabular", "torque.sphere", "torque.grids",
-     "torque.forces.base", "torque.parallel", "torque._lazy"),
+     "torque.forces.base", "torque.parallel", "torque._lazy", "torque._version"),
     ("torque.locate", "torque.euler"),
     ("torque.world", "torque.continents", "torque.lithosphere", "torque.columns"),
     ("torque.margins", "torque.data"),
@@ -102,7 +102,7 @@ LAYERS = [
     ("torque.inference.system", "torque.inference.covariance", "torque.inference._optimise"),
     ("torque.inference.solvers",),
     ("torque.inference.methods", "torque.inference.statistics", "torque.inference.profile"),
-    ("torque.inference.analysis", "torque.inference.resampling", "torque.torque_table"),
+    ("torque.inference.analysis", "torque.inference.resampling", "torque.results"),
     ("torque.inference.ranking", "torque.inference.stages"),
     ("torque.inference",),                      # the package: its names, lazily
     ("torque.io",),                             # every file read or written

@@ -87,7 +87,7 @@ def test_the_options_refuse_what_cannot_work(cli, tmp_path):
                             for line in (DEMO / "motions.csv").read_text().splitlines()))
     out = tmp_path / "f.json"
     assert_refused(cli("fit", world, hyp, DEMO / "motions.csv", "-o", out, "--model-error",
-                       "1"), out, "--model-error is part of the chi-square misfit")
+                       "1"), out, "model error (--model-error) is part of the chi-square misfit")
     assert_refused(cli("fit", world, hyp, DEMO / "motions.csv", "-o", out, "--model-error",
                        "-1"), out, "0 or more")
     assert_refused(cli("fit", world, hyp, bare, "-o", out, "--misfit", "chi-square"), out,

@@ -109,7 +109,7 @@ def test_motions_relative_to_a_fixed_plate_are_flagged(tmp_path, cli):
     from .conftest import here
     demo = here().parent / "polygons_demo"
     rel = tmp_path / "rel.csv"
-    assert cli("frame", demo / "motions.csv", "--world", demo / "world.toml",
+    assert cli("frame", demo / "world.toml", demo / "motions.csv",
                "--to", "plate:Vessane", "-o", rel)[0] == 0
     hyp = demo / "hypotheses" / "ridge_drag.toml"
     status, _, err = cli("fit", demo / "world.toml", hyp, rel, "-o", tmp_path / "f.json")

@@ -11,7 +11,7 @@ import pytest
 
 import torque
 from torque.inference.ranking import rank
-from torque.torque_table import TorqueTable
+from torque.results import TorqueTable
 
 from .conftest import demo_system, here
 

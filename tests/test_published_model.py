@@ -44,7 +44,7 @@ def job(tmp_path_factory):
                                 '[[force]]\nkind = "drag"\n')
     (out / "rd.toml").write_text('name = "ridge and drag"\n[[force]]\nkind = "ridge"\n'
                                  'coefficient = 1.0\n[[force]]\nkind = "drag"\n')
-    steps = [["frame", MODEL / "motions_G01_fixed.csv", "--world", world, "--to", "nnr",
+    steps = [["frame", world, MODEL / "motions_G01_fixed.csv", "--to", "nnr",
               "-o", out / "nnr.csv"],
              ["field", world, out / "nnr.csv", "--step", "2", "-o", out / "field.csv"],
              ["boundaries", world, out / "nnr.csv", "-o", out / "b.csv"],
@@ -174,7 +174,7 @@ def test_the_whole_job_runs_on_the_twin(twin, tmp_path, cli):
     hyp.write_text('[[force]]\nkind = "ridge"\ncoefficient = 1.0\n[[force]]\nkind = "slab"\n'
                    '[[force]]\nkind = "drag"\n')
     m = tmp_path / "nnr.csv"
-    for argv in (["frame", m, "--world", path, "--to", "nnr", "-o", tmp_path / "n2.csv"],
+    for argv in (["frame", path, m, "--to", "nnr", "-o", tmp_path / "n2.csv"],
                  ["field", path, m, "--step", "3", "-o", tmp_path / "f.csv"],
                  ["boundaries", path, m, "-o", tmp_path / "b.csv"],
                  ["torques", path, hyp, "--motions", m, "-o", tmp_path / "t.csv"],

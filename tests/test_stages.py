@@ -13,7 +13,8 @@ from scipy.spatial.transform import Rotation
 
 from torque.errors import InputError
 from torque.euler import MYR_S, RAD_S_PER_DEG_MYR
-from torque.io.series import load_stage, read_rotations, read_series, run_series
+from torque.io.series import load_stage, read_rotations, read_series
+from torque.workflows import run_series
 from torque.parallel import Executor, spawn_seeds
 from torque.inference.stages import fit_joint, stage_euler_vector
 

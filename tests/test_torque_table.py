@@ -15,7 +15,7 @@ import pytest
 
 import torque
 from torque.euler import vector_to_pole
-from torque.torque_table import TORQUE_UNIT_NM, TorqueTable
+from torque.results import TORQUE_UNIT_NM, TorqueTable
 
 from .conftest import here
 

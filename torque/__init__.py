@@ -15,6 +15,7 @@ decisions.
 """
 
 from ._lazy import lazy_exports
+from ._version import __version__  # noqa: F401
 
 #: Where each name of the package lives: imported on first use (PEP 562), so that
 #: ``import torque`` and ``torque --help`` do not load scipy and the rest.
@@ -39,4 +40,3 @@ __all__ = ["Boundary", "Cooling", "FIT_METHODS", "FitResult", "Inputs", "InputEr
            "analyse", "assemble", "check_world", "compute_torques", "hypothesis_from_dict",
            "load_hypothesis", "load_world", "predict", "rank", "read_motions",
            "to_no_net_rotation", "velocity_field", "world_from_rings", "write_motions"]
-__version__ = "0.1.0"

@@ -445,21 +445,39 @@ class Motions:
         return self.subtract_combination(G)
 
 
-def net_rotation(world, omega) -> np.ndarray:
+def net_rotation(D, omega) -> np.ndarray:
     """Net rotation (rad/s) of plate motions over the whole surface, shape (3,).
 
     The net rotation is the single rotation ``w_net`` whose removal makes the surface
     integral of ``r x v`` vanish. Since ``int_plate r x (w x r) dA = D w`` with ``D`` the
     plate's drag tensor ``int (I - r r^T) dA``, it solves ``(sum D) w_net = sum D w``,
     exactly, from the plates' closed-form tensors. On a tiling ``sum D = (8 pi / 3) I``.
+    This is the one place the formula is written.
 
     Parameters
     ----------
-    world : World
+    D : ndarray, shape (P, 3, 3)
+        The plates' drag tensors (``World.drag_tensor``, or ``System.D``), any common
+        scale.
     omega : ndarray, shape (P, 3)
-        Angular velocity of each plate, in world plate order.
+        Angular velocity of each plate, in the same plate order.
+
+    Returns
+    -------
+    ndarray, shape (3,)
+
+    Examples
+    --------
+    A rigid rotation of every plate together is its own net rotation:
+
+    >>> import torque
+    >>> world = torque.load_world("polygons_demo/world.toml")
+    >>> w = np.array([1e-15, -2e-15, 3e-15])
+    >>> bool(np.allclose(net_rotation(world.drag_tensor, np.tile(w, (len(world.plates), 1))), w,
+    ...                  rtol=1e-12, atol=0))
+    True
     """
-    D = world.drag_tensor
+    D = np.asarray(D, float)
     return np.linalg.solve(D.sum(axis=0), np.einsum("pij,pj->i", D, omega))
 
 

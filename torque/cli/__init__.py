@@ -34,6 +34,7 @@ def build_parser() -> Parser:
         "Plate torques and Euler-pole prediction on a sphere. Results are model-dependent "
         "research estimates, not inputs to hazard or engineering decisions."))
     parser.add_argument("-q", "--quiet", action="store_true", help=QUIET)
+    parser.add_argument("--version", action="version", version=f"torque {_version()}")
     sub = parser.add_subparsers(dest="command", required=True, parser_class=Parser)
     world.add_parser(sub)
     kinematics.add_parser(sub)
@@ -46,6 +47,11 @@ def build_parser() -> Parser:
         p.add_argument("-q", "--quiet", action="store_true", default=argparse.SUPPRESS,
                        help=QUIET)
     return parser
+
+
+def _version() -> str:
+    from .._version import __version__
+    return __version__
 
 
 QUIET = ("no progress bars (they show on stderr only when it is a terminal, for work that "
@@ -63,16 +69,17 @@ def _parser() -> Parser:
     return build_parser()
 
 
-def main(argv=None, *, preloaded=None) -> int:
+def main(argv=None) -> int:
     """Run the ``torque`` command; returns the exit status.
+
+    A world read by one command is read again by the next only if one of its files changed
+    (:func:`torque.workflows.load_inputs`), so many commands in one process (the demo, a
+    notebook) read and check it once.
 
     Parameters
     ----------
     argv : list of str, optional
         The arguments (default ``sys.argv[1:]``).
-    preloaded : Inputs, optional
-        A world already read and checked (:class:`torque.io.Inputs`); a command naming the
-        same world file uses it instead of reading it again (the demo does this).
 
     Returns
     -------
@@ -84,7 +91,6 @@ def main(argv=None, *, preloaded=None) -> int:
     parser = _parser()
     argv = list(sys.argv[1:] if argv is None else argv)
     args = parser.parse_args(argv)
-    args.preloaded = preloaded
     args.argv, args.started = argv, time.time()        # for the run manifest
     was_quiet = progress.is_quiet()
     progress.set_quiet(was_quiet or args.quiet)

@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-import dataclasses
 import sys
 from contextlib import ExitStack
 
 import numpy as np
 
-from ..errors import InputError, require_memory
+from ..errors import InputError
 from . import text
 from .common import EXIT_OK, arg_type, count, frame_warning, inputs, manifest
 
@@ -78,10 +77,10 @@ def add_parser(sub) -> None:
     p = sub.add_parser("predict", help="Euler vectors that balance the torques",
                        description="Forward model: the Euler vector of every plate that "
                        "balances the torques of a hypothesis, in the frame where the mantle "
-                       "is at rest. Free coefficients take their values from --coefficients.")
+                       "is at rest. Free coefficients take their values from --fit.")
     p.add_argument("world", help="world file (TOML)")
     p.add_argument("hypothesis", help="hypothesis file (TOML)")
-    p.add_argument("--coefficients", metavar="FIT.json", help="output of torque fit")
+    add_fit_option(p, "values of the free coefficients")
     p.add_argument("--motions", help="motions CSV, only to synthesise sea-floor ages when "
                    "the world has no age grid")
     p.add_argument("-o", "--output", required=True, help="output motions CSV")
@@ -110,6 +109,23 @@ def add_parser(sub) -> None:
     p.set_defaults(func=run_rank)
 
 
+def add_fit_option(p, what: str, required: bool = False) -> None:
+    """``--fit FIT.json`` (a ``torque fit`` output), with its former name
+    ``--coefficients`` kept as an alias.
+
+    Parameters
+    ----------
+    p : argparse.ArgumentParser
+    what : str
+        What the command takes from the fit, for the help.
+    required : bool
+    """
+    p.add_argument("--fit", "--coefficients", dest="fit", metavar="FIT.json",
+                   required=required,
+                   help=f"output of torque fit: {what}, in its mantle frame (--coefficients "
+                   "is the same option under its former name)")
+
+
 def add_misfit_options(p) -> None:
     """``--misfit``, ``--covariance`` and ``--model-error``, shared by fit and rank.
 
@@ -122,80 +138,27 @@ def add_misfit_options(p) -> None:
     p.add_argument("--model-error", type=nonnegative, metavar="MM_YR", help=MODEL_ERROR)
 
 
-@dataclasses.dataclass(frozen=True, eq=False)
-class Problem:
-    """A hypothesis on a world's inputs, with observed motions if any, and its balance.
+def options(args):
+    """The :class:`~torque.workflows.FitOptions` of a command line (fit, rank).
 
-    Attributes
+    Parameters
     ----------
-    inputs : Inputs
-    hypothesis : Hypothesis
-    motions : Motions or None
-    omega : ndarray, shape (P, 3), or None
-        The motions in world plate order (rad/s).
-    terms : list of ForceTerm
-    system : System
+    args : argparse.Namespace
+
+    Returns
+    -------
+    FitOptions
     """
-
-    inputs: object
-    hypothesis: object
-    motions: object
-    omega: object
-    terms: list
-    system: object
-
-    def __repr__(self) -> str:
-        return f"Problem({self.system!r}, motions {'given' if self.omega is not None else 'none'})"
-
-    @classmethod
-    def build(cls, data, hypothesis, motions=None) -> "Problem":
-        """Build every term of ``hypothesis`` on the inputs ``data``.
-
-        Parameters
-        ----------
-        data : Inputs
-        hypothesis : Hypothesis
-        motions : Motions, optional
-
-        Returns
-        -------
-        Problem
-        """
-        from ..inference.system import assemble
-        from ..forces import build_terms
-        omega = motions.for_world(data.world) if motions is not None else None
-        terms = build_terms(data.context(hypothesis, omega))
-        return cls(data, hypothesis, motions, omega, terms,
-                   assemble(data.world, hypothesis, terms))
-
-    def rebuild(self, physics):
-        """The balance for other physics (a Monte Carlo draw); the world's data, located
-        and clipped once, are shared.
-
-        Parameters
-        ----------
-        physics : Physics
-
-        Returns
-        -------
-        System
-        """
-        from ..inference.system import assemble
-        from ..forces import build_terms
-        hyp = dataclasses.replace(self.hypothesis, physics=physics)
-        return assemble(self.inputs.world, hyp,
-                        build_terms(self.inputs.context(hyp, self.omega)))
-
-    def notes(self) -> list:
-        """The notes of every term, in order."""
-        return [n for t in self.terms for n in t.notes]
-
-
-def _problem(args, motions_path=None) -> Problem:
-    from ..io import load_hypothesis, read_motions
-    data = inputs(args)
-    motions = read_motions(motions_path) if motions_path else None
-    return Problem.build(data, load_hypothesis(args.hypothesis), motions)
+    from ..workflows import FitOptions
+    get = lambda name, default=None: getattr(args, name, default)  # noqa: E731
+    return FitOptions(misfit=args.misfit, covariance=args.covariance,
+                      model_error_mm_yr=args.model_error, weighting=args.weighting,
+                      free_frame=args.free_frame,
+                      mantle_rotation=_mantle_rotation(get("mantle_rotation")),
+                      seed=get("seed", 0), bootstrap=get("bootstrap", 0),
+                      monte_carlo=get("monte_carlo", 0),
+                      physics_samples=get("physics_samples", 0),
+                      resample_fit=args.resample_fit, profile=not get("no_profile", False))
 
 
 def run_fit(args) -> int:
@@ -211,135 +174,25 @@ def run_fit(args) -> int:
     int
         The exit status (0).
     """
-    from ..inference.analysis import analyse
-    from ..io import output_suffix, write_json
-    from ..inference.resampling import bootstrap, monte_carlo_motions, monte_carlo_physics
+    from ..io import output_suffix, read_motions, write_json
+    from ..workflows import CIRCULAR, fit
     output_suffix(args.output, (".json",))
-    pb = _problem(args, args.motions)
-    cov = covariances(args, pb.motions, pb.inputs.world, pb.system)
-    if args.monte_carlo and cov.data is None:
-        raise InputError("a Monte Carlo over motions needs their covariance: the file has no "
-                         "cov_xx ... cov_zz columns", file=args.motions,
-                         hint="add them in (deg/Myr)^2, give --covariance FILE, or leave out "
-                         "--monte-carlo")
-    if args.physics_samples and not pb.hypothesis.spread:
-        raise InputError("a Monte Carlo over physics needs a [spread] table",
-                         file=args.hypothesis, hint="add one, or leave out --physics-samples")
-    _require_sample_memory(pb.system, args)
-    mantle = _mantle_rotation(args.mantle_rotation)
-    if not args.free_frame and mantle is None:
-        warn_frame(pb.motions)
-    obs_cov = cov.fit
-    rep = analyse(pb.system, pb.omega, args.weighting, free_frame=args.free_frame,
-                  obs_cov=obs_cov, mantle_rotation=mantle, profile=not args.no_profile)
-    circular = pb.inputs.used_synthesised_ages
-    if circular:
+    opts = options(args)
+    data = inputs(args)
+    motions = read_motions(args.motions)
+    if not opts.free_frame and opts.mantle_rotation is None:
+        warn_frame(motions)
+    run = fit(data, args.hypothesis, motions, opts)
+    if run.circular:
         print(f"warning: {CIRCULAR}", file=sys.stderr)
-    unc = {}
-    if args.bootstrap:
-        unc["bootstrap"] = bootstrap(pb.system, rep.omega_obs, args.bootstrap, args.seed,
-                                     args.weighting, args.resample_fit, obs_cov)
-    if args.monte_carlo:
-        unc["monte_carlo_motions"] = monte_carlo_motions(
-            pb.system, rep.omega_obs, cov.data, args.monte_carlo, args.seed, args.weighting,
-            args.resample_fit, obs_cov)
-    if args.physics_samples:
-        unc["monte_carlo_physics"] = monte_carlo_physics(
-            pb.rebuild, pb.hypothesis.physics, pb.hypothesis.spread, rep.omega_obs,
-            args.physics_samples, args.seed, args.weighting, args.resample_fit, obs_cov)
-    result = dataclasses.replace(rep, uncertainty=unc).result(
-        pb.notes() + cov.notes + ([f"circular: {CIRCULAR}"] if circular else []),
-        observed_cov=cov.data, model_cov=cov.model)
-    write_json(args.output, {**result.as_dict(), "run": manifest(args, pb.inputs)})
-    print(text.fit(result.as_dict()))
+    write_json(args.output, {**run.result.as_dict(), "run": manifest(args, data)})
+    print(text.fit(run.result.as_dict()))
     print(f"wrote {args.output}")
     return EXIT_OK
 
 
-CIRCULAR = ("sea-floor ages were synthesised from the same motions that are fitted, so the "
-            "fit is partly circular (the ages, and so ridge push and slab pull, depend on "
-            "the motions); give the world an age grid")
-
-
-@dataclasses.dataclass(frozen=True, eq=False)
-class Covariances:
-    """The covariances a fit uses, in world plate order, (rad/s)^2.
-
-    Attributes
-    ----------
-    data : ndarray, shape (P, 3, 3) or (3P, 3P), or None
-        Of the observations: the motions' cov_* columns, or a ``--covariance`` file.
-    model : ndarray, shape (P, 3, 3), or None
-        The ``--model-error`` term.
-    fit : ndarray or None
-        What the chi-square uses (``data`` plus ``model``); None for the area misfit.
-    notes : list of str
-        Where they came from, for the fit's notes.
-    """
-
-    data: object
-    model: object
-    fit: object
-    notes: list
-
-    def __repr__(self) -> str:
-        shape = "none" if self.data is None else "x".join(map(str, np.shape(self.data)))
-        return f"Covariances(data {shape}, model error {self.model is not None})"
-
-
-def covariances(args, motions, world, system) -> Covariances:
-    """The covariances of ``--misfit``, ``--covariance`` and ``--model-error``, checked.
-
-    Parameters
-    ----------
-    args : argparse.Namespace
-    motions : Motions
-    world : World
-    system : System
-        Any hypothesis' balance on ``world`` (the model error needs its drag tensors).
-
-    Returns
-    -------
-    Covariances
-
-    Raises
-    ------
-    InputError
-        For a chi-square misfit with no covariance at all, or a model error without it.
-    """
-    from ..inference.covariance import add_covariances, model_error_covariance
-    from ..io import read_covariance
-    notes = []
-    if args.covariance:
-        data = read_covariance(args.covariance, world.plate_names)
-        notes.append(f"covariance: the full covariance of {args.covariance} (correlations "
-                     "between plates included)"
-                     + ("; the motions' cov_* columns were not used" if motions.cov is not None
-                        else ""))
-    else:
-        data = motions.cov_for_world(world)
-    if args.misfit != "chi-square":
-        if args.model_error is not None:
-            raise InputError("--model-error is part of the chi-square misfit",
-                             hint="add --misfit chi-square, or leave out --model-error")
-        return Covariances(data, None, None, notes)
-    model = None
-    if args.model_error:
-        model = model_error_covariance(system, args.model_error)
-        notes.append(f"model error: {args.model_error:g} mm/yr RMS velocity on each plate added "
-                     "to the observations' covariance")
-    if data is None and model is None:
-        raise InputError("a chi-square misfit needs a covariance: the motions have no cov_xx "
-                         "... cov_zz columns", file=args.motions,
-                         hint="add them in (deg/Myr)^2, give --covariance FILE or "
-                         "--model-error MM_YR, or leave out --misfit chi-square")
-    total = data if model is None else add_covariances(data, model)
-    return Covariances(data, model, total, notes)
-
-
 def _mantle_rotation(text):
-    """``--mantle-rotation LAT,LON,RATE`` as an Euler vector (rad/s), or None."""
-    from ..euler import pole_to_vector
+    """``--mantle-rotation LAT,LON,RATE`` as ``(lat, lon, rate_deg_myr)``, or None."""
     if text is None:
         return None
     try:
@@ -347,10 +200,7 @@ def _mantle_rotation(text):
     except ValueError:
         raise InputError(f"--mantle-rotation must be LAT,LON,RATE (degrees, degrees, "
                          f"deg/Myr), got {text!r}") from None
-    if not (np.isfinite([lat, lon, rate]).all() and -90 <= lat <= 90):
-        raise InputError(f"--mantle-rotation {text}: the pole's latitude must be in "
-                         "[-90, 90] and every number finite")
-    return pole_to_vector(lat, lon, rate)
+    return (lat, lon, rate)
 
 
 def warn_frame(motions) -> None:
@@ -363,23 +213,6 @@ def warn_frame(motions) -> None:
     message = frame_warning(motions)
     if message:
         print(f"warning: {message}", file=sys.stderr)
-
-
-def _require_sample_memory(system, args):
-    """Refuse sample counts whose arrays cannot fit in memory, before any is drawn."""
-    P, K = system.n_plates, len(system.labels)
-    per_member = {
-        # draws (3P), the torque columns of every member and their scaled copies (3P x K)
-        "monte_carlo": 8 * 3 * P * (3 * K + 4),
-        # one row of results per draw, with Python's overhead
-        "bootstrap": 8 * K + 120,
-        "physics_samples": 8 * K + 120,
-    }
-    for opt, per in per_member.items():
-        n = getattr(args, opt)
-        if n:
-            require_memory(n * per, f"--{opt.replace('_', '-')} {n:,}",
-                           hint="ask for fewer samples")
 
 
 def run_predict(args) -> int:
@@ -395,28 +228,17 @@ def run_predict(args) -> int:
     int
         The exit status (0).
     """
-    from ..inference.solvers import predict
-    from ..euler import Motions, net_rotation
-    from ..io import output_suffix, read_coefficients, write_motions
+    from ..euler import net_rotation
+    from ..io import output_suffix, write_motions
+    from ..workflows import predict_motions
     output_suffix(args.output, (".csv",))
-    pb = _problem(args, args.motions)
-    s = pb.system
-    c = s.fixed.copy()
-    if s.free.any():
-        if not args.coefficients:
-            raise InputError(f"free coefficient(s) {', '.join(pb.hypothesis.free_labels)} "
-                             "need values", file=args.hypothesis,
-                             hint="pass --coefficients FIT.json from torque fit, or fix them "
-                             "in the hypothesis")
-        values = read_coefficients(args.coefficients, pb.hypothesis)
-        for i, label in enumerate(s.labels):
-            if s.free[i]:
-                c[i] = values[label]
-    omega = predict(s, c)
-    world = pb.inputs.world
-    write_motions(args.output, Motions(tuple(world.plate_names), omega))
+    data = inputs(args)
+    world = data.world
+    motions, pb = predict_motions(data, args.hypothesis, args.fit, args.motions)
+    omega = motions.omega
+    write_motions(args.output, motions)
     print(f"predicted Euler vectors of {len(omega)} plates (mantle at rest); net rotation "
-          f"{text.pole(net_rotation(world, omega))}")
+          f"{text.pole(net_rotation(world.drag_tensor, omega))}")
     for note in pb.notes():
         print(f"note: {note}")
     print(f"wrote {args.output}")
@@ -436,36 +258,20 @@ def run_rank(args) -> int:
     int
         The exit status (0).
     """
-    from ..io import (atomic_path, atomic_write, dumps, load_hypothesis, output_suffix,
-                      read_motions, write_csv)
-    from ..inference.ranking import rank
+    from ..io import atomic_path, atomic_write, dumps, output_suffix, read_motions, write_csv
+    from ..workflows import CIRCULAR, rank
     if args.output:
         output_suffix(args.output, (".csv",))
     if args.json:
         output_suffix(args.json, (".json",))
+    opts = options(args)
     data = inputs(args)
     motions = read_motions(args.motions)
     if not args.free_frame:
         warn_frame(motions)
-    systems = [Problem.build(data, load_hypothesis(h), motions).system
-               for h in args.hypotheses]
+    rows, tests = rank(data, args.hypotheses, motions, opts, args.allow_synthetic_ages)
     if data.used_synthesised_ages:
-        if not args.allow_synthetic_ages:
-            raise InputError(CIRCULAR + "; ranking hypotheses on such ages can favour the "
-                             "ones the synthesis flatters", file=args.world,
-                             hint="add 'ages' to the world file, or pass "
-                             "--allow-synthetic-ages to rank anyway")
         print(f"warning: {CIRCULAR}", file=sys.stderr)
-    names = [s.name for s in systems]
-    dup = sorted({n for n in names if names.count(n) > 1})
-    if dup:
-        files = [h for h, n in zip(args.hypotheses, names) if n in dup]
-        raise InputError(f"hypotheses share the name(s) {', '.join(map(repr, dup))} "
-                         f"(files {', '.join(files)})", file=files[0],
-                         hint="give each a different 'name'")
-    obs_cov = covariances(args, motions, data.world, systems[0]).fit
-    rows, tests = rank(systems, motions.for_world(data.world), args.weighting,
-                       free_frame=args.free_frame, fit=args.resample_fit, obs_cov=obs_cov)
     print(text.rank(rows, tests))
     # both outputs or neither: the CSV goes into place only once the JSON has
     with ExitStack() as stack:

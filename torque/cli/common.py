@@ -69,12 +69,9 @@ positive = arg_type(float, "a number", lambda x: bool(np.isfinite(x) and x > 0),
 
 
 def inputs(args, path=None, *, valid: bool = True) -> Inputs:
-    """The inputs of the world named on the command line, read and checked once.
-
-    ``args.preloaded`` (set by :func:`torque.cli.main` when a caller such as the demo
-    passes already loaded :class:`~torque.io.Inputs`) is used when it is of the same world
-    file; otherwise the world is read here and, with ``valid``, refused if it has errors
-    (:func:`torque.validate.require_valid`).
+    """The inputs of the world named on the command line, read and checked once per
+    process (:func:`torque.workflows.load_inputs`) and, with ``valid``, refused if it has
+    errors (:func:`torque.validate.require_valid`).
 
     Parameters
     ----------
@@ -88,14 +85,8 @@ def inputs(args, path=None, *, valid: bool = True) -> Inputs:
     -------
     Inputs
     """
-    from .. import progress
-    from ..io import Inputs
-    path = Path(path if path is not None else args.world)
-    pre = getattr(args, "preloaded", None)
-    if pre is not None and pre.path == path.resolve():
-        return pre
-    with progress.task(f"reading and checking {path.name}"):
-        return Inputs.load(path, valid=valid)
+    from ..workflows import load_inputs
+    return load_inputs(Path(path if path is not None else args.world), valid=valid)
 
 
 #: Arguments of any command that name input files.

@@ -2,8 +2,7 @@
 
 from __future__ import annotations
 
-from ..errors import InputError
-from .common import EXIT_OK, inputs, motions_for
+from .common import EXIT_OK, inputs
 
 
 def add_parser(sub, main) -> None:
@@ -24,7 +23,11 @@ def add_parser(sub, main) -> None:
     p.add_argument("--kind", required=True, choices=list(KINDS))
     p.add_argument("--motions", help="observed motions CSV")
     p.add_argument("--predicted", help="predicted motions CSV (from torque predict)")
-    p.add_argument("--fit", help="output of torque fit")
+    p.add_argument("--fit", metavar="FIT.json",
+                   help="output of torque fit (motions are drawn in its mantle frame)")
+    p.add_argument("--frame", choices=("mantle", "motions"), default="mantle",
+                   help="with --fit: draw motions in the frame where the fitted mantle is "
+                   "at rest (default), or in the frame of the observed motions")
     p.add_argument("--hypothesis", help="hypothesis file (TOML)")
     p.add_argument("-o", "--output", required=True, help="output file (.png, .svg, .pdf)")
     p.set_defaults(func=run_map)
@@ -54,28 +57,14 @@ def run_map(args) -> int:
         The exit status (0).
     """
     from .. import progress
-    from ..io import load_hypothesis, output_suffix, read_fit
-    from ..present.maps import KINDS, MapInputs
+    from ..io import output_suffix
+    from ..present.maps import KINDS
+    from ..workflows import map_inputs
     output_suffix(args.output, (".png", ".svg", ".pdf"))
-    kind = KINDS[args.kind]
-    given = {k for k in ("motions", "predicted", "fit", "hypothesis") if getattr(args, k)}
-    missing = [k for k in kind.needs if k not in given]
-    if missing:
-        raise InputError(f"a {args.kind} map needs {', '.join('--' + m for m in missing)}")
-    extra = sorted(given - set(kind.allows))
-    if extra:
-        raise InputError(f"{', '.join('--' + e for e in extra)} make(s) no sense for a "
-                         f"{args.kind} map", hint=f"a {args.kind} map shows {kind.shows}")
-    data = inputs(args)
-    world = data.world
-    given_inputs = MapInputs(
-        data,
-        motions_for(args.motions, world)[1] if args.motions else None,
-        motions_for(args.predicted, world)[1] if args.predicted else None,
-        read_fit(args.fit, world.plate_names) if args.fit else None, args.fit,
-        load_hypothesis(args.hypothesis) if args.hypothesis else None)
+    given_inputs = map_inputs(inputs(args), args.kind, args.motions, args.predicted, args.fit,
+                              args.hypothesis, args.frame)
     with progress.task(f"drawing the {args.kind} map"):
-        kind.draw(given_inputs, args.output)
+        KINDS[args.kind].draw(given_inputs, args.output)
     print(f"wrote {args.output}")
     return EXIT_OK
 

@@ -3,6 +3,7 @@
 
 from __future__ import annotations
 
+import argparse
 import dataclasses
 
 import numpy as np
@@ -25,11 +26,15 @@ def add_parser(sub) -> None:
     p = sub.add_parser("frame", help="change the reference frame of a set of motions",
                        description="Express plate motions in the no-net-rotation frame (the "
                        "frame in which the surface integral of r x v vanishes, computed "
-                       "exactly from the plates' drag tensors) or with one plate fixed. "
-                       "Prints the net rotation before and after.")
-    p.add_argument("motions", help="motions CSV (plate,lat,lon,rate)")
-    p.add_argument("--world", required=True, help="world file (TOML)")
-    p.add_argument("--to", required=True, metavar="FRAME", help="nnr, or plate:NAME")
+                       "exactly from the plates' drag tensors), with one plate fixed, or "
+                       "in the frame where a fit's mantle is at rest (its fitted or given "
+                       "mantle rotation removed). Prints the net rotation before and after.")
+    p.add_argument("world", help="world file (TOML)")
+    p.add_argument("motions", nargs="?", help="motions CSV (plate,lat,lon,rate)")
+    # the order before the world came first: refused with the command in the new order
+    p.add_argument("--world", dest="old_world", help=argparse.SUPPRESS)
+    p.add_argument("--to", required=True, metavar="FRAME",
+                   help="nnr, plate:NAME, or mantle:FIT.json (a torque fit output)")
     p.add_argument("-o", "--output", required=True, help="output motions CSV")
     p.set_defaults(func=run_frame)
 
@@ -81,7 +86,13 @@ def run_frame(args) -> int:
         The exit status (0).
     """
     from ..euler import net_rotation, to_no_net_rotation
-    from ..io import output_suffix, read_motions, write_motions
+    from ..io import output_suffix, read_fit, read_motions, write_motions
+    from ..workflows import in_fit_frame
+    if args.old_world is not None or args.motions is None:
+        motions = args.world if args.old_world is not None else "MOTIONS"
+        world = args.old_world or args.world
+        raise InputError("the world file comes first: torque frame "
+                         f"{world} {motions} --to {args.to} -o {args.output}")
     output_suffix(args.output, (".csv",))
     world = inputs(args, args.world).world
     motions = read_motions(args.motions)
@@ -90,17 +101,25 @@ def run_frame(args) -> int:
     if target == "nnr":
         out, w_net = to_no_net_rotation(world, motions)
     elif target.startswith("plate:"):
-        w_net = net_rotation(world, omega)
+        w_net = net_rotation(world.drag_tensor, omega)
         name = target[len("plate:"):]
         if name not in world.plate_index:
             raise InputError(f"--to {target}: no plate named {name!r}",
                              file=args.world, hint=f"plates are {', '.join(world.plate_names)}")
         out = motions.relative_to(name)
+    elif target.startswith("mantle:"):
+        w_net = net_rotation(world.drag_tensor, omega)
+        fit = read_fit(target[len("mantle:"):], world.plate_names)
+        moved = in_fit_frame(omega, fit)
+        order = [world.plate_index[p] for p in motions.plates]
+        # a rotation of the frame leaves the motions' covariance as it is (the fit's own
+        # uncertainty in the frame is not added)
+        out = motions.with_omega(moved[order], motions.cov)
     else:
         raise InputError(f"--to {target!r} is not a frame",
-                         hint="use --to nnr or --to plate:NAME")
+                         hint="use --to nnr, --to plate:NAME or --to mantle:FIT.json")
     write_motions(args.output, out, world.plate_names)
-    new_net = net_rotation(world, out.for_world(world))
+    new_net = net_rotation(world.drag_tensor, out.for_world(world))
     print(f"net rotation of {args.motions}: {text.pole(w_net)}")
     print(f"net rotation in the new frame: {text.pole(new_net)}")
     print(f"wrote {args.output}")

@@ -7,7 +7,8 @@ import numpy as np
 
 from ..errors import InputError
 from . import text
-from .common import EXIT_OK, inputs, manifest, motions_for
+from .balance import add_fit_option
+from .common import EXIT_OK, inputs, manifest
 
 DEFAULT_COOLING_AGES = (1, 2, 5, 10, 20, 30, 40, 50, 60, 80, 100, 120, 150, 200)
 
@@ -33,7 +34,7 @@ def add_parser(sub) -> None:
     p = sub.add_parser("torques", help="torque of each force term on each plate",
                        description="Torque about the planet's centre of every force term of "
                        "a hypothesis on every plate: at the fitted coefficients with "
-                       "--coefficients FIT.json, else at the term's fixed coefficient or at 1 "
+                       "--fit FIT.json (motions in its mantle frame), else at the term's fixed coefficient or at 1 "
                        "for a free one (each row says which). Magnitudes in 10^25 N m, the "
                        "torque's pole, an equivalent force at the plate's centroid, and per "
                        "plate the total (with motions, the residual of the balance). "
@@ -41,8 +42,7 @@ def add_parser(sub) -> None:
     p.add_argument("world", help="world file (TOML)")
     p.add_argument("hypothesis", help="hypothesis file (TOML)")
     p.add_argument("--motions", help="motions CSV (plate,lat,lon,rate)")
-    p.add_argument("--coefficients", metavar="FIT.json",
-                   help="output of torque fit: torques at its fitted coefficients")
+    add_fit_option(p, "torques at its fitted coefficients")
     p.add_argument("-o", "--output", required=True, help="output CSV")
     p.set_defaults(func=run_torques)
 
@@ -114,30 +114,13 @@ def run_torques(args) -> int:
     int
         The exit status (0).
     """
-    from ..io import load_hypothesis, output_suffix, read_coefficients, write_csv
-    from ..torque_table import TorqueTable
-    from ..forces import build_terms
+    from ..io import output_suffix, write_csv
+    from ..workflows import torque_table
 
     output_suffix(args.output, (".csv",))
-    data = inputs(args)
-    world = data.world
-    hyp = load_hypothesis(args.hypothesis)
-    omega = motions_for(args.motions, world)[1] if args.motions else None
-    terms = build_terms(data.context(hyp, omega))
-    moving = [t.label for t in terms if t.velocity_dependent]
-    if moving and omega is None:
-        raise InputError(f"term(s) {', '.join(moving)} depend on the plates' motion",
-                         file=args.hypothesis, hint="give the motions with --motions M.csv")
-    coefs = [1.0 if t.spec.free else t.spec.coefficient for t in terms]
-    sources = ["unit" if t.spec.free else "fixed" for t in terms]
-    if args.coefficients:
-        fitted = read_coefficients(args.coefficients, hyp)
-        for i, t in enumerate(terms):
-            if t.spec.free:
-                coefs[i], sources[i] = fitted[t.label], "fitted"
-    table = TorqueTable.from_terms(world, terms, coefs, omega, sources)
+    table, pb = torque_table(inputs(args), args.hypothesis, args.motions, args.fit)
     columns = table.columns()
     write_csv(args.output, columns)
-    print(text.torques(table, terms, args.coefficients))
+    print(text.torques(table, pb.terms, args.fit))
     print(f"wrote {args.output} ({len(columns['plate'])} rows)")
     return EXIT_OK

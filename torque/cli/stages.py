@@ -58,10 +58,11 @@ def run_stages(args) -> int:
     from ..io import write_csv, write_json
     from ..io.files import check_output_path
     from ..io.manifest import run_manifest
-    from ..io.series import run_series, series_record, series_tables
+    from ..io.series import series_record, series_tables
     from ..parallel import Executor
     from ..present.report import write_series_report
     from ..present.timeplots import default_plates, speed_through_time, torque_through_time
+    from ..workflows import run_series
     outdir = Path(args.outdir)
     if outdir.exists() and not outdir.is_dir():
         raise InputError("exists and is not a folder", file=outdir)

@@ -2,7 +2,8 @@
 
 The runner calls the command line itself, in-process, so that it exercises exactly what
 users run; ``main`` is passed in (no import of :mod:`torque.cli`, which imports this
-module). The demo world's inputs are read and checked once and handed to every step.
+module). The demo world's inputs are read and checked once
+(:func:`torque.workflows.load_inputs` keeps them for every step of the process).
 """
 
 from __future__ import annotations
@@ -14,13 +15,13 @@ from pathlib import Path
 
 from .. import progress
 from ..errors import InputError
-from ..forces import build_terms
-from ..io import Inputs, atomic_write, load_hypothesis, read_fit, read_motions
+from ..io import atomic_write, read_fit
 from ..io.files import check_output_path, read_json
 from ..io.manifest import run_manifest
 from ..parallel import small_solves
 from ..present.report import write_html, write_markdown
 from ..present import maps
+from ..workflows import load_inputs, map_inputs
 from .planet import BUNDLED, TRUTH_HYPOTHESIS, write
 
 #: The seed of every resampling the demo runs.
@@ -40,7 +41,7 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
     main : callable
         The command line's entry point (``torque.cli.main``), passed in so that the demo
         runs exactly what users run without importing the command line (no cycle). It is
-        called as ``main(argv, preloaded=inputs)``.
+        called as ``main(argv)``.
     outdir : str or Path
         Must be empty (or missing) unless ``force``; even then only the files this run
         writes are replaced, and nothing is deleted.
@@ -75,14 +76,14 @@ def _run(main, outdir, echo) -> dict:
     hyps = sorted((src / "hypotheses").glob("*.toml"))
     truth = read_json(src / "truth.json")
     with progress.task("demo: reading and checking the world"):
-        inputs = Inputs.load(world)    # read and checked once, for every step
+        inputs = load_inputs(world)    # read and checked once, for every step
 
     def step(*argv):
         buf = io.StringIO()
         commands.append([str(a) for a in argv])
         what = f"{argv[0]} {Path(argv[2]).stem}" if argv[0] == "fit" else argv[0]
         with progress.task(f"demo: torque {what}"), contextlib.redirect_stdout(buf):
-            status = main([str(a) for a in argv], preloaded=inputs)
+            status = main([str(a) for a in argv])
         if status != 0:
             raise InputError(f"demo step 'torque {argv[0]}' failed (status {status})")
         return buf.getvalue()
@@ -109,9 +110,9 @@ def _run(main, outdir, echo) -> dict:
     by_name = {f.hypothesis: stem for stem, f in fits.items()}
     best = by_name[rows[0]["name"]]
     best_hyp = src / "hypotheses" / f"{best}.toml"
-    step("torques", world, best_hyp, "--motions", motions, "--coefficients",
+    step("torques", world, best_hyp, "--motions", motions, "--fit",
          outdir / "fits" / f"{best}.json", "-o", outdir / "torques.csv")
-    step("predict", world, best_hyp, "--coefficients", outdir / "fits" / f"{best}.json",
+    step("predict", world, best_hyp, "--fit", outdir / "fits" / f"{best}.json",
          "-o", outdir / "predicted.csv")
     step("field", world, motions, "--step", "1", "-o", outdir / "field.nc")
     step("boundaries", world, motions, "-o", outdir / "boundary_motion.csv")
@@ -205,22 +206,19 @@ def draw_maps(outdir, inputs, motions_path, predicted_path, hyp_path, fit_path) 
     list of (str, str)
         Title and path relative to ``outdir`` of every figure.
     """
-    world = inputs.world
-    cont = inputs.continents
-    obs = read_motions(motions_path).for_world(world)
-    pred = read_motions(predicted_path).for_world(world)
-    hyp = load_hypothesis(hyp_path)
-    terms = build_terms(inputs.context(hyp, obs))
-    fit = read_fit(fit_path, world.plate_names)
-    coefs = fit.values([t.label for t in terms], file=fit_path)
     m = Path(outdir) / "maps"
-    figs = [("Plates and boundaries", maps.plates_map(world, m / "plates.png", cont)),
-            ("Velocities, observed and predicted",
-             maps.velocity_map(world, m / "velocities.png", obs, pred, cont)),
-            ("Euler poles with 95 % ellipses", maps.poles_map(world, m / "poles.png", fit)),
-            ("Velocity misfit", maps.misfit_map(world, m / "misfit.png", obs, pred)),
-            ("Force budget", maps.budget_chart(m / "budget.png", fit)),
-            ("Torques", maps.torque_chart(m / "torques.png", world, terms, coefs, obs)),
-            ("Torques on the globe",
-             maps.torque_globe(m / "torque_globe.png", world, terms, coefs, obs))]
+    figs = []
+    for title, kind, name, given in (
+            ("Plates and boundaries", "plates", "plates", {}),
+            ("Velocities, observed and predicted", "velocities", "velocities",
+             {"motions": motions_path, "predicted": predicted_path, "fit": fit_path}),
+            ("Euler poles with 95 % ellipses", "poles", "poles", {"fit": fit_path}),
+            ("Velocity misfit", "misfit", "misfit", {"fit": fit_path}),
+            ("Force budget", "budget", "budget", {"fit": fit_path}),
+            ("Torques", "torques", "torques",
+             {"motions": motions_path, "fit": fit_path, "hypothesis": hyp_path}),
+            ("Torques on the globe", "torque-globe", "torque_globe",
+             {"motions": motions_path, "fit": fit_path, "hypothesis": hyp_path})):
+        figs.append((title, maps.KINDS[kind].draw(map_inputs(inputs, kind, **given),
+                                                  m / f"{name}.png")))
     return [(t, str(Path(p).relative_to(outdir))) for t, p in figs]

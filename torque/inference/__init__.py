@@ -68,7 +68,6 @@ _EXPORTS = {
     "bootstrap": "resampling",
     "monte_carlo_motions": "resampling",
     "monte_carlo_physics": "resampling",
-    "Row": "ranking",
     "Ranking": "ranking",
     "cross_validation_errors": "ranking",
     "cross_validation": "ranking",

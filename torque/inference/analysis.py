@@ -10,7 +10,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..euler import RAD_S_PER_DEG_MYR, vector_to_pole
+from ..euler import RAD_S_PER_DEG_MYR, net_rotation, vector_to_pole
 from ..results import Coefficient, FitResult
 from .covariance import covariance_blocks
 from .methods import FIT_METHODS, PREFERRED_FIT
@@ -208,10 +208,8 @@ class Report:
             lat, lon, rate = vector_to_pole(v)
             return {"lat": float(lat), "lon": float(lon), "rate": float(rate)}
 
-        def net(omega):          # the rotation whose removal zeroes int r x v dA
-            return np.linalg.solve(s.D.sum(0), np.einsum("pij,pj->i", s.D, omega))
-        nets = {"net_rotation_observed": pole(net(self.omega_obs)),
-                "net_rotation_predicted": pole(net(self.omega_pred))}
+        nets = {"net_rotation_observed": pole(net_rotation(s.D, self.omega_obs)),
+                "net_rotation_predicted": pole(net_rotation(s.D, self.omega_pred))}
         if self.frame is None:
             return {"free": False, "given": False, "rotation": None,
                     "vector_deg_myr": None, "stderr_deg_myr": None,

@@ -6,10 +6,13 @@ predicted, and the left-out plate's RMS velocity misfit is kept; the error is th
 area-weighted RMS of these. It asks what the data can check, how well each hypothesis
 predicts a plate it was not fitted to, and it needs no assumption about the errors'
 independence or variance. Rows are sorted by it, best first. Its standard error comes from
-the spread over plates; a hypothesis whose per-plate squared errors exceed the best one's
-by less than one standard error of the paired difference cannot be told apart from it (the
-one-standard-error rule of Hastie, Tibshirani and Friedman 2009, sec. 7.10, applied to the
-paired per-plate differences), and the simplest of those is the rule's choice.
+the spread over plates. A hypothesis whose error lies within one standard error of the
+best one's error (that standard error: the best model's own) cannot be told apart from it
+by cross-validation, and the simplest of those is the rule's choice (the
+one-standard-error rule of Hastie, Tibshirani and Friedman 2009, sec. 7.10; a row's
+``within_one_se``). How far each lies above the best in standard errors of the paired
+per-plate difference is reported beside it (``cv_excess_se``), and is what compares two
+nested hypotheses without a covariance.
 
 Information criteria (AIC, AICc, BIC) come from :meth:`torque.inference.analysis.Report.result`,
 with the effective numbers of observations and parameters (a free frame's three
@@ -40,13 +43,12 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 
 from .. import progress
 from ..errors import InputError
 from ..tabular import html_table
+from ..results import RankRow
 from .analysis import analyse
 from .solvers import (
     fit_torque,
@@ -59,57 +61,8 @@ from .statistics import f_test, likelihood_ratio_test, velocity_misfit
 from .system import System
 
 
-@dataclass(frozen=True)
-class Row:
-    """One hypothesis in a ranking.
-
-    Attributes
-    ----------
-    name : str
-    rms_velocity_mm_yr : float
-        RMS velocity misfit of the preferred fit over all plates.
-    variance_reduction : float
-        1 - misfit / observed, both area-integrated squared velocities.
-    free : int
-        Number of free coefficients.
-    aic, aicc, bic : float
-        From the effective numbers of observations and parameters (see the module).
-    cv_rms_mm_yr : float
-        Leave-one-plate-out cross-validation error.
-    coefficients : dict
-        ``{label: value}`` of the free coefficients.
-    cv_stderr_mm_yr : float
-        Standard error of ``cv_rms_mm_yr`` from its spread over plates.
-    cv_excess_se : float
-        How far this hypothesis' cross-validation error lies above the best one's, in
-        standard errors of the paired per-plate difference (0 for the best).
-    within_one_se : bool
-        Whether it cannot be told apart from the best by cross-validation (excess at
-        most one standard error).
-    effective_observations, effective_parameters : int
-    chi_square : float, optional
-        With the observations' covariance.
-    """
-
-    name: str
-    rms_velocity_mm_yr: float
-    variance_reduction: float
-    free: int
-    aic: float
-    aicc: float
-    bic: float
-    cv_rms_mm_yr: float
-    coefficients: dict
-    cv_stderr_mm_yr: float = float("nan")
-    cv_excess_se: float = 0.0
-    within_one_se: bool = True
-    effective_observations: int = 0
-    effective_parameters: int = 0
-    chi_square: float | None = None
-
-
 class Ranking(list):
-    """The rows of a ranking (a list of :class:`Row`, best first) that a notebook shows as
+    """The rows of a ranking (a list of :class:`~torque.results.RankRow`, best first) that a notebook shows as
     a table and pandas or xarray can take."""
 
     def _repr_html_(self) -> str:
@@ -121,7 +74,7 @@ class Ranking(list):
                           "hypotheses, best first by leave-one-plate-out cross-validation")
 
     def to_dataframe(self):
-        """One row per hypothesis, best first: the fields of :class:`Row` (its free
+        """One row per hypothesis, best first: the fields of :class:`~torque.results.RankRow` (its free
         coefficients as ``coef_<label>``).
 
         Returns
@@ -213,6 +166,30 @@ def cross_validation(system: System, omega_obs, weighting="velocity",
     return float(np.sqrt(_weighted_mean_se(e, system.area)[0]))
 
 
+def within_one_se(cv, best_cv, best_se) -> bool:
+    """The one-standard-error rule: whether a cross-validation error lies within one
+    standard error of the best one, that standard error being the best model's own
+    (Hastie, Tibshirani and Friedman 2009, *Elements of Statistical Learning*, sec. 7.10).
+
+    Parameters
+    ----------
+    cv : float
+        A hypothesis' cross-validation error.
+    best_cv, best_se : float
+        The lowest cross-validation error and its standard error.
+
+    Returns
+    -------
+    bool
+
+    Examples
+    --------
+    >>> within_one_se(1.9, 1.7, 0.25), within_one_se(2.0, 1.7, 0.25)
+    (True, False)
+    """
+    return bool(np.isfinite(cv) and cv <= best_cv + (best_se if np.isfinite(best_se) else 0))
+
+
 def _weighted_mean_se(values, weights):
     """Weighted mean of per-plate values and its standard error from their spread."""
     w = np.asarray(weights, float) / np.sum(weights)
@@ -249,7 +226,7 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
     Returns
     -------
     rows : Ranking
-        A list of :class:`Row`, sorted by cross-validation error, lowest first.
+        A list of :class:`~torque.results.RankRow`, sorted by cross-validation error, lowest first.
     tests : list of dict
         Comparisons of the nested pairs: ``smaller``, ``bigger``, ``test``
         (``"likelihood-ratio"``, ``"F"`` or ``"cross-validation"``) and its numbers
@@ -270,20 +247,25 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
     cv = {n: _weighted_mean_se(e, area) for n, e in errors.items()}
     finite = [n for n in cv if np.isfinite(cv[n][0])]
     best = min(finite, key=lambda n: cv[n][0]) if finite else None
+    def rms_se(name):
+        # the RMS and its standard error, from the mean square's (delta method)
+        ms, se = cv[name]
+        rms = float(np.sqrt(ms))
+        return rms, (se / (2 * rms) if rms > 0 else np.nan)
+    best_rms, best_se = rms_se(best) if best is not None else (np.nan, np.nan)
     rows = []
     for s, rep, m in fitted:
-        ms, se = cv[s.name]
         excess = 0.0
         if best is not None and s.name != best:
             d, d_se = _weighted_mean_se(errors[s.name] - errors[best], area)
             excess = d / d_se if d_se > 0 else (np.inf if d > 0 else 0.0)
-        rms = float(np.sqrt(ms))
+        rms, rms_stderr = rms_se(s.name)
         coefs = {l: float(v) for l, v, f in zip(s.labels, rep.preferred.values, s.free) if f}
-        rows.append(Row(s.name, m["rms_velocity_mm_yr"], m["variance_reduction"], s.n_free,
+        rows.append(RankRow(s.name, m["rms_velocity_mm_yr"], m["variance_reduction"], s.n_free,
                         m["aic"], m["aicc"], m["bic"], rms, coefs,
-                        cv_stderr_mm_yr=se / (2 * rms) if rms > 0 else np.nan,
+                        cv_stderr_mm_yr=rms_stderr,
                         cv_excess_se=float(excess),
-                        within_one_se=bool(np.isfinite(excess) and excess <= 1.0),
+                        within_one_se=within_one_se(rms, best_rms, best_se),
                         effective_observations=m["effective_observations"],
                         effective_parameters=m["effective_parameters"],
                         chi_square=m.get("chi_square")))

@@ -14,6 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..euler import net_rotation
 from ..errors import InputError, ModelError
 
 WEIGHTINGS = ("velocity", "area", "none")
@@ -302,7 +303,7 @@ def rigid_constraint(system: System, omega_obs) -> str | None:
     rest = np.nonzero(np.linalg.norm(w, axis=1) <= 1e-12 * size)[0]
     if len(rest) == 1:
         return f"plate:{system.plates[rest[0]]}"
-    net = np.linalg.solve(system.D.sum(0), np.einsum("pij,pj->i", system.D, w))
+    net = net_rotation(system.D, w)
     return "no-net-rotation" if np.linalg.norm(net) <= 1e-9 * size else None
 
 

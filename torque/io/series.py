@@ -38,6 +38,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..euler import pole_to_vector
+from ..results import SeriesResult
 from .files import read_toml
 from .tables import read_table
 
@@ -340,128 +341,18 @@ def monte_carlo_task(stages, task):
     return out
 
 
-@dataclass(frozen=True, eq=False)
-class SeriesResult:
-    """Everything ``torque stages`` reports.
-
-    Attributes
-    ----------
-    series : SeriesFile
-    stages : list of Stage
-        The hypothesis on every stage.
-    fit : JointFit
-    ranking : list of dict
-        One row per hypothesis (the series' and its ``compare`` ones), best first by
-        leave-one-plate-out cross-validation: ``name``, ``rms_mm_yr``, ``cv_rms_mm_yr``,
-        ``cv_stderr_mm_yr``, ``aic``, ``bic``, ``k``, ``n``, ``stage_rms_mm_yr``.
-    monte_carlo : dict or None
-        ``draws`` (n, k) of the parameters, ``failed``, ``seed``, ``sd``, ``low``,
-        ``high`` (2.5 and 97.5 percentiles).
-    executor : str
-        Where the tasks ran.
-    """
-
-    series: SeriesFile
-    stages: list
-    fit: object
-    ranking: list
-    monte_carlo: dict | None
-    executor: str
-
-    @property
-    def hypothesis_name(self) -> str:
-        """The name of the series' own hypothesis (the one fitted and reported)."""
-        return next(r["name"] for r in self.ranking if r["file"] == self.series.hypothesis)
-
-
-def run_series(path, executor, monte_carlo: int = 0, seed: int = 0,
-               chunk: int = 25) -> SeriesResult:
-    """Read a series, build every stage's balance, fit jointly, rank, and resample.
+def series_rms(stages, fit) -> float:
+    """RMS velocity misfit over every stage's sphere, mm/yr.
 
     Parameters
     ----------
-    path : str or Path
-        The series file.
-    executor : Executor
-        Entered (``with Executor(...) as ex``): where the tasks run.
-    monte_carlo : int
-        Draws of every stage's motions from their covariance, each refitted.
-    seed : int
-        Of the draws: draw i has the seed ``SeedSequence(seed).spawn(n)[i]``, whatever the
-        executor and the chunking.
-    chunk : int
-        Draws per task.
+    stages : sequence of Stage
+    fit : JointFit
 
     Returns
     -------
-    SeriesResult
+    float
     """
-    from .. import progress
-    from ..parallel import spawn_seeds
-    from ..inference.stages import cross_validation_error, information_criteria
-    from .hypothesis import load_hypothesis
-    series = read_series(path)
-    hyps = (series.hypothesis,) + series.compare
-    names = [load_hypothesis(h).name for h in hyps]
-    S = len(series.stages)
-    with progress.bar(S * len(hyps), "building every stage's balance", minimum=2) as bar:
-        built = executor.map(load_stage, [(st, h) for h in hyps for st in series.stages],
-                             bar)
-    by_hyp = [built[i * S:(i + 1) * S] for i in range(len(hyps))]
-    plates = list(dict.fromkeys(p for st in by_hyp[0] for p in st.system.plates))
-    missing = [p for p in series.plates if p not in plates]
-    if missing:
-        raise InputError(f"plates to draw are in no stage: {', '.join(missing)}",
-                         file=series.path)
-    # every hypothesis' joint fit, and its fits without each plate (cross-validation)
-    tasks = [(h, series.per_stage, series.misfit, None) for h in range(len(by_hyp))]
-    tasks += [(h, series.per_stage, series.misfit, p) for h in range(len(by_hyp))
-              for p in plates]
-    with progress.bar(len(tasks), "joint fits and cross-validation", minimum=2) as bar:
-        fits = executor.map(fit_task, tasks, bar, shared=by_hyp)
-    H = len(hyps)
-    ranking = []
-    for h in range(H):
-        fit = fits[h]
-        cv, cv_se = cross_validation_error(by_hyp[h], fits[H + h * len(plates):
-                                                           H + (h + 1) * len(plates)], plates)
-        ic = information_criteria(fit)
-        ranking.append({"name": names[h], "file": hyps[h],
-                        "rms_mm_yr": _series_rms(by_hyp[h], fit), "cv_rms_mm_yr": cv,
-                        "cv_stderr_mm_yr": cv_se, **ic,
-                        "stage_rms_mm_yr": [float(x) for x in fit.stage_rms_mm_yr]})
-    order = sorted(range(H), key=lambda h: ranking[h]["cv_rms_mm_yr"])
-    best = order[0]
-    for h in order:
-        ranking[h]["within_one_se"] = bool(
-            ranking[h]["cv_rms_mm_yr"] <= ranking[best]["cv_rms_mm_yr"]
-            + ranking[best]["cv_stderr_mm_yr"])
-    ranking = [ranking[h] for h in order]
-    mc = None
-    if monte_carlo:
-        stages = by_hyp[0]
-        if any(st.obs_cov is None for st in stages):
-            raise InputError("--monte-carlo needs every stage's motions with a covariance",
-                             file=series.path, hint="give cov_* columns in the motions")
-        seeds = spawn_seeds(seed, monte_carlo)
-        start = fits[0].parameters
-        tasks = [(series.per_stage, series.misfit, seeds[i:i + chunk], start)
-                 for i in range(0, monte_carlo, chunk)]
-        with progress.bar(len(tasks), "Monte Carlo over the stages' motions",
-                          minimum=2) as bar:
-            draws = np.vstack(executor.map(monte_carlo_task, tasks, bar, shared=stages))
-        ok = np.all(np.isfinite(draws), axis=1)
-        good = draws[ok]
-        mc = {"draws": draws, "failed": int((~ok).sum()), "seed": seed, "n": monte_carlo,
-              "sd": good.std(axis=0, ddof=1) if len(good) > 1 else np.full(draws.shape[1],
-                                                                           np.nan),
-              "low": np.percentile(good, 2.5, axis=0) if len(good) else None,
-              "high": np.percentile(good, 97.5, axis=0) if len(good) else None}
-    return SeriesResult(series, by_hyp[0], fits[0], ranking, mc, executor.describe())
-
-
-def _series_rms(stages, fit) -> float:
-    """RMS velocity misfit over every stage's sphere, mm/yr."""
     num = sum(r ** 2 * st.system.area.sum() for r, st in zip(fit.stage_rms_mm_yr, stages))
     den = sum(st.system.area.sum() for st in stages)
     return float(np.sqrt(num / den))
@@ -505,7 +396,7 @@ def series_tables(result: SeriesResult) -> dict:
         ``{name: {column: list}}``.
     """
     from ..euler import vector_to_pole
-    from ..torque_table import TORQUE_UNIT_NM
+    from ..results import TORQUE_UNIT_NM
     fit = result.fit
     tq = {k: [] for k in ("stage", "time_ma", "plate", "term", "coefficient", "tx_nm",
                           "ty_nm", "tz_nm", "magnitude_1e25_nm")}

@@ -492,9 +492,10 @@ def _sample_points(n=400):
     return xyz
 
 
-def velocity_map(world, path, omega_obs, omega_pred=None, continents=None):
+def velocity_map(world, path, omega_obs, omega_pred=None, continents=None,
+                 frame: str | None = None):
     """Velocity arrows of observed (black) and predicted (orange) motions over the observed
-    speed, with plate names.
+    speed, with plate names, both in one frame.
 
     Parameters
     ----------
@@ -503,7 +504,12 @@ def velocity_map(world, path, omega_obs, omega_pred=None, continents=None):
     omega_obs : ndarray, shape (P, 3)
         rad/s.
     omega_pred : ndarray, shape (P, 3), optional
+        rad/s, in the same frame as ``omega_obs``.
     continents : Continents, optional
+    frame : str, optional
+        The frame both are in, for the caption: ``"mantle"`` (the fit's mantle at rest),
+        ``"motions"`` (the frame the observed motions were given in), or None (observed
+        motions taken to be in the mantle's frame, no fit given).
 
     Returns
     -------
@@ -541,9 +547,13 @@ def velocity_map(world, path, omega_obs, omega_pred=None, continents=None):
                  coordinates="axes", fontproperties={"size": 8})
     label_plates(ax, world)
     _legend(ax)
-    caption(fig, "Arrows: observed motions in the frame they were given"
-            + ("; predicted motions in the frame where the mantle is at rest" if omega_pred
-               is not None else "") + ". Grey: observed speed.")
+    where = {"mantle": "in the frame where the fitted mantle is at rest",
+             "motions": "in the frame the observed motions were given in (predicted ones "
+                        "carry the fit's mantle rotation)",
+             None: "observed motions taken to be in the frame where the mantle is at rest "
+                   "(no fit given to say otherwise)"}[frame]
+    caption(fig, ("Arrows: observed and predicted motions, " if omega_pred is not None
+                  else "Arrows: observed motions, ") + where + ". Grey: observed speed.")
     return _save(fig, path)
 
 
@@ -752,35 +762,31 @@ def budget_chart(path, fit):
     return _save(fig, path)
 
 
-def torque_chart(path, world, terms, coefficients, omega):
-    """Per plate, the magnitude of each term's torque at the given coefficients (log).
+def torque_chart(path, table):
+    """Per plate, the magnitude of each term's torque (log scale).
 
     Parameters
     ----------
     path : str or Path
-    world : World
-    terms : list of ForceTerm
-    coefficients : sequence of float
-        One per term.
-    omega : ndarray, shape (P, 3)
-        rad/s, for the velocity-dependent terms.
+    table : TorqueTable
+        At the fitted coefficients, motion-dependent terms at the motions in the fit's
+        frame (:func:`torque.workflows.torque_table`).
 
     Returns
     -------
     Path
     """
     plt = _plt()
-    P = len(world.plates)
+    P = len(table.plates)
     fig, ax = plt.subplots(figsize=(max(8, 0.6 * P), 4.5), dpi=DPI)
-    width = 0.8 / len(terms)
-    cols = force_colours([t.label for t in terms])
-    from ..torque_table import TorqueTable
-    mags = TorqueTable.from_terms(world, terms, coefficients, omega).magnitude.T  # (K, P)
+    width = 0.8 / len(table.labels)
+    cols = force_colours(table.labels)
+    mags = table.magnitude.T                                             # (K, P)
     top = float(np.max(mags)) or 1.0
-    for k, (t, mag) in enumerate(zip(terms, mags)):
+    for k, (label, mag) in enumerate(zip(table.labels, mags)):
         # a term with no torque on a plate gets no bar (not a bar at an arbitrary floor)
         ax.bar(np.arange(P) + k * width, np.where(mag > 0, mag, np.nan), width,
-               label=t.label, color=cols[t.label])
+               label=label, color=cols[label])
     ax.set_yscale("log")
     ax.set_ylim(top * 1e-4, top * 3)
     # plain numbers (0.01, 0.1, 1, 10) rather than typeset powers of ten: the unit says 10^25
@@ -788,32 +794,29 @@ def torque_chart(path, world, terms, coefficients, omega):
     ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
     ax.yaxis.set_minor_formatter(NullFormatter())
     ax.set_xticks(np.arange(P) + 0.4 - width / 2)
-    ax.set_xticklabels(world.plate_names, rotation=45, ha="right", fontsize=8)
+    ax.set_xticklabels(table.plates, rotation=45, ha="right", fontsize=8)
     ax.set_ylabel("|torque| (10^25 N m)")
     ax.set_title("torque of each term on each plate (at the fitted coefficients)")
     ax.legend(fontsize=8, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     caption(fig, "Magnitudes of the torques about the planet's centre, log scale; motion-"
-            "dependent terms at the observed motions.")
+            "dependent terms at the observed motions, in the fit's mantle frame.")
     return _save(fig, path)
 
 
-def torque_globe(path, world, terms, coefficients, omega):
+def torque_globe(path, world, table):
     """Each term's torque on each plate as an arrow at the plate's centroid, on two
     orthographic hemispheres.
 
     An arrow points where the torque would move the centroid (``tau x c``, the direction of
-    the equivalent force of :mod:`torque.torque_table`) and its length is the torque's
-    magnitude about axes other than the centroid's (10^25 N m, with a key).
+    the equivalent force of :class:`torque.results.TorqueTable`) and its length is the
+    torque's magnitude about axes other than the centroid's (10^25 N m, with a key).
 
     Parameters
     ----------
     path : str or Path
     world : World
-    terms : list of ForceTerm
-    coefficients : sequence of float
-        One per term.
-    omega : ndarray, shape (P, 3)
-        rad/s, for the velocity-dependent terms.
+    table : TorqueTable
+        Of ``world``'s plates (:func:`torque.workflows.torque_table`).
 
     Returns
     -------
@@ -822,8 +825,7 @@ def torque_globe(path, world, terms, coefficients, omega):
     import cartopy.crs as ccrs
     from matplotlib.lines import Line2D
     plt = _plt()
-    from ..torque_table import TORQUE_UNIT_NM, TorqueTable
-    table = TorqueTable.from_terms(world, terms, coefficients, omega)
+    from ..results import TORQUE_UNIT_NM
     force = table.equivalent_force_n()                                  # (P, K, 2)
     # arrows scaled as torques: |F| R = |tau perpendicular to c|
     arrow = force * world.radius_m / TORQUE_UNIT_NM
@@ -849,7 +851,7 @@ def torque_globe(path, world, terms, coefficients, omega):
                frameon=False, bbox_to_anchor=(0.5, 0.04))
     caption(fig, "Arrows at plate centroids point where each torque would move the centroid; "
             "length is the torque's magnitude (less its spin about the centroid), at the "
-            "fitted coefficients and observed motions.")
+            "fitted coefficients and the observed motions in the fit's mantle frame.")
     return _save(fig, path)
 
 
@@ -872,6 +874,11 @@ class MapInputs:
     fit_path : str, optional
         The fit's file, named in messages.
     hypothesis : Hypothesis, optional
+    torques : TorqueTable, optional
+        The hypothesis' torques at the fit's coefficients and in its frame.
+    frame : {"mantle", "motions"}
+        The frame ``observed`` and ``predicted`` are in (see
+        :func:`torque.workflows.map_inputs`, which makes these).
     """
 
     inputs: object
@@ -880,6 +887,8 @@ class MapInputs:
     fit: object = None
     fit_path: str | None = None
     hypothesis: object = None
+    torques: object = None
+    frame: str = "mantle"
 
     def __repr__(self) -> str:
         given = [k for k in ("observed", "predicted", "fit", "hypothesis")
@@ -921,16 +930,8 @@ class MapKind:
         return f"MapKind({self.shows!r}, needs {list(self.needs)})"
 
 
-def _fitted_terms(inp: MapInputs):
-    from ..forces import build_terms
-    from ..forces.context import Context
-    terms = build_terms(Context(inp.inputs, inp.hypothesis, inp.observed))
-    return terms, inp.fit.values([t.label for t in terms], file=inp.fit_path)
-
-
 def _draw_torques(inp: MapInputs, path):
-    terms, coefs = _fitted_terms(inp)
-    return torque_chart(path, inp.world, terms, coefs, inp.observed)
+    return torque_chart(path, inp.torques)
 
 
 def _draw_misfit(inp: MapInputs, path):
@@ -949,17 +950,21 @@ def _draw_misfit(inp: MapInputs, path):
 
 
 def _draw_torque_globe(inp: MapInputs, path):
-    terms, coefs = _fitted_terms(inp)
-    return torque_globe(path, inp.world, terms, coefs, inp.observed)
+    return torque_globe(path, inp.world, inp.torques)
+
+
+def _draw_velocities(inp: MapInputs, path):
+    return velocity_map(inp.world, path, inp.observed, inp.predicted, inp.continents,
+                        inp.frame if inp.fit is not None else None)
 
 
 KINDS = {
     "plates": MapKind("plates, continents and boundaries by kind", (), (),
                       lambda i, p: plates_map(i.world, p, i.continents)),
     "velocities": MapKind("velocity arrows (needs --motions; --predicted adds predicted "
-                          "arrows)", ("motions",), ("motions", "predicted"),
-                          lambda i, p: velocity_map(i.world, p, i.observed, i.predicted,
-                                                    i.continents)),
+                          "arrows; --fit puts both in its mantle frame, or with --frame "
+                          "motions in the motions' frame)", ("motions",),
+                          ("motions", "predicted", "fit"), _draw_velocities),
     "poles": MapKind("observed and predicted poles with 95 % ellipses (needs --fit)",
                      ("fit",), ("fit",), lambda i, p: poles_map(i.world, p, i.fit)),
     "misfit": MapKind("velocity misfit (needs --fit, whose observed and predicted poles "
