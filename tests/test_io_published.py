@@ -6,6 +6,7 @@ so removing it leaves the plate's area unchanged; areas from GeographicLib throu
 pyproj.Geod (Karney 2013, J. Geodesy 87).
 """
 
+import csv
 import json
 
 import numpy as np
@@ -118,3 +119,33 @@ def test_motions_relative_to_a_fixed_plate_are_flagged(tmp_path, cli):
     status, _, err = cli("fit", demo / "world.toml", hyp, demo / "motions.csv",
                          "-o", tmp_path / "g.json")
     assert status == 0 and "at rest" not in err
+
+
+def test_boundary_rows_name_their_source_feature_when_loading_drops_a_line(write_world,
+                                                                            tmp_path, cli):
+    # Feature 0 runs along the spike and is trimmed to nothing on loading, so the world's
+    # first line is feature 1: every row must still name the feature it samples, so that
+    # the CSV joins back to the GeoJSON (issue 25; the join itself is the check).
+    path = write_world([plate_feature("Upper", [SPIKED]), plate_feature("Lower", [SOUTH])],
+                       [line_feature([[120, 0], [120, -10], [120, -20]], kind="transform",
+                                     left="Upper", right="Lower"),
+                        line_feature([[0, 0], [120, 0], [240, 0], [360, 0]], kind="ridge",
+                                     left="Upper", right="Lower", name="the ridge")],
+                       extra='winding = "strict"\n')
+    assert [b.feature for b in load_world(path).boundaries] == [1]
+    motions = tmp_path / "m.csv"
+    motions.write_text("plate,lat,lon,rate\nUpper,0,0,0\nLower,0,90,0.5\n")
+    out, gj = tmp_path / "b.csv", tmp_path / "b.geojson"
+    for extra in ([], ["--classify"]):
+        status, _, err = cli("boundaries", path, motions, "-o", out, "--geojson", gj, *extra)
+        assert status == 0, err
+        rows = list(csv.DictReader(out.open()))
+        source = json.loads((tmp_path / "boundaries.geojson").read_text())["features"]
+        for r in rows:
+            props = source[int(r["feature"])]["properties"]
+            assert (props["kind"], props["left"], props["right"]) == (r["kind"], r["left"],
+                                                                      r["right"])
+        assert {r["line"] for r in rows} == {"0"}          # the world's line, after the drop
+        written = json.loads(gj.read_text())["features"]
+        assert [f["properties"]["feature"] for f in written] == [1]
+        assert written[0]["properties"]["name"] == "the ridge"

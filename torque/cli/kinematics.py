@@ -62,7 +62,8 @@ def add_parser(sub) -> None:
     p.add_argument("--classify", action="store_true",
                    help="give 'unclassified' lines kinds from their motion, piece by piece, "
                    "splitting a line where its kind changes (the output's 'line' then "
-                   "numbers the lines after splitting)")
+                   "numbers the lines after splitting; 'feature' still names the "
+                   "boundaries file's feature)")
     p.add_argument("--min-run-km", type=positive, default=MIN_RUN_KM, metavar="KM",
                    help=f"with --classify: stretches shorter than this take their "
                    f"neighbours' kind (default {MIN_RUN_KM:g})")
@@ -237,7 +238,12 @@ def run_boundaries(args) -> int:
                       if b.kind == "subduction" and b.subducting is None]
     lon, lat = xyz_to_lonlat(samples.xyz)
     write_csv(args.output, {
-        "lon": lon, "lat": lat, "line": line,
+        # the feature of the boundaries file each sample lies on (-1 for lines the world
+        # derived from the plates' shared edges), beside its line in the world's list
+        "lon": lon, "lat": lat,
+        "feature": np.array([-1 if b.feature is None else b.feature for b in boundaries],
+                            np.int64)[line],
+        "line": line,
         "left": np.array([b.left for b in boundaries], dtype=object)[line],
         "right": np.array([b.right for b in boundaries], dtype=object)[line],
         "kind": np.array([b.kind for b in boundaries], dtype=object)[line],

@@ -447,6 +447,11 @@ def write_points_geojson(path, lon, lat, properties: dict) -> None:
 def write_boundaries_geojson(path, boundaries) -> None:
     """Write boundary lines in the contract's format.
 
+    Each line's ``feature`` property is the index of the feature of the boundaries file
+    it came from (:attr:`Boundary.feature`), so that lines split by classification can be
+    joined back to their source; a line the world derived from the plates' shared edges
+    has none.
+
     Parameters
     ----------
     path : str or Path
@@ -459,6 +464,9 @@ def write_boundaries_geojson(path, boundaries) -> None:
         if b.subducting:
             props["subducting"] = b.subducting
         props.update(b.properties)
+        props.pop("feature", None)            # a source file's own, when read back
+        if b.feature is not None:
+            props["feature"] = int(b.feature)
         feats.append({"type": "Feature", "properties": props,
                       "geometry": {"type": "LineString",
                                    "coordinates": np.round(np.c_[lon, lat], 10).tolist()}})
