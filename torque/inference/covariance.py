@@ -154,11 +154,64 @@ def _whitening(obs_cov) -> np.ndarray:
     return np.swapaxes(np.linalg.cholesky(np.linalg.inv(C)), 1, 2)
 
 
-def _covariance(J, rss: float, n: int):
-    """Covariance of least-squares estimates, ``rss / dof (J^T J)^-1``, and the dof."""
+def degrees_of_freedom(n_obs: int, k: int, free_frame: bool = False,
+                       lost_dof: int = 0) -> int:
+    """Degrees of freedom of a fit: observations less parameters, counted once.
+
+    A free frame is three parameters; observations moved to the no-net-rotation frame or
+    given relative to a fixed plate lost three degrees of freedom (``lost_dof``); both are
+    the same three rigid rotations, so they count once:
+    ``n_obs - k - max(3 * free_frame, lost_dof)``, at least 1. Every fit (``fit``, ``rank``,
+    a stage series) counts them here.
+
+    Parameters
+    ----------
+    n_obs : int
+        Observations counted (3 per plate, times its count).
+    k : int
+        Free coefficients.
+    free_frame : bool
+    lost_dof : int
+
+    Returns
+    -------
+    int
+
+    Examples
+    --------
+    >>> degrees_of_freedom(42, 2), degrees_of_freedom(42, 2, True, 3)
+    (40, 37)
+    """
+    return max(int(n_obs) - int(k) - max(3 * bool(free_frame), int(lost_dof)), 1)
+
+
+def variance_factor(rss: float, dof: int, known: bool) -> float:
+    """The factor ``s^2`` that scales ``(J^T J)^-1`` into the estimates' covariance.
+
+    The one convention of every fit: with the observations' covariance (the chi-square)
+    it is taken as known, ``s^2 = 1``; without one (the area misfit) the residuals'
+    variance is estimated from them, ``s^2 = rss / dof`` (Draper and Smith 1998, *Applied
+    Regression Analysis*, secs. 2.6 and 24.5). Profile intervals use the same ``s^2``.
+
+    Parameters
+    ----------
+    rss : float
+        The minimised misfit (the chi-square, or the weighted sum of squares).
+    dof : int
+    known : bool
+        Whether the misfit is a chi-square with a known covariance.
+
+    Returns
+    -------
+    float
+    """
+    return 1.0 if known else float(rss) / max(int(dof), 1)
+
+
+def _covariance(J, s2: float):
+    """Covariance of least-squares estimates, ``s^2 (J^T J)^-1`` (NaN where singular)."""
     k = J.shape[1]
-    dof = max(n - k, 1)
     try:
-        return rss / dof * np.linalg.inv(J.T @ J), dof
+        return s2 * np.linalg.inv(J.T @ J)
     except np.linalg.LinAlgError:
-        return np.full((k, k), np.nan), dof
+        return np.full((k, k), np.nan)

@@ -7,12 +7,14 @@ the coefficient at a trial value, refits everything else (the other free coeffic
 with a free frame, the mantle's rotation), and keeps the values whose misfit stays within
 the threshold of the best:
 
-    S_profile(c_j) <= S_min + s^2 q,   s^2 = S_min / dof,   q = chi2_1(0.95) = 1.96^2,
+    S_profile(c_j) <= S_min + s^2 q,   q = chi2_1(0.95) = 1.96^2,
 
+with ``s^2`` the fit's variance factor: 1 for a chi-square with a known covariance,
+``S_min / dof`` for the area misfit (:func:`torque.inference.covariance.variance_factor`),
 so that, for a model linear in its coefficients and far from any bound, the interval is
 exactly ``value +- 1.96 stderr`` (Draper and Smith 1998, sec. 24.5; Venzon and Moolgavkar
-1988). The threshold uses the same variance ``s^2`` as the standard errors (the residual
-variance, also for a chi-square fit), so the two agree where both are valid. Each end is
+1988): the threshold and the standard errors use the same ``s^2``, so the two agree where
+both are valid. Each end is
 found by bracketing, then ``scipy.optimize.brentq`` on ``sqrt(S - S_min) - z s`` (the same
 root, and nearly linear in the coefficient, so it takes fewer refits); an end that reaches
 the bound before the threshold is the bound itself, and is flagged.
@@ -121,7 +123,7 @@ def profile_intervals(fit, omega_obs, free_frame: bool = False, obs_cov=None,
     """
     system = fit.system
     omega_obs = np.asarray(omega_obs, float)
-    threshold = fit.rss + confidence_z ** 2 * fit.rss / fit.dof
+    threshold = fit.rss + confidence_z ** 2 * fit.variance_factor
     rise = np.sqrt(threshold - fit.rss)                 # z s
     out = {}
     for i in np.nonzero(system.free)[0]:

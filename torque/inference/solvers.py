@@ -68,7 +68,12 @@ from ._optimise import (
     _minimise_bounded,
     _velocity_gauss_newton,
 )
-from .covariance import _covariance, misfit_whitening
+from .covariance import (
+    _covariance,
+    degrees_of_freedom,
+    misfit_whitening,
+    variance_factor,
+)
 from .system import (
     System,
     _check_determined,
@@ -99,10 +104,14 @@ class Fit:
     rss : float
         Residual sum of squares (in the method's own measure).
     dof : int
+        Degrees of freedom (:func:`~torque.inference.covariance.degrees_of_freedom`).
     active_bounds : tuple of str
         Free coefficients at a bound.
     info : dict
         Method-specific details (weighting, evaluations).
+    variance_factor : float
+        The ``s^2`` that ``cov`` is scaled by: 1 for a chi-square with a known covariance,
+        ``rss / dof`` otherwise (:func:`~torque.inference.covariance.variance_factor`).
     """
 
     system: System
@@ -114,6 +123,7 @@ class Fit:
     dof: int
     active_bounds: tuple = ()
     info: dict = field(default_factory=dict)
+    variance_factor: float = 1.0
 
     def __repr__(self) -> str:
         vals = ", ".join(f"{l}={v:.4g}" for l, v in zip(self.system.labels, self.values))
@@ -153,15 +163,16 @@ def fit_torque(system: System, omega_obs, weighting: str = "velocity",
     r = G @ x - h
     n, k = G.shape
     rss = float(r @ r)
-    dof = max(n - k, 1)
-    cov = rss / dof * np.linalg.inv((G / scale).T @ (G / scale)) / np.outer(scale, scale)
+    dof = degrees_of_freedom(n, k)
+    s2 = variance_factor(rss, dof, known=False)
+    cov = s2 * np.linalg.inv((G / scale).T @ (G / scale)) / np.outer(scale, scale)
     values = system.full_coefficients(x)
     stderr = np.zeros(len(values))
     stderr[system.free] = np.sqrt(np.clip(np.diag(cov), 0, None))
     free_labels = [l for l, f in zip(system.labels, system.free) if f]
     active = tuple(free_labels[i] for i in np.nonzero(res.active_mask)[0])
     return Fit(system, "torque", values, stderr, cov, rss, dof, active,
-               {"weighting": weighting})
+               {"weighting": weighting}, s2)
 
 
 def predict(system: System, coefficients) -> np.ndarray:
@@ -422,8 +433,9 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     # the frame's three parameters and the three directions the data lost are the same
     # rigid rotations: count them once
     extra = max(3 if free_frame else 0, lost_dof)
-    cov_all, dof = _covariance(jacobian(x_opt) / units, rss,
-                               n_obs - extra + 3 * free_frame)
+    dof = degrees_of_freedom(n_obs, k_free, free_frame, lost_dof)
+    s2 = variance_factor(rss, dof, known=obs_cov is not None)
+    cov_all = _covariance(jacobian(x_opt) / units, s2)
     cov = cov_all[:k_free, :k_free]
     values = system.full_coefficients(x)
     stderr = np.zeros(len(values))
@@ -438,7 +450,7 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     if free_frame:
         info["frame_rotation"] = frame(x_opt)
         info["frame_cov"] = cov_all[k_free:, k_free:]
-    return Fit(system, "velocity", values, stderr, cov, rss, dof, active, info)
+    return Fit(system, "velocity", values, stderr, cov, rss, dof, active, info, s2)
 
 
 def fit_velocity_many(system: System, omega_obs, start: Fit, plates=None,

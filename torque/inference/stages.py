@@ -30,9 +30,15 @@ from scipy.spatial.transform import Rotation, Slerp
 
 from ..errors import InputError, ModelError
 from ..euler import M_S_TO_MM_YR, MYR_S
-from .covariance import misfit_whitening
+from ._optimise import GAUSS_NEWTON_STATUS, _gauss_newton, _minimise_bounded
+from .covariance import (
+    _covariance,
+    degrees_of_freedom,
+    misfit_whitening,
+    variance_factor,
+)
 from .solvers import solve_balance
-from .system import plate_weights
+from .system import plate_weights, rigid_constraint
 
 
 # ----------------------------------------------------------------------------------------
@@ -269,7 +275,7 @@ def fit_joint(stages, per_stage=(), misfit: str = "area", exclude_plate: str | N
     layout = _Layout(stages, tuple(per_stage))
     if layout.n == 0:
         raise ModelError("the hypothesis has no free coefficient to fit")
-    whiten, n_obs = [], 0
+    whiten, n_obs, lost = [], 0, 0
     for st in stages:
         if misfit == "chi-square" and st.obs_cov is None:
             raise InputError(f"{st.name}: the chi-square needs the motions' covariance",
@@ -281,6 +287,9 @@ def fit_joint(stages, per_stage=(), misfit: str = "area", exclude_plate: str | N
                                 plates)
         whiten.append(W)
         n_obs += n
+        # motions that satisfy a rigid constraint (NNR, a fixed plate) lost three degrees
+        # of freedom, as in a fit of one world
+        lost += 3 if rigid_constraint(st.system, st.omega_obs) else 0
     x0, lo, hi = _start(stages, layout)
     if start is not None:
         x0 = np.asarray(start, float)
@@ -316,20 +325,28 @@ def fit_joint(stages, per_stage=(), misfit: str = "area", exclude_plate: str | N
             blocks.append(whiten[s] @ J * scale)
         return np.vstack(blocks)
 
-    res = optimize.least_squares(residual, x0 / scale, jac=jacobian,
-                                 bounds=(lo / scale, hi / scale), method="trf",
-                                 x_scale="jac", xtol=1e-15, ftol=1e-15, gtol=1e-15,
-                                 max_nfev=200)
-    theta = res.x * scale
-    rss = float(res.fun @ res.fun)
-    J = jacobian(res.x) / scale
-    dof = max(n_obs - layout.n, 1)
-    try:
-        cov = rss / dof * np.linalg.inv(J.T @ J)
-    except np.linalg.LinAlgError:
-        cov = np.full((layout.n, layout.n), np.nan)
-    if misfit == "chi-square":
-        cov = cov * dof / rss                     # known variances: (J^T J)^-1
+    # the optimiser of the one-world fits: Gauss-Newton to where the misfit's gradient
+    # vanishes, the trust-region method where a step would leave the bounds, parameters
+    # held on a bound where the KKT conditions say so
+    lo_s, hi_s = lo / scale, hi / scale
+    x_start = x0 / scale
+    inside = bool(np.all((x_start > lo_s) & (x_start < hi_s)))
+    x_opt, nfev = (_gauss_newton(residual, jacobian, x_start, np.ones(len(x_start), bool),
+                                 lo_s, hi_s) if inside else (None, 0))
+    status = GAUSS_NEWTON_STATUS
+    if x_opt is None:
+        x_opt, more, status, _ = _minimise_bounded(
+            residual, jacobian, x_start, lo_s, hi_s, len(x_start),
+            lambda x, keep: _gauss_newton(residual, jacobian, x, keep, lo_s, hi_s))
+        nfev += more
+    theta = x_opt * scale
+    r_opt = residual(x_opt)
+    rss = float(r_opt @ r_opt)
+    J = jacobian(x_opt) / scale
+    # one convention with the one-world fits: degrees of freedom counted once, a known
+    # covariance unscaled, the area misfit's variance estimated from its residuals
+    dof = degrees_of_freedom(n_obs, layout.n, lost_dof=lost)
+    cov = _covariance(J, variance_factor(rss, dof, known=misfit == "chi-square"))
     S, K = len(stages), len(layout.labels)
     values, stderr = np.zeros((S, K)), np.zeros((S, K))
     se = np.sqrt(np.clip(np.diag(cov), 0, None))
@@ -343,7 +360,7 @@ def fit_joint(stages, per_stage=(), misfit: str = "area", exclude_plate: str | N
         rms[s], vr[s] = _stage_misfit(st.system, omega, st.omega_obs)
     return JointFit(layout.labels, tuple(per_stage), values, stderr, layout.names, cov, rss,
                     dof, n_obs, predicted, rms, vr, misfit,
-                    {"theta": theta, "evaluations": int(res.nfev), "status": int(res.status),
+                    {"theta": theta, "evaluations": int(nfev), "status": int(status),
                      "stages": [st.name for st in stages],
                      "times_ma": [st.time_ma for st in stages],
                      "excluded_plate": exclude_plate})
