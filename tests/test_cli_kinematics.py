@@ -57,8 +57,8 @@ def test_boundaries_opening_and_along_strike_closed_forms(hemi, cli):
                            tmp / "b.csv")
     assert status == 0, err
     rows = read_csv(tmp / "b.csv")
-    assert list(rows[0]) == ["lon", "lat", "line", "left", "right", "kind", "subducting",
-                             "opening_mm_yr", "along_mm_yr", "obliquity_deg"]
+    assert list(rows[0]) == ["lon", "lat", "feature", "line", "left", "right", "kind",
+                             "subducting", "opening_mm_yr", "along_mm_yr", "obliquity_deg"]
     lon = np.array([float(r["lon"]) for r in rows])
     opening = np.array([float(r["opening_mm_yr"]) for r in rows])
     along = np.array([float(r["along_mm_yr"]) for r in rows])

@@ -38,8 +38,9 @@ def test_one_driving_coefficient_has_the_weighted_least_squares_solution():
     assert fit.values[0] == pytest.approx(want, rel=1e-8)
     assert fit.info["chi_square"] == pytest.approx(
         (y - want * g) @ Ci @ (y - want * g), rel=1e-8)
-    # its variance, 1 / g^T C^-1 g, scaled by the reduced chi-square as for any fit
-    var = 1 / (g @ Ci @ g) * fit.info["reduced_chi_square"]
+    # its variance, 1 / g^T C^-1 g: the covariance is known, so the reduced chi-square does
+    # not scale it (Draper and Smith 1998, sec. 9.2)
+    var = 1 / (g @ Ci @ g)
     assert fit.stderr[0] == pytest.approx(np.sqrt(var), rel=1e-6)
 
 
@@ -82,9 +83,9 @@ def test_the_command_line_reports_the_chi_square(tmp_path, cli):
 
 def test_resampling_the_chi_square_fit_matches_its_standard_errors():
     # With the observations' true covariance, the Monte Carlo spread of chi-square refits is
-    # the estimate's sampling spread, which is (J^T C^-1 J)^-1: the reported standard error
-    # over the square root of the reduced chi-square (first-order propagation; Draper and
-    # Smith 1998). 300 members give the spread to about 4 %.
+    # the estimate's sampling spread, which is (J^T C^-1 J)^-1: the reported standard
+    # error, the covariance being known (first-order propagation; Draper and Smith 1998).
+    # 300 members give the spread to about 4 %.
     from torque.inference.resampling import monte_carlo_motions
     inputs = torque.Inputs.load(DEMO / "world.toml")
     hyp = torque.load_hypothesis(DEMO / "hypotheses" / "continental_drag.toml")
@@ -94,7 +95,7 @@ def test_resampling_the_chi_square_fit_matches_its_standard_errors():
     system = torque.assemble(inputs.world, hyp, torque.compute_torques(inputs, hyp, obs))
     fit = inference.fit_velocity(system, obs, obs_cov=cov)
     mc = monte_carlo_motions(system, obs, cov, 300, seed=4, obs_cov=cov)
-    se = fit.stderr[system.free] / np.sqrt(fit.info["reduced_chi_square"])
+    se = fit.stderr[system.free]
     sd = np.array([c["std"] for c in mc["coefficients"].values()])
     np.testing.assert_allclose(sd, se, rtol=0.15)
 
