@@ -18,7 +18,7 @@ import pytest
 from scipy.spatial.transform import Rotation
 
 from torque import inference, parallel, sphere
-from torque.errors import InputError
+from torque.errors import ModelError
 from torque.euler import RAD_S_PER_DEG_MYR
 from torque.hypothesis import hypothesis_from_dict
 from torque.io import world_from_rings
@@ -109,7 +109,7 @@ def test_net_rotation_undetermined_without_drag():
         {"kind": "transform", "coefficient": 1e20}, {"kind": "trench", "coefficient": 1e20},
         {"kind": "collision", "coefficient": 1e20}]})
     s = system_for(w, hyp)
-    with pytest.raises(InputError, match="net rotation is undetermined"):
+    with pytest.raises(ModelError, match="net rotation is undetermined"):
         inference.predict(s, s.fixed)
 
 
@@ -119,12 +119,12 @@ def test_nothing_fixed_and_inseparable_coefficients():
     omega = inference.predict(s0, s0.fixed)
     hyp = hypothesis_from_dict({"force": [{"kind": "slab", "age_myr": 80.0},
                                           {"kind": "drag"}]})
-    with pytest.raises(InputError, match="homogeneous"):
+    with pytest.raises(ModelError, match="homogeneous"):
         inference.fit_torque(system_for(w, hyp, omega), omega)
     hyp = hypothesis_from_dict({"force": [
         {"kind": "ridge", "form": "edge", "coefficient": 1.0},
         {"kind": "drag", "label": "d1"}, {"kind": "drag", "label": "d2"}]})
-    with pytest.raises(InputError, match="cannot separate.*'d1', 'd2'"):
+    with pytest.raises(ModelError, match="cannot separate.*'d1', 'd2'"):
         inference.fit_torque(system_for(w, hyp, omega), omega)
 
 

@@ -11,7 +11,6 @@ fixed in its motions, the case that exposed the dropped frame.
 
 import csv
 import json
-from pathlib import Path
 
 import numpy as np
 import pytest

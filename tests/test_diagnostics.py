@@ -20,7 +20,7 @@ from torque.inference.system import assemble
 from torque.inference.solvers import predict
 from torque.results import FitResult
 from torque.inference.analysis import analyse
-from torque.errors import InputError, ModelError
+from torque.errors import InputError, ModelError, TorqueError
 from torque.euler import RAD_S_PER_DEG_MYR
 from torque.hypothesis import hypothesis_from_dict
 from torque.present.maps import MapInputs
@@ -64,7 +64,8 @@ def test_model_problems_are_model_errors(demo_fit):
     system = assemble(world, hyp, compute_torques(world, hyp, motions.for_world(world)))
     with pytest.raises(ModelError, match="resists the motion of any plate") as info:
         predict(system, system.fixed)
-    assert isinstance(info.value, InputError)
+    # a sibling of InputError under TorqueError (issue 25): the input was readable
+    assert isinstance(info.value, TorqueError) and not isinstance(info.value, InputError)
     free = hypothesis_from_dict({"force": [{"kind": "ridge", "coefficient": "free"},
                                            {"kind": "drag", "coefficient": "free"}]})
     system = assemble(world, free, compute_torques(world, free, motions.for_world(world)))

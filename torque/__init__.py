@@ -23,7 +23,7 @@ _EXPORTS = {
     "FIT_METHODS": "inference.methods", "assemble": "inference.system",
     "predict": "inference.solvers", "WorldData": "data", "FitResult": "results",
     "analyse": "inference.analysis",
-    "InputError": "errors", "ModelError": "errors", "Motions": "euler",
+    "InputError": "errors", "ModelError": "errors", "TorqueError": "errors", "Motions": "euler",
     "to_no_net_rotation": "euler", "velocity_field": "euler",
     "hypothesis_from_dict": "hypothesis", "Inputs": "io", "check_world": "io",
     "compute_torques": "io", "load_hypothesis": "io", "load_world": "io",
@@ -36,7 +36,7 @@ _EXPORTS = {
 __getattr__, __dir__ = lazy_exports(__name__, globals(), _EXPORTS)
 
 __all__ = ["Boundary", "Cooling", "FIT_METHODS", "FitResult", "Inputs", "InputError",
-           "ModelError", "Motions", "Physics", "Plate", "PlateLocator", "World", "WorldData",
+           "ModelError", "Motions", "TorqueError", "Physics", "Plate", "PlateLocator", "World", "WorldData",
            "analyse", "assemble", "check_world", "compute_torques", "hypothesis_from_dict",
            "load_hypothesis", "load_world", "predict", "rank", "read_motions",
            "to_no_net_rotation", "velocity_field", "world_from_rings", "write_motions"]

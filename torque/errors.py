@@ -8,11 +8,11 @@ from __future__ import annotations
 import os
 
 
-class InputError(Exception):
-    """Bad input from the user: a file, a feature or a plate that cannot be used.
+class TorqueError(Exception):
+    """Base of the errors this package raises on purpose, with a message a user can act on.
 
-    The command-line layer prints ``str(error)`` and exits with status 2; it never shows a
-    traceback for this class.
+    The command line prints ``str(error)`` and exits with status 2; it never shows a
+    traceback for this family. Catch :class:`TorqueError` to handle both kinds below.
 
     Parameters
     ----------
@@ -42,10 +42,35 @@ class InputError(Exception):
         return text
 
 
-class ModelError(InputError):
+class InputError(TorqueError, ValueError):
+    """Bad input from the user: a file, a feature, a plate or an option value that cannot
+    be used. Also a :class:`ValueError`, so that library callers who pass a bad value can
+    catch it as one.
+
+    Parameters
+    ----------
+    message : str
+    file : str or Path, optional
+    where : str, optional
+    hint : str, optional
+        See :class:`TorqueError`.
+    """
+
+
+class ModelError(TorqueError):
     """A problem of the model itself, not of a file's format: a singular balance, a
-    coefficient nothing constrains. A subclass of :class:`InputError`, so the command line
-    reports it the same way (exit status 2, the hypothesis file named)."""
+    coefficient nothing constrains, a balance that does not converge. A sibling of
+    :class:`InputError` (the input was readable; the hypothesis cannot be solved), reported
+    the same way by the command line (exit status 2, the hypothesis file named).
+
+    Parameters
+    ----------
+    message : str
+    file : str or Path, optional
+    where : str, optional
+    hint : str, optional
+        See :class:`TorqueError`.
+    """
 
 
 def available_memory_bytes() -> int:

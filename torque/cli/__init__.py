@@ -21,7 +21,7 @@ import sys
 import time
 
 from .. import progress
-from ..errors import InputError
+from ..errors import TorqueError
 from . import balance, figures, kinematics, physics, stages, world
 from .common import EXIT_BAD_INPUT, EXIT_BROKEN_PIPE, EXIT_OK, Parser
 
@@ -100,7 +100,7 @@ def main(argv=None) -> int:
         previous = None
     try:
         return args.func(args)
-    except InputError as exc:
+    except TorqueError as exc:
         print(f"torque {args.command}: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except BrokenPipeError:

@@ -34,7 +34,7 @@ import dataclasses
 import numpy as np
 from scipy import optimize
 
-from ..errors import InputError
+from ..errors import TorqueError
 from .covariance import misfit_whitening
 from .solvers import fit_velocity, on_one_blas_thread, predict
 from .system import System
@@ -179,6 +179,6 @@ def _end(excess, value, step, side, bound, tol, max_steps=12):
                 return float(optimize.brentq(excess, a, b, xtol=tol * 1e-3 + 1e-12 * abs(b),
                                              rtol=1e-10)), False
             inside = trial
-    except (InputError, ValueError, np.linalg.LinAlgError):
+    except (TorqueError, ValueError, np.linalg.LinAlgError):
         pass
     return None, False

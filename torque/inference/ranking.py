@@ -46,7 +46,7 @@ from __future__ import annotations
 import numpy as np
 
 from .. import progress
-from ..errors import InputError
+from ..errors import TorqueError
 from ..tabular import html_table
 from ..results import RankRow
 from .analysis import analyse
@@ -138,7 +138,7 @@ def cross_validation_errors(system: System, omega_obs, weighting="velocity",
         for p in range(P):
             rms, _ = velocity_misfit(system, predict(system, values[p]), omega_obs)
             out[p] = rms[p] ** 2
-    except InputError:
+    except TorqueError:
         return np.full(P, np.nan)
     return out
 

@@ -18,7 +18,7 @@ import numpy as np
 from scipy import optimize
 
 from .. import progress
-from ..errors import InputError
+from ..errors import InputError, TorqueError
 from .solvers import fit_torque, fit_velocity, fit_velocity_many, on_one_blas_thread
 from .system import System, plate_weights
 
@@ -122,7 +122,7 @@ def bootstrap(system: System, omega_obs, n: int, seed: int = 0,
                 try:
                     out.append(_refit(system, omega_obs, weighting, fit, start, plates=idx,
                                       obs_cov=obs_cov))
-                except InputError:       # a draw that cannot separate the coefficients
+                except TorqueError:       # a draw that cannot separate the coefficients
                     failed += 1
                 bar.update()
     extra = ({"covariance": "each plate's own block of the full covariance (a plate drawn "
@@ -265,7 +265,7 @@ def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
                 try:
                     draw.validate()
                     break
-                except InputError:
+                except TorqueError:
                     draw = None
             if draw is None:
                 failed += 1
@@ -274,7 +274,7 @@ def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
             system = build_system(draw)
             try:
                 out.append(_refit(system, omega_obs, weighting, fit, start, obs_cov=obs_cov))
-            except InputError:
+            except TorqueError:
                 failed += 1
             bar.update()
     if system is None:

@@ -60,7 +60,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import linalg, optimize
 
-from ..errors import InputError, ModelError
+from ..errors import ModelError, TorqueError
 from ..parallel import small_solves
 from ._optimise import (
     GAUSS_NEWTON_STATUS,
@@ -529,7 +529,7 @@ def fit_velocity_many(system: System, omega_obs, start: Fit, plates=None,
     for i in np.flatnonzero(alone):
         try:
             out[i] = fit_velocity(system, obs[i], start, plates=draw[i], obs_cov=obs_cov).values
-        except InputError:
+        except TorqueError:
             pass
     return out
 

@@ -36,7 +36,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
+from ..errors import InputError, TorqueError
 from ..euler import pole_to_vector
 from ..results import SeriesResult
 from .files import read_toml
@@ -283,8 +283,8 @@ def load_stage(task):
         hyp = load_hypothesis(hyp_path)
         omega, cov = stage_motions(stage, inputs.world)
         system = assemble(inputs.world, hyp, compute_torques(inputs, hyp, omega))
-    except InputError as exc:
-        raise InputError(exc.message, file=exc.file,
+    except TorqueError as exc:
+        raise type(exc)(exc.message, file=exc.file,
                          where=f"{stage.name}" + (f", {exc.where}" if exc.where else ""),
                          hint=exc.hint) from None
     return Stage(stage.time_ma, system, omega, cov, stage.name)
@@ -336,7 +336,7 @@ def monte_carlo_task(stages, task):
                  for st, w in zip(stages, draw_motions(stages, ss))]
         try:
             out[i] = fit_joint(drawn, per_stage, misfit, start=start).parameters
-        except InputError:
+        except TorqueError:
             pass
     return out
 
