@@ -1,6 +1,6 @@
 """Checks of a world: tiling, rings, boundaries. Used by ``torque check``.
 
-:func:`check_world` returns a :class:`CheckReport`: a per-plate summary and the list of
+:func:`run_checks` returns a :class:`CheckReport`: a per-plate summary and the list of
 problems, each an error (the world cannot be used) or a warning (it can, with care).
 """
 
@@ -459,7 +459,7 @@ def _continent_problems(data: WorldData) -> list:
     return [Problem("warning", w, path) for w in part.warnings]
 
 
-def check_world(world) -> CheckReport:
+def run_checks(world) -> CheckReport:
     """Run every check on a world.
 
     Parameters
@@ -487,7 +487,7 @@ def check_world(world) -> CheckReport:
     >>> from torque.io import world_from_rings
     >>> w = world_from_rings({"Upper": [[(0, 0), (120, 0), (240, 0)]],
     ...                       "Lower": [[(0, 0), (240, 0), (120, 0)]]}, winding="strict")
-    >>> report = check_world(w)
+    >>> report = run_checks(w)
     >>> report.ok, [p["plate"] for p in report.plates], report.problems
     (True, ['Upper', 'Lower'], [])
     """

@@ -32,7 +32,7 @@ import numpy as np
 
 from .errors import InputError, require_memory
 
-__all__ = ["FitOptions", "Problem", "Covariances", "FitRun", "load_inputs", "problem",
+__all__ = ["FitOptions", "Case", "Covariances", "FitRun", "load_inputs", "build_case",
            "forget_inputs", "covariances", "fit", "fit_coefficients", "in_fit_frame", "torque_table",
            "predict_motions", "rank", "map_inputs", "run_series", "CIRCULAR"]
 
@@ -240,8 +240,10 @@ def _fit_result(fit, world):
 # a hypothesis on a world
 # ----------------------------------------------------------------------------------------
 @dataclasses.dataclass(frozen=True, eq=False)
-class Problem:
-    """A hypothesis on a world's inputs, with observed motions if any, and its balance.
+class Case:
+    """One case: a hypothesis on a world's inputs, with observed motions if any, and its
+    balance (not to be confused with :class:`torque.world.Problem`, a problem found in an
+    input file).
 
     Attributes
     ----------
@@ -262,7 +264,7 @@ class Problem:
     system: object
 
     def __repr__(self) -> str:
-        return (f"Problem({self.system!r}, motions "
+        return (f"Case({self.system!r}, motions "
                 f"{'given' if self.omega is not None else 'none'})")
 
     def rebuild(self, physics):
@@ -288,7 +290,7 @@ class Problem:
         return [n for t in self.terms for n in t.notes]
 
 
-def problem(inputs, hypothesis, motions=None) -> Problem:
+def build_case(inputs, hypothesis, motions=None) -> Case:
     """Build every term of ``hypothesis`` on ``inputs``.
 
     Parameters
@@ -301,7 +303,7 @@ def problem(inputs, hypothesis, motions=None) -> Problem:
 
     Returns
     -------
-    Problem
+    Case
     """
     from .forces import build_terms
     from .inference.system import assemble
@@ -309,7 +311,7 @@ def problem(inputs, hypothesis, motions=None) -> Problem:
     motions = _motions(motions)
     omega = motions.for_world(inputs.world) if motions is not None else None
     terms = build_terms(inputs.context(hyp, omega))
-    return Problem(inputs, hyp, motions, omega, terms, assemble(inputs.world, hyp, terms))
+    return Case(inputs, hyp, motions, omega, terms, assemble(inputs.world, hyp, terms))
 
 
 # ----------------------------------------------------------------------------------------
@@ -399,7 +401,7 @@ class FitRun:
     ----------
     result : FitResult
         What ``torque fit`` writes.
-    problem : Problem
+    case : Case
     report : Report
         The computation (every fit method's :class:`~torque.inference.solvers.Fit`).
     covariances : Covariances
@@ -408,13 +410,13 @@ class FitRun:
     """
 
     result: object
-    problem: Problem
+    case: Case
     report: object
     covariances: Covariances
     circular: bool = False
 
     def __repr__(self) -> str:
-        return f"FitRun({self.result.hypothesis!r}, {self.problem.system.n_plates} plates)"
+        return f"FitRun({self.result.hypothesis!r}, {self.case.system.n_plates} plates)"
 
 
 def fit(inputs, hypothesis, motions, options: FitOptions = FitOptions()) -> FitRun:
@@ -434,7 +436,7 @@ def fit(inputs, hypothesis, motions, options: FitOptions = FitOptions()) -> FitR
     """
     from .inference.analysis import analyse
     from .inference.resampling import bootstrap, monte_carlo_motions, monte_carlo_physics
-    pb = problem(inputs, hypothesis, motions)
+    pb = build_case(inputs, hypothesis, motions)
     cov = covariances(options, pb.motions, inputs.world, pb.system)
     if options.monte_carlo and cov.data is None:
         raise InputError("a Monte Carlo over motions needs their covariance: the file has no "
@@ -556,12 +558,12 @@ def torque_table(inputs, hypothesis, motions=None, fit=None):
     Returns
     -------
     table : TorqueTable
-    problem : Problem
+    case : Case
     """
     from .results import TorqueTable
     world = inputs.world
     fit, fit_file = _fit_result(fit, world)
-    pb = problem(inputs, hypothesis, motions)
+    pb = build_case(inputs, hypothesis, motions)
     moving = [t.label for t in pb.terms if t.velocity_dependent]
     if moving and pb.omega is None:
         raise InputError(f"term(s) {', '.join(moving)} depend on the plates' motion",
@@ -594,13 +596,13 @@ def predict_motions(inputs, hypothesis, fit=None, motions=None):
     -------
     motions : Motions
         World plate order, rad/s inside.
-    problem : Problem
+    case : Case
     """
     from .euler import Motions
     from .inference.solvers import predict
     world = inputs.world
     fit, fit_file = _fit_result(fit, world)
-    pb = problem(inputs, hypothesis, motions)
+    pb = build_case(inputs, hypothesis, motions)
     omega = predict(pb.system, fit_coefficients(pb.system, fit, fit_file))
     return Motions(tuple(world.plate_names), omega), pb
 
@@ -633,7 +635,7 @@ def rank(inputs, hypotheses, motions, options: FitOptions = FitOptions(),
     from .inference.ranking import rank as rank_systems
     motions = _motions(motions)
     hyps = [_hypothesis(h) for h in hypotheses]
-    systems = [problem(inputs, h, motions).system for h in hyps]
+    systems = [build_case(inputs, h, motions).system for h in hyps]
     if inputs.used_synthesised_ages and not allow_synthetic_ages:
         raise InputError(CIRCULAR + "; ranking hypotheses on such ages can favour the "
                          "ones the synthesis flatters", file=inputs.path,
@@ -737,7 +739,7 @@ def run_series(path, executor, monte_carlo: int = 0, seed: int = 0, chunk: int =
     """
     from . import progress
     from .inference.ranking import within_one_se
-    from .inference.stages import cross_validation_error, information_criteria
+    from .inference.stages import cross_validation_error, joint_information_criteria
     from .io.hypothesis import load_hypothesis
     from .io.series import fit_task, load_stage, monte_carlo_task, read_series, series_rms
     from .parallel import spawn_seeds
@@ -767,7 +769,7 @@ def run_series(path, executor, monte_carlo: int = 0, seed: int = 0, chunk: int =
         jf = fits[h]
         cv, cv_se = cross_validation_error(by_hyp[h], fits[H + h * len(plates):
                                                            H + (h + 1) * len(plates)], plates)
-        ic = information_criteria(jf)
+        ic = joint_information_criteria(jf)
         ranking.append({"name": names[h], "file": hyps[h],
                         "rms_mm_yr": series_rms(by_hyp[h], jf), "cv_rms_mm_yr": cv,
                         "cv_stderr_mm_yr": cv_se, **ic,

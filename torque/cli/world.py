@@ -38,9 +38,9 @@ def run_check(args) -> int:
         0, or 2 when the world has errors.
     """
     from ..io import dumps
-    from ..validate import check_world
+    from ..validate import run_checks
     data = inputs(args, valid=False)
-    report = check_world(data)
+    report = run_checks(data)
     print(dumps({**report.as_dict(), "run": manifest(args, data)}) if args.json
           else text.check(report))
     if not report.ok:

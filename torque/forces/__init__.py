@@ -25,8 +25,7 @@ from .. import progress
 from .base import ForceTerm, Pieces, empty_term
 from .context import Context
 
-__all__ = ["ForceTerm", "Pieces", "Context", "empty_term", "KINDS", "build_terms",
-           "compute_torques"]
+__all__ = ["ForceTerm", "Pieces", "Context", "empty_term", "KINDS", "build_terms"]
 
 
 def _registry():
@@ -64,19 +63,3 @@ def build_terms(ctx: Context) -> list:
             terms.append(KINDS[spec.kind].build(ctx, spec))
             b.update()
     return terms
-
-
-def compute_torques(world, hypothesis, omega=None, **data) -> list:
-    """The force terms of a hypothesis on a world (see :class:`ForceTerm`).
-
-    Parameters
-    ----------
-    world : World
-    hypothesis : Hypothesis
-    omega : ndarray, shape (P, 3), optional
-        Angular velocities (rad/s) in world plate order: needed to synthesise ages when the
-        world has none, and to evaluate velocity-dependent terms.
-    **data
-        ``ages``, ``continents``, ``flow`` objects to use instead of the world's files.
-    """
-    return build_terms(Context(world, hypothesis, omega, **data))

@@ -48,11 +48,10 @@ def misfit_whitening(system: System, obs_cov=None, plates=None):
         if plates is None or count.max() <= 1:
             rows = np.repeat(count > 0, 3)
             sub = C[np.ix_(rows, rows)]
-            sub = sub + 1e-12 * np.trace(sub) / len(sub) * np.eye(len(sub))
             W = np.zeros((3 * P, 3 * P))
             # L^-1 with L L^T = C: |L^-1 dw|^2 = dw^T C^-1 dw
             W[np.ix_(rows, rows)] = linalg.solve_triangular(
-                linalg.cholesky(sub, lower=True), np.eye(len(sub)), lower=True)
+                jittered_cholesky(sub), np.eye(len(sub)), lower=True)
             return W, int(rows.sum())
         C = covariance_blocks(C)
     blocks = (system.radius_m ** 2 * np.swapaxes(np.linalg.cholesky(system.D), 1, 2)
@@ -147,11 +146,50 @@ def add_covariances(cov, blocks) -> np.ndarray:
 
 
 def _whitening(obs_cov) -> np.ndarray:
-    """Blocks ``U_p^T`` (P, 3, 3) with ``U U^T = C^-1``: ``|U^T dw|^2 = dw^T C^-1 dw``
-    (a vanishing covariance is kept factorisable by a jitter relative to the largest)."""
-    C = np.asarray(obs_cov, float)
-    C = C + 1e-12 * np.trace(C, axis1=1, axis2=2).max() * np.eye(3)
-    return np.swapaxes(np.linalg.cholesky(np.linalg.inv(C)), 1, 2)
+    """Blocks ``L_p^-1`` (P, 3, 3) with ``L_p L_p^T = C_p``: ``|L^-1 dw|^2 = dw^T C^-1 dw``
+    (:func:`jittered_cholesky`)."""
+    return np.linalg.inv(jittered_cholesky(obs_cov))
+
+
+#: The jitter added to each plate's diagonal before a Cholesky factorisation, relative to
+#: that plate's mean variance: it keeps a singular (or vanishing) covariance factorisable
+#: and moves a well-known plate's smallest eigenvalue by far less than its own size.
+JITTER = 1e-12
+
+
+def jittered_cholesky(cov) -> np.ndarray:
+    """Lower Cholesky factor ``L`` (``L L^T = C``) of a covariance after a jitter scaled per
+    plate: ``JITTER`` times each plate's mean variance ``tr(C_pp) / 3`` on its own
+    diagonal (1e-300 for a plate with none). The one factorisation every misfit and every
+    draw uses.
+
+    Parameters
+    ----------
+    cov : ndarray, shape (P, 3, 3) or (3P, 3P)
+        (rad/s)^2.
+
+    Returns
+    -------
+    ndarray
+        Of the shape of ``cov``: per-plate factors, or the full one.
+
+    Examples
+    --------
+    A plate known far better than another keeps its own variances (a jitter scaled to the
+    largest plate would add 4e-12 to its 1e-20):
+
+    >>> C = np.diag([4.0, 4.0, 4.0, 1e-20, 1e-20, 1e-20])
+    >>> L = jittered_cholesky(C)
+    >>> bool(np.allclose(L @ L.T, C, rtol=1e-11, atol=0))
+    True
+    """
+    C = np.asarray(cov, float)
+    blocks = covariance_blocks(C)
+    level = np.trace(blocks, axis1=1, axis2=2) / 3
+    add = np.where(level > 0, JITTER * level, 1e-300)                  # (P,)
+    if C.ndim == 3:
+        return np.linalg.cholesky(C + add[:, None, None] * np.eye(3))
+    return np.linalg.cholesky(C + np.diag(np.repeat(add, 3)))
 
 
 def degrees_of_freedom(n_obs: int, k: int, free_frame: bool = False,

@@ -47,8 +47,8 @@ import numpy as np
 
 from .. import progress
 from ..errors import TorqueError
-from ..tabular import html_table
 from ..results import RankRow
+from ..tabular import html_table
 from .analysis import analyse
 from .solvers import (
     fit_torque,

@@ -19,6 +19,7 @@ from scipy import optimize
 
 from .. import progress
 from ..errors import InputError, TorqueError
+from .covariance import jittered_cholesky
 from .solvers import fit_torque, fit_velocity, fit_velocity_many, on_one_blas_thread
 from .system import System, plate_weights
 
@@ -172,14 +173,11 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
     rng = np.random.default_rng(seed)
     P = system.n_plates
     cov = np.asarray(cov, float)
+    L = jittered_cholesky(cov)
     if cov.ndim == 2:
         # a full covariance: plates correlated with one another
-        L = np.linalg.cholesky(cov + 1e-12 * np.trace(cov) / len(cov) * np.eye(len(cov)))
         draws = omega_obs[None] + (rng.standard_normal((n, 3 * P)) @ L.T).reshape(n, P, 3)
     else:
-        # a jitter relative to each covariance's own size keeps singular ones factorisable
-        tr = np.trace(cov, axis1=1, axis2=2)[:, None, None]
-        L = np.linalg.cholesky(cov + 1e-12 * tr * np.eye(3) + (tr == 0) * np.eye(3) * 1e-300)
         draws = omega_obs[None] + np.einsum("pij,npj->npi", L, rng.standard_normal((n, P, 3)))
     if fit != "torque":
         start = _start(system, omega_obs, weighting, fit, obs_cov)

@@ -34,10 +34,12 @@ from ._optimise import GAUSS_NEWTON_STATUS, _gauss_newton, _minimise_bounded
 from .covariance import (
     _covariance,
     degrees_of_freedom,
+    jittered_cholesky,
     misfit_whitening,
     variance_factor,
 )
 from .solvers import solve_balance
+from .statistics import information_criteria, information_criteria_chi_square
 from .system import plate_weights, rigid_constraint
 
 
@@ -376,9 +378,11 @@ def _stage_misfit(system, omega, omega_obs):
     return float(np.sqrt(mis / area) * M_S_TO_MM_YR), float(1 - mis / obs) if obs else np.nan
 
 
-def information_criteria(fit: JointFit) -> dict:
-    """AIC and BIC of a joint fit from its summed misfit (Gaussian errors of one variance
-    for the area misfit, known variances for the chi-square).
+def joint_information_criteria(fit: JointFit) -> dict:
+    """AIC and BIC of a joint fit from its summed misfit, by the one-world formulas
+    (:func:`torque.inference.statistics.information_criteria` for the area misfit, one
+    variance estimated; :func:`~torque.inference.statistics.information_criteria_chi_square`
+    for the chi-square, variances known).
 
     Parameters
     ----------
@@ -390,8 +394,9 @@ def information_criteria(fit: JointFit) -> dict:
         ``aic``, ``bic``, ``k``, ``n``.
     """
     n, k = fit.n_obs, len(fit.params)
-    loglik = -0.5 * fit.rss if fit.misfit == "chi-square" else -0.5 * n * np.log(fit.rss / n)
-    return {"aic": 2 * k - 2 * loglik, "bic": k * np.log(n) - 2 * loglik, "k": k, "n": n}
+    ic = (information_criteria_chi_square(fit.rss, n, k) if fit.misfit == "chi-square"
+          else information_criteria(fit.rss, n, k))
+    return {"aic": ic["aic"], "bic": ic["bic"], "k": k, "n": n}
 
 
 def cross_validation_error(stages, fits_without, plates) -> tuple[float, float]:
@@ -453,10 +458,7 @@ def draw_motions(stages, seed_sequence) -> list:
     rng = np.random.default_rng(seed_sequence)
     out = []
     for st in stages:
-        C = np.asarray(st.obs_cov, float)
-        # a jitter relative to each plate's variance keeps a zero covariance factorisable
-        C = C + 1e-12 * np.trace(C, axis1=1, axis2=2)[:, None, None] * np.eye(3)
-        L = np.linalg.cholesky(C)
+        L = jittered_cholesky(st.obs_cov)
         out.append(st.omega_obs + np.einsum("pij,pj->pi", L,
                                             rng.standard_normal(st.omega_obs.shape)))
     return out

@@ -14,8 +14,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..euler import net_rotation
 from ..errors import InputError, ModelError
+from ..euler import net_rotation
 
 WEIGHTINGS = ("velocity", "area", "none")
 

@@ -14,7 +14,7 @@ from ..continents import MaskContinents
 from ..data import WorldData
 from ..forces import build_terms
 from ..forces.context import Context
-from ..validate import check_world as _check_world
+from ..validate import run_checks
 from ..validate import require_valid
 from .geojson import read_continents
 from .grids import read_ages, read_coupling, read_flow, read_topography
@@ -135,11 +135,11 @@ def check_world(world):
     ----------
     world : World or WorldData
         A bare world is wrapped in :class:`Inputs`, so that the continents its ``paths``
-        name are read and checked too (:func:`torque.validate.check_world` itself reads no
+        name are read and checked too (:func:`torque.validate.run_checks` itself reads no
         file).
 
     Returns
     -------
     CheckReport
     """
-    return _check_world(world if isinstance(world, WorldData) else Inputs(world))
+    return run_checks(world if isinstance(world, WorldData) else Inputs(world))

@@ -52,7 +52,7 @@ def load_world(path) -> World:
     -------
     World
         With ``problems`` listing whatever reading found wrong or doubtful; call
-        :func:`torque.validate.check_world` for the full set of checks.
+        :func:`torque.validate.run_checks` for the full set of checks.
 
     Raises
     ------
