@@ -247,7 +247,7 @@ def test_a_zero_rotation_has_no_pole(tmp_path, cli):
     # source): motions already in the no-net-rotation frame, moved there again, have a net
     # rotation of rounding size, and the command says so instead of printing a pole
     from .conftest import here
-    from torque.cli.text import pole
+    from torque.present.text import pole
     demo = here().parent / "polygons_demo"
     nnr = tmp_path / "nnr.csv"
     assert cli("frame", demo / "world.toml", demo / "motions.csv", "--to", "nnr",

@@ -164,3 +164,20 @@ def test_the_core_touches_no_file():
                               "open_dataset", "to_netcdf", "savefig"):
                     found.append(f"{name}: {called}()")
     assert found == []
+
+
+#: What the command line and the demo's runner may import: the recipes, presentation, file
+#: I/O and typed results, and the cross-cutting errors, progress bars and executors.
+#: Nothing of the numerical core directly (issue 25).
+FRONT_MAY_IMPORT = ("torque.workflows", "torque.present", "torque.io", "torque.results",
+                    "torque.errors", "torque.progress", "torque.parallel", "torque._version",
+                    "torque.cli", "torque.demo")
+
+
+def test_the_command_line_and_the_demo_call_only_the_recipes():
+    graph = import_graph()
+    front = [m for m in graph if m.startswith("torque.cli") or m == "torque.demo.runner"]
+    assert "torque.cli.balance" in front and "torque.demo.runner" in front
+    below = sorted(f"{m} -> {d}" for m in front for d in graph[m]
+                   if not d.startswith(FRONT_MAY_IMPORT))
+    assert below == []

@@ -113,7 +113,7 @@ def test_printed_values_carry_only_meaningful_digits(ranked):
     # AIC to 0.1 (differences under 1 carry no evidence: Burnham and Anderson 2002,
     # sec. 2.6), and p-values below 1e-6 only as such, since the residuals are spatially
     # correlated and far tails mean nothing here (common practice, no source)
-    from torque.cli.text import p_value, rank as rank_table
+    from torque.present.text import p_value, rank as rank_table
     _, _, _, (rows, tests) = ranked
     text = rank_table(rows, tests)
     assert f"{rows[0].aic:10.1f}" in text

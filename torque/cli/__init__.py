@@ -5,7 +5,7 @@ commands and a ``run_*`` function per command: :mod:`~torque.cli.world` (check),
 :mod:`~torque.cli.kinematics` (frame, field, boundaries), :mod:`~torque.cli.physics`
 (cooling, torques), :mod:`~torque.cli.balance` (fit, predict, rank),
 :mod:`~torque.cli.stages` (stages),
-:mod:`~torque.cli.figures` (map, demo). Terminal tables are in :mod:`~torque.cli.text`.
+:mod:`~torque.cli.figures` (map, demo). Terminal tables are in :mod:`torque.present.text`.
 Every command reads its inputs through :mod:`torque.io`, calls the library, and writes its
 outputs atomically. Bad input raises :class:`torque.errors.InputError`, which ends here as
 one message on stderr and exit status 2.

@@ -8,7 +8,7 @@ from contextlib import ExitStack
 import numpy as np
 
 from ..errors import InputError
-from . import text
+from ..present import text
 from .common import EXIT_OK, arg_type, count, frame_warning, inputs, manifest
 
 RESAMPLE_FIT = dict(choices=("velocity", "torque"), default="velocity",
@@ -228,9 +228,8 @@ def run_predict(args) -> int:
     int
         The exit status (0).
     """
-    from ..euler import net_rotation
     from ..io import output_suffix, write_motions
-    from ..workflows import predict_motions
+    from ..workflows import net_rotation, predict_motions
     output_suffix(args.output, (".csv",))
     data = inputs(args)
     world = data.world
@@ -238,7 +237,7 @@ def run_predict(args) -> int:
     omega = motions.omega
     write_motions(args.output, motions)
     print(f"predicted Euler vectors of {len(omega)} plates (mantle at rest); net rotation "
-          f"{text.pole(net_rotation(world.drag_tensor, omega))}")
+          f"{text.pole(net_rotation(world, omega))}")
     for note in pb.notes():
         print(f"note: {note}")
     print(f"wrote {args.output}")

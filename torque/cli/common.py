@@ -15,7 +15,6 @@ if TYPE_CHECKING:                       # imported when a command runs (fast --h
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
 EXIT_BROKEN_PIPE = 141     # 128 + SIGPIPE, what a shell reports for a reader that went away
-CAUTION = "caution: model-dependent research estimates, not for hazard or engineering use"
 
 
 class Parser(argparse.ArgumentParser):

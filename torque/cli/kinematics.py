@@ -4,13 +4,11 @@
 from __future__ import annotations
 
 import argparse
-import dataclasses
 
-import numpy as np
 
-from ..errors import InputError, require_memory
-from . import text
-from .common import EXIT_OK, inputs, motions_for, positive
+from ..errors import InputError
+from ..present import text
+from .common import EXIT_OK, inputs, positive
 
 FIELD_SUFFIXES = (".csv", ".geojson", ".json", ".nc")
 
@@ -22,7 +20,7 @@ def add_parser(sub) -> None:
     ----------
     sub : argparse subparsers
     """
-    from ..margins import MIN_RUN_KM
+    from ..workflows import MIN_RUN_KM
     p = sub.add_parser("frame", help="change the reference frame of a set of motions",
                        description="Express plate motions in the no-net-rotation frame (the "
                        "frame in which the surface integral of r x v vanishes, computed "
@@ -86,43 +84,19 @@ def run_frame(args) -> int:
     int
         The exit status (0).
     """
-    from ..euler import net_rotation, to_no_net_rotation
-    from ..io import output_suffix, read_fit, read_motions, write_motions
-    from ..workflows import in_fit_frame
+    from ..io import output_suffix, write_motions
+    from ..workflows import change_frame
     if args.old_world is not None or args.motions is None:
         motions = args.world if args.old_world is not None else "MOTIONS"
         world = args.old_world or args.world
         raise InputError("the world file comes first: torque frame "
                          f"{world} {motions} --to {args.to} -o {args.output}")
     output_suffix(args.output, (".csv",))
-    world = inputs(args, args.world).world
-    motions = read_motions(args.motions)
-    omega = motions.for_world(world)
-    target = args.to
-    if target == "nnr":
-        out, w_net = to_no_net_rotation(world, motions)
-    elif target.startswith("plate:"):
-        w_net = net_rotation(world.drag_tensor, omega)
-        name = target[len("plate:"):]
-        if name not in world.plate_index:
-            raise InputError(f"--to {target}: no plate named {name!r}",
-                             file=args.world, hint=f"plates are {', '.join(world.plate_names)}")
-        out = motions.relative_to(name)
-    elif target.startswith("mantle:"):
-        w_net = net_rotation(world.drag_tensor, omega)
-        fit = read_fit(target[len("mantle:"):], world.plate_names)
-        moved = in_fit_frame(omega, fit)
-        order = [world.plate_index[p] for p in motions.plates]
-        # a rotation of the frame leaves the motions' covariance as it is (the fit's own
-        # uncertainty in the frame is not added)
-        out = motions.with_omega(moved[order], motions.cov)
-    else:
-        raise InputError(f"--to {target!r} is not a frame",
-                         hint="use --to nnr, --to plate:NAME or --to mantle:FIT.json")
-    write_motions(args.output, out, world.plate_names)
-    new_net = net_rotation(world.drag_tensor, out.for_world(world))
-    print(f"net rotation of {args.motions}: {text.pole(w_net)}")
-    print(f"net rotation in the new frame: {text.pole(new_net)}")
+    data = inputs(args)
+    out, before, after = change_frame(data, args.motions, args.to)
+    write_motions(args.output, out, data.world.plate_names)
+    print(f"net rotation of {args.motions}: {text.pole(before)}")
+    print(f"net rotation in the new frame: {text.pole(after)}")
     print(f"wrote {args.output}")
     return EXIT_OK
 
@@ -140,26 +114,14 @@ def run_field(args) -> int:
     int
         The exit status (0).
     """
-    from ..euler import grid_lonlat, speed_azimuth, velocity_field
     from ..io import output_suffix, read_points, write_csv, write_field, write_points_geojson
+    from ..workflows import velocity_field
     suffix = output_suffix(args.output, FIELD_SUFFIXES)
-    world = inputs(args).world
-    _, omega = motions_for(args.motions, world)
-    if args.points:
-        lon, lat = read_points(args.points)
-        grid = None
-    else:
-        n = int(np.ceil(360 / args.step)) * int(np.ceil(180 / args.step))
-        # coordinates, unit vectors, plate, velocities and the text of every row
-        require_memory(n * 200.0, f"a velocity field at --step {args.step:g} ({n:,} points)",
-                       hint="use a larger --step")
-        glon, glat = grid_lonlat(args.step)
-        LON, LAT = np.meshgrid(glon, glat)
-        lon, lat = LON.ravel(), LAT.ravel()
-        grid = (glon, glat)
-    plate, ve, vn = velocity_field(world, omega, lon, lat)
-    speed, azimuth = speed_azimuth(ve, vn)
-    names = np.array(world.plate_names, dtype=object)[plate]
+    data = inputs(args)
+    f = velocity_field(data, args.motions, args.step,
+                       read_points(args.points) if args.points else None)
+    lon, lat, names, ve, vn = f["lon"], f["lat"], f["names"], f["ve_mm_yr"], f["vn_mm_yr"]
+    speed, azimuth = f["speed_mm_yr"], f["azimuth_deg"]
     if suffix == ".csv":
         write_csv(args.output, {"lon": lon, "lat": lat, "plate": names, "ve_mm_yr": ve,
                                 "vn_mm_yr": vn, "speed_mm_yr": speed, "azimuth_deg": azimuth})
@@ -168,27 +130,10 @@ def run_field(args) -> int:
             "plate": names, "ve_mm_yr": ve, "vn_mm_yr": vn, "speed_mm_yr": speed,
             "azimuth_deg": azimuth})
     else:
-        write_field(args.output, world, lon, lat, plate, ve, vn, grid)
+        write_field(args.output, data.world, lon, lat, f["plate"], ve, vn, f["grid"])
     print(f"velocity at {len(lon):,} points: speed {speed.min():.2f} to {speed.max():.2f} "
           f"mm/yr, mean {speed.mean():.2f} mm/yr; wrote {args.output}")
     return EXIT_OK
-
-
-def _ages_for_classification(data, motion, omega):
-    """Ages synthesised from the ridges a first classification finds (no age grid): the
-    sinking plate of a convergent boundary is then the one with the older sea floor."""
-    from ..data import WorldData
-    from ..forces.context import Context
-    from ..hypothesis import Hypothesis
-    from ..lithosphere import Physics
-    from ..margins import classify_pieces
-    first, _ = classify_pieces(data.world, motion)
-    world = dataclasses.replace(data.world, boundaries=tuple(first), boundaries_derived=False)
-    if not any(b.kind == "ridge" for b in first):
-        return None
-    ctx = Context(WorldData(world, continents=data.continents),
-                  Hypothesis("classification", Physics(), ()), omega)
-    return ctx.ages[0]
 
 
 def run_boundaries(args) -> int:
@@ -205,59 +150,17 @@ def run_boundaries(args) -> int:
         The exit status (0).
     """
     from ..io import output_suffix, write_boundaries_geojson, write_csv
-    from ..margins import (TRANSFORM_WITHIN_DEG, boundary_motion, classify_pieces,
-                           sample_boundaries)
-    from ..sphere import xyz_to_lonlat
-    from ..world import Boundary
+    from ..workflows import TRANSFORM_WITHIN_DEG, boundary_motion
     output_suffix(args.output, (".csv",))
     if args.geojson:
         output_suffix(args.geojson, (".geojson", ".json"))
-    if not args.spacing_km > 0:
-        raise InputError(f"--spacing-km must be positive, got {args.spacing_km:g}")
-    data = inputs(args)
-    world = data.world
-    if not world.boundaries:
-        raise InputError("the world has no boundaries", file=args.world)
-    _, omega = motions_for(args.motions, world)
-    length_m = float(world.boundary_set.length().sum()) * world.radius_m
-    n = length_m / (args.spacing_km * 1e3)
-    # points, poles, velocities and the text of every row
-    require_memory(n * 400.0, f"--spacing-km {args.spacing_km:g} ({n:,.0f} samples)",
-                   hint="use a larger --spacing-km")
-    samples = sample_boundaries(world.boundaries, args.spacing_km * 1e3 / world.radius_m)
-    motion = boundary_motion(world, omega, samples)
-    boundaries = list(world.boundaries)
-    line = samples.line
-    unresolved, synthesised = [], False
-    if args.classify:
-        ages = data.ages
-        if ages is None:
-            ages, synthesised = _ages_for_classification(data, motion, omega), True
-        boundaries, line = classify_pieces(world, motion, ages, args.min_run_km)
-        unresolved = [k for k, b in enumerate(boundaries)
-                      if b.kind == "subduction" and b.subducting is None]
-    lon, lat = xyz_to_lonlat(samples.xyz)
-    write_csv(args.output, {
-        # the feature of the boundaries file each sample lies on (-1 for lines the world
-        # derived from the plates' shared edges), beside its line in the world's list
-        "lon": lon, "lat": lat,
-        "feature": np.array([-1 if b.feature is None else b.feature for b in boundaries],
-                            np.int64)[line],
-        "line": line,
-        "left": np.array([b.left for b in boundaries], dtype=object)[line],
-        "right": np.array([b.right for b in boundaries], dtype=object)[line],
-        "kind": np.array([b.kind for b in boundaries], dtype=object)[line],
-        "subducting": np.array([b.subducting or ("unresolved" if k in unresolved else "")
-                                for k, b in enumerate(boundaries)], dtype=object)[line],
-        "opening_mm_yr": motion.opening_mm_yr, "along_mm_yr": motion.along_mm_yr,
-        "obliquity_deg": motion.obliquity_deg})
+    bm = boundary_motion(inputs(args), args.motions, args.spacing_km, args.classify,
+                         args.min_run_km)
+    boundaries, unresolved, synthesised = bm.boundaries, bm.unresolved, bm.synthesised
+    lon = bm.columns["lon"]
+    write_csv(args.output, bm.columns)
     if args.geojson:
-        # a convergent stretch whose sinking plate is unresolved is no valid subduction
-        # zone: it is written unclassified, with what is known, so that check accepts it
-        write_boundaries_geojson(args.geojson, [
-            Boundary("unclassified", b.left, b.right, b.xyz, b.feature, None,
-                     {**b.properties, "motion": "convergent, sinking plate unresolved"})
-            if k in unresolved else b for k, b in enumerate(boundaries)])
+        write_boundaries_geojson(args.geojson, bm.for_geojson())
     kinds = {}
     for b in boundaries:
         kinds[b.kind] = kinds.get(b.kind, 0) + 1

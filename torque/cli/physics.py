@@ -6,11 +6,10 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from . import text
+from ..present import text
 from .balance import add_fit_option
 from .common import EXIT_OK, inputs, manifest
 
-DEFAULT_COOLING_AGES = (1, 2, 5, 10, 20, 30, 40, 50, 60, 80, 100, 120, 150, 200)
 
 
 def add_parser(sub) -> None:
@@ -82,14 +81,11 @@ def run_cooling(args) -> int:
     int
         The exit status (0).
     """
-    from ..hypothesis import Hypothesis, cooling_table, slab_depth_km
-    from ..io import dumps, load_hypothesis, output_suffix, write_csv
-    from ..lithosphere import Physics
+    from ..io import dumps, output_suffix, write_csv
+    from ..workflows import cooling
     if args.output:
         output_suffix(args.output, (".csv",))
-    hyp = load_hypothesis(args.physics) if args.physics else Hypothesis("defaults", Physics(), ())
-    ages = parse_ages(args.ages) if args.ages else DEFAULT_COOLING_AGES
-    rows, depth = cooling_table(hyp, ages), slab_depth_km(hyp)
+    rows, depth, hyp = cooling(args.physics, parse_ages(args.ages) if args.ages else None)
     p = hyp.physics
     if args.json:
         print(dumps({"model": p.model, "physics": p.__dict__, "slab_depth_km": depth,

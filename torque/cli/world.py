@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from . import text
+from ..present import text
 from .common import EXIT_BAD_INPUT, EXIT_OK, inputs, manifest
 
 
@@ -38,9 +38,9 @@ def run_check(args) -> int:
         0, or 2 when the world has errors.
     """
     from ..io import dumps
-    from ..validate import run_checks
+    from ..workflows import check
     data = inputs(args, valid=False)
-    report = run_checks(data)
+    report = check(data)
     print(dumps({**report.as_dict(), "run": manifest(args, data)}) if args.json
           else text.check(report))
     if not report.ok:

@@ -8,7 +8,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import CAUTION
+#: The caution every result printed on a terminal ends with.
+CAUTION_LINE = ("caution: model-dependent research estimates, not for hazard or engineering "
+                "use")
 
 
 def pole(omega) -> str:
@@ -144,7 +146,7 @@ def fit(d: dict) -> str:
     -------
     str
     """
-    from ..present.sentences import chi_square_summary, fits_disagree, frame_summary
+    from .sentences import chi_square_summary, fits_disagree, frame_summary
     lines = [f"hypothesis {d['hypothesis']!r}: velocity-space fit (preferred) and "
              "torque-space fit",
              f"{'term':<16} {'value':>11} {'std. error':>10}  {'95 % profile interval':<23} "
@@ -182,7 +184,7 @@ def fit(d: dict) -> str:
                      f"-space refits): 95 % intervals {spans}")
     lines += [f"warning: {w}" for w in fits_disagree(d)]
     lines += [f"note: {note}" for note in d.get("notes", [])]
-    lines.append(CAUTION)
+    lines.append(CAUTION_LINE)
     return "\n".join(lines)
 
 
