@@ -92,12 +92,12 @@ def test_the_poles_map_zooms_on_every_plate(demo_fit, tmp_path, monkeypatch):
     from torque.io import read_fit
     fit = read_fit(demo_fit)
     seen = {}
-    real_save = maps._save
+    real_save = maps.layers._save
 
     def keep(fig, path):
         seen["axes"] = fig.axes
         return real_save(fig, path)
-    monkeypatch.setattr(maps, "_save", keep)
+    monkeypatch.setattr(maps.world_maps, "_save", keep)
     maps.poles_map(load_world(DEMO / "world.toml"), tmp_path / "p.png", fit)
     zooms = seen["axes"][1:]
     assert len(zooms) == len(fit.plates)
@@ -114,7 +114,7 @@ def figures(monkeypatch):
     """Every figure a map function saves, kept open for inspection."""
     from torque.present import maps
     kept = []
-    real_save = maps._save
+    real_save = maps.layers._save
 
     def keep(fig, path):
         kept.append(fig)
@@ -122,7 +122,8 @@ def figures(monkeypatch):
         with open(path, "wb") as fh:
             fig.savefig(fh, format="png", dpi=40)
         return path
-    monkeypatch.setattr(maps, "_save", keep)
+    for module in (maps.world_maps, maps.charts):      # where the figures call it
+        monkeypatch.setattr(module, "_save", keep)
     yield kept
     del real_save
 
@@ -165,7 +166,7 @@ def test_labels_do_not_overlap_on_the_published_model(tmp_path):
     if not model.is_file():
         pytest.skip(f"no published model at {model}")
     world = load_world(model)
-    fig, ax = maps._axes("labels", len(world.plates))
+    fig, ax = maps.style._axes("labels", len(world.plates))
     maps.draw_boundaries(ax, world)
     texts = maps.label_plates(ax, world)
     renderer = fig.canvas.get_renderer()

@@ -5,7 +5,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .maps import DPI, _plt, _save, caption, force_colours
+from .maps.layers import _save
+from .maps.style import DPI, _plt, caption, force_colours
 
 
 def default_plates(result, n: int = 4) -> list:
