@@ -80,28 +80,3 @@ def read_fit(path, plate_names=None) -> FitResult:
     if plate_names is not None and result.plate_names != list(plate_names):
         raise InputError("the fit is for other plates than this world's", file=path)
     return result
-
-
-def read_coefficients(path, hypothesis) -> dict:
-    """The values of a hypothesis' free coefficients from a ``torque fit`` JSON.
-
-    Parameters
-    ----------
-    path : str or Path
-    hypothesis : Hypothesis
-        The fit must be of this hypothesis: a coefficient for each free label, none for a
-        label the hypothesis does not have.
-
-    Returns
-    -------
-    dict
-        ``{label: value}``.
-    """
-    result = read_fit(path)
-    values = result.values(hypothesis.free_labels, file=path)
-    extra = sorted(set(result.coefficients) - set(hypothesis.labels))
-    if extra:
-        raise InputError(f"the coefficients come from another hypothesis: not in "
-                         f"{hypothesis.name!r}: {', '.join(extra)}", file=path,
-                         hint="fit this hypothesis with torque fit first")
-    return dict(zip(hypothesis.free_labels, values))
