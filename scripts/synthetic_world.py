@@ -11,7 +11,8 @@ import numpy as np
 from torque import sphere
 from torque.demo import voronoi_regions
 from torque.grids import AgeGrid, FlowGrid
-from torque.world import Boundary, PlateGeometry, Plate, World, derive_boundaries
+from torque.world import Boundary, PlateGeometry, Plate, World
+from torque.rings import derive_boundaries
 
 KINDS = ("ridge", "subduction", "transform", "collision")
 

@@ -92,7 +92,8 @@ LAYERS = [
     ("torque.errors", "torque.progress", "torque.tabular", "torque.sphere", "torque.grids",
      "torque.forces.base", "torque.parallel", "torque._lazy", "torque._version"),
     ("torque.locate", "torque.euler"),
-    ("torque.world", "torque.continents", "torque.lithosphere", "torque.columns"),
+    ("torque.world", "torque.rings", "torque.continents", "torque.lithosphere",
+     "torque.columns"),
     ("torque.margins", "torque.data"),
     ("torque.validate", "torque.forces.ages_synth"),
     ("torque.forces",),                         # the context, the kinds and the registry

@@ -16,7 +16,7 @@ from pyproj import Geod
 from torque import compute_torques, sphere
 from torque.hypothesis import hypothesis_from_dict
 from torque.io import load_world
-from torque.world import remove_spikes
+from torque.rings import remove_spikes
 
 from .conftest import line_feature, plate_feature
 

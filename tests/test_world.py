@@ -10,7 +10,8 @@ from pyproj import Geod
 
 from torque import sphere
 from torque.io import load_world
-from torque.world import BoundarySet, as_written
+from torque.world import BoundarySet
+from torque.rings import as_written
 
 from .worlds import voronoi_world
 

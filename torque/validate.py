@@ -195,7 +195,7 @@ def tiling_problems(world: World) -> list:
 
 def _written_winding_tiles(g) -> bool:
     """Whether the rings as written (before ``winding = "auto"``) tile the sphere."""
-    from .world import as_written
+    from .rings import as_written
     if g.ring_reversed is None or not g.ring_reversed.any():
         return False
     w = as_written(g)

@@ -17,8 +17,8 @@ from .. import sphere
 from ..continents import Continents
 from ..errors import InputError
 from ..locate import cached as cached_locator
-from ..world import (BOUNDARY_KINDS, EARTH_RADIUS_KM, Boundary, Plate, Problem,
-                     SAME_VERTEX_RAD, geometry_from_rings, remove_spikes)
+from ..rings import geometry_from_rings, remove_spikes
+from ..world import BOUNDARY_KINDS, EARTH_RADIUS_KM, SAME_VERTEX_RAD, Boundary, Plate, Problem
 from .files import atomic_write, read_json
 
 

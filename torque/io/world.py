@@ -9,7 +9,8 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
-from ..world import EARTH_RADIUS_KM, Problem, World, derive_boundaries, trim_along_spikes
+from ..rings import derive_boundaries, trim_along_spikes
+from ..world import EARTH_RADIUS_KM, Problem, World
 from .files import atomic_write, read_toml
 from .geojson import check_line_values, plates_from_features, read_boundaries, read_plates
 from .tables import read_table
