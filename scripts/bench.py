@@ -47,7 +47,7 @@ from torque import compute_torques  # noqa: E402
 from torque.hypothesis import hypothesis_from_dict  # noqa: E402
 from torque.io import write_boundaries_geojson  # noqa: E402
 from torque.inference.resampling import monte_carlo_motions
-from torque.sphere import region_moments  # noqa: E402
+from torque.polygons import region_moments  # noqa: E402
 from torque import check_world  # noqa: E402
 from torque.io import load_world
 from torque.world import PlateGeometry  # noqa: E402

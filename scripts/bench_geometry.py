@@ -21,6 +21,8 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 import numpy as np  # noqa: E402
 
 from torque import sphere  # noqa: E402
+
+from torque import polygons
 from torque.locate import PlateLocator  # noqa: E402
 
 import synthetic_world  # noqa: E402
@@ -54,7 +56,7 @@ def main():
     xyz, start = voronoi_world(args.plates, args.vertices)
     n = args.plates
     owner, hole = np.arange(n), np.zeros(n, bool)
-    t_mom = median_time(lambda: sphere.region_moments(xyz, start, owner, hole, n), args.repeat)
+    t_mom = median_time(lambda: polygons.region_moments(xyz, start, owner, hole, n), args.repeat)
     t_build = median_time(lambda: PlateLocator(xyz, start, owner, hole, n), 3)
     loc = PlateLocator(xyz, start, owner, hole, n)
     pts = sphere.normalize(np.random.default_rng(2).normal(size=(args.points, 3)))

@@ -14,6 +14,8 @@ import pytest
 from pyproj import Geod
 
 from torque import compute_torques, sphere
+
+from torque import polygons
 from torque.hypothesis import hypothesis_from_dict
 from torque.io import load_world
 from torque.rings import remove_spikes
@@ -39,7 +41,7 @@ def test_spikes_are_found_wherever_they_are(ll, apexes):
     kept, found, length = remove_spikes(xyz)
     assert sorted(found) == apexes
     assert len(kept) == 4
-    area = sphere.ring_left_area(xyz[kept], [0, len(kept)])[0]
+    area = polygons.ring_left_area(xyz[kept], [0, len(kept)])[0]
     ref, _ = Geod(a=1, b=1).polygon_area_perimeter(*np.array(ll, float)[kept].T)
     assert area == pytest.approx(abs(ref), rel=1e-9)
 

@@ -14,6 +14,8 @@ from scipy.spatial.transform import Rotation
 
 from torque import sphere
 
+from torque import polygons
+
 from .worlds import voronoi_rings
 
 R = 6371e3
@@ -25,7 +27,7 @@ def moments_of(rings_lonlat, holes=None):
     xyz = [sphere.lonlat_to_xyz(*np.asarray(r, float).T) for r in rings_lonlat]
     start = np.r_[0, np.cumsum([len(x) for x in xyz])]
     is_hole = np.zeros(len(xyz), bool) if holes is None else np.asarray(holes)
-    a, f, s = sphere.region_moments(np.concatenate(xyz), start, np.zeros(len(xyz), int),
+    a, f, s = polygons.region_moments(np.concatenate(xyz), start, np.zeros(len(xyz), int),
                                     is_hole, 1)
     return a[0], f[0], s[0]
 
@@ -50,7 +52,7 @@ def test_area_and_perimeter_match_geographiclib(centre):
         ref_area, ref_perim = GEOD.polygon_area_perimeter(lon, lat)
         area, _, _ = moments_of([np.c_[lon, lat]])
         xyz = sphere.lonlat_to_xyz(lon, lat)
-        perim = sphere.ring_perimeter(xyz, [0, len(xyz)])[0]
+        perim = polygons.ring_perimeter(xyz, [0, len(xyz)])[0]
         assert ref_area > 0
         assert area * R**2 == pytest.approx(ref_area, rel=1e-9)
         assert perim * R == pytest.approx(ref_perim, rel=1e-12)
@@ -125,7 +127,7 @@ def test_voronoi_tiling_covers_the_sphere_and_matches_scipy_areas():
     gen, sv, rings = voronoi_rings(80, seed=11)
     xyz = [sphere.lonlat_to_xyz(*np.asarray(r[:-1]).T) for r in rings]
     start = np.r_[0, np.cumsum([len(x) for x in xyz])]
-    a, f, s = sphere.region_moments(np.concatenate(xyz), start, np.arange(80),
+    a, f, s = polygons.region_moments(np.concatenate(xyz), start, np.arange(80),
                                     np.zeros(80, bool), 80)
     np.testing.assert_allclose(a, sv.calculate_areas(), rtol=1e-10)
     assert a.sum() == pytest.approx(4 * np.pi, rel=1e-13)
@@ -147,7 +149,7 @@ def test_holes_and_multipolygons_are_additive():
     other = cap_ring(5.0, 100, -120, -60)
     a3, f3, s3 = moments_of([other])
     xyz = [sphere.lonlat_to_xyz(*r.T) for r in (outer, other)]
-    am, fm, sm = sphere.region_moments(np.concatenate(xyz), [0, 400, 500], [0, 0],
+    am, fm, sm = polygons.region_moments(np.concatenate(xyz), [0, 400, 500], [0, 0],
                                        [False, False], 1)
     assert am[0] == pytest.approx(a1 + a3, rel=1e-12)
     np.testing.assert_allclose(fm[0], f1 + f3, atol=1e-12)
@@ -164,14 +166,14 @@ def test_invariance_to_start_vertex_densification_and_rotation():
 
     xyz = sphere.lonlat_to_xyz(lon, lat)
     pa, pb, _ = sphere.densify_arcs(xyz, np.roll(xyz, -1, axis=0), np.radians(0.3))
-    ad, fd, sd = sphere.region_moments(pa, [0, len(pa)], [0], [False], 1)
+    ad, fd, sd = polygons.region_moments(pa, [0, len(pa)], [0], [False], 1)
     assert len(pa) > 5 * len(xyz)
     np.testing.assert_allclose(ad[0], a, rtol=1e-12)
     np.testing.assert_allclose(fd[0], f, atol=1e-13)
     np.testing.assert_allclose(sd[0], s, atol=1e-13)
 
     Q = Rotation.random(random_state=3).as_matrix()
-    ar, fr, sr = sphere.region_moments(xyz @ Q.T, [0, len(xyz)], [0], [False], 1)
+    ar, fr, sr = polygons.region_moments(xyz @ Q.T, [0, len(xyz)], [0], [False], 1)
     assert ar[0] == pytest.approx(a, rel=1e-12)
     np.testing.assert_allclose(fr[0], Q @ f, atol=1e-13)
     np.testing.assert_allclose(sr[0], Q @ s @ Q.T, atol=1e-13)
@@ -184,7 +186,7 @@ def test_line_integrals_match_quadrature_and_geodesic_distance():
     for _ in range(10):
         ll = rng.uniform([-180, -90], [180, 90], size=(2, 2))
         a, b = sphere.lonlat_to_xyz(ll[:, 0], ll[:, 1])
-        length, first, second, pole = sphere.polyline_moments(a[None], b[None])
+        length, first, second, pole = polygons.polyline_moments(a[None], b[None])
         _, _, dist = GEOD.inv(ll[0, 0], ll[0, 1], ll[1, 0], ll[1, 1])
         assert length[0] * R == pytest.approx(dist, rel=1e-12)
         u = np.cross(pole[0], a)
@@ -203,7 +205,7 @@ def test_points_left_of_rings_and_arc_helpers():
     # point of the arc from (0, 40) to (180, 40) through the north pole is 90 degrees; the
     # distance from the north pole to the equator is pi/2. (Elementary spherical geometry.)
     eq = sphere.lonlat_to_xyz([0.0, 120.0, 240.0], [0.0, 0.0, 0.0])
-    inside = sphere.points_left_of_rings(sphere.lonlat_to_xyz([0, 0], [89, -89]), eq, [0, 3])
+    inside = polygons.points_left_of_rings(sphere.lonlat_to_xyz([0, 0], [89, -89]), eq, [0, 3])
     assert inside[:, 0].tolist() == [True, False]
     a, b = sphere.lonlat_to_xyz([0.0, 170.0], [40.0, 40.0])
     lo, hi = sphere.arc_lat_range(a, b)

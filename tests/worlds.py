@@ -19,6 +19,8 @@ import numpy as np
 from scipy.spatial import SphericalVoronoi
 
 from torque import compute_torques, inference, sphere
+
+from torque import polygons
 from torque.hypothesis import hypothesis_from_dict
 from torque.io import world_from_rings
 from torque.world import Boundary
@@ -45,7 +47,7 @@ def voronoi_rings(n, seed=0, Q=None):
     rings = []
     for region in sv.regions:
         v = sv.vertices[region]
-        if sphere.ring_left_area(v, [0, len(v)])[0] > 2 * np.pi:
+        if polygons.ring_left_area(v, [0, len(v)])[0] > 2 * np.pi:
             v = v[::-1]
         lon, lat = sphere.xyz_to_lonlat(v)
         ring = rotated_lonlat(np.c_[lon, lat], Q).tolist()

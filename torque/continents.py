@@ -23,6 +23,8 @@ from functools import cached_property
 import numpy as np
 
 from . import sphere
+
+from . import polygons
 from .locate import PlateLocator, cached
 
 
@@ -90,7 +92,7 @@ def clip_moments(world, continents: Continents):
     area : ndarray, shape (P,)
     first : ndarray, shape (P, 3)
     second : ndarray, shape (P, 3, 3)
-        On the unit sphere, as :func:`torque.sphere.region_moments`.
+        On the unit sphere, as :func:`torque.polygons.region_moments`.
     warnings : list of str
         Stretches where a continent edge runs along a plate edge.
     """
@@ -162,7 +164,7 @@ def clip_edges(world, continents: Continents) -> ClippedEdges:
     """
     g = world.geometry
     pa, pb, pplate = g.edges
-    nxt = sphere.ring_next(continents.ring_start)
+    nxt = polygons.ring_next(continents.ring_start)
     ca, cb = continents.xyz, continents.xyz[nxt]
     keep_c = np.any(ca != cb, axis=1)
     ca, cb = ca[keep_c], cb[keep_c]

@@ -21,7 +21,9 @@ from functools import cached_property
 
 import numpy as np
 
-from . import progress, sphere
+from . import progress
+
+from . import polygons
 from .continents import MaskContinents, clip_edges, moments_of_clip
 from .errors import InputError
 
@@ -287,14 +289,14 @@ class WorldData:
             For "ocean" or "continent" when the world has no continents.
         """
         area, _, second = self.world.geometry.moments
-        D = sphere.drag_tensor(area, second)
+        D = polygons.drag_tensor(area, second)
         if region == "all":
             return D
         if self.continents is None:
             raise InputError(f"region {region!r} needs continents: add a 'continents' file to "
                              "the world", file=self.world.paths.get("world"))
         part = self.continental_part
-        Dc = sphere.drag_tensor(part.area, part.second)
+        Dc = polygons.drag_tensor(part.area, part.second)
         return Dc if region == "continent" else D - Dc
 
     def synthesised(self, key, make):

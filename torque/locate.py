@@ -34,6 +34,8 @@ import shapely
 
 from . import sphere
 
+from . import polygons
+
 _POLE_CLEARANCE = 1e-3  # radians kept between any vertex or arc and the grid's poles
 
 
@@ -146,9 +148,9 @@ class PlateLocator:
         if abs(self.ncol * cell_deg - 360.0) > 1e-9 or abs(self.nrow * cell_deg - 180.0) > 1e-9:
             raise ValueError("cell_deg must divide 180 evenly")
 
-        nxt = sphere.ring_next(ring_start)
+        nxt = polygons.ring_next(ring_start)
         a, b = xyz, xyz[nxt]
-        plate = ring_plate[sphere.ring_index(ring_start)]
+        plate = ring_plate[polygons.ring_index(ring_start)]
         keep = np.any(a != b, axis=1)
         a, b, plate = a[keep], b[keep], plate[keep]
 
@@ -229,7 +231,7 @@ class PlateLocator:
 
     def _plates_holding_north(self, rxyz, ring_start, ring_plate, ring_is_hole):
         north = np.array([[0.0, 0.0, 1.0]])
-        left = sphere.points_left_of_rings(north, rxyz, ring_start)[0]
+        left = polygons.points_left_of_rings(north, rxyz, ring_start)[0]
         # In a polygon iff left of all its rings: sum(left) - holes counts 1 inside, else 0.
         per_plate = (np.bincount(ring_plate, weights=left, minlength=self.n_plates)
                      - np.bincount(ring_plate, weights=ring_is_hole, minlength=self.n_plates))

@@ -10,6 +10,8 @@ from __future__ import annotations
 import numpy as np
 
 from . import sphere
+
+from . import polygons
 from .locate import ArcIndex
 from .world import SAME_VERTEX_RAD, Boundary, PlateGeometry, Problem
 
@@ -109,7 +111,7 @@ def _orient(rings, is_hole, winding):
         return rings, flipped
     out = []
     for k, (ring, hole) in enumerate(zip(rings, is_hole)):
-        left = sphere.ring_left_area(ring, [0, len(ring)])[0]
+        left = polygons.ring_left_area(ring, [0, len(ring)])[0]
         if abs(left - 2.0 * np.pi) <= WINDING_TIE_SR:
             out.append(ring)
             continue
@@ -268,7 +270,7 @@ def _with_t_junctions(geometry: PlateGeometry, tol_rad: float):
     order = np.lexsort((t, e))
     e, v = e[order], v[order]
     new_xyz = np.insert(xyz, e + 1, xyz[v], axis=0)
-    ring = sphere.ring_index(rs)[e]
+    ring = polygons.ring_index(rs)[e]
     added = np.bincount(ring, minlength=len(rs) - 1)
     new_rs = rs + np.r_[0, np.cumsum(added)]
     return new_xyz, new_rs, geometry.ring_plate
@@ -297,8 +299,8 @@ def derive_boundaries(geometry: PlateGeometry, plate_names,
     xyz, rs, ring_plate = _with_t_junctions(geometry, tol_rad)
     vid = _vertex_ids(xyz, tol_rad)
     nv = int(vid.max()) + 1
-    nxt = sphere.ring_next(rs)
-    plate = ring_plate[sphere.ring_index(rs)]
+    nxt = polygons.ring_next(rs)
+    plate = ring_plate[polygons.ring_index(rs)]
     fwd = vid * nv + vid[nxt]
     rev = vid[nxt] * nv + vid
     order = np.argsort(fwd, kind="stable")

@@ -12,6 +12,8 @@ import numpy as np
 import shapely
 
 from . import sphere
+
+from . import polygons
 from .data import WorldData
 from .errors import InputError
 from .locate import ArcIndex, arc_boxes
@@ -69,7 +71,7 @@ def _plate_summary(world: World) -> list:
     R = world.radius_m
     area, first, _ = g.moments
     lon, lat = sphere.xyz_to_lonlat(first)
-    perim = sphere.ring_perimeter(g.xyz, g.ring_start)
+    perim = polygons.ring_perimeter(g.xyz, g.ring_start)
     nvert = np.diff(g.ring_start)
     neighbours = {p.name: set() for p in world.plates}
     for b in world.boundaries:
@@ -169,7 +171,7 @@ def tiling_problems(world: World) -> list:
             continue
         reps, more = _clusters(xyz, most=5)
         rest += more
-        left = sphere.points_left_of_rings(xyz[reps], g.xyz, g.ring_start)
+        left = polygons.points_left_of_rings(xyz[reps], g.xyz, g.ring_start)
         for j, k in enumerate(reps):
             inside = (np.bincount(g.ring_plate, weights=left[j], minlength=g.n_plates)
                       - np.bincount(g.ring_plate, weights=g.ring_is_hole, minlength=g.n_plates))
@@ -229,9 +231,9 @@ def ring_crossings(geometry, frame=None, tol_rad: float = 0.0):
     g = geometry
     if frame is None:
         frame = g.locator.frame
-    nxt = sphere.ring_next(g.ring_start)
+    nxt = polygons.ring_next(g.ring_start)
     a, b = g.xyz @ frame.T, g.xyz[nxt] @ frame.T
-    poly = g.ring_polygon[sphere.ring_index(g.ring_start)]
+    poly = g.ring_polygon[polygons.ring_index(g.ring_start)]
     boxes, owner = arc_boxes(a, b)
     tree = shapely.STRtree(boxes)
     qi, ti = tree.query(boxes, predicate="intersects")

@@ -20,6 +20,8 @@ from functools import cached_property
 import numpy as np
 
 from . import sphere
+
+from . import polygons
 from .errors import InputError
 from .locate import cached as cached_locator
 
@@ -263,13 +265,13 @@ class PlateGeometry:
     @cached_property
     def edges(self):
         """Start, end and plate of every edge: ``(a, b, plate)``."""
-        nxt = sphere.ring_next(self.ring_start)
-        return self.xyz, self.xyz[nxt], self.ring_plate[sphere.ring_index(self.ring_start)]
+        nxt = polygons.ring_next(self.ring_start)
+        return self.xyz, self.xyz[nxt], self.ring_plate[polygons.ring_index(self.ring_start)]
 
     @cached_property
     def moments(self):
         """Exact ``(area, first, second)`` moments per plate on the unit sphere."""
-        return sphere.region_moments(self.xyz, self.ring_start, self.ring_plate,
+        return polygons.region_moments(self.xyz, self.ring_start, self.ring_plate,
                                      self.ring_is_hole, self.n_plates)
 
     @cached_property
@@ -371,7 +373,7 @@ class World:
     def drag_tensor(self) -> np.ndarray:
         """``int (I - r r^T) dA`` per plate on the unit sphere, shape (P, 3, 3)."""
         area, _, second = self.geometry.moments
-        return sphere.drag_tensor(area, second)
+        return polygons.drag_tensor(area, second)
 
     @property
     def drag_tensor_m2(self) -> np.ndarray:

@@ -31,7 +31,8 @@ from functools import cached_property
 
 import numpy as np
 
-from .. import sphere
+
+from .. import polygons
 from ..errors import InputError
 from .base import ForceTerm, empty_term
 
@@ -79,7 +80,7 @@ def build_resistance(ctx, spec, boundary_kind) -> ForceTerm:
                          "constant-stress resistance", file=ctx.hypothesis.source,
                          hint='add law = "constant-stress", or drop them')
     arcs = ctx.world.boundary_set.of_kind(boundary_kind)
-    theta, _, second, n = sphere.polyline_moments(arcs.a, arcs.b)
+    theta, _, second, n = polygons.polyline_moments(arcs.a, arcs.b)
     strike = theta[:, None, None] * np.einsum("ei,ej->eij", n, n)
     full = theta[:, None, None] * np.eye(3) - second
     comp = spec.options["component"]
