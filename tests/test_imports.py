@@ -92,7 +92,7 @@ LAYERS = [
     ("torque.errors", "torque.progress", "torque.tabular", "torque.sphere", "torque.polygons",
      "torque.grids",
      "torque.forces.base", "torque.parallel", "torque._lazy", "torque._version"),
-    ("torque.locate", "torque.euler"),
+    ("torque.locate", "torque.arcindex", "torque.euler"),
     ("torque.world", "torque.rings", "torque.continents", "torque.lithosphere",
      "torque.columns"),
     ("torque.margins", "torque.data"),

@@ -12,7 +12,7 @@ import numpy as np
 from . import sphere
 
 from . import polygons
-from .locate import ArcIndex
+from .arcindex import ArcIndex
 from .world import SAME_VERTEX_RAD, Boundary, PlateGeometry, Problem
 
 __all__ = ["remove_spikes", "WINDING_TIE_SR", "geometry_from_rings", "trim_along_spikes",

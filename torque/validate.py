@@ -16,7 +16,7 @@ from . import sphere
 from . import polygons
 from .data import WorldData
 from .errors import InputError
-from .locate import ArcIndex, arc_boxes
+from .arcindex import ArcIndex, arc_boxes
 from .world import Problem, World
 
 AREA_RTOL = 1e-9            # total area against 4 pi R^2
