@@ -42,9 +42,9 @@ def _check_balance(cli, tmp_path, world, hyp, motions):
     totals = _totals(out)
     result = read_fit(fit)
     for p in result.plates:
-        resid = np.array(p["residual_torque_nm"])
-        np.testing.assert_allclose(totals[p["plate"]], resid, rtol=0,
-                                   atol=1e-8 * np.abs(resid).max(), err_msg=p["plate"])
+        resid = np.array(p.residual_torque_nm)
+        np.testing.assert_allclose(totals[p.plate], resid, rtol=0,
+                                   atol=1e-8 * np.abs(resid).max(), err_msg=p.plate)
     drag = {r["plate"]: float(r["magnitude_1e25_nm"]) for r in csv.DictReader(open(out))
             if r["term"].startswith("drag")}
     assert min(drag.values()) > 0
@@ -86,7 +86,7 @@ def test_maps_of_one_fit_show_the_drag_the_fit_reports(cli, tmp_path):
     drag = chart.torque_nm[:, labels.index("drag_all")]
     share = np.einsum("pi,pi->p", drag, drive) / np.einsum("pi,pi->p", drive, drive)
     result = read_fit(fit)
-    budget = [p["budget"]["drag_all"] for p in result.plates]
+    budget = [p.budget["drag_all"] for p in result.plates]
     np.testing.assert_allclose(share, budget, rtol=1e-9)
 
 
@@ -95,7 +95,7 @@ def test_predict_at_a_fit_gives_the_fits_own_predictions(cli, tmp_path):
     assert cli("fit", DEMO / "world.toml", HYP, DEMO / "motions.csv", "--free-frame",
                "--no-profile", "-o", fit)[0] == 0
     result = read_fit(fit)
-    own = pole_to_vector(*np.array([[p["predicted"][k] for k in ("lat", "lon", "rate")]
+    own = pole_to_vector(*np.array([[getattr(p.predicted, k) for k in ("lat", "lon", "rate")]
                                     for p in result.plates]).T)
     inputs = workflows.load_inputs(DEMO / "world.toml")
     motions, _ = workflows.predict_motions(inputs, HYP, fit)
@@ -120,7 +120,7 @@ def test_frame_moves_motions_into_a_fits_mantle_frame(cli, tmp_path):
     moved = read_motions(out).for_world(inputs.world)
     result = read_fit(fit)
     # the fit's "observed" poles are the motions in its mantle frame
-    own = pole_to_vector(*np.array([[p["observed"][k] for k in ("lat", "lon", "rate")]
+    own = pole_to_vector(*np.array([[getattr(p.observed, k) for k in ("lat", "lon", "rate")]
                                     for p in result.plates]).T)
     np.testing.assert_allclose(moved, own, rtol=0, atol=1e-9 * np.abs(own).max())
 

@@ -189,7 +189,7 @@ def test_observed_poles_get_ellipses_from_their_covariance(tmp_path, cli):
     fit = read_fit(tmp_path / "f.json")
     k = np.sqrt(stats.chi2.ppf(0.95, 2))
     for p in fit.plates:
-        e, rate = p["observed_pole_ellipse"], p["observed"]["rate"]
+        e, rate = p.observed_pole_ellipse, p.observed.rate
         r = np.degrees(k * 0.01 / rate)
         assert e["major_deg"] == pytest.approx(r, rel=1e-6)
         assert e["minor_deg"] == pytest.approx(r, rel=1e-6)
@@ -211,8 +211,8 @@ def test_the_prediction_ellipse_adds_the_observations_covariance(tmp_path, cli):
     fit = read_fit(tmp_path / "f.json")
     k = np.sqrt(stats.chi2.ppf(0.95, 2))
     for p in fit.plates:
-        coef, pred = p["pole_ellipse"], p["prediction_ellipse"]
-        r2 = np.degrees(k * 0.01 / p["predicted"]["rate"]) ** 2
+        coef, pred = p.pole_ellipse, p.prediction_ellipse
+        r2 = np.degrees(k * 0.01 / p.predicted.rate) ** 2
         assert pred["major_deg"] ** 2 == pytest.approx(coef["major_deg"] ** 2 + r2, rel=1e-6)
         assert pred["minor_deg"] ** 2 == pytest.approx(coef["minor_deg"] ** 2 + r2, rel=1e-6)
         assert coef["major_deg"] < 1e-3 * pred["minor_deg"]

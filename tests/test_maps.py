@@ -101,7 +101,7 @@ def test_the_poles_map_zooms_on_every_plate(demo_fit, tmp_path, monkeypatch):
     maps.poles_map(load_world(DEMO / "world.toml"), tmp_path / "p.png", fit)
     zooms = seen["axes"][1:]
     assert len(zooms) == len(fit.plates)
-    assert [a.get_title() for a in zooms] == [p["plate"] for p in fit.plates]
+    assert [a.get_title() for a in zooms] == [p.plate for p in fit.plates]
     for a in zooms:
         x0, x1 = a.get_xlim()
         for line in a.get_lines():

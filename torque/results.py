@@ -1,5 +1,6 @@
 """Typed results: what the fits, rankings and series report, as small frozen records.
 
+:class:`PlateResult` (with its :class:`Pole` s) is one plate's results of a fit;
 :class:`TorqueTable` holds every term's torque on every plate at stated coefficients, in
 the units researchers compare them in; :class:`SeriesResult` is what ``torque stages``
 reports; :class:`RankRow` is one hypothesis in a ranking.
@@ -19,6 +20,9 @@ from . import sphere
 from .errors import InputError
 from .euler import RAD_S_PER_DEG_MYR
 from .tabular import html_table, number
+
+__all__ = ["PREFERRED_FIT", "CAUTION", "WHY_VELOCITY", "Coefficient", "Pole", "PlateResult",
+           "FitResult", "RankRow", "SeriesResult", "TORQUE_UNIT_NM", "SOURCES", "TorqueTable"]
 
 #: The fit method whose values are reported as the coefficients' values (the registry of
 #: methods, :data:`torque.inference.methods.FIT_METHODS`, names it too).
@@ -63,6 +67,122 @@ class Coefficient:
 
 
 @dataclass(frozen=True)
+class Pole:
+    """An Euler pole as reported: latitude and longitude (degrees), rate (deg/Myr, >= 0).
+
+    Attributes
+    ----------
+    lat, lon, rate : float
+    """
+
+    lat: float
+    lon: float
+    rate: float
+
+    def as_dict(self) -> dict:
+        """``{"lat", "lon", "rate"}``, as the fit JSON holds it."""
+        return {"lat": self.lat, "lon": self.lon, "rate": self.rate}
+
+    @classmethod
+    def from_dict(cls, d) -> "Pole":
+        """The pole of a ``{"lat", "lon", "rate"}`` mapping (NaN where a number is missing).
+
+        Parameters
+        ----------
+        d : dict or None
+
+        Returns
+        -------
+        Pole
+        """
+        d = d if isinstance(d, dict) else {}
+        return cls(*(float(d[k]) if isinstance(d.get(k), (int, float)) else float("nan")
+                     for k in ("lat", "lon", "rate")))
+
+
+@dataclass(frozen=True)
+class PlateResult:
+    """One plate's results of a fit, as reported.
+
+    Attributes
+    ----------
+    plate : str
+    observed, predicted : Pole
+        The observed pole (in the fit's mantle frame) and the predicted one.
+    pole_distance_deg : float
+    rate_ratio : float or None
+        Predicted over observed rate (None for a plate observed at rest).
+    rms_velocity_mm_yr : float
+        RMS velocity misfit over the plate.
+    residual_torque_nm : tuple of float
+        The balance's residual torque on the plate (3 numbers, N m).
+    budget : dict
+        ``{label: share}`` of the plate's driving torque (None where it has none).
+    pole_ellipse : dict or None
+        The predicted pole's 95 % ellipse from the coefficients' covariance
+        (``major_deg``, ``minor_deg``, ``azimuth_deg``, ...).
+    observed_pole_ellipse, prediction_ellipse : dict or None
+        With the observations' covariance: the observed pole's ellipse, and where the
+        observed pole should lie if the model is right (coefficients and observations).
+    """
+
+    plate: str
+    observed: Pole
+    predicted: Pole
+    pole_distance_deg: float = float("nan")
+    rate_ratio: float | None = None
+    rms_velocity_mm_yr: float = float("nan")
+    residual_torque_nm: tuple = ()
+    budget: dict = field(default_factory=dict)
+    pole_ellipse: dict | None = None
+    observed_pole_ellipse: dict | None = None
+    prediction_ellipse: dict | None = None
+
+    #: The ellipses, written only where present.
+    ELLIPSES = ("pole_ellipse", "observed_pole_ellipse", "prediction_ellipse")
+
+    def as_dict(self) -> dict:
+        """The plate's entry of the fit JSON.
+
+        Returns
+        -------
+        dict
+        """
+        d = {"plate": self.plate, "observed": self.observed.as_dict(),
+             "predicted": self.predicted.as_dict(),
+             "pole_distance_deg": self.pole_distance_deg, "rate_ratio": self.rate_ratio,
+             "rms_velocity_mm_yr": self.rms_velocity_mm_yr,
+             "residual_torque_nm": list(self.residual_torque_nm), "budget": dict(self.budget)}
+        d.update({k: getattr(self, k) for k in self.ELLIPSES if getattr(self, k) is not None})
+        return d
+
+    @classmethod
+    def from_dict(cls, d: dict) -> "PlateResult":
+        """A plate's entry of a fit JSON (missing numbers as NaN or None).
+
+        Parameters
+        ----------
+        d : dict
+            With at least ``plate``.
+
+        Returns
+        -------
+        PlateResult
+        """
+        def num(key):
+            x = d.get(key)
+            return float(x) if isinstance(x, (int, float)) and not isinstance(x, bool) \
+                else float("nan")
+        ratio = d.get("rate_ratio")
+        return cls(str(d["plate"]), Pole.from_dict(d.get("observed")),
+                   Pole.from_dict(d.get("predicted")), num("pole_distance_deg"),
+                   float(ratio) if isinstance(ratio, (int, float)) else None,
+                   num("rms_velocity_mm_yr"), tuple(d.get("residual_torque_nm") or ()),
+                   dict(d.get("budget") or {}),
+                   *(d.get(k) if isinstance(d.get(k), dict) else None for k in cls.ELLIPSES))
+
+
+@dataclass(frozen=True)
 class FitResult:
     """The results of ``torque fit``: what the fit JSON holds, as one record.
 
@@ -71,7 +191,7 @@ class FitResult:
     hypothesis : str
     coefficients : dict
         ``{label: Coefficient}``, in the hypothesis' order.
-    plates : tuple of dict
+    plates : tuple of PlateResult
         Per plate: ``plate``, ``observed`` and ``predicted`` poles (``lat``, ``lon`` in
         degrees, ``rate`` in deg/Myr), ``pole_distance_deg``, ``rate_ratio``,
         ``rms_velocity_mm_yr``, ``residual_torque_nm`` (3 numbers), ``budget``
@@ -124,7 +244,7 @@ class FitResult:
     @property
     def plate_names(self) -> list:
         """The plates, in the order of :attr:`plates`."""
-        return [p["plate"] for p in self.plates]
+        return [p.plate for p in self.plates]
 
     @property
     def mantle_rotation_rad_s(self) -> np.ndarray:
@@ -170,11 +290,11 @@ class FitResult:
             raise ValueError(f"what must be 'plates' or 'coefficients', got {what!r}")
         rows = []
         for p in self.plates:
-            row = {f"{k}_{x}": p[k][x] for k in ("observed", "predicted")
+            row = {f"{k}_{x}": getattr(getattr(p, k), x) for k in ("observed", "predicted")
                    for x in ("lat", "lon", "rate")}
-            row.update({k: p.get(k) for k in ("pole_distance_deg", "rate_ratio",
-                                               "rms_velocity_mm_yr")})
-            row.update({f"budget_{l}": v for l, v in (p.get("budget") or {}).items()})
+            row.update({k: getattr(p, k) for k in ("pole_distance_deg", "rate_ratio",
+                                                    "rms_velocity_mm_yr")})
+            row.update({f"budget_{l}": v for l, v in p.budget.items()})
             rows.append(row)
         return pd.DataFrame(rows, index=pd.Index(self.plate_names, name="plate"))
 
@@ -235,7 +355,7 @@ class FitResult:
             "preferred_fit": self.preferred_fit,
             "why": WHY_VELOCITY,
             "coefficients": {l: dict(c.__dict__) for l, c in self.coefficients.items()},
-            "plates": [dict(p) for p in self.plates],
+            "plates": [p.as_dict() for p in self.plates],
             "misfit": dict(self.misfit),
             "uncertainty": self.uncertainty,
         }
@@ -284,7 +404,8 @@ class FitResult:
                                        num("torque_space_stderr"), optional("profile_low"),
                                        optional("profile_high"),
                                        at if at in ("lower", "upper") else None)
-        return cls(str(doc.get("hypothesis", "")), coefs, tuple(doc["plates"]),
+        return cls(str(doc.get("hypothesis", "")), coefs,
+                   tuple(PlateResult.from_dict(p) for p in doc["plates"]),
                    dict(doc.get("misfit") or {}), dict(doc.get("uncertainty") or {}),
                    tuple(doc.get("notes") or ()), str(doc.get("preferred_fit", PREFERRED_FIT)),
                    doc.get("frame") if isinstance(doc.get("frame"), dict) else None)

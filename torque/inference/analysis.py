@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..euler import RAD_S_PER_DEG_MYR, net_rotation, vector_to_pole
-from ..results import Coefficient, FitResult
+from ..results import Coefficient, FitResult, PlateResult, Pole
 from .covariance import covariance_blocks
 from .methods import FIT_METHODS, PREFERRED_FIT
 from .solvers import Fit, on_one_blas_thread, predict
@@ -144,24 +144,18 @@ class Report:
         plat, plon, prate = vector_to_pole(self.omega_pred)
         plates = []
         for p, name in enumerate(s.plates):
-            plates.append({
-                "plate": name,
-                "observed": {"lat": float(olat[p]), "lon": float(olon[p]),
-                             "rate": float(orate[p])},
-                "predicted": {"lat": float(plat[p]), "lon": float(plon[p]),
-                              "rate": float(prate[p])},
-                "pole_distance_deg": float(ang[p]),
-                "rate_ratio": float(prate[p] / orate[p]) if orate[p] > 0 else None,
-                "rms_velocity_mm_yr": float(rms[p]),
-                "residual_torque_nm": resid[p].tolist(),
-                "budget": {l: (None if not np.isfinite(budget[p, k]) else float(budget[p, k]))
-                           for k, l in enumerate(s.labels)},
-                "pole_ellipse": pole_ellipse(self.omega_pred[p], self.pole_cov[p]),
-                **({"observed_pole_ellipse": pole_ellipse(self.omega_obs[p], obs_blocks[p])}
-                   if obs_blocks is not None else {}),
-                **({"prediction_ellipse": pole_ellipse(self.omega_pred[p], pred_blocks[p])}
-                   if pred_blocks is not None else {}),
-            })
+            plates.append(PlateResult(
+                name, Pole(float(olat[p]), float(olon[p]), float(orate[p])),
+                Pole(float(plat[p]), float(plon[p]), float(prate[p])), float(ang[p]),
+                float(prate[p] / orate[p]) if orate[p] > 0 else None, float(rms[p]),
+                tuple(resid[p].tolist()),
+                {l: (None if not np.isfinite(budget[p, k]) else float(budget[p, k]))
+                 for k, l in enumerate(s.labels)},
+                pole_ellipse(self.omega_pred[p], self.pole_cov[p]),
+                (pole_ellipse(self.omega_obs[p], obs_blocks[p])
+                 if obs_blocks is not None else None),
+                (pole_ellipse(self.omega_pred[p], pred_blocks[p])
+                 if pred_blocks is not None else None)))
         misfit = self._misfit_record(glob)
         return FitResult(s.name, {l: Coefficient(**c) for l, c in coefs.items()},
                          tuple(plates), misfit, self.uncertainty, tuple(notes),

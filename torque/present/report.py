@@ -74,11 +74,9 @@ def _tables(run: dict) -> list:
         out.append(("Warnings", ["where", "warning"], warnings,
                     "Everything here is also in the fits' JSON (notes) or the world check."))
     best = run["fits"][run["rank"][0]["name"]]
-    rows = [[p["plate"], f"{p['observed']['lat']:.2f}, {p['observed']['lon']:.2f}",
-             _fmt(p["observed"]["rate"]),
-             f"{p['predicted']['lat']:.2f}, {p['predicted']['lon']:.2f}",
-             _fmt(p["predicted"]["rate"]), _fmt(p["pole_distance_deg"]),
-             _fmt(p["rms_velocity_mm_yr"])] for p in best.plates]
+    rows = [[p.plate, f"{p.observed.lat:.2f}, {p.observed.lon:.2f}", _fmt(p.observed.rate),
+             f"{p.predicted.lat:.2f}, {p.predicted.lon:.2f}", _fmt(p.predicted.rate),
+             _fmt(p.pole_distance_deg), _fmt(p.rms_velocity_mm_yr)] for p in best.plates]
     out.append((f"Per-plate fit of the best hypothesis ({best.hypothesis})",
                 ["plate", "observed pole (lat, lon)", "rate deg/Myr", "predicted pole",
                  "rate deg/Myr", "pole distance deg", "RMS misfit mm/yr"], rows, None))

@@ -24,14 +24,14 @@ def budget_chart(path, fit):
     Path
     """
     plt = _plt()
-    plates = [p["plate"] for p in fit.plates]
+    plates = [p.plate for p in fit.plates]
     labels = list(fit.coefficients)
     fig, ax = plt.subplots(figsize=(9, 0.35 * len(plates) + 1.5), dpi=DPI)
     left_pos = np.zeros(len(plates))
     left_neg = np.zeros(len(plates))
     cols = force_colours(labels)
     for l in labels:
-        v = np.array([p["budget"].get(l) or 0.0 for p in fit.plates])
+        v = np.array([p.budget.get(l) or 0.0 for p in fit.plates])
         start = np.where(v >= 0, left_pos, left_neg)
         ax.barh(plates, v, left=start, color=cols[l], label=l, edgecolor="white")
         left_pos += np.where(v >= 0, v, 0)

@@ -99,7 +99,8 @@ def _draw_misfit(inp: MapInputs, path):
         if inp.observed is not None or inp.predicted is not None:
             raise InputError("a misfit map takes --fit, or --motions with --predicted, not "
                              "both", hint="the fit's poles are both in the mantle's frame")
-        obs, pred = (pole_to_vector(*np.array([[p[k]["lat"], p[k]["lon"], p[k]["rate"]]
+        obs, pred = (pole_to_vector(*np.array([[getattr(p, k).lat, getattr(p, k).lon,
+                                                 getattr(p, k).rate]
                                                 for p in inp.fit.plates]).T)
                      for k in ("observed", "predicted"))
         order = [inp.fit.plate_names.index(n) for n in inp.world.plate_names]

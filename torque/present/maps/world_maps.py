@@ -166,7 +166,7 @@ def poles_map(world, path, fit):
     from matplotlib.lines import Line2D
     plt = _plt()
     plates = list(fit.plates)
-    predicted_key = ("prediction_ellipse" if any(p.get("prediction_ellipse") for p in plates)
+    predicted_key = ("prediction_ellipse" if any(p.prediction_ellipse for p in plates)
                      else "pole_ellipse")
     ncol = min(7, max(len(plates), 1))
     nrow = -(-len(plates) // ncol)
@@ -186,22 +186,23 @@ def poles_map(world, path, fit):
     # rings), projected once, one collection per kind
     for which, marker in (("observed", dict(marker="o", mfc="white", mec=OBSERVED_COLOUR)),
                           ("predicted", dict(marker="^", color=PREDICTED_COLOUR))):
-        ax.plot([p[which]["lon"] for p in plates], [p[which]["lat"] for p in plates],
+        ax.plot([getattr(p, which).lon for p in plates],
+                [getattr(p, which).lat for p in plates],
                 ls="", ms=6, transform=ccrs.PlateCarree(), zorder=6, **marker)
     for key, which, colour, style in styles:
-        rings = [np.column_stack(_ellipse_lonlat(p[which]["lat"], p[which]["lon"],
+        rings = [np.column_stack(_ellipse_lonlat(getattr(p, which).lat, getattr(p, which).lon,
                                                  e["major_deg"], e["minor_deg"],
                                                  e["azimuth_deg"]))
-                 for p in plates for e in [p.get(key) or {}] if e.get("major_deg")]
+                 for p in plates for e in [getattr(p, key) or {}] if e.get("major_deg")]
         if rings:
             ax.add_collection(LineCollection(_project_lines(ax.projection, rings),
                                              colors=colour, linewidths=1.4,
                                              linestyles=[style], zorder=7,
                                              transform=ax.transData), autolim=False)
-    markers = ([p[w]["lon"] for p in plates for w in ("observed", "predicted")],
-               [p[w]["lat"] for p in plates for w in ("observed", "predicted")])
-    place_labels(ax, [p["predicted"]["lon"] for p in plates],
-                 [p["predicted"]["lat"] for p in plates], [p["plate"] for p in plates],
+    markers = ([getattr(p, w).lon for p in plates for w in ("observed", "predicted")],
+               [getattr(p, w).lat for p in plates for w in ("observed", "predicted")])
+    place_labels(ax, [p.predicted.lon for p in plates],
+                 [p.predicted.lat for p in plates], [p.plate for p in plates],
                  label_size(len(plates)) - 1, obstacles=markers)
     for i, p in enumerate(plates):
         _pole_zoom(fig.add_subplot(grid[1 + i // ncol, i % ncol]), p, styles)
@@ -224,9 +225,9 @@ def _pole_zoom(ax, plate, styles):
     """One plate's observed and predicted poles and ellipses, in local coordinates."""
     from pyproj import Geod
     g = Geod(a=1.0, b=1.0)
-    o, q = plate["observed"], plate["predicted"]
+    o, q = plate.observed, plate.predicted
     # the midpoint of the two poles, as the centre of the local azimuthal frame
-    mid = sphere.lonlat_to_xyz(np.array([o["lon"], q["lon"]]), np.array([o["lat"], q["lat"]]))
+    mid = sphere.lonlat_to_xyz(np.array([o.lon, q.lon]), np.array([o.lat, q.lat]))
     m = mid.sum(0)
     m = m / np.linalg.norm(m) if np.linalg.norm(m) > 1e-9 else mid[0]
     lon_c, lat_c = sphere.xyz_to_lonlat(m)
@@ -239,15 +240,15 @@ def _pole_zoom(ax, plate, styles):
         return d * np.sin(np.radians(az)), d * np.cos(np.radians(az))
     extent = 0.0
     for key, which, colour, style in styles:
-        at = plate[which]
-        x, y = local(at["lon"], at["lat"])
+        at = getattr(plate, which)
+        x, y = local(at.lon, at.lat)
         marker = dict(marker="^", color=colour) if which == "predicted" else \
             dict(marker="o", mfc="white", mec=colour)
         ax.plot(x, y, ls="", ms=4, **marker)
         extent = max(extent, float(np.hypot(x, y).max()))
-        e = plate.get(key) or {}
+        e = getattr(plate, key) or {}
         if e.get("major_deg"):
-            ex, ey = local(*_ellipse_lonlat(at["lat"], at["lon"], e["major_deg"],
+            ex, ey = local(*_ellipse_lonlat(at.lat, at.lon, e["major_deg"],
                                             e["minor_deg"], e["azimuth_deg"]))
             ax.plot(ex, ey, color=colour, lw=1.0, ls=style)
             extent = max(extent, float(np.hypot(ex, ey).max()))
@@ -255,7 +256,7 @@ def _pole_zoom(ax, plate, styles):
     ax.set_xlim(-extent, extent)
     ax.set_ylim(-extent, extent)
     ax.set_aspect("equal")
-    ax.set_title(plate["plate"], fontsize=7, pad=2)
+    ax.set_title(plate.plate, fontsize=7, pad=2)
     # the box's half-width instead of tick labels on every panel; a cross at the midpoint
     ax.set_xticks([])
     ax.set_yticks([])
