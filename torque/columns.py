@@ -38,6 +38,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+__all__ = ["ColumnModel"]
+
 
 @dataclass(frozen=True)
 class ColumnModel:

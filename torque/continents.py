@@ -27,6 +27,9 @@ from . import sphere
 from . import polygons
 from .locate import PlateLocator, cached
 
+__all__ = ["Continents", "clip_moments", "moments_of_clip", "ClippedEdges",
+           "clip_edges", "MIN_CONTINENT_NODES", "MaskContinents"]
+
 
 @dataclass(frozen=True, eq=False)
 class Continents:

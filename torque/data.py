@@ -27,6 +27,8 @@ from . import polygons
 from .continents import MaskContinents, clip_edges, moments_of_clip
 from .errors import InputError
 
+__all__ = ["LARGE_GRID", "ContinentalPart", "WorldData"]
+
 #: Grids of at least this many nodes show progress while they are located.
 LARGE_GRID = 1_000_000
 

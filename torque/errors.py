@@ -7,6 +7,9 @@ from __future__ import annotations
 
 import os
 
+__all__ = ["TorqueError", "InputError", "ModelError", "available_memory_bytes",
+           "require_memory"]
+
 
 class TorqueError(Exception):
     """Base of the errors this package raises on purpose, with a message a user can act on.

@@ -22,6 +22,12 @@ import numpy as np
 from . import sphere
 from .errors import InputError
 
+__all__ = ["MYR_S", "YR_S", "RAD_S_PER_DEG_MYR", "M_S_TO_MM_YR", "COV_COLUMNS",
+           "pole_to_vector", "vector_to_pole", "velocity_xyz", "velocity_en",
+           "speed_azimuth", "relative", "finite_rotation", "rotation_pole", "compose",
+           "Motions", "net_rotation", "to_no_net_rotation", "grid_lonlat",
+           "velocity_field"]
+
 MYR_S = 3.15576e13                               # s in a (Julian) million years
 YR_S = MYR_S / 1e6
 RAD_S_PER_DEG_MYR = np.pi / 180.0 / MYR_S

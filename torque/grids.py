@@ -14,6 +14,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
+__all__ = ["MAX_AGE_MYR", "RegularGrid", "AgeGrid", "FlowGrid", "CouplingGrid",
+           "TopographyGrid", "bilinear"]
+
 
 MAX_AGE_MYR = 300.0
 

@@ -16,6 +16,10 @@ import numpy as np
 from .errors import InputError
 from .lithosphere import Cooling, Physics
 
+__all__ = ["TOP_KEYS", "COMMON_KEYS", "ForceSpec", "Hypothesis", "RENAMED_KINDS",
+           "parse_force", "hypothesis_from_dict", "parse_spread", "slab_depth_km",
+           "cooling_table"]
+
 TOP_KEYS = ("name", "physics", "force", "spread")
 COMMON_KEYS = {
     "kind": "the force kind",

@@ -48,6 +48,9 @@ from scipy.special import erf
 from .errors import InputError
 from .euler import MYR_S
 
+__all__ = ["MODELS", "Physics", "Cooling", "LOOKUP_NODES", "LOOKUP_MAX_AGE_MYR",
+           "HALF_SPACE_BELOW_MYR", "lookup_knots", "lookup_basis"]
+
 MODELS = ("plate", "half-space")
 _GL_NODES, _GL_WEIGHTS = np.polynomial.legendre.leggauss(64)
 _LAYER_SCALES = 12.0   # integrate to 12 sqrt(kappa t): 1 - theta < 1e-30 beyond

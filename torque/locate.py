@@ -35,6 +35,8 @@ from . import sphere
 
 from . import polygons
 
+__all__ = ["default_cell_deg", "cached", "PlateLocator"]
+
 _POLE_CLEARANCE = 1e-3  # radians kept between any vertex or arc and the grid's poles
 
 

@@ -16,6 +16,10 @@ from . import sphere
 from .euler import M_S_TO_MM_YR
 from .world import Boundary, BoundarySet
 
+__all__ = ["TRANSFORM_WITHIN_DEG", "AGE_PROBE_KM", "BoundarySamples",
+           "sample_boundaries", "BoundaryMotion", "boundary_motion", "classify",
+           "with_kinds", "SAME_AGE_MYR", "MIN_RUN_KM", "classify_pieces"]
+
 #: A boundary is a transform when its mean obliquity is within this many degrees of 90.
 TRANSFORM_WITHIN_DEG = 30.0
 #: Distance (km) into each plate at which ages are read to decide which plate sinks.

@@ -25,6 +25,8 @@ import numpy as np
 
 from .errors import InputError
 
+__all__ = ["small_solves", "spawn_seeds", "Executor"]
+
 
 def small_solves():
     """A context in which BLAS runs on one thread.

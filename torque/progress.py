@@ -13,6 +13,8 @@ from __future__ import annotations
 import contextlib
 import sys
 
+__all__ = ["set_quiet", "is_quiet", "shown", "bar", "task"]
+
 _state = {"quiet": False, "stream": None}
 
 

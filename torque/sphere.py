@@ -10,6 +10,11 @@ from __future__ import annotations
 
 import numpy as np
 
+__all__ = ["FOUR_PI", "lonlat_to_xyz", "xyz_to_lonlat", "normalize", "cross", "dot",
+           "angle_between", "east_north", "step_toward", "arc_pole", "arc_first_moment",
+           "arc_second_moment", "slerp_points", "densify_arcs", "arc_lat_range",
+           "arc_lonlat_box", "arcs_cross", "point_arc_distance"]
+
 FOUR_PI = 4.0 * np.pi
 
 

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import html
 
+__all__ = ["number", "html_table"]
+
 
 def number(v, digits: int = 4) -> str:
     """A number as a table shows it: ``digits`` significant digits, "-" for None or NaN.

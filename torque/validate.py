@@ -19,6 +19,10 @@ from .errors import InputError
 from .arcindex import ArcIndex, arc_boxes
 from .world import Problem, World
 
+__all__ = ["AREA_RTOL", "BOUNDARY_TOL_KM", "CheckReport", "require_valid",
+           "tiling_problems", "ring_crossings", "boundary_offsets", "UNCOVERED_MIN_KM",
+           "uncovered_edges", "run_checks"]
+
 AREA_RTOL = 1e-9            # total area against 4 pi R^2
 BOUNDARY_TOL_KM = 1.0       # how far a boundary vertex may be from its plates' edges
 _CLUSTER_DEG = 5.0          # problem cells closer than this are reported once

@@ -25,6 +25,9 @@ from . import polygons
 from .errors import InputError
 from .locate import cached as cached_locator
 
+__all__ = ["EARTH_RADIUS_KM", "BOUNDARY_KINDS", "SAME_VERTEX_RAD", "Problem", "Plate",
+           "Boundary", "BoundarySet", "PlateGeometry", "World"]
+
 EARTH_RADIUS_KM = 6371.0
 BOUNDARY_KINDS = ("ridge", "subduction", "transform", "collision", "unclassified")
 #: Two vertices closer than this (radians, about 6 mm on the Earth) are the same vertex, for

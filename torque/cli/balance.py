@@ -11,6 +11,11 @@ from ..errors import InputError
 from ..present import text
 from .common import EXIT_OK, arg_type, count, frame_warning, inputs, manifest
 
+__all__ = ["RESAMPLE_FIT", "FREE_FRAME", "MISFIT", "COVARIANCE", "MODEL_ERROR",
+           "nonnegative", "WEIGHTING", "add_parser", "add_fit_option",
+           "add_misfit_options", "options", "run_fit", "warn_frame", "run_predict",
+           "run_rank"]
+
 RESAMPLE_FIT = dict(choices=("velocity", "torque"), default="velocity",
                     help="how resampled members (bootstrap, Monte Carlo, cross-validation) are "
                     "refitted: the preferred velocity-space fit (default), or the faster "

@@ -9,6 +9,9 @@ from pathlib import Path
 
 import numpy as np
 
+__all__ = ["EXIT_BROKEN_PIPE", "Parser", "arg_type", "count", "positive", "inputs",
+           "INPUT_ARGS", "manifest", "motions_for", "frame_warning"]
+
 if TYPE_CHECKING:                       # imported when a command runs (fast --help)
     from ..io import Inputs
 

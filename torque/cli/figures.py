@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from .common import EXIT_OK, inputs
 
+__all__ = ["add_parser", "run_map", "run_demo"]
+
 
 def add_parser(sub, main) -> None:
     """Add the ``map`` and ``demo`` commands to the subparsers ``sub``; ``main`` is the

@@ -10,6 +10,8 @@ from ..errors import InputError
 from ..present import text
 from .common import EXIT_OK, inputs, positive
 
+__all__ = ["FIELD_SUFFIXES", "add_parser", "run_frame", "run_field", "run_boundaries"]
+
 FIELD_SUFFIXES = (".csv", ".geojson", ".json", ".nc")
 
 

@@ -10,6 +10,8 @@ from ..present import text
 from .balance import add_fit_option
 from .common import EXIT_OK, inputs, manifest
 
+__all__ = ["add_parser", "parse_ages", "run_cooling", "run_torques"]
+
 
 
 def add_parser(sub) -> None:

@@ -8,6 +8,8 @@ from pathlib import Path
 from ..errors import InputError
 from .common import EXIT_OK, arg_type, count
 
+__all__ = ["jobs_type", "add_parser", "run_stages"]
+
 jobs_type = arg_type(int, "a whole number", lambda n: n >= 1, "must be 1 or more")
 
 

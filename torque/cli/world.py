@@ -7,6 +7,8 @@ import sys
 from ..present import text
 from .common import EXIT_BAD_INPUT, EXIT_OK, inputs, manifest
 
+__all__ = ["add_parser", "run_check"]
+
 
 def add_parser(sub) -> None:
     """Add the ``check`` command to the subparsers ``sub``.

@@ -47,6 +47,12 @@ from ..margins import boundary_motion, classify, sample_boundaries
 from ..validate import require_valid
 from ..world import Boundary
 
+__all__ = ["BUNDLED", "SEED", "WORLD_COMMENT", "PLATE_NAMES", "CONTINENTS", "TRUE",
+           "NOISE_DEG_MYR", "AGE_STEP_DEG", "HYPOTHESES", "TRUTH_HYPOTHESIS",
+           "GRID_STEP_DEG", "CHANNEL_VISCOSITY_PA_S", "CHANNEL_THICKNESS_M", "SPREAD",
+           "generators", "voronoi_regions", "plate_rings", "continent_rings",
+           "seed_motions", "write"]
+
 BUNDLED = Path(__file__).resolve().parents[2] / "polygons_demo"
 SEED = 20261202
 WORLD_COMMENT = "Orrery: an invented Earth-sized planet for the torque demo. All data synthetic."

@@ -24,6 +24,8 @@ from ..present import maps
 from ..workflows import load_inputs, map_inputs
 from .planet import BUNDLED, TRUTH_HYPOTHESIS, write
 
+__all__ = ["SEED", "GLS_SUFFIX", "OUTPUTS", "run", "WHAT_IS_WHERE", "draw_maps"]
+
 #: The seed of every resampling the demo runs.
 SEED = 1
 #: The name of the demo's extra fit of the true hypothesis (chi-square, free frame).

@@ -34,6 +34,9 @@ from ..io import (load_world, read_continents, read_motions, write_age_grid,
 from ..validate import require_valid
 from . import planet
 
+__all__ = ["STAGE_TIMES_MA", "PAST_AGE_STEP_DEG", "COMPARE", "rotation_back",
+           "write_series"]
+
 #: Times (Ma) of the past stages; the present (0 Ma) is the bundled world itself.
 STAGE_TIMES_MA = (5.0, 10.0, 15.0, 20.0)
 #: Sea-floor ages of the past stages are synthesised on this grid (degrees).

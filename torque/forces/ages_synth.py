@@ -16,6 +16,8 @@ from ..errors import InputError
 from ..euler import MYR_S
 from ..grids import MAX_AGE_MYR, AgeGrid
 
+__all__ = ["ridge_distance_ages", "synthesise_ages"]
+
 
 def ridge_distance_ages(xyz, ridge_xyz, half_rate_m_s: float, radius_m: float,
                         max_age_myr: float = MAX_AGE_MYR) -> np.ndarray:

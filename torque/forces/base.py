@@ -11,6 +11,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+__all__ = ["ForceTerm", "empty_term", "Pieces"]
+
 
 @dataclass(frozen=True, eq=False)
 class ForceTerm:

@@ -12,6 +12,8 @@ from ..errors import InputError
 from ..lithosphere import Cooling
 from .base import Pieces
 
+__all__ = ["Context"]
+
 
 class Context:
     """What the force modules share: the world's data, the physics and the motions.

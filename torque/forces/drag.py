@@ -32,6 +32,10 @@ from ..errors import InputError
 from ..euler import MYR_S
 from .base import ForceTerm, empty_term
 
+__all__ = ["KIND", "UNIT", "GRID_UNIT", "KEYS", "CHOICES", "DEFAULTS", "POSITIVE",
+           "LITHOSPHERE_FACTOR", "default_label", "resisting_blocks", "diagonal_blocks",
+           "region_notes", "build", "age_weight", "weighted_tensor"]
+
 KIND = "drag"
 UNIT = "Pa s/m"
 #: With coupling = "grid" the coefficient is a factor on the grid's coupling.

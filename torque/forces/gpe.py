@@ -48,6 +48,10 @@ from ..errors import InputError
 from .base import ForceTerm, empty_term
 from .ridge import body_force_torque
 
+__all__ = ["KIND", "UNIT", "KEYS", "CHOICES", "POSITIVE", "DEFAULTS", "PROBE_KM",
+           "default_label", "column_model", "continental_gpe", "margin_force", "probe",
+           "interior_torque", "build"]
+
 KIND = "gpe"
 UNIT = "dimensionless"
 KEYS = {

@@ -19,6 +19,8 @@ from ..euler import M_S_TO_MM_YR, vector_to_pole
 from .base import ForceTerm, empty_term
 from .drag import CHOICES, DEFAULTS, region_notes, resisting_blocks  # noqa: F401
 
+__all__ = ["KIND", "UNIT", "KEYS", "default_label", "build", "rigid_part"]
+
 KIND = "mantle"
 UNIT = "Pa s/m"
 KEYS = {"region": '"all" (default), "ocean" or "continent"'}

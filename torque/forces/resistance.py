@@ -36,6 +36,10 @@ from .. import polygons
 from ..errors import InputError
 from .base import ForceTerm, empty_term
 
+__all__ = ["UNIT", "STRESS_UNIT", "KEYS", "CHOICES", "DEFAULTS", "POSITIVE",
+           "DEFAULT_FAULT_WIDTH_KM", "build_resistance", "ConstantStress",
+           "ResistanceKind", "KINDS"]
+
 UNIT = "Pa s"
 #: The coefficient's unit with law = "constant-stress": the shear stress.
 STRESS_UNIT = "Pa"

@@ -43,6 +43,11 @@ import numpy as np
 from .. import sphere
 from .base import ForceTerm, empty_term
 
+__all__ = ["KIND", "UNIT", "KEYS", "CHOICES", "POSITIVE", "DEFAULTS", "default_label",
+           "edge_force_per_length", "build", "ocean_edges", "GAUSS_POINTS", "STENCIL",
+           "boundary_torque", "BoundaryMap", "boundary_map", "KNOT_MAP_MAX_SIZE",
+           "BASIS", "CHUNK", "body_force_torque"]
+
 KIND = "ridge"
 UNIT = "dimensionless"
 KEYS = {

@@ -49,6 +49,11 @@ from ..errors import InputError
 from ..euler import M_S_TO_MM_YR, MYR_S
 from .base import ForceTerm, empty_term
 
+__all__ = ["KIND", "UNIT", "BUOYANCY_KEYS", "KEYS", "POSITIVE", "BUOYANCY_CHOICES",
+           "CHOICES", "DEFAULT_DIP_DEG", "DEFAULT_DEPTH_KM", "DEFAULT_AGE_MYR",
+           "default_label", "trench_geometry", "slab_buoyancy", "convergence_m_s",
+           "warming_depth_m", "build", "convergence_direction"]
+
 KIND = "slab"
 UNIT = "dimensionless"
 #: Keys that describe the slab's buoyancy, shared with suction's fraction form.

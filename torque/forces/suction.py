@@ -30,6 +30,9 @@ from .slab import BUOYANCY_CHOICES as SLAB_CHOICES
 from .slab import BUOYANCY_KEYS as SLAB_KEYS
 from .slab import POSITIVE, slab_buoyancy, trench_geometry  # noqa: F401
 
+__all__ = ["KIND", "UNIT", "PER_LENGTH_UNIT", "KEYS", "CHOICES", "DEFAULTS",
+           "default_label", "build"]
+
 KIND = "suction"
 UNIT = "dimensionless"
 #: The coefficient's unit in the per-length form.

@@ -27,6 +27,8 @@ from .statistics import (
 )
 from .system import System, rigid_constraint
 
+__all__ = ["Report", "analyse"]
+
 
 @dataclass(frozen=True, eq=False)
 class Report:

@@ -12,6 +12,10 @@ from scipy import linalg
 
 from .system import System
 
+__all__ = ["misfit_whitening", "covariance_blocks", "model_error_covariance",
+           "add_covariances", "JITTER", "jittered_cholesky", "degrees_of_freedom",
+           "variance_factor"]
+
 
 def misfit_whitening(system: System, obs_cov=None, plates=None):
     """The matrix ``W`` (3P, 3P) whose residual ``W dw`` has the misfit as squared norm.

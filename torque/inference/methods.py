@@ -9,6 +9,8 @@ from dataclasses import dataclass
 from ..results import PREFERRED_FIT  # noqa: F401  (the registry names the preferred method)
 from .solvers import fit_torque, fit_velocity
 
+__all__ = ["FitMethod", "FIT_METHODS"]
+
 
 # ----------------------------------------------------------------------------------------
 # the registry of fit methods

@@ -39,6 +39,8 @@ from .covariance import misfit_whitening
 from .solvers import fit_velocity, on_one_blas_thread, predict
 from .system import System
 
+__all__ = ["Z95", "fixed_at", "profile_intervals"]
+
 Z95 = 1.959963984540054          # the normal 97.5 % quantile (scipy.stats.norm.ppf(0.975))
 
 

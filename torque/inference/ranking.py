@@ -60,6 +60,9 @@ from .solvers import (
 from .statistics import f_test, likelihood_ratio_test, velocity_misfit
 from .system import System
 
+__all__ = ["Ranking", "cross_validation_errors", "cross_validation", "within_one_se",
+           "rank"]
+
 
 class Ranking(list):
     """The rows of a ranking (a list of :class:`~torque.results.RankRow`, best first) that a notebook shows as

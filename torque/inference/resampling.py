@@ -23,6 +23,8 @@ from .covariance import jittered_cholesky
 from .solvers import fit_torque, fit_velocity, fit_velocity_many, on_one_blas_thread
 from .system import System, plate_weights
 
+__all__ = ["PERCENTILES", "bootstrap", "monte_carlo_motions", "monte_carlo_physics"]
+
 PERCENTILES = (2.5, 50.0, 97.5)
 
 

@@ -83,6 +83,9 @@ from .system import (
     plate_weights,
 )
 
+__all__ = ["Fit", "fit_torque", "predict", "NEWTON_TOL", "NEWTON_MAX_STEPS",
+           "solve_balance", "fit_velocity", "fit_velocity_many", "on_one_blas_thread"]
+
 
 # ----------------------------------------------------------------------------------------
 # results

@@ -42,6 +42,10 @@ from .solvers import solve_balance
 from .statistics import information_criteria, information_criteria_chi_square
 from .system import plate_weights, rigid_constraint
 
+__all__ = ["interpolate_rotations", "stage_euler_vector", "Stage", "JointFit",
+           "fit_joint", "joint_information_criteria", "cross_validation_error",
+           "draw_motions"]
+
 
 # ----------------------------------------------------------------------------------------
 # stage motions from finite rotations

@@ -20,6 +20,11 @@ from scipy import special
 from ..euler import M_S_TO_MM_YR, RAD_S_PER_DEG_MYR
 from .system import System
 
+__all__ = ["CONFIDENCE", "velocity_misfit", "pole_covariance", "pole_ellipse",
+           "force_budget", "residual_torque", "pole_distance_deg",
+           "information_criteria", "information_criteria_chi_square", "f_test",
+           "likelihood_ratio_test"]
+
 CONFIDENCE = 0.95
 
 

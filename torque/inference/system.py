@@ -17,6 +17,8 @@ import numpy as np
 from ..errors import InputError, ModelError
 from ..euler import net_rotation
 
+__all__ = ["WEIGHTINGS", "System", "assemble", "plate_weights", "rigid_constraint"]
+
 WEIGHTINGS = ("velocity", "area", "none")
 
 

@@ -21,6 +21,10 @@ from pathlib import Path
 
 from ..errors import InputError
 
+__all__ = ["check_input_file", "read_text", "read_csv_rows", "read_json",
+           "check_output_path", "atomic_write", "atomic_path", "read_toml",
+           "output_suffix"]
+
 
 def _umask_mode() -> int:
     """Permissions a newly created file gets (mkstemp makes files private, 0600)."""

@@ -11,6 +11,8 @@ from ..results import FitResult
 from ..errors import InputError
 from .files import atomic_write, read_json
 
+__all__ = ["dumps", "write_json", "read_fit"]
+
 
 def _finite(obj):
     """A copy of ``obj`` for JSON: numpy values as Python ones, NaN and infinities as None

@@ -21,6 +21,11 @@ from ..rings import geometry_from_rings, remove_spikes
 from ..world import BOUNDARY_KINDS, EARTH_RADIUS_KM, SAME_VERTEX_RAD, Boundary, Plate, Problem
 from .files import atomic_write, read_json
 
+__all__ = ["features", "read_plates", "plates_from_features", "NUMERIC_LINE_KEYS",
+           "BOOLEAN_LINE_KEYS", "check_line_values", "read_boundaries",
+           "read_continents", "write_points_geojson", "write_boundaries_geojson",
+           "write_feature_collection"]
+
 
 def features(doc, path, what: str) -> list:
     """The features of a GeoJSON FeatureCollection, each checked to have a geometry and

@@ -12,6 +12,9 @@ from ..grids import MAX_AGE_MYR, AgeGrid, CouplingGrid, FlowGrid, TopographyGrid
 from .files import atomic_path, check_input_file
 from .tables import read_table
 
+__all__ = ["read_ages", "read_flow", "read_coupling", "read_topography", "write_netcdf",
+           "write_age_grid", "field_dataset", "write_field"]
+
 
 def _check_axis(values, name, path):
     if values.ndim != 1 or len(values) < 2:

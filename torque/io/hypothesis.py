@@ -9,6 +9,8 @@ from pathlib import Path
 from ..hypothesis import Hypothesis, hypothesis_from_dict
 from .files import atomic_write, read_toml
 
+__all__ = ["load_hypothesis", "toml_value", "hypothesis_toml", "write_hypothesis"]
+
 
 def load_hypothesis(path) -> Hypothesis:
     """Read a hypothesis TOML file (see the contract).

@@ -20,6 +20,8 @@ from .geojson import read_continents
 from .grids import read_ages, read_coupling, read_flow, read_topography
 from .world import FROM_AGES, load_world
 
+__all__ = ["Inputs", "compute_torques", "check_world"]
+
 
 class Inputs(WorldData):
     """A world and its data files, each read (and checked) once, on first use.

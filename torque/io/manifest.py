@@ -17,6 +17,8 @@ import subprocess
 import time
 from pathlib import Path
 
+__all__ = ["PACKAGES", "KEY", "sha256", "input_files", "run_manifest"]
+
 #: The packages whose versions a manifest records (the dependencies in pyproject.toml).
 PACKAGES = ("numpy", "scipy", "shapely", "pyproj", "cartopy", "matplotlib", "xarray",
             "h5netcdf", "h5py", "tqdm", "threadpoolctl")

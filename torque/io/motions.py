@@ -12,6 +12,9 @@ from ..euler import COV_COLUMNS, RAD_S_PER_DEG_MYR, Motions
 from .files import atomic_write
 from .tables import read_table
 
+__all__ = ["read_motions", "write_motions", "COVARIANCE_COLUMNS", "AXES",
+           "read_covariance", "write_covariance"]
+
 
 def read_motions(path) -> Motions:
     """Read a motions CSV.

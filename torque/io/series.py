@@ -42,6 +42,11 @@ from ..results import SeriesResult
 from .files import read_toml
 from .tables import read_table
 
+__all__ = ["SERIES_KEYS", "STAGE_KEYS", "StageFile", "SeriesFile", "read_series",
+           "read_rotations", "stage_motions", "load_stage", "fit_task",
+           "monte_carlo_task", "series_rms", "plate_speed_mm_yr", "series_tables",
+           "series_record"]
+
 SERIES_KEYS = {"name", "hypothesis", "compare", "per_stage", "misfit", "plates", "stage"}
 STAGE_KEYS = {"time_ma", "world", "motions", "rotations", "interval_myr", "label"}
 

@@ -15,6 +15,8 @@ import numpy as np
 from ..errors import InputError
 from .files import atomic_write, read_csv_rows
 
+__all__ = ["Table", "read_table", "read_points", "write_csv"]
+
 
 @dataclass(frozen=True, eq=False)
 class Table:

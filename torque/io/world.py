@@ -15,6 +15,10 @@ from .files import atomic_write, read_toml
 from .geojson import check_line_values, plates_from_features, read_boundaries, read_plates
 from .tables import read_table
 
+__all__ = ["WORLD_KEYS", "FROM_AGES", "DEFAULT_VERTEX_TOLERANCE_M", "DATA_KEYS",
+           "SLAB_COLUMNS", "load_world", "apply_slab_table", "world_from_rings",
+           "write_world_file"]
+
 WORLD_KEYS = {
     "name": "optional title used in reports",
     "radius_km": "planet radius in km (default 6371.0)",

@@ -12,6 +12,8 @@ from pathlib import Path
 from ..io.files import atomic_write
 from .sentences import chi_square_summary, fits_disagree
 
+__all__ = ["CAUTION", "write_markdown", "write_html", "write_series_report"]
+
 CAUTION = ("These are model-dependent research estimates. They depend on the plate model, "
            "the cooling model, the hypothesis and the observed motions, and are not inputs "
            "to hazard assessment or engineering decisions.")

@@ -3,6 +3,8 @@
 
 from __future__ import annotations
 
+__all__ = ["fits_disagree", "frame_summary", "chi_square_summary"]
+
 
 def fits_disagree(d: dict) -> list:
     """Free coefficients whose velocity-space and torque-space values differ by more than

@@ -8,6 +8,9 @@ from __future__ import annotations
 
 import numpy as np
 
+__all__ = ["CAUTION_LINE", "pole", "check", "cooling", "torques", "fit", "p_value",
+           "rank"]
+
 #: The caution every result printed on a terminal ends with.
 CAUTION_LINE = ("caution: model-dependent research estimates, not for hazard or engineering "
                 "use")

@@ -8,6 +8,8 @@ import numpy as np
 from .maps.layers import _save
 from .maps.style import DPI, _plt, caption, force_colours
 
+__all__ = ["default_plates", "torque_through_time", "speed_through_time"]
+
 
 def default_plates(result, n: int = 4) -> list:
     """The series file's ``plates``, else the ``n`` largest plates of the youngest stage.

@@ -11,6 +11,9 @@ import numpy as np
 from ..errors import InputError
 from .options import FitOptions
 
+__all__ = ["load_inputs", "forget_inputs", "as_motions", "as_hypothesis", "as_fit",
+           "Case", "build_case", "Covariances", "covariances"]
+
 
 # ----------------------------------------------------------------------------------------
 # inputs, read once per process

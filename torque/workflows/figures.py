@@ -8,6 +8,8 @@ from ..errors import InputError
 from .cases import as_fit, as_hypothesis, as_motions
 from .fitting import torque_table
 
+__all__ = ["map_inputs"]
+
 
 # ----------------------------------------------------------------------------------------
 # maps

@@ -10,6 +10,9 @@ from ..errors import InputError
 from .cases import Case, Covariances, as_fit, as_hypothesis, as_motions, build_case, covariances
 from .options import FitOptions
 
+__all__ = ["CIRCULAR", "FitRun", "fit", "fit_coefficients", "in_fit_frame",
+           "torque_table", "predict_motions", "rank"]
+
 
 CIRCULAR = ("sea-floor ages were synthesised from the same motions that are fitted, so the "
             "fit is partly circular (the ages, and so ridge push and slab pull, depend on "

@@ -9,6 +9,8 @@ from pathlib import Path
 import numpy as np
 from ..errors import InputError, require_memory
 
+__all__ = ["MISFITS", "RESAMPLE_FITS", "FitOptions"]
+
 
 MISFITS = ("area", "chi-square")
 RESAMPLE_FITS = ("velocity", "torque")

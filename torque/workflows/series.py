@@ -7,6 +7,8 @@ from __future__ import annotations
 import numpy as np
 from ..errors import InputError
 
+__all__ = ["run_series"]
+
 
 # ----------------------------------------------------------------------------------------
 # stage series

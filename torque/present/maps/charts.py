@@ -10,6 +10,8 @@ from ... import sphere
 from .layers import _save, draw_plates
 from .style import DPI, _plt, caption, force_colours
 
+__all__ = ["budget_chart", "torque_chart", "torque_globe"]
+
 
 def budget_chart(path, fit):
     """Per plate, each term's share of the driving torque (stacked bars).

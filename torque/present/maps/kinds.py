@@ -14,6 +14,8 @@ from ...euler import pole_to_vector
 from .charts import budget_chart, torque_chart, torque_globe
 from .world_maps import misfit_map, plates_map, poles_map, velocity_map
 
+__all__ = ["MapInputs", "MapKind", "KINDS"]
+
 
 # ----------------------------------------------------------------------------------------
 # the registry behind `torque map --kind`: a new kind is one entry

@@ -13,6 +13,8 @@ import numpy as np
 from ... import sphere
 from .style import _MEASURED, DPI, KIND_STYLE, _plt, label_plates, plate_colours
 
+__all__ = ["draw_plates", "draw_boundaries"]
+
 
 def _raster(world, step=0.5):
     lon = np.arange(-180 + step / 2, 180, step)

@@ -11,6 +11,10 @@ import numpy as np
 
 from ... import sphere
 
+__all__ = ["PLATE_COLOURS", "KIND_STYLE", "OBSERVED_COLOUR", "PREDICTED_COLOUR",
+           "FORCE_COLOURS", "CLIP_PERCENTILE", "force_colours", "DPI", "figure_size",
+           "label_size", "caption", "place_labels", "label_plates", "plate_colours"]
+
 PLATE_COLOURS = ["#9DB8D9", "#E8C77D", "#A9CFA3", "#D9A7BE", "#C9C1E3", "#E6B08F",
                  "#A6D4D1", "#CFCF9C"]
 KIND_STYLE = {

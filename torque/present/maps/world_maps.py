@@ -31,6 +31,8 @@ from .style import (
     place_labels,
 )
 
+__all__ = ["plates_map", "velocity_map", "poles_map", "misfit_map"]
+
 
 # ----------------------------------------------------------------------------------------
 def plates_map(world, path, continents=None):
