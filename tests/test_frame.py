@@ -120,7 +120,7 @@ def test_the_chi_square_fit_with_correlated_plates_is_invariant_too(demo):
     a = analyse(system, obs, free_frame=True, obs_cov=C)
     b = analyse(system, obs + SPIN, free_frame=True, obs_cov=C)
     np.testing.assert_allclose(b.preferred.values, a.preferred.values, rtol=1e-7)
-    assert b.preferred.info["chi_square"] == pytest.approx(a.preferred.info["chi_square"],
+    assert b.preferred.chi_square == pytest.approx(a.preferred.chi_square,
                                                            rel=1e-8)
     np.testing.assert_allclose(b.frame["rotation"] - a.frame["rotation"], SPIN,
                                atol=1e-9 * RAD_S_PER_DEG_MYR)

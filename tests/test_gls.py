@@ -36,7 +36,7 @@ def test_one_driving_coefficient_has_the_weighted_least_squares_solution():
     want = (g @ Ci @ y) / (g @ Ci @ g)
     fit = inference.fit_velocity(system, y.reshape(2, 3), obs_cov=C)
     assert fit.values[0] == pytest.approx(want, rel=1e-8)
-    assert fit.info["chi_square"] == pytest.approx(
+    assert fit.chi_square == pytest.approx(
         (y - want * g) @ Ci @ (y - want * g), rel=1e-8)
     # its variance, 1 / g^T C^-1 g: the covariance is known, so the reduced chi-square does
     # not scale it (Draper and Smith 1998, sec. 9.2)
@@ -114,7 +114,7 @@ def test_a_full_covariance_gives_the_correlated_weighted_solution():
     want = (g @ Ci @ y) / (g @ Ci @ g)
     fit = inference.fit_velocity(system, y.reshape(2, 3), obs_cov=C)
     assert fit.values[0] == pytest.approx(want, rel=1e-8)
-    assert fit.info["chi_square"] == pytest.approx(
+    assert fit.chi_square == pytest.approx(
         (y - want * g) @ Ci @ (y - want * g), rel=1e-8)
     # the blocks alone give another answer: the correlations matter
     blocks = inference.covariance_blocks(C)
@@ -135,7 +135,7 @@ def test_a_full_covariance_without_correlations_is_the_block_fit():
     a = inference.fit_velocity(system, obs, obs_cov=blocks)
     b = inference.fit_velocity(system, obs, obs_cov=full.reshape(3 * P, 3 * P))
     np.testing.assert_allclose(b.values, a.values, rtol=1e-7)
-    assert b.info["chi_square"] == pytest.approx(a.info["chi_square"], rel=1e-8)
+    assert b.chi_square == pytest.approx(a.chi_square, rel=1e-8)
     np.testing.assert_allclose(inference.covariance_blocks(full.reshape(3 * P, 3 * P)), blocks)
 
 
@@ -158,7 +158,7 @@ def test_with_only_a_model_error_plates_weigh_equally_by_mean_square_misfit():
     system, obs, _ = demo_system("ridge_slab_drag")
     fit = inference.fit_velocity(system, obs, obs_cov=inference.model_error_covariance(system, 2.0))
     rms, _ = torque.inference.statistics.velocity_misfit(system, inference.predict(system, fit.values), obs)
-    assert fit.info["chi_square"] == pytest.approx(3 * np.sum(rms ** 2) / 2.0 ** 2, rel=1e-9)
+    assert fit.chi_square == pytest.approx(3 * np.sum(rms ** 2) / 2.0 ** 2, rel=1e-9)
 
 
 def test_motions_in_the_no_net_rotation_frame_lose_three_degrees_of_freedom():

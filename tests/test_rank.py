@@ -73,7 +73,7 @@ def test_with_a_covariance_the_nested_pair_gets_likelihood_ratio_and_f_tests(ran
     omega, full, small, _ = ranked
     cov = np.broadcast_to((0.002 * RAD_S_PER_DEG_MYR) ** 2 * np.eye(3), (16, 3, 3))
     _, tests = rank([small, full], omega, obs_cov=cov)
-    chi2 = {s.name: analyse(s, omega, obs_cov=cov).preferred.info["chi_square"]
+    chi2 = {s.name: analyse(s, omega, obs_cov=cov).preferred.chi_square
             for s in (full, small)}
     n, k_b, k_s = 3 * full.n_plates, full.n_free, small.n_free
     lr = next(t for t in tests if t["test"] == "likelihood-ratio")
@@ -127,7 +127,7 @@ def test_with_known_covariances_the_criteria_come_from_the_chi_square(ranked):
     cov = np.broadcast_to((0.002 * RAD_S_PER_DEG_MYR) ** 2 * np.eye(3), (16, 3, 3))
     rows, _ = rank([small, full], omega, obs_cov=cov)
     for r, s in zip(sorted(rows, key=lambda r: r.name), (full, small)):
-        chi2 = analyse(s, omega, obs_cov=cov).preferred.info["chi_square"]
+        chi2 = analyse(s, omega, obs_cov=cov).preferred.chi_square
         n, k = 3 * s.n_plates, s.n_free
         assert r.aic == pytest.approx(chi2 + 2 * k, rel=1e-12)
         assert r.bic == pytest.approx(chi2 + k * np.log(n), rel=1e-12)

@@ -14,7 +14,7 @@ from .system import System
 #: Gauss-Newton stops when its step is below this fraction of every parameter's scale.
 GAUSS_NEWTON_STEP = 1e-11
 GAUSS_NEWTON_MAX_STEPS = 50
-#: ``Fit.info["status"]`` of a fit that Gauss-Newton finished (the others carry scipy's
+#: ``Fit.status`` of a fit that Gauss-Newton finished (the others carry scipy's
 #: ``least_squares`` status, 1 to 4).
 GAUSS_NEWTON_STATUS = 5
 

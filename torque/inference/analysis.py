@@ -175,8 +175,8 @@ class Report:
         lost = 3 if self.constraint else 0
         n = 3 * s.n_plates - lost
         k_eff = k + max(n_frame, lost) - lost
-        chi = pref.info.get("misfit") == "chi-square"
-        ic = (information_criteria_chi_square(pref.info["chi_square"], n, k_eff) if chi
+        chi = pref.misfit == "chi-square"
+        ic = (information_criteria_chi_square(pref.chi_square, n, k_eff) if chi
               else information_criteria(glob["velocity_rss_m4_s2"], n, k_eff))
         extra = {"frame_parameters": n_frame,
                  "observations_constraint": self.constraint,
@@ -187,11 +187,11 @@ class Report:
                      "area-integrated squared velocity misfit (no observation covariance "
                      "used: plates weigh by their area)")}
         if chi:
-            extra.update(chi_square=pref.info["chi_square"],
-                         reduced_chi_square=pref.info["reduced_chi_square"])
+            extra.update(chi_square=pref.chi_square,
+                         reduced_chi_square=pref.reduced_chi_square)
         misfit = {**glob, "n": n, "free_coefficients": k, **extra, **ic,
                   "torque_space_rss": tf.rss,
-                  "torque_space_weighting": tf.info.get("weighting"),
+                  "torque_space_weighting": tf.weighting,
                   "active_bounds": list(pref.active_bounds)}
         return misfit
 
@@ -302,10 +302,10 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
     if free_frame:
         # the observations in the mantle's frame; the methods that cannot fit a frame run
         # again there, so that every fit reports coefficients of the same balance
-        info = fits[PREFERRED_FIT].info
-        frame = {"rotation": info["frame_rotation"], "cov": info["frame_cov"],
+        pref = fits[PREFERRED_FIT]
+        frame = {"rotation": pref.frame_rotation, "cov": pref.frame_cov,
                  "observed_frame": omega_obs}
-        omega_obs = omega_obs - info["frame_rotation"]
+        omega_obs = omega_obs - pref.frame_rotation
         for name in names:
             if not FIT_METHODS[name].frames:
                 fits[name] = FIT_METHODS[name].run(system, omega_obs, fits, weighting)

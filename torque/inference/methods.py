@@ -32,7 +32,7 @@ class FitMethod:
         One line for the documentation.
     frames : bool
         Whether ``run`` takes ``free_frame=True`` and then estimates the rotation of the
-        observations' frame relative to the mantle (``Fit.info["frame_rotation"]``).
+        observations' frame relative to the mantle (``Fit.frame_rotation``).
     covariance : bool
         Whether ``run`` takes ``obs_cov=`` (the observations' covariance, (P, 3, 3) or
         (3P, 3P)) and then minimises the chi-square.

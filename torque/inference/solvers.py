@@ -55,7 +55,7 @@ References
 from __future__ import annotations
 
 import functools
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 from scipy import linalg, optimize
@@ -110,11 +110,28 @@ class Fit:
         Degrees of freedom (:func:`~torque.inference.covariance.degrees_of_freedom`).
     active_bounds : tuple of str
         Free coefficients at a bound.
-    info : dict
-        Method-specific details (weighting, evaluations).
     variance_factor : float
         The ``s^2`` that ``cov`` is scaled by: 1 for a chi-square with a known covariance,
         ``rss / dof`` otherwise (:func:`~torque.inference.covariance.variance_factor`).
+    misfit : {"area", "chi-square", "torque"}
+        What was minimised: the area-integrated velocity misfit, the chi-square with the
+        observations' covariance, or the weighted torque balance (torque-space fit).
+    chi_square : float or None
+        The minimised chi-square (``rss``) of a chi-square fit.
+    weighting : str or None
+        The torque-space fit's weighting of the plates' equations.
+    frame_rotation : ndarray, shape (3,), or None
+        With a free frame: the mantle's rotation in the frame of the observations, rad/s.
+    frame_cov : ndarray, shape (3, 3), or None
+        Its covariance, (rad/s)^2.
+    observations, effective_observations, parameters : int
+        Observations counted, those left after a rigid constraint, parameters fitted
+        (a free frame's included, counted once with the constraint).
+    evaluations : int
+        Balances solved.
+    status : int
+        :data:`~torque.inference._optimise.GAUSS_NEWTON_STATUS` where Gauss-Newton
+        finished the fit, else scipy's status.
     """
 
     system: System
@@ -125,8 +142,22 @@ class Fit:
     rss: float
     dof: int
     active_bounds: tuple = ()
-    info: dict = field(default_factory=dict)
     variance_factor: float = 1.0
+    misfit: str = "area"
+    chi_square: float | None = None
+    weighting: str | None = None
+    frame_rotation: np.ndarray | None = None
+    frame_cov: np.ndarray | None = None
+    observations: int = 0
+    effective_observations: int = 0
+    parameters: int = 0
+    evaluations: int = 0
+    status: int = 0
+
+    @property
+    def reduced_chi_square(self) -> float | None:
+        """The chi-square over the degrees of freedom (None for other misfits)."""
+        return None if self.chi_square is None else self.chi_square / self.dof
 
     def __repr__(self) -> str:
         vals = ", ".join(f"{l}={v:.4g}" for l, v in zip(self.system.labels, self.values))
@@ -174,8 +205,8 @@ def fit_torque(system: System, omega_obs, weighting: str = "velocity",
     stderr[system.free] = np.sqrt(np.clip(np.diag(cov), 0, None))
     free_labels = [l for l, f in zip(system.labels, system.free) if f]
     active = tuple(free_labels[i] for i in np.nonzero(res.active_mask)[0])
-    return Fit(system, "torque", values, stderr, cov, rss, dof, active,
-               {"weighting": weighting}, s2)
+    return Fit(system, "torque", values, stderr, cov, rss, dof, active, s2, misfit="torque",
+               weighting=weighting, observations=n, effective_observations=n, parameters=k)
 
 
 def predict(system: System, coefficients) -> np.ndarray:
@@ -307,8 +338,8 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         Also estimate the rotation ``w`` of the observations' frame relative to the
         mantle: the observed motions are then compared with ``predicted + w``. The misfit
         is linear in ``w`` (its Jacobian is ``R^2 L_p^T`` per plate), so ``w`` is fitted
-        jointly and exactly; it is returned in ``info["frame_rotation"]`` (rad/s) with its
-        covariance in ``info["frame_cov"]``.
+        jointly and exactly; it is returned in ``Fit.frame_rotation`` (rad/s) with its
+        covariance in ``Fit.frame_cov``.
     plates : array of int, optional
         Count only these plates' misfits (for the bootstrap and cross-validation); a plate
         may be repeated, and then counts as often. The balance is still solved for all.
@@ -316,7 +347,7 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         Covariance of the observed Euler vectors, (rad/s)^2: one block per plate, or the
         full matrix with the covariances between plates. Given, the fit minimises the
         chi-square ``dw^T C^-1 dw`` (generalised least squares) instead of the
-        area-integrated velocity misfit, and ``Fit.info`` holds ``chi_square``,
+        area-integrated velocity misfit, and the Fit has its ``chi_square``,
         ``reduced_chi_square`` and ``dof`` (see :func:`misfit_whitening` for ``plates``
         with a full matrix).
     lost_dof : int
@@ -328,7 +359,7 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     Returns
     -------
     Fit
-        ``info["status"]`` is :data:`GAUSS_NEWTON_STATUS` where Gauss-Newton finished the
+        ``Fit.status`` is :data:`GAUSS_NEWTON_STATUS` where Gauss-Newton finished the
         fit, else scipy's ``least_squares`` status; ``active_bounds`` names the
         coefficients held on a bound.
 
@@ -445,15 +476,13 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     stderr[free] = np.sqrt(np.clip(np.diag(cov), 0, None))
     free_labels = [l for l, f in zip(system.labels, system.free) if f]
     active = tuple(free_labels[i] for i in np.nonzero(held[:k_free])[0])
-    info = {"evaluations": nfev, "status": status,
-            "observations": n_obs, "effective_observations": n_obs - lost_dof,
-            "parameters": k_free + extra - lost_dof}
-    if obs_cov is not None:
-        info.update(misfit="chi-square", chi_square=rss, dof=dof, reduced_chi_square=rss / dof)
-    if free_frame:
-        info["frame_rotation"] = frame(x_opt)
-        info["frame_cov"] = cov_all[k_free:, k_free:]
-    return Fit(system, "velocity", values, stderr, cov, rss, dof, active, info, s2)
+    chi = obs_cov is not None
+    return Fit(system, "velocity", values, stderr, cov, rss, dof, active, s2,
+               misfit="chi-square" if chi else "area", chi_square=rss if chi else None,
+               frame_rotation=frame(x_opt) if free_frame else None,
+               frame_cov=cov_all[k_free:, k_free:] if free_frame else None,
+               observations=n_obs, effective_observations=n_obs - lost_dof,
+               parameters=k_free + extra - lost_dof, evaluations=nfev, status=status)
 
 
 def fit_velocity_many(system: System, omega_obs, start: Fit, plates=None,
