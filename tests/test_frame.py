@@ -14,9 +14,9 @@ import numpy as np
 import pytest
 
 import torque
-from torque.results import FitResult
-from torque.inference.analysis import analyse
 from torque.euler import RAD_S_PER_DEG_MYR, pole_to_vector
+from torque.inference.analysis import analyse
+from torque.io import fit_from_dict
 
 from .conftest import here
 
@@ -62,7 +62,7 @@ def test_the_frame_is_reported_and_counted(demo, tmp_path, cli):
     f = result.frame
     assert f["free"] and len(f["stderr_deg_myr"]) == 3 and all(s > 0 for s in
                                                                f["stderr_deg_myr"])
-    assert FitResult.from_dict(json.loads(torque.io.dumps(result.as_dict()))) == result
+    assert fit_from_dict(json.loads(torque.io.dumps(result.as_dict()))) == result
     # three more parameters: AIC = n ln(RSS/n) + 2 (k + 3) (Burnham and Anderson 2002)
     m = result.misfit
     n, k = m["n"], m["free_coefficients"]

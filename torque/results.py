@@ -221,7 +221,8 @@ class FitResult:
     --------
     >>> r = FitResult("h", {"slab": Coefficient(0.05, 0.001, True, "1", 0.049, 0.002)},
     ...               plates=(), misfit={"rms_velocity_mm_yr": 1.5})
-    >>> FitResult.from_dict(r.as_dict()) == r
+    >>> from torque.io import fit_from_dict
+    >>> fit_from_dict(r.as_dict()) == r
     True
     >>> r.values(["slab"])
     [0.05]
@@ -363,52 +364,6 @@ class FitResult:
         if self.frame is not None:
             out["frame"] = self.frame
         return out
-
-    @classmethod
-    def from_dict(cls, doc, file=None) -> "FitResult":
-        """The record of a fit JSON document, checked.
-
-        Parameters
-        ----------
-        doc : dict
-            As written by :meth:`as_dict` (``torque fit``).
-        file : str or Path, optional
-            Named in messages.
-
-        Raises
-        ------
-        InputError
-            If the document is not the output of ``torque fit``.
-        """
-        if not (isinstance(doc, dict) and isinstance(doc.get("coefficients"), dict)
-                and isinstance(doc.get("plates"), list)
-                and all(isinstance(p, dict) and "plate" in p for p in doc["plates"])):
-            raise InputError("not the JSON output of torque fit (it needs 'coefficients' "
-                             "and 'plates')", file=file)
-        coefs = {}
-        for label, c in doc["coefficients"].items():
-            v = c.get("value") if isinstance(c, dict) else None
-            if not isinstance(v, (int, float)) or isinstance(v, bool) or not np.isfinite(v):
-                raise InputError(f"coefficient {label!r} has no numeric 'value'", file=file)
-
-            def num(key, default=np.nan):
-                x = c.get(key, default)
-                return float(x) if isinstance(x, (int, float)) else np.nan
-            def optional(key):
-                x = c.get(key)
-                return float(x) if isinstance(x, (int, float)) and not isinstance(x, bool) \
-                    else None
-            at = c.get("at_bound")
-            coefs[label] = Coefficient(float(v), num("stderr", 0.0), bool(c.get("free", False)),
-                                       str(c.get("unit", "")), num("torque_space_value"),
-                                       num("torque_space_stderr"), optional("profile_low"),
-                                       optional("profile_high"),
-                                       at if at in ("lower", "upper") else None)
-        return cls(str(doc.get("hypothesis", "")), coefs,
-                   tuple(PlateResult.from_dict(p) for p in doc["plates"]),
-                   dict(doc.get("misfit") or {}), dict(doc.get("uncertainty") or {}),
-                   tuple(doc.get("notes") or ()), str(doc.get("preferred_fit", PREFERRED_FIT)),
-                   doc.get("frame") if isinstance(doc.get("frame"), dict) else None)
 
 
 # ----------------------------------------------------------------------------------------

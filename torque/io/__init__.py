@@ -25,7 +25,7 @@ from .._lazy import lazy_exports
 #: readers it uses and not every one.
 _EXPORTS = {
     "atomic_path": "files", "atomic_write": "files", "output_suffix": "files",
-    "read_toml": "files", "dumps": "fit", "read_fit": "fit",
+    "read_toml": "files", "dumps": "fit", "fit_from_dict": "fit", "read_fit": "fit",
     "write_json": "fit", "read_boundaries": "geojson", "read_continents": "geojson",
     "read_plates": "geojson", "write_boundaries_geojson": "geojson",
     "write_feature_collection": "geojson", "write_points_geojson": "geojson",
@@ -44,7 +44,8 @@ _EXPORTS = {
 __getattr__, __dir__ = lazy_exports(__name__, globals(), _EXPORTS)
 
 __all__ = ["Inputs", "Table", "atomic_path", "atomic_write", "check_world", "compute_torques",
-           "dumps", "field_dataset", "hypothesis_toml", "load_hypothesis", "load_world",
+           "dumps", "fit_from_dict", "field_dataset", "hypothesis_toml", "load_hypothesis",
+           "load_world",
            "output_suffix", "read_ages", "read_boundaries", "read_continents",
            "read_covariance", "read_fit", "read_flow", "read_motions", "read_plates",
            "read_points", "read_table", "read_toml", "world_from_rings", "write_age_grid",

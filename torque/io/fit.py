@@ -7,8 +7,8 @@ import json
 
 import numpy as np
 
-from ..results import FitResult
 from ..errors import InputError
+from ..results import PREFERRED_FIT, Coefficient, FitResult, PlateResult
 from .files import atomic_write, read_json
 
 __all__ = ["dumps", "write_json", "read_fit"]
@@ -78,7 +78,60 @@ def read_fit(path, plate_names=None) -> FitResult:
         Naming the file: not JSON, not the output of ``torque fit``, a coefficient without
         a number, or (with ``plate_names``) a fit of other plates.
     """
-    result = FitResult.from_dict(read_json(path), file=path)
+    result = fit_from_dict(read_json(path), file=path)
     if plate_names is not None and result.plate_names != list(plate_names):
         raise InputError("the fit is for other plates than this world's", file=path)
     return result
+
+
+def fit_from_dict(doc, file=None) -> FitResult:
+    """The :class:`~torque.results.FitResult` of a fit JSON document, checked: the reading
+    half of the fit JSON's round trip (the writing half is ``FitResult.as_dict``).
+
+    Parameters
+    ----------
+    doc : dict
+        As written by ``FitResult.as_dict`` (``torque fit``).
+    file : str or Path, optional
+        Named in messages.
+
+    Returns
+    -------
+    FitResult
+
+    Raises
+    ------
+    InputError
+        If the document is not the output of ``torque fit``.
+    """
+    if not (isinstance(doc, dict) and isinstance(doc.get("coefficients"), dict)
+            and isinstance(doc.get("plates"), list)
+            and all(isinstance(p, dict) and "plate" in p for p in doc["plates"])):
+        raise InputError("not the JSON output of torque fit (it needs 'coefficients' "
+                         "and 'plates')", file=file)
+    coefs = {}
+    for label, c in doc["coefficients"].items():
+        v = c.get("value") if isinstance(c, dict) else None
+        if not isinstance(v, (int, float)) or isinstance(v, bool) or not np.isfinite(v):
+            raise InputError(f"coefficient {label!r} has no numeric 'value'", file=file)
+
+        def num(key, default=np.nan):
+            x = c.get(key, default)
+            return float(x) if isinstance(x, (int, float)) else np.nan
+
+        def optional(key):
+            x = c.get(key)
+            return float(x) if isinstance(x, (int, float)) and not isinstance(x, bool) \
+                else None
+        at = c.get("at_bound")
+        coefs[label] = Coefficient(float(v), num("stderr", 0.0), bool(c.get("free", False)),
+                                   str(c.get("unit", "")), num("torque_space_value"),
+                                   num("torque_space_stderr"), optional("profile_low"),
+                                   optional("profile_high"),
+                                   at if at in ("lower", "upper") else None)
+    return FitResult(str(doc.get("hypothesis", "")), coefs,
+                     tuple(PlateResult.from_dict(p) for p in doc["plates"]),
+                     dict(doc.get("misfit") or {}), dict(doc.get("uncertainty") or {}),
+                     tuple(doc.get("notes") or ()),
+                     str(doc.get("preferred_fit", PREFERRED_FIT)),
+                     doc.get("frame") if isinstance(doc.get("frame"), dict) else None)
