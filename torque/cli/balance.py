@@ -234,7 +234,7 @@ def run_predict(args) -> int:
         The exit status (0).
     """
     from ..io import output_suffix, write_motions
-    from ..workflows import net_rotation, predict_motions
+    from ..workflows import net_rotation_on, predict_motions
     output_suffix(args.output, (".csv",))
     data = inputs(args)
     world = data.world
@@ -242,7 +242,7 @@ def run_predict(args) -> int:
     omega = motions.omega
     write_motions(args.output, motions)
     print(f"predicted Euler vectors of {len(omega)} plates (mantle at rest); net rotation "
-          f"{text.pole(net_rotation(world, omega))}")
+          f"{text.pole(net_rotation_on(world, omega))}")
     for note in pb.notes():
         print(f"note: {note}")
     print(f"wrote {args.output}")

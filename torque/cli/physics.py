@@ -35,7 +35,8 @@ def add_parser(sub) -> None:
     p = sub.add_parser("torques", help="torque of each force term on each plate",
                        description="Torque about the planet's centre of every force term of "
                        "a hypothesis on every plate: at the fitted coefficients with "
-                       "--fit FIT.json (motions in its mantle frame), else at the term's fixed coefficient or at 1 "
+                       "--fit FIT.json (motions in its mantle frame), else at the term's "
+                       "fixed coefficient or at 1 "
                        "for a free one (each row says which). Magnitudes in 10^25 N m, the "
                        "torque's pole, an equivalent force at the plate's centroid, and per "
                        "plate the total (with motions, the residual of the balance). "

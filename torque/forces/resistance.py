@@ -19,7 +19,8 @@ keeps the balance differentiable where plates are locked: common practice for
 rate-independent friction in numerical models (no source). The direction varies along
 a boundary, so the torque is summed at the midpoints of pieces of at most
 ``piece_km`` (default 25 km; second order, tested). The torque balance is then nonlinear
-in the motions: :func:`torque.inference.solvers.predict` solves it by Newton's method, and the fit
+in the motions: :func:`torque.inference.solvers.predict` solves it by Newton's method, and
+the fit
 works in velocity space.
 """
 

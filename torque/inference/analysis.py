@@ -39,7 +39,8 @@ class Report:
     ----------
     system : System
     fits : dict
-        ``{method: Fit}`` for every method run (see :data:`torque.inference.methods.FIT_METHODS`).
+        ``{method: Fit}`` for every method run (see
+        :data:`torque.inference.methods.FIT_METHODS`).
     omega_obs, omega_pred : ndarray, shape (P, 3)
         Observed and predicted Euler vectors (rad/s).
     pole_cov : ndarray, shape (P, 3, 3)
@@ -110,7 +111,8 @@ class Report:
             the ellipse of where it should lie if the model is right
             (``prediction_ellipse``: the predicted pole's covariance plus this one).
         model_cov : ndarray, shape (P, 3, 3), optional
-            A model-error covariance (:func:`torque.inference.covariance.model_error_covariance`),
+            A model-error covariance
+            (:func:`torque.inference.covariance.model_error_covariance`),
             added to ``observed_cov`` in the prediction ellipse.
 
         Returns

@@ -229,7 +229,8 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
     Returns
     -------
     rows : Ranking
-        A list of :class:`~torque.results.RankRow`, sorted by cross-validation error, lowest first.
+        A list of :class:`~torque.results.RankRow`, sorted by cross-validation error,
+        lowest first.
     tests : list of dict
         Comparisons of the nested pairs: ``smaller``, ``bigger``, ``test``
         (``"likelihood-ratio"``, ``"F"`` or ``"cross-validation"``) and its numbers

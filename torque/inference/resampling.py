@@ -2,7 +2,8 @@
 the observed motions' uncertainties and over physics parameters given as distributions.
 
 All draws come from ``numpy.random.default_rng(seed)``, so a run is reproducible. Each
-member is refitted by the preferred fit (velocity space, :func:`torque.inference.solvers.fit_velocity`,
+member is refitted by the preferred fit (velocity space,
+:func:`torque.inference.solvers.fit_velocity`,
 started from the fit to the data; bootstrap and motion draws of a linear balance are
 fitted together by :func:`torque.inference.solvers.fit_velocity_many`, 0.3 ms a member on the
 demo, a quarter of one alone) unless ``fit="torque"`` asks for the linear torque-space fit,

@@ -22,6 +22,7 @@ fitting      :func:`fit`, :func:`rank`, and at a fit: :func:`torque_table`,
 figures      :func:`map_inputs`: what a map kind draws, in one frame
 series       :func:`run_series`: a stage series on an executor
 kinematics   :func:`check`, :func:`cooling`, :func:`change_frame`, :func:`velocity_field`,
+             :func:`net_rotation_on`,
              :func:`boundary_motion`
 
 The names of the modules are importable from here, on first use (PEP 562).
@@ -66,7 +67,7 @@ _EXPORTS = {
     "TRANSFORM_WITHIN_DEG": "kinematics",
     "check": "kinematics",
     "cooling": "kinematics",
-    "net_rotation": "kinematics",
+    "net_rotation_on": "kinematics",
     "change_frame": "kinematics",
     "velocity_field": "kinematics",
     "BoundaryMotion": "kinematics",

@@ -18,8 +18,9 @@ DEFAULT_COOLING_AGES = (1, 2, 5, 10, 20, 30, 40, 50, 60, 80, 100, 120, 150, 200)
 #: :mod:`torque.margins`').
 from ..margins import MIN_RUN_KM, TRANSFORM_WITHIN_DEG  # noqa: E402
 
-__all__ = ["DEFAULT_COOLING_AGES", "MIN_RUN_KM", "TRANSFORM_WITHIN_DEG", "check", "cooling", "net_rotation", "change_frame", "velocity_field",
-           "BoundaryMotion", "boundary_motion"]
+__all__ = ["DEFAULT_COOLING_AGES", "MIN_RUN_KM", "TRANSFORM_WITHIN_DEG", "check", "cooling",
+           "net_rotation_on", "change_frame", "velocity_field", "BoundaryMotion",
+           "boundary_motion"]
 
 
 def check(inputs):
@@ -65,7 +66,7 @@ def cooling(physics=None, ages_myr=None) -> tuple:
     return cooling_table(hyp, ages), slab_depth_km(hyp), hyp
 
 
-def net_rotation(world, omega) -> np.ndarray:
+def net_rotation_on(world, omega) -> np.ndarray:
     """The net rotation (rad/s) of motions on a world (:func:`torque.euler.net_rotation`).
 
     Parameters
@@ -108,7 +109,7 @@ def change_frame(inputs, motions, target: str):
     world = inputs.world
     motions = as_motions(motions)
     omega = motions.for_world(world)
-    before = net_rotation(world, omega)
+    before = net_rotation_on(world, omega)
     if target == "nnr":
         out, _ = to_no_net_rotation(world, motions)
     elif target.startswith("plate:"):
@@ -125,7 +126,7 @@ def change_frame(inputs, motions, target: str):
     else:
         raise InputError(f"--to {target!r} is not a frame",
                          hint="use --to nnr, --to plate:NAME or --to mantle:FIT.json")
-    return out, before, net_rotation(world, out.for_world(world))
+    return out, before, net_rotation_on(world, out.for_world(world))
 
 
 def velocity_field(inputs, motions, step_deg: float = 1.0, points=None) -> dict:

@@ -79,7 +79,8 @@ class FitOptions:
                 raise InputError(f"the model error must be a finite number of mm/yr, 0 or "
                                  f"more, got {self.model_error_mm_yr!r}")
             if self.misfit != "chi-square":
-                raise InputError("a model error (--model-error) is part of the chi-square misfit",
+                raise InputError("a model error (--model-error) is part of the chi-square "
+                                 "misfit",
                                  hint="add --misfit chi-square, or leave out --model-error")
         if self.free_frame and self.mantle_rotation is not None:
             raise InputError("the mantle's rotation is either fitted (free frame) or given, "
