@@ -1,6 +1,7 @@
 """Trench suction: a line force on the overriding plate at the trench, toward the trench.
 
-What is modelled is trench suction as Forsyth and Uyeda (1975) introduced it: a force per
+What is modelled is trench suction as global torque-balance studies model it (Chapple and
+Tullis 1977; Turcotte and Schubert 2014, the driving forces of plate tectonics): a force per
 metre of trench pulling the overriding plate toward the trench, normal to it, constant
 along pieces of at most 50 km. Two forms (``form``):
 
@@ -16,8 +17,10 @@ Not modelled: suction as tractions of slab-driven mantle flow on the bases of bo
 
 References
 ----------
-.. [1] Forsyth, D. and Uyeda, S. (1975). On the relative importance of the driving forces
-   of plate motion. *Geophys. J. R. Astr. Soc.* 43, 163-200 (page numbers from memory).
+.. [1] Chapple, W. M. and Tullis, T. E. (1977). Evaluation of the forces that drive the
+   plates. *J. Geophys. Res.* 82, 1967-1984 (page numbers from memory).
+.. [2] Turcotte, D. L. and Schubert, G. (2014). *Geodynamics*, 3rd ed. Cambridge University
+   Press, ch. 6 (the driving forces of plate tectonics; chapter from memory).
 """
 
 from __future__ import annotations
