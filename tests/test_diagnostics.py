@@ -103,7 +103,8 @@ def test_f_test_equals_t_squared_and_information_criteria():
     ic = inference.information_criteria(rss[1], n, 3)
     assert ic["aic"] == pytest.approx(n * np.log(rss[1] / n) + 6)
     assert ic["bic"] == pytest.approx(n * np.log(rss[1] / n) + 3 * np.log(n))
-    assert ic["aicc"] == pytest.approx(ic["aic"] + 2 * 3 * 4 / (n - 4))
+    # Hurvich and Tsai (1989), Biometrika 76: AICc with the variance a parameter, K = k + 1
+    assert ic["aicc"] == pytest.approx(ic["aic"] + 2 * 4 * 5 / (n - 5))
 
 
 def test_pole_ellipse_against_chi_square():

@@ -3,7 +3,8 @@
 Sources: Draper and Smith (1998), Applied Regression Analysis, 3rd ed., sec. 24.5: for a
 model linear in its parameters the sum-of-squares region S(c) <= S_min + z^2 s^2, with the
 residual variance s^2 = S_min / dof, is exactly the standard-error interval
-value +- z stderr; Venzon and Moolgavkar (1988), Applied Statistics 37: the profile
+value +- z stderr, z Student's t with dof degrees of freedom where s^2 is estimated
+(scipy.stats.t.ppf); Venzon and Moolgavkar (1988), Applied Statistics 37: the profile
 interval of a nonlinear model, which tends to it as the model becomes linear over the
 errors' range.
 """
@@ -12,11 +13,12 @@ import dataclasses
 
 import numpy as np
 import pytest
+from scipy import stats
 
 import torque
 from torque import inference
 from torque.euler import RAD_S_PER_DEG_MYR
-from torque.inference.profile import Z95, fixed_at, profile_intervals
+from torque.inference.profile import fixed_at, profile_intervals
 
 from .conftest import demo_system, here
 from .worlds import trench_hemispheres
@@ -33,8 +35,11 @@ def test_for_a_linear_model_the_profile_is_the_standard_error_interval():
     fit = inference.fit_velocity(system, obs)
     p = profile_intervals(fit, obs)["slab"]
     c, se = fit.values[0], fit.stderr[0]
-    assert p["low"] == pytest.approx(c - Z95 * se, rel=1e-6)
-    assert p["high"] == pytest.approx(c + Z95 * se, rel=1e-6)
+    # the area misfit's variance is estimated: Student's t quantile (scipy.stats.t)
+    z = stats.t.ppf(0.975, fit.dof)
+    assert fit.quantile == pytest.approx(z, rel=1e-10)
+    assert p["low"] == pytest.approx(c - z * se, rel=1e-6)
+    assert p["high"] == pytest.approx(c + z * se, rel=1e-6)
     assert p["at_bound"] is None and not p["low_at_bound"] and not p["high_at_bound"]
 
 
@@ -53,10 +58,10 @@ def test_far_from_its_bound_the_profile_agrees_with_the_standard_error(demo):
     prof = profile_intervals(fit, obs)
     for label, p in prof.items():
         i = system.labels.index(label)
-        c, se = fit.values[i], fit.stderr[i]
-        width = 2 * Z95 * se
-        assert abs(p["low"] - (c - Z95 * se)) < 0.05 * width, label
-        assert abs(p["high"] - (c + Z95 * se)) < 0.05 * width, label
+        c, se, z = fit.values[i], fit.stderr[i], fit.quantile
+        width = 2 * z * se
+        assert abs(p["low"] - (c - z * se)) < 0.05 * width, label
+        assert abs(p["high"] - (c + z * se)) < 0.05 * width, label
         assert p["low"] < c < p["high"]
 
 
@@ -65,7 +70,8 @@ def test_an_interval_end_is_where_the_misfit_has_risen_by_the_threshold(demo):
     system, obs = demo
     fit = inference.fit_velocity(system, obs)
     p = profile_intervals(fit, obs)["slab"]
-    threshold = fit.rss * (1 + Z95 ** 2 / fit.dof)
+    # F(1, dof) = t(dof)^2 with the variance estimated (Draper and Smith 1998, sec. 24.5)
+    threshold = fit.rss * (1 + stats.f.ppf(0.95, 1, fit.dof) / fit.dof)
     for end in (p["low"], p["high"]):
         refit = inference.fit_velocity(fixed_at(system, "slab", end), obs, fit)
         assert refit.rss == pytest.approx(threshold, rel=1e-6)

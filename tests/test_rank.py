@@ -1,7 +1,9 @@
 """Ranking hypotheses: cross-validation first, information criteria, nested comparisons.
 
 Sources: Burnham and Anderson (2002), Model Selection and Multimodel Inference, sec. 2.2
-(AIC = n ln(RSS/n) + 2k for least squares, AICc); Schwarz (1978), Ann. Stat. 6 (BIC);
+(AIC = n ln(RSS/n) + 2k for least squares); Hurvich and Tsai (1989), Biometrika 76
+(AICc); Self and Liang (1987), J. Am. Stat. Assoc. 82 (the chi-bar-square mixture of a
+coefficient on its bound); Schwarz (1978), Ann. Stat. 6 (BIC);
 Draper and Smith (1998), Applied Regression Analysis (the extra-sum-of-squares F-test),
 with scipy.stats.f for its p-value; Wilks (1938), Ann. Math. Stat. 9 (the likelihood-ratio
 test), with scipy.stats.chi2; Hastie, Tibshirani and Friedman (2009), The Elements of
@@ -53,7 +55,10 @@ def test_rows_carry_the_published_criteria_and_sort_by_cross_validation(ranked):
         assert r.free == k
         assert r.aic == pytest.approx(n * np.log(rss / n) + 2 * k, rel=1e-12)
         assert r.bic == pytest.approx(n * np.log(rss / n) + k * np.log(n), rel=1e-12)
-        assert r.aicc == pytest.approx(r.aic + 2 * k * (k + 1) / (n - k - 1), rel=1e-12)
+        # Hurvich and Tsai (1989), Biometrika 76: the correction counts the variance as a
+        # parameter, K = k + 1
+        K = k + 1
+        assert r.aicc == pytest.approx(r.aic + 2 * K * (K + 1) / (n - K - 1), rel=1e-12)
 
 
 def test_without_a_covariance_the_nested_pair_is_compared_by_cross_validation(ranked):
@@ -78,11 +83,17 @@ def test_with_a_covariance_the_nested_pair_gets_likelihood_ratio_and_f_tests(ran
     n, k_b, k_s = 3 * full.n_plates, full.n_free, small.n_free
     lr = next(t for t in tests if t["test"] == "likelihood-ratio")
     assert lr["statistic"] == pytest.approx(chi2["no trench"] - chi2["full"], rel=1e-9)
-    assert lr["p_value"] == pytest.approx(stats.chi2.sf(lr["statistic"], k_b - k_s), rel=1e-9)
+    # the trench resistance is bounded below by 0, the value the smaller model gives it:
+    # the reference is the 50:50 mixture of chi2_0 and chi2_1 (Self and Liang 1987), half
+    # the plain p-value
+    i = full.labels.index(next(l for l in full.labels if l not in small.labels))
+    assert full.bounds[i][0] == 0 and k_b - k_s == 1
+    assert lr["weights"] == [0.5, 0.5]
+    assert lr["p_value"] == pytest.approx(0.5 * stats.chi2.sf(lr["statistic"], 1), rel=1e-9)
     F = next(t for t in tests if t["test"] == "F")
     want = ((chi2["no trench"] - chi2["full"]) / (k_b - k_s)) / (chi2["full"] / (n - k_b))
     assert F["statistic"] == pytest.approx(want, rel=1e-9)
-    assert F["p_value"] == pytest.approx(stats.f.sf(want, k_b - k_s, n - k_b), rel=1e-9)
+    assert F["p_value"] == pytest.approx(0.5 * stats.f.sf(want, 1, n - k_b), rel=1e-9)
 
 
 def test_the_cross_validation_error_and_its_standard_error_over_plates(ranked):

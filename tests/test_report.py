@@ -27,8 +27,21 @@ def test_a_fits_table_carries_its_warnings():
 
 def test_every_interval_has_its_column():
     (title, header, rows, _), = _uncertainty_tables([("h", _fit())])
-    assert header[2:] == ["± 1.96 std. error", "profile likelihood", "monte carlo motions (100)"]
+    # a fit written before the quantile was recorded spans 1.96 standard errors
+    assert header[2:] == ["standard error interval", "profile likelihood",
+                          "monte carlo motions (100)"]
     assert rows == [["slab", "0.05", "0.04804 to 0.05196", "0.0481 to 0.0521", "0.048 to 0.052"]]
+
+
+def test_the_interval_spans_the_fits_own_quantile_and_marks_a_bound():
+    import dataclasses
+    fit = _fit()
+    c = dataclasses.replace(fit.coefficients["slab"], quantile=2.5, profile_low=0.0,
+                            profile_low_at_bound=True)
+    fit = dataclasses.replace(fit, coefficients={"slab": c})
+    (_, _, rows, _), = _uncertainty_tables([("h", fit)])
+    assert rows[0][2] == "0.0475 to 0.0525"
+    assert rows[0][3] == "0 to 0.0521 (on its bound)"
 
 
 def test_the_frame_and_net_rotations_of_every_fit():

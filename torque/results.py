@@ -53,6 +53,15 @@ class Coefficient:
     at_bound : str, optional
         ``"lower"`` or ``"upper"`` when the estimate sits at that bound (its standard
         error then means little; the profile interval still does).
+    classical_stderr, robust_stderr : float, optional
+        Both standard errors: classical (``s^2 (J^T J)^-1``) and cluster-robust (a plate
+        a cluster); ``stderr`` is the one the fit leads with.
+    quantile : float, optional
+        The multiple of ``stderr`` a 95 % interval spans each side (normal, or Student's t
+        where a variance was estimated).
+    profile_low_at_bound, profile_high_at_bound : bool
+        Whether that end of the profile interval is the coefficient's bound (a one-sided
+        interval).
     """
 
     value: float
@@ -64,6 +73,11 @@ class Coefficient:
     profile_low: float | None = None
     profile_high: float | None = None
     at_bound: str | None = None
+    classical_stderr: float | None = None
+    robust_stderr: float | None = None
+    quantile: float | None = None
+    profile_low_at_bound: bool = False
+    profile_high_at_bound: bool = False
 
 
 @dataclass(frozen=True)
@@ -401,6 +415,12 @@ class RankRow:
     effective_observations, effective_parameters : int
     chi_square : float, optional
         With the observations' covariance.
+    cv_chi_square, cv_chi_square_se : float, optional
+        With the observations' covariance: the mean chi-square of a left-out plate (its own
+        3x3 block of the covariance) and its standard error over plates.
+    recommended : bool
+        Whether the ranking's rule recommends this hypothesis
+        (:func:`torque.inference.ranking.rank`).
     """
 
     name: str
@@ -418,6 +438,9 @@ class RankRow:
     effective_observations: int = 0
     effective_parameters: int = 0
     chi_square: float | None = None
+    cv_chi_square: float | None = None
+    cv_chi_square_se: float | None = None
+    recommended: bool = False
 
 
 @dataclass(frozen=True, eq=False)
@@ -434,8 +457,8 @@ class SeriesResult:
     ranking : list of dict
         One row per hypothesis (the series' and its ``compare`` ones), best first by
         leave-one-plate-out cross-validation: ``name``, ``rms_mm_yr``, ``cv_rms_mm_yr``,
-        ``cv_stderr_mm_yr``, ``within_one_se``, ``aic``, ``bic``, ``k``, ``n``,
-        ``stage_rms_mm_yr``.
+        ``cv_stderr_mm_yr``, ``within_one_se``, ``recommended`` (by the one-standard-error
+        rule), ``aic``, ``bic``, ``k``, ``n``, ``stage_rms_mm_yr``.
     monte_carlo : dict or None
         ``draws`` (n, k) of the parameters, ``failed``, ``seed``, ``sd``, ``low``,
         ``high`` (2.5 and 97.5 percentiles).

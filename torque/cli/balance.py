@@ -33,6 +33,19 @@ COVARIANCE = ("a full covariance of the observed Euler vectors, correlations bet
 MODEL_ERROR = ("with --misfit chi-square: add a model error of this RMS velocity over each "
                "plate (mm/yr) to the observations' covariance, for what the physics leaves "
                "out (real misfits are mostly model error)")
+VARIANCE = ("with --misfit chi-square: take the covariance's scale as known (default: "
+            "intervals unscaled, normal quantiles, a warning when the reduced chi-square is "
+            "far from 1), or estimate it by the reduced chi-square (Student's t and F "
+            "quantiles; nested pairs then decided by the F-test)")
+STANDARD_ERRORS = ("the standard errors the fit leads with, propagates into the poles and "
+                   "adjusts its profile intervals to; both are reported: classical (default "
+                   "with --misfit chi-square) or cluster-robust, a plate a cluster (default "
+                   "for the area misfit, whose classical errors assume one variance for "
+                   "every plate)")
+RECOMMEND = ("rank's rule: nested likelihood-ratio tests at 5 %% with the bound mixture, then "
+             "AIC (default with --misfit chi-square), the lowest AIC, the lowest BIC, or the "
+             "one-standard-error rule on cross-validation (default, and the only rule, "
+             "without a covariance)")
 nonnegative = arg_type(float, "a number", lambda x: bool(np.isfinite(x) and x >= 0),
                        "must be a finite number, 0 or more")
 WEIGHTING = dict(choices=("velocity", "area", "none"), default="velocity",
@@ -74,6 +87,8 @@ def add_parser(sub) -> None:
                        "removed from the motions before fitting")
     p.add_argument("--resample-fit", **RESAMPLE_FIT)
     add_misfit_options(p)
+    p.add_argument("--standard-errors", choices=("classical", "robust"),
+                   help=STANDARD_ERRORS)
     p.add_argument("--no-profile", action="store_true",
                    help="skip the profile-likelihood intervals (some tens of refits per "
                    "free coefficient)")
@@ -92,13 +107,14 @@ def add_parser(sub) -> None:
     p.set_defaults(func=run_predict)
 
     p = sub.add_parser("rank", help="compare hypotheses",
-                       description="Fit every hypothesis to the same motions and rank them "
-                       "by leave-one-plate-out cross-validation error (best first, with its "
-                       "standard error and the one-standard-error rule); misfit, free "
-                       "coefficients, AIC and BIC from the effective numbers of observations "
-                       "and parameters; nested pairs compared by likelihood-ratio and F-tests "
-                       "with a covariance (--misfit chi-square), by cross-validation "
-                       "without.")
+                       description="Fit every hypothesis to the same motions, compare them "
+                       "and recommend one by a stated rule (--recommend): with a covariance "
+                       "(--misfit chi-square) nested likelihood-ratio tests with the bound "
+                       "mixture, then AIC, with cross-validation (the chi-square of each "
+                       "left-out plate) as a check; without one, the one-standard-error rule "
+                       "on leave-one-plate-out cross-validation. Misfit, free coefficients, "
+                       "AIC and BIC from the effective numbers of observations and "
+                       "parameters.")
     p.add_argument("world", help="world file (TOML)")
     p.add_argument("motions", help="observed motions CSV")
     p.add_argument("hypotheses", nargs="+", metavar="HYP", help="hypothesis files")
@@ -108,6 +124,8 @@ def add_parser(sub) -> None:
     p.add_argument("--free-frame", action="store_true", help=FREE_FRAME)
     p.add_argument("--resample-fit", **RESAMPLE_FIT)
     add_misfit_options(p)
+    p.add_argument("--recommend", choices=("likelihood-ratio", "aic", "bic",
+                                           "cross-validation"), help=RECOMMEND)
     p.add_argument("--allow-synthetic-ages", action="store_true",
                    help="rank even when sea-floor ages are synthesised from the motions being "
                    "fitted (the comparison is then partly circular)")
@@ -132,7 +150,8 @@ def add_fit_option(p, what: str, required: bool = False) -> None:
 
 
 def add_misfit_options(p) -> None:
-    """``--misfit``, ``--covariance`` and ``--model-error``, shared by fit and rank.
+    """``--misfit``, ``--covariance``, ``--model-error`` and ``--variance``, shared by fit
+    and rank.
 
     Parameters
     ----------
@@ -141,6 +160,7 @@ def add_misfit_options(p) -> None:
     p.add_argument("--misfit", choices=("area", "chi-square"), default="area", help=MISFIT)
     p.add_argument("--covariance", metavar="COV.csv", help=COVARIANCE)
     p.add_argument("--model-error", type=nonnegative, metavar="MM_YR", help=MODEL_ERROR)
+    p.add_argument("--variance", choices=("known", "estimated"), help=VARIANCE)
 
 
 def options(args):
@@ -163,7 +183,9 @@ def options(args):
                       seed=get("seed", 0), bootstrap=get("bootstrap", 0),
                       monte_carlo=get("monte_carlo", 0),
                       physics_samples=get("physics_samples", 0),
-                      resample_fit=args.resample_fit, profile=not get("no_profile", False))
+                      resample_fit=args.resample_fit, profile=not get("no_profile", False),
+                      variance=get("variance"), standard_errors=get("standard_errors"),
+                      recommend=get("recommend"))
 
 
 def run_fit(args) -> int:
@@ -291,10 +313,17 @@ def run_rank(args) -> int:
                 "bic": np.array([r.bic for r in rows]),
                 "cv_rms_mm_yr": np.array([r.cv_rms_mm_yr for r in rows]),
                 "cv_stderr_mm_yr": np.array([r.cv_stderr_mm_yr for r in rows]),
-                "within_one_se": np.array([r.within_one_se for r in rows])})
+                "within_one_se": np.array([r.within_one_se for r in rows]),
+                "cv_chi_square": np.array([np.nan if r.cv_chi_square is None
+                                           else r.cv_chi_square for r in rows]),
+                "recommended": np.array([r.recommended for r in rows])})
         if args.json:
             with atomic_write(args.json) as fh:
-                fh.write(dumps({"sorted_by": "cv_rms_mm_yr",
+                sort = {"cross-validation": "cv_rms_mm_yr", "bic": "bic"}.get(rows.rule,
+                                                                               "aic")
+                fh.write(dumps({"sorted_by": sort, "rule": rows.rule,
+                                "recommended": rows.recommended, "reason": rows.reason,
+                                "check": rows.check,
                                 "rows": [r.__dict__ for r in rows], "tests": tests,
                                 "f_tests": [t for t in tests if t["test"] == "F"],
                                 "run": manifest(args, data)}))

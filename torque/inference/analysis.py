@@ -16,6 +16,7 @@ from .covariance import covariance_blocks
 from .methods import FIT_METHODS, PREFERRED_FIT
 from .solvers import Fit, on_one_blas_thread, predict
 from .statistics import (
+    chi_square_check,
     force_budget,
     information_criteria,
     information_criteria_chi_square,
@@ -27,7 +28,10 @@ from .statistics import (
 )
 from .system import System, rigid_constraint
 
-__all__ = ["Report", "analyse"]
+__all__ = ["ERRORS", "Report", "analyse"]
+
+#: The standard errors a report can lead with: classical or cluster-robust.
+ERRORS = ("classical", "robust")
 
 
 @dataclass(frozen=True, eq=False)
@@ -58,6 +62,8 @@ class Report:
     constraint : str, optional
         The rigid-rotation constraint the observations satisfy (see
         :func:`torque.inference.system.rigid_constraint`): three degrees of freedom fewer.
+    errors : {"classical", "robust"}
+        Which standard errors lead (see :func:`analyse`).
     """
 
     system: System
@@ -70,6 +76,7 @@ class Report:
     frame: dict | None = None
     profile: dict | None = None
     constraint: str | None = None
+    errors: str = "classical"
 
     def __repr__(self) -> str:
         return (f"Report({self.system.name!r}, {self.system.n_plates} plates, "
@@ -126,11 +133,20 @@ class Report:
         coefs = {}
         for i, l in enumerate(s.labels):
             p = prof.get(l, {})
-            coefs[l] = {"value": float(pref.values[i]), "stderr": float(pref.stderr[i]),
+            robust = self.errors == "robust" and pref.robust_stderr is not None
+            classical = float(pref.stderr[i])
+            rse = None if pref.robust_stderr is None else float(pref.robust_stderr[i])
+            coefs[l] = {"value": float(pref.values[i]),
+                        "stderr": rse if robust else classical,
                         "free": bool(s.free[i]), "unit": s.units[i],
                         "torque_space_value": float(tf.values[i]),
                         "torque_space_stderr": float(tf.stderr[i]),
                         "profile_low": p.get("low"), "profile_high": p.get("high"),
+                        "classical_stderr": classical, "robust_stderr": rse,
+                        "quantile": float(pref.robust_quantiles[i] if robust
+                                          else pref.quantile),
+                        "profile_low_at_bound": bool(p.get("low_at_bound", False)),
+                        "profile_high_at_bound": bool(p.get("high_at_bound", False)),
                         "at_bound": (p.get("at_bound") if p else
                                      ("lower" if l in pref.active_bounds
                                       and pref.values[i] <= s.bounds[i][0] else
@@ -188,9 +204,14 @@ class Report:
                      "chi-square with the observations' covariance" if chi else
                      "area-integrated squared velocity misfit (no observation covariance "
                      "used: plates weigh by their area)")}
+        extra["variance"] = "known" if pref.known_variance else "estimated"
+        extra["standard_errors"] = self.errors
         if chi:
+            check = chi_square_check(pref.chi_square, pref.dof)
             extra.update(chi_square=pref.chi_square,
-                         reduced_chi_square=pref.reduced_chi_square)
+                         reduced_chi_square=pref.reduced_chi_square,
+                         chi_square_p_high=check["p_high"], chi_square_p_low=check["p_low"],
+                         chi_square_warning=check["message"])
         misfit = {**glob, "n": n, "free_coefficients": k, **extra, **ic,
                   "torque_space_rss": tf.rss,
                   "torque_space_weighting": tf.weighting,
@@ -227,7 +248,8 @@ class Report:
 @on_one_blas_thread
 def analyse(system: System, omega_obs, weighting: str = "velocity",
             methods=None, free_frame: bool = False, obs_cov=None,
-            mantle_rotation=None, profile: bool = False) -> Report:
+            mantle_rotation=None, profile: bool = False, variance: str | None = None,
+            errors: str = "classical") -> Report:
     """Fit a hypothesis by every fit method, predict, and propagate the uncertainty.
 
     Parameters
@@ -255,6 +277,14 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
     profile : bool
         Also find the profile-likelihood interval of every free coefficient
         (:func:`torque.inference.profile.profile_intervals`; some tens of refits each).
+    variance : {"known", "estimated"}, optional
+        With ``obs_cov``: take its scale as known (default) or estimate it by the reduced
+        chi-square (see :func:`torque.inference.solvers.fit_velocity`).
+    errors : {"classical", "robust"}
+        Which standard errors the report leads with (``stderr``), propagates into the
+        poles' covariances and adjusts the profile intervals to: the classical
+        ``s^2 (J^T J)^-1`` or the cluster-robust sandwich (a plate a cluster; both are
+        always reported).
 
     Notes
     -----
@@ -297,6 +327,7 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
         extra = {"free_frame": True} if free_frame and FIT_METHODS[name].frames else {}
         if obs_cov is not None and FIT_METHODS[name].covariance:
             extra["obs_cov"] = obs_cov
+            extra["variance"] = variance
         if constraint and FIT_METHODS[name].counts_dof:
             extra["lost_dof"] = 3
         fits[name] = FIT_METHODS[name].run(system, omega_obs, fits, weighting, **extra)
@@ -311,13 +342,16 @@ def analyse(system: System, omega_obs, weighting: str = "velocity",
         for name in names:
             if not FIT_METHODS[name].frames:
                 fits[name] = FIT_METHODS[name].run(system, omega_obs, fits, weighting)
+    if errors not in ERRORS:
+        raise ValueError(f"errors must be one of {', '.join(ERRORS)}, got {errors!r}")
     pref = fits[PREFERRED_FIT]
     pred = predict(system, pref.values)
-    cov = pole_covariance(system, pref.values, pref.cov, pred)
+    lead = pref.robust_cov if errors == "robust" and pref.robust_cov is not None else pref.cov
+    cov = pole_covariance(system, pref.values, lead, pred)
     intervals = None
     if profile:
         from .profile import profile_intervals
         observed = frame["observed_frame"] if frame else omega_obs
-        intervals = profile_intervals(pref, observed, free_frame, obs_cov)
+        intervals = profile_intervals(pref, observed, free_frame, obs_cov, errors=errors)
     return Report(system, fits, omega_obs, pred, cov, frame=frame or given_frame,
-                  profile=intervals, constraint=constraint)
+                  profile=intervals, constraint=constraint, errors=errors)

@@ -14,7 +14,7 @@ from .system import System
 
 __all__ = ["misfit_whitening", "covariance_blocks", "model_error_covariance",
            "add_covariances", "JITTER", "jittered_cholesky", "degrees_of_freedom",
-           "variance_factor"]
+           "variance_factor", "VARIANCES", "cluster_robust_covariance"]
 
 
 def misfit_whitening(system: System, obs_cov=None, plates=None):
@@ -227,13 +227,20 @@ def degrees_of_freedom(n_obs: int, k: int, free_frame: bool = False,
     return max(int(n_obs) - int(k) - max(3 * bool(free_frame), int(lost_dof)), 1)
 
 
+#: How the scale of a chi-square fit's covariance is taken: as known (the default), or
+#: estimated from the residuals (the reduced chi-square).
+VARIANCES = ("known", "estimated")
+
+
 def variance_factor(rss: float, dof: int, known: bool) -> float:
     """The factor ``s^2`` that scales ``(J^T J)^-1`` into the estimates' covariance.
 
     The one convention of every fit: with the observations' covariance (the chi-square)
-    it is taken as known, ``s^2 = 1``; without one (the area misfit) the residuals'
-    variance is estimated from them, ``s^2 = rss / dof`` (Draper and Smith 1998, *Applied
-    Regression Analysis*, secs. 2.6 and 24.5). Profile intervals use the same ``s^2``.
+    it is taken as known, ``s^2 = 1`` (intervals with normal quantiles); asked to, or
+    without one (the area misfit), the residuals' variance is estimated from them,
+    ``s^2 = rss / dof`` (intervals with Student's t quantiles; Draper and Smith 1998,
+    *Applied Regression Analysis*, secs. 2.6 and 24.5). Profile intervals use the same
+    ``s^2`` and quantile.
 
     Parameters
     ----------
@@ -248,6 +255,92 @@ def variance_factor(rss: float, dof: int, known: bool) -> float:
     float
     """
     return 1.0 if known else float(rss) / max(int(dof), 1)
+
+
+def cluster_robust_covariance(J, r, clusters=3):
+    """The cluster-robust (sandwich) covariance of least-squares estimates, with the
+    bias-reduced residuals of Bell and McCaffrey (CR2).
+
+    ``V = B (sum_g J_g^T u_g u_g^T J_g) B`` with ``B = (J^T J)^-1`` and each cluster's
+    residuals ``u_g = (I - H_gg)^-1/2 r_g`` (``H_gg = J_g B J_g^T``, the cluster's block of
+    the hat matrix), which makes ``V`` unbiased when the errors are independent between
+    clusters and of equal variance, and nearly so when their variance differs from cluster
+    to cluster, as the classical ``s^2 B`` is not (Bell and McCaffrey 2002; Cameron and
+    Miller 2015, sec. VI). Here a cluster is a plate: its three rows of the whitened
+    residual, whose errors may then have any covariance of their own.
+
+    Parameters
+    ----------
+    J : ndarray, shape (n, p)
+        The whitened residual's Jacobian at the estimate.
+    r : ndarray, shape (n,)
+        The whitened residual.
+    clusters : int
+        Rows per cluster (3: one plate's x, y, z).
+
+    Returns
+    -------
+    cov : ndarray, shape (p, p)
+        NaN where ``J^T J`` is singular.
+    dof : ndarray, shape (p,)
+        Each parameter's degrees of freedom for Student's t quantiles of its interval, by
+        Bell and McCaffrey's approximation (``(sum l)^2 / sum l^2`` over the eigenvalues
+        ``l`` of ``G^T G``, ``G_g = (I - H)_g A_g J_g B e_j``; Imbens and Kolesar 2016): at
+        most the number of clusters less one, fewer where a few clusters hold most of
+        the information (a few big plates), where ``t(G - 1)`` would be too narrow.
+
+    References
+    ----------
+    .. [1] Bell, R. M. and McCaffrey, D. F. (2002). Bias reduction in standard errors for
+       linear regression with multi-stage samples. *Survey Methodology* 28, 169-181.
+    .. [2] Cameron, A. C. and Miller, D. L. (2015). A practitioner's guide to
+       cluster-robust inference. *J. Human Resources* 50, 317-372.
+    .. [3] Imbens, G. W. and Kolesar, M. (2016). Robust standard errors in small samples:
+       some practical advice. *Rev. Econ. Stat.* 98, 701-712.
+
+    Examples
+    --------
+    With independent equal-variance errors the sandwich's expectation is the classical
+    covariance; for one cluster of rows per observation (HC2) and the residuals of a line
+    fit, it is ``B (sum_i x_i x_i^T r_i^2 / (1 - h_ii)) B``:
+
+    >>> x = np.c_[np.ones(6), np.arange(6.0)]
+    >>> r = np.array([0.1, -0.2, 0.05, 0.3, -0.1, -0.15])
+    >>> V, dof = cluster_robust_covariance(x, r, clusters=1)
+    >>> B = np.linalg.inv(x.T @ x); h = np.einsum("ij,jk,ik->i", x, B, x)
+    >>> bool(np.allclose(V, B @ (x.T * r ** 2 / (1 - h)) @ x @ B)), bool(np.all(dof < 5))
+    (True, True)
+    """
+    J, r = np.asarray(J, float), np.asarray(r, float)
+    n, p = J.shape
+    try:
+        B = np.linalg.inv(J.T @ J)
+    except np.linalg.LinAlgError:
+        return np.full((p, p), np.nan), np.full(p, np.nan)
+    G = n // clusters
+    Jg = J.reshape(G, clusters, p)
+    rg = r.reshape(G, clusters)
+    counted = np.any(Jg != 0, axis=(1, 2)) | np.any(rg != 0, axis=1)
+    H = np.einsum("gik,kl,gjl->gij", Jg, B, Jg)                        # (G, c, c)
+    vals, vecs = np.linalg.eigh(np.eye(clusters) - H)
+    # (I - H_gg)^-1/2; a cluster that alone fixes a parameter (an eigenvalue near 0)
+    # keeps its raw residual there
+    inv_sqrt = np.where(vals > 1e-10, 1.0 / np.sqrt(np.clip(vals, 1e-10, None)), 1.0)
+    A = np.einsum("gij,gj,gkj->gik", vecs, inv_sqrt, vecs)             # (G, c, c)
+    u = np.einsum("gik,gk->gi", A, rg)
+    score = np.einsum("gik,gi->gk", Jg, u)                             # (G, p)
+    # Bell and McCaffrey's degrees of freedom: G_g = (I - H)[:, g] A_g J_g B e_j, for the
+    # clusters counted
+    keep = np.repeat(counted, clusters)
+    M = (np.eye(n) - J @ B @ J.T)[keep][:, keep].reshape(-1, int(counted.sum()), clusters)
+    AJB = np.einsum("gij,gjk,kl->gil", A[counted], Jg[counted], B)     # (G', c, p)
+    Gm = np.einsum("ngi,gip->png", M, AJB)                            # (p, n', G')
+    GG = np.einsum("png,pnh->pgh", Gm, Gm)
+    tr = np.einsum("pgg->p", GG)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        dof = np.minimum(tr ** 2 / np.einsum("pgh,pgh->p", GG, GG),
+                         max(int(counted.sum()) - 1, 1))
+    return B @ (score.T @ score) @ B, dof
 
 
 def _covariance(J, s2: float):

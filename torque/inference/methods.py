@@ -35,7 +35,8 @@ class FitMethod:
         observations' frame relative to the mantle (``Fit.frame_rotation``).
     covariance : bool
         Whether ``run`` takes ``obs_cov=`` (the observations' covariance, (P, 3, 3) or
-        (3P, 3P)) and then minimises the chi-square.
+        (3P, 3P)) and then minimises the chi-square, and ``variance=`` (``"known"`` or
+        ``"estimated"``: how its scale is taken).
     counts_dof : bool
         Whether ``run`` takes ``lost_dof=`` (degrees of freedom the observations lost to a
         rigid constraint) into its degrees of freedom.
@@ -54,9 +55,9 @@ def _run_torque(system, omega_obs, earlier, weighting):
 
 
 def _run_velocity(system, omega_obs, earlier, weighting, free_frame=False, obs_cov=None,
-                  lost_dof=0):
+                  lost_dof=0, variance=None):
     return fit_velocity(system, omega_obs, earlier.get("torque"), free_frame,
-                        obs_cov=obs_cov, lost_dof=lost_dof)
+                        obs_cov=obs_cov, lost_dof=lost_dof, variance=variance)
 
 
 #: Fit methods in the order :func:`torque.inference.analysis.analyse` runs them. A new method is

@@ -7,12 +7,14 @@ the coefficient at a trial value, refits everything else (the other free coeffic
 with a free frame, the mantle's rotation), and keeps the values whose misfit stays within
 the threshold of the best:
 
-    S_profile(c_j) <= S_min + s^2 q,   q = chi2_1(0.95) = 1.96^2,
+    S_profile(c_j) <= S_min + s^2 q,   q = z^2,
 
-with ``s^2`` the fit's variance factor: 1 for a chi-square with a known covariance,
-``S_min / dof`` for the area misfit (:func:`torque.inference.covariance.variance_factor`),
-so that, for a model linear in its coefficients and far from any bound, the interval is
-exactly ``value +- 1.96 stderr`` (Draper and Smith 1998, sec. 24.5; Venzon and Moolgavkar
+with ``s^2`` the fit's variance factor: 1 for a chi-square with a known covariance (``z``
+the normal quantile, 1.96: ``q = chi2_1(0.95)``), ``S_min / dof`` for the area misfit or
+a chi-square whose scale is estimated (``z`` Student's t with ``dof`` degrees of freedom:
+``q = F(1, dof)(0.95)``; :func:`torque.inference.covariance.variance_factor`), so that, for
+a model linear in its coefficients and far from any bound, the interval is exactly
+``value +- z stderr`` (Draper and Smith 1998, sec. 24.5; Venzon and Moolgavkar
 1988): the threshold and the standard errors use the same ``s^2``, so the two agree where
 both are valid. Each end is
 found by bracketing, then ``scipy.optimize.brentq`` on ``sqrt(S - S_min) - z s`` (the same
@@ -25,6 +27,9 @@ References
    (confidence regions of nonlinear least squares from the sum of squares).
 .. [2] Venzon, D. J. and Moolgavkar, S. H. (1988). A method for computing
    profile-likelihood-based confidence intervals. *Applied Statistics* 37, 87-94.
+.. [3] Chandler, R. E. and Bate, S. (2007). Inference for clustered data using the
+   independence loglikelihood. *Biometrika* 94, 167-183 (the adjusted profile of
+   ``errors="robust"``).
 """
 
 from __future__ import annotations
@@ -36,12 +41,11 @@ from scipy import optimize
 
 from ..errors import TorqueError
 from .covariance import misfit_whitening
-from .solvers import fit_velocity, on_one_blas_thread, predict
+from .solvers import Z95, fit_velocity, on_one_blas_thread, predict
 from .system import System
 
 __all__ = ["Z95", "fixed_at", "profile_intervals"]
 
-Z95 = 1.959963984540054          # the normal 97.5 % quantile (scipy.stats.norm.ppf(0.975))
 
 
 def fixed_at(system: System, label: str, value: float) -> System:
@@ -82,7 +86,7 @@ def _misfit_at(system, omega_obs, free_frame, obs_cov, start):
 
 @on_one_blas_thread
 def profile_intervals(fit, omega_obs, free_frame: bool = False, obs_cov=None,
-                      confidence_z: float = Z95) -> dict:
+                      confidence_z: float | None = None, errors: str = "classical") -> dict:
     """Profile-likelihood interval of every free coefficient of a velocity-space fit.
 
     Parameters
@@ -94,8 +98,18 @@ def profile_intervals(fit, omega_obs, free_frame: bool = False, obs_cov=None,
         The observations it was fitted to, rad/s.
     free_frame : bool
     obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
-    confidence_z : float
-        The interval is where the misfit rises by at most ``z^2 s^2`` (1.96 for 95 %).
+    confidence_z : float, optional
+        The interval is where the misfit rises by at most ``z^2 s^2``; default the fit's
+        95 % quantile (:attr:`Fit.quantile`: 1.96 with a known variance, Student's t
+        with the fit's degrees of freedom when it is estimated, so that the threshold is
+        the F(1, dof) quantile).
+    errors : {"classical", "robust"}
+        ``"robust"``: the rise allowed for each coefficient is scaled by the ratio of its
+        cluster-robust to its classical variance, and ``z`` is its robust quantile
+        (:attr:`Fit.robust_quantiles`): the profile likelihood adjusted for errors whose
+        variance differs from plate to plate, which for a linear model gives exactly
+        ``value +- z robust_stderr`` (the adjusted likelihood ratio of Chandler and Bate
+        2007, *Biometrika* 94, for a scalar parameter).
 
     Returns
     -------
@@ -119,18 +133,24 @@ def profile_intervals(fit, omega_obs, free_frame: bool = False, obs_cov=None,
     >>> fit = fit_velocity(system, omega)
     >>> p = profile_intervals(fit, omega)["slab"]
     >>> i = system.labels.index("slab")
-    >>> se_low, se_high = fit.values[i] - Z95 * fit.stderr[i], fit.values[i] + Z95 * fit.stderr[i]
+    >>> z = fit.quantile                      # Student's t: the area misfit's variance is estimated
+    >>> se_low, se_high = fit.values[i] - z * fit.stderr[i], fit.values[i] + z * fit.stderr[i]
     >>> bool(abs(p["low"] - se_low) < 0.05 * (se_high - se_low))
     True
     """
     system = fit.system
     omega_obs = np.asarray(omega_obs, float)
-    threshold = fit.rss + confidence_z ** 2 * fit.variance_factor
-    rise = np.sqrt(threshold - fit.rss)                 # z s
+    if errors not in ("classical", "robust"):
+        raise ValueError(f"errors must be 'classical' or 'robust', got {errors!r}")
+    robust = errors == "robust" and fit.robust_stderr is not None
     out = {}
     for i in np.nonzero(system.free)[0]:
         label = system.labels[i]
         value, se = float(fit.values[i]), float(fit.stderr[i])
+        ratio = (fit.robust_stderr[i] / se) ** 2 if robust and se > 0 else 1.0
+        z = confidence_z if confidence_z is not None else (
+            fit.robust_quantiles[i] if robust else fit.quantile)
+        rise = z * np.sqrt(fit.variance_factor * ratio)                 # z s
         lo, hi = (float(b) for b in system.bounds[i])
         step = se if se > 0 else max(abs(value), 1e-300) * 0.1
 

@@ -58,7 +58,7 @@ import functools
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import linalg, optimize
+from scipy import linalg, optimize, special
 
 from ..errors import ModelError, TorqueError
 from ..parallel import small_solves
@@ -70,6 +70,7 @@ from ._optimise import (
 )
 from .covariance import (
     _covariance,
+    cluster_robust_covariance,
     degrees_of_freedom,
     misfit_whitening,
     variance_factor,
@@ -83,7 +84,10 @@ from .system import (
     plate_weights,
 )
 
-__all__ = ["Fit", "fit_torque", "predict", "NEWTON_TOL", "NEWTON_MAX_STEPS",
+#: The normal 97.5 % quantile (``scipy.stats.norm.ppf(0.975)``).
+Z95 = 1.959963984540054
+
+__all__ = ["Z95", "Fit", "fit_torque", "predict", "NEWTON_TOL", "NEWTON_MAX_STEPS",
            "solve_balance", "fit_velocity", "fit_velocity_many", "on_one_blas_thread"]
 
 
@@ -132,6 +136,17 @@ class Fit:
     status : int
         :data:`~torque.inference._optimise.GAUSS_NEWTON_STATUS` where Gauss-Newton
         finished the fit, else scipy's status.
+    known_variance : bool
+        Whether ``cov`` takes the misfit's scale as known (a chi-square with its
+        covariance, ``s^2 = 1``) rather than estimated from the residuals.
+    robust_cov : ndarray, shape (k, k), or None
+        The cluster-robust (sandwich, CR2) covariance of the free coefficients, a plate a
+        cluster (:func:`~torque.inference.covariance.cluster_robust_covariance`);
+        velocity-space fits only.
+    robust_stderr : ndarray, shape (K,), or None
+        Its standard errors (0 for fixed coefficients).
+    robust_dof : ndarray, shape (k,), or None
+        The free coefficients' degrees of freedom for its intervals (Bell and McCaffrey).
     """
 
     system: System
@@ -153,6 +168,27 @@ class Fit:
     parameters: int = 0
     evaluations: int = 0
     status: int = 0
+    known_variance: bool = False
+    robust_cov: np.ndarray | None = None
+    robust_stderr: np.ndarray | None = None
+    robust_dof: np.ndarray | None = None
+
+    @property
+    def quantile(self) -> float:
+        """The multiple of ``stderr`` a 95 % interval spans on each side: the normal
+        quantile with a known variance, Student's t with ``dof`` degrees of freedom when it
+        is estimated (``scipy.stats.t.ppf``, through ``scipy.special.stdtrit``)."""
+        return Z95 if self.known_variance else float(special.stdtrit(self.dof, 0.975))
+
+    @property
+    def robust_quantiles(self) -> np.ndarray:
+        """The multiples of ``robust_stderr`` a 95 % interval spans, one per coefficient
+        (0 for fixed ones): Student's t with each free coefficient's Bell and McCaffrey
+        degrees of freedom (Imbens and Kolesar 2016)."""
+        q = np.zeros(len(self.values))
+        if self.robust_dof is not None:
+            q[self.system.free] = special.stdtrit(np.clip(self.robust_dof, 1, None), 0.975)
+        return q
 
     @property
     def reduced_chi_square(self) -> float | None:
@@ -324,7 +360,7 @@ def solve_balance(system: System, coefficients, start=None):
 
 def fit_velocity(system: System, omega_obs, start: Fit | None = None,
                  free_frame: bool = False, plates=None, obs_cov=None,
-                 lost_dof: int = 0) -> Fit:
+                 lost_dof: int = 0, variance: str | None = None) -> Fit:
     """Free coefficients minimising the area-integrated squared velocity misfit.
 
     Parameters
@@ -355,6 +391,10 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
         the no-net-rotation frame or given relative to a fixed plate (see
         :func:`rigid_constraint`). A free frame fits those same three directions, so it
         adds no parameters beyond them: ``dof = n - k - max(3 * free_frame, lost_dof)``.
+    variance : {"known", "estimated"}, optional
+        With ``obs_cov``: take its scale as known (default; ``s^2 = 1``, normal quantiles)
+        or estimate it by the reduced chi-square (Student's t quantiles). Without it the
+        variance is always estimated.
 
     Returns
     -------
@@ -468,12 +508,22 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
     # rigid rotations: count them once
     extra = max(3 if free_frame else 0, lost_dof)
     dof = degrees_of_freedom(n_obs, k_free, free_frame, lost_dof)
-    s2 = variance_factor(rss, dof, known=obs_cov is not None)
-    cov_all = _covariance(jacobian(x_opt) / units, s2)
+    if variance not in (None, "known", "estimated"):
+        raise ValueError(f"variance must be 'known' or 'estimated', got {variance!r}")
+    if variance == "known" and obs_cov is None:
+        raise ValueError("only a chi-square's variance can be known: give obs_cov")
+    known = obs_cov is not None and variance != "estimated"
+    s2 = variance_factor(rss, dof, known=known)
+    J_opt = jacobian(x_opt) / units
+    cov_all = _covariance(J_opt, s2)
     cov = cov_all[:k_free, :k_free]
+    robust_all, robust_dof = cluster_robust_covariance(J_opt, r_opt)
+    robust = robust_all[:k_free, :k_free]
     values = system.full_coefficients(x)
     stderr = np.zeros(len(values))
     stderr[free] = np.sqrt(np.clip(np.diag(cov), 0, None))
+    robust_stderr = np.zeros(len(values))
+    robust_stderr[free] = np.sqrt(np.clip(np.diag(robust), 0, None))
     free_labels = [l for l, f in zip(system.labels, system.free) if f]
     active = tuple(free_labels[i] for i in np.nonzero(held[:k_free])[0])
     chi = obs_cov is not None
@@ -482,11 +532,13 @@ def fit_velocity(system: System, omega_obs, start: Fit | None = None,
                frame_rotation=frame(x_opt) if free_frame else None,
                frame_cov=cov_all[k_free:, k_free:] if free_frame else None,
                observations=n_obs, effective_observations=n_obs - lost_dof,
-               parameters=k_free + extra - lost_dof, evaluations=nfev, status=status)
+               parameters=k_free + extra - lost_dof, evaluations=nfev, status=status,
+               known_variance=known, robust_cov=robust, robust_stderr=robust_stderr,
+               robust_dof=robust_dof[:k_free])
 
 
 def fit_velocity_many(system: System, omega_obs, start: Fit, plates=None,
-                      obs_cov=None) -> np.ndarray:
+                      obs_cov=None, free_frame: bool = False):
     """Velocity-space fits of many resampled members at once (bootstrap, Monte Carlo).
 
     Each member is what :func:`fit_velocity` returns for it, started from ``start``: for
@@ -506,12 +558,17 @@ def fit_velocity_many(system: System, omega_obs, start: Fit, plates=None,
     plates : sequence of B arrays of int, optional
         The plates each member counts (see :func:`fit_velocity`).
     obs_cov : ndarray, shape (P, 3, 3) or (3P, 3P), optional
+    free_frame : bool
+        Refit every member's frame rotation too (``start`` then a free-frame fit), so that
+        the members' spread holds the frame's covariance with the coefficients.
 
     Returns
     -------
-    ndarray, shape (B, K)
+    values : ndarray, shape (B, K)
         Every member's coefficients; a row of NaN where :func:`fit_velocity` refuses the
         member (InputError).
+    frames : ndarray, shape (B, 3)
+        With ``free_frame`` only: every member's frame rotation, rad/s (NaN where refused).
 
     Examples
     --------
@@ -536,9 +593,13 @@ def fit_velocity_many(system: System, omega_obs, start: Fit, plates=None,
     obs = np.broadcast_to(omega_obs, (B, *omega_obs.shape[-2:]))
     draw = [None] * B if plates is None else [np.asarray(p) for p in plates]
     out = np.full((B, len(system.labels)), np.nan)
+    frames = np.full((B, 3), np.nan)
     free = system.free
     x0 = start.values[free]
+    k = len(x0)
     lo, hi = system.bounds[free].T
+    if free_frame and start.frame_rotation is None:
+        raise ValueError("members with a free frame start from a free-frame fit")
     together = (not system.nonlinear and np.all(x0 != 0) and np.all((x0 > lo) & (x0 < hi)))
     alone = np.ones(B, bool)
     if together:
@@ -547,23 +608,36 @@ def fit_velocity_many(system: System, omega_obs, start: Fit, plates=None,
         with np.errstate(over="ignore"):
             lo_s, hi_s = lo / scale, hi / scale
         N = 3 * system.n_plates
+        w_scale = float(np.sqrt(np.mean(np.sum(obs[0] ** 2, axis=1)))) or 1.0
+        x_start = x0 / scale
+        if free_frame:
+            x_start = np.r_[x_start, start.frame_rotation / w_scale]
+            lo_s, hi_s = np.r_[lo_s, [-np.inf] * 3], np.r_[hi_s, [np.inf] * 3]
+        frame = np.tile(np.eye(3), (system.n_plates, 1)) * w_scale       # (N, 3)
         chunk = max(1, 2_000_000 // (N * N))
         for a in range(0, B, chunk):
             m = np.arange(a, min(a + chunk, B))
             W = np.stack([misfit_whitening(system, obs_cov, draw[i])[0] for i in m])
             target = np.einsum("bij,bj->bi", W, obs[m].reshape(len(m), N))
-            x, done, _ = _velocity_gauss_newton(system, W, target, None, scale,
-                                                np.tile(x0 / scale, (len(m), 1)), lo_s,
-                                                hi_s)
+            # each member's frame columns: W_m F
+            x, done, _ = _velocity_gauss_newton(
+                system, W, target, W @ frame if free_frame else None, scale,
+                np.tile(x_start, (len(m), 1)), lo_s, hi_s)
             out[m[done]] = system.fixed
-            out[m[done][:, None], np.flatnonzero(free)] = x[done] * scale
+            out[m[done][:, None], np.flatnonzero(free)] = x[done, :k] * scale
+            if free_frame:
+                frames[m[done]] = x[done, k:] * w_scale
             alone[m[done]] = False
     for i in np.flatnonzero(alone):
         try:
-            out[i] = fit_velocity(system, obs[i], start, plates=draw[i], obs_cov=obs_cov).values
+            f = fit_velocity(system, obs[i], start, free_frame, plates=draw[i],
+                             obs_cov=obs_cov)
         except TorqueError:
-            pass
-    return out
+            continue
+        out[i] = f.values
+        if free_frame:
+            frames[i] = f.frame_rotation
+    return (out, frames) if free_frame else out
 
 
 def on_one_blas_thread(func):

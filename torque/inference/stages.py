@@ -33,6 +33,7 @@ from ..euler import M_S_TO_MM_YR, MYR_S
 from ._optimise import GAUSS_NEWTON_STATUS, _gauss_newton, _minimise_bounded
 from .covariance import (
     _covariance,
+    cluster_robust_covariance,
     degrees_of_freedom,
     jittered_cholesky,
     misfit_whitening,
@@ -150,7 +151,9 @@ class JointFit:
     params : tuple of str
         The fitted parameters: ``label`` (shared) or ``label@stage`` (per stage).
     cov : ndarray, shape (n, n)
-        Of the parameters.
+        Of the parameters: classical for the chi-square, cluster-robust (a plate of a stage
+        a cluster) for the area misfit, as a one-world fit leads with; both are in
+        ``info`` (``classical_cov``, ``robust_cov``).
     rss : float
         The summed misfit (m^4/s^2, or the chi-square).
     dof : int
@@ -352,7 +355,11 @@ def fit_joint(stages, per_stage=(), misfit: str = "area", exclude_plate: str | N
     # one convention with the one-world fits: degrees of freedom counted once, a known
     # covariance unscaled, the area misfit's variance estimated from its residuals
     dof = degrees_of_freedom(n_obs, layout.n, lost_dof=lost)
-    cov = _covariance(J, variance_factor(rss, dof, known=misfit == "chi-square"))
+    classical = _covariance(J, variance_factor(rss, dof, known=misfit == "chi-square"))
+    # the same standard errors as a one-world fit leads with: classical with a covariance,
+    # cluster-robust (a plate of a stage a cluster) for the area misfit
+    robust, robust_dof = cluster_robust_covariance(J, r_opt)
+    cov = classical if misfit == "chi-square" else robust
     S, K = len(stages), len(layout.labels)
     values, stderr = np.zeros((S, K)), np.zeros((S, K))
     se = np.sqrt(np.clip(np.diag(cov), 0, None))
@@ -367,6 +374,8 @@ def fit_joint(stages, per_stage=(), misfit: str = "area", exclude_plate: str | N
     return JointFit(layout.labels, tuple(per_stage), values, stderr, layout.names, cov, rss,
                     dof, n_obs, predicted, rms, vr, misfit,
                     {"theta": theta, "evaluations": int(nfev), "status": int(status),
+                     "classical_cov": classical, "robust_cov": robust, "robust_dof": robust_dof,
+                     "standard_errors": "classical" if misfit == "chi-square" else "robust",
                      "stages": [st.name for st in stages],
                      "times_ma": [st.time_ma for st in stages],
                      "excluded_plate": exclude_plate})

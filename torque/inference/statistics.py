@@ -10,6 +10,11 @@ References
    (extra sum of squares F-test for nested linear models; covariance of estimates).
 .. [4] Wilks, S. S. (1938). The large-sample distribution of the likelihood ratio for
    testing composite hypotheses. *Ann. Math. Stat.* 9, 60-62.
+.. [5] Self, S. G. and Liang, K.-Y. (1987). Asymptotic properties of maximum likelihood
+   estimators and likelihood ratio tests under nonstandard conditions. *J. Am. Stat.
+   Assoc.* 82, 605-610 (the chi-bar-square mixture of a parameter on its bound).
+.. [6] Hurvich, C. M. and Tsai, C.-L. (1989). Regression and time series model selection
+   in small samples. *Biometrika* 76, 297-307 (AICc, with the variance a parameter).
 """
 
 from __future__ import annotations
@@ -22,8 +27,9 @@ from .system import System
 
 __all__ = ["CONFIDENCE", "velocity_misfit", "pole_covariance", "pole_ellipse",
            "force_budget", "residual_torque", "pole_distance_deg",
-           "information_criteria", "information_criteria_chi_square", "f_test",
-           "likelihood_ratio_test"]
+           "information_criteria", "information_criteria_chi_square",
+           "chi_bar_square_weights", "f_test", "likelihood_ratio_test",
+           "chi_square_check"]
 
 CONFIDENCE = 0.95
 
@@ -201,10 +207,12 @@ def pole_distance_deg(w1, w2) -> np.ndarray:
 
 
 def information_criteria(rss: float, n: int, k: int) -> dict:
-    """AIC, AICc and BIC for a least-squares fit with Gaussian errors [1]_ [2]_.
+    """AIC, AICc and BIC for a least-squares fit with Gaussian errors [1]_ [2]_ [6]_.
 
-    ``AIC = n ln(RSS/n) + 2k``, ``AICc = AIC + 2k(k+1)/(n-k-1)``, ``BIC = n ln(RSS/n) +
-    k ln(n)`` (constants common to all models dropped).
+    ``AIC = n ln(RSS/n) + 2k``, ``BIC = n ln(RSS/n) + k ln(n)`` (constants common to all
+    models dropped, among them the variance's own parameter), and the small-sample
+    correction with the variance counted, ``K = k + 1`` parameters in all:
+    ``AICc = AIC + 2K(K+1)/(n-K-1)`` (Hurvich and Tsai 1989).
 
     Parameters
     ----------
@@ -222,7 +230,8 @@ def information_criteria(rss: float, n: int, k: int) -> dict:
     """
     base = n * np.log(max(rss, 1e-300) / n)
     aic = base + 2 * k
-    aicc = aic + (2 * k * (k + 1) / (n - k - 1) if n - k - 1 > 0 else np.inf)
+    K = k + 1                                       # the variance is estimated too
+    aicc = aic + (2 * K * (K + 1) / (n - K - 1) if n - K - 1 > 0 else np.inf)
     return {"aic": float(aic), "aicc": float(aicc), "bic": float(base + k * np.log(n))}
 
 
@@ -230,8 +239,10 @@ def information_criteria_chi_square(chi_square: float, n: int, k: int) -> dict:
     """AIC, AICc and BIC when the errors' covariance is known [1]_ [2]_.
 
     With known variances the log-likelihood is ``-chi^2 / 2`` up to a constant, so
-    ``AIC = chi^2 + 2k``, ``AICc = AIC + 2k(k+1)/(n-k-1)``, ``BIC = chi^2 + k ln(n)``; they
-    assume the covariance is right (a reduced chi-square near 1).
+    ``AIC = chi^2 + 2k`` and ``BIC = chi^2 + k ln(n)``; they assume the covariance is right
+    (a reduced chi-square near 1). AICc is AIC: its small-sample term corrects for an
+    estimated variance (Hurvich and Tsai 1989), and with the variance known AIC is already
+    unbiased for a linear Gaussian model (Burnham and Anderson 2002, sec. 2.4).
 
     Parameters
     ----------
@@ -247,15 +258,106 @@ def information_criteria_chi_square(chi_square: float, n: int, k: int) -> dict:
         ``aic``, ``aicc``, ``bic``.
     """
     aic = chi_square + 2 * k
-    aicc = aic + (2 * k * (k + 1) / (n - k - 1) if n - k - 1 > 0 else np.inf)
-    return {"aic": float(aic), "aicc": float(aicc), "bic": float(chi_square + k * np.log(n))}
+    return {"aic": float(aic), "aicc": float(aic), "bic": float(chi_square + k * np.log(n))}
 
 
-def f_test(rss_small: float, k_small: int, rss_big: float, k_big: int, n: int) -> dict:
+def chi_bar_square_weights(cov, bounded, draws: int = 20_000, seed: int = 0) -> np.ndarray:
+    """Weights of the chi-bar-square distribution of a likelihood-ratio statistic whose
+    null value lies on the bound of some of the tested coefficients [5]_.
+
+    The smaller hypothesis leaves the terms out, so its value of their coefficients is 0;
+    where 0 is a bound of a coefficient (a resistance in ``[0, inf)``), the bigger fit
+    cannot go below it and the statistic is a mixture ``sum_j w_j chi2_j`` of chi-squares
+    with ``j`` degrees of freedom, ``w_j`` the probability that the projection of a
+    normal draw (the coefficients' covariance) onto the cone they may take has ``j``
+    coordinates off the bound. One bounded coefficient alone gives the 50:50 mixture of
+    chi2_0 and chi2_1 exactly; for more, the projections of ``draws`` normal draws (seeded:
+    the weights are reproducible) are found face by face (the cone's ``2^b`` faces, ``b``
+    bounded coefficients).
+
+    Parameters
+    ----------
+    cov : ndarray, shape (d, d)
+        Covariance of the tested coefficients in the bigger fit (any common scale).
+    bounded : array_like of bool, shape (d,)
+        Which coefficients have their null value 0 on a bound (their sign fixed).
+    draws : int
+    seed : int
+
+    Returns
+    -------
+    ndarray, shape (d + 1,)
+        ``w_0 ... w_d``; ``w_d = 1`` when no coefficient is bounded (the plain chi-square).
+
+    Examples
+    --------
+    >>> chi_bar_square_weights(np.eye(1), [True]).tolist()
+    [0.5, 0.5]
+    >>> np.round(chi_bar_square_weights(np.eye(2), [True, True], draws=40_000), 2).tolist()
+    [0.25, 0.5, 0.25]
+    """
+    bounded = np.asarray(bounded, bool)
+    d = len(bounded)
+    w = np.zeros(d + 1)
+    b = int(bounded.sum())
+    if b == 0:
+        w[d] = 1.0
+        return w
+    cov = np.asarray(cov, float)
+    if d == 1:
+        return np.array([0.5, 0.5])
+    if not np.all(np.isfinite(cov)):
+        # no information on the correlations: independent coefficients (binomial weights)
+        from math import comb
+        for j in range(b + 1):
+            w[d - b + j] = comb(b, j) / 2.0 ** b
+        return w
+    scale = np.sqrt(np.clip(np.diag(cov), 1e-300, None))
+    V = cov / np.outer(scale, scale)
+    z = np.random.default_rng(seed).multivariate_normal(np.zeros(d), V, size=draws,
+                                                        method="cholesky")
+    Q = np.linalg.pinv(V)
+    idx = np.flatnonzero(bounded)
+    best = np.full(draws, np.inf)
+    dim = np.zeros(draws, int)
+    for mask in range(2 ** b):
+        held = np.zeros(d, bool)
+        held[idx[[(mask >> i) & 1 == 1 for i in range(b)]]] = True
+        F, A = ~held, held
+        x = z.copy()
+        if A.any():
+            x[:, A] = 0.0
+            if F.any():
+                # the nearest point of the face (in the metric V^-1): x_F = z_F + Q_FF^-1
+                # Q_FA z_A, at distance^2 z_A^T V_AA^-1 z_A
+                x[:, F] = z[:, F] + z[:, A] @ np.linalg.solve(Q[np.ix_(F, F)],
+                                                              Q[np.ix_(F, A)]).T
+            dist = np.einsum("ni,ij,nj->n", z[:, A], np.linalg.pinv(V[np.ix_(A, A)]),
+                             z[:, A])
+        else:
+            dist = np.zeros(draws)
+        ok = np.all(x[:, bounded] >= 0, axis=1) & (dist < best)
+        best[ok], dim[ok] = dist[ok], int(F.sum())
+    w += np.bincount(dim, minlength=d + 1) / draws
+    return w
+
+
+def _mixture_sf(statistic, weights, sf):
+    """``P(T >= statistic)`` for a mixture ``sum_j w_j T_j``, ``sf(j, x)`` the survival
+    function of ``T_j`` (j >= 1; ``T_0`` is 0)."""
+    if statistic <= 0:
+        return 1.0
+    return float(sum(w * sf(j, statistic) for j, w in enumerate(weights) if j and w))
+
+
+def f_test(rss_small: float, k_small: int, rss_big: float, k_big: int, n: int,
+           weights=None) -> dict:
     """Extra-sum-of-squares F-test of a nested model against a bigger one [3]_.
 
     ``F = ((RSS_s - RSS_b)/(k_b - k_s)) / (RSS_b/(n - k_b))``, p-value from
-    ``scipy.stats.f`` (its survival function, ``scipy.special.fdtrc``).
+    ``scipy.stats.f`` (its survival function, ``scipy.special.fdtrc``). With ``weights``
+    (:func:`chi_bar_square_weights`, a tested coefficient on its bound) the reference is
+    the mixture ``sum_j w_j P(F_{j, n-k_b} >= q F / j)``, ``q = k_b - k_s``.
 
     Parameters
     ----------
@@ -265,28 +367,45 @@ def f_test(rss_small: float, k_small: int, rss_big: float, k_big: int, n: int) -
         Their numbers of free coefficients.
     n : int
         Number of equations.
+    weights : array_like, optional
+        Chi-bar-square weights ``w_0 ... w_q``.
 
     Returns
     -------
     dict
-        ``F``, ``p_value`` (None when undefined) and ``df``.
+        ``F``, ``p_value`` (None when undefined), ``df`` and ``reference``.
     """
     df1, df2 = k_big - k_small, n - k_big
     if df1 <= 0 or df2 <= 0 or rss_big <= 0:
-        return {"F": None, "p_value": None, "df": [df1, df2]}
+        return {"F": None, "p_value": None, "df": [df1, df2], "reference": None}
     F = ((rss_small - rss_big) / df1) / (rss_big / df2)
-    return {"F": float(F), "p_value": float(special.fdtrc(df1, df2, F)), "df": [df1, df2]}
+    if weights is None or weights[-1] == 1:
+        return {"F": float(F), "p_value": float(special.fdtrc(df1, df2, F)),
+                "df": [df1, df2], "reference": f"F({df1}, {df2})"}
+    p = _mixture_sf(df1 * F, weights, lambda j, t: special.fdtrc(j, df2, t / j))
+    return {"F": float(F), "p_value": p, "df": [df1, df2],
+            "reference": _mixture_name(weights, f"F(j, {df2})")}
+
+
+def _mixture_name(weights, kind):
+    """How a mixture reference is printed: its weights."""
+    terms = ", ".join(f"{w:.3g} x j={j}" for j, w in enumerate(weights) if w)
+    return f"chi-bar-square mixture of {kind} ({terms}; a coefficient on its bound)"
 
 
 def likelihood_ratio_test(chi2_small: float, k_small: int, chi2_big: float,
-                          k_big: int) -> dict:
-    """Likelihood-ratio test of a nested model with known observation covariance [4]_.
+                          k_big: int, weights=None) -> dict:
+    """Likelihood-ratio test of a nested model with known observation covariance [4]_ [5]_.
 
     With known variances ``-2 ln L = chi^2 + const``, so the likelihood-ratio statistic is
     ``chi2_small - chi2_big``, asymptotically chi-square distributed with
-    ``k_big - k_small`` degrees of freedom when the smaller model is true; p-value from
-    ``scipy.stats.chi2`` (its survival function, ``scipy.special.chdtrc``). It is only as
-    right as the covariance (a reduced chi-square near 1).
+    ``q = k_big - k_small`` degrees of freedom when the smaller model is true; p-value from
+    ``scipy.stats.chi2`` (its survival function, ``scipy.special.chdtrc``). Where the
+    smaller model's value of a tested coefficient (0) lies on that coefficient's bound,
+    the reference is the chi-bar-square mixture ``sum_j w_j chi2_j`` (Self and Liang 1987;
+    ``weights`` from :func:`chi_bar_square_weights`): for one coefficient, half the plain
+    chi-square's p-value. It is only as right as the covariance (a reduced chi-square near
+    1).
 
     Parameters
     ----------
@@ -294,14 +413,81 @@ def likelihood_ratio_test(chi2_small: float, k_small: int, chi2_big: float,
         The chi-squares of the nested and the bigger model.
     k_small, k_big : int
         Their numbers of fitted parameters.
+    weights : array_like, optional
+        Chi-bar-square weights ``w_0 ... w_q`` (default: the plain chi-square).
 
     Returns
     -------
     dict
-        ``statistic``, ``p_value`` (None when undefined) and ``df``.
+        ``statistic``, ``p_value`` (None when undefined), ``df`` and ``reference``.
+
+    Examples
+    --------
+    A statistic of 2.706 is the 10 % point of chi2_1, and the 5 % point of the 50:50
+    mixture of a coefficient on its bound:
+
+    >>> round(likelihood_ratio_test(12.706, 2, 10.0, 3)["p_value"], 3)
+    0.1
+    >>> round(likelihood_ratio_test(12.706, 2, 10.0, 3, weights=[0.5, 0.5])["p_value"], 3)
+    0.05
     """
     df = k_big - k_small
     if df <= 0:
-        return {"statistic": None, "p_value": None, "df": df}
+        return {"statistic": None, "p_value": None, "df": df, "reference": None}
     lr = max(chi2_small - chi2_big, 0.0)
-    return {"statistic": float(lr), "p_value": float(special.chdtrc(df, lr)), "df": df}
+    if weights is None or weights[-1] == 1:
+        return {"statistic": float(lr), "p_value": float(special.chdtrc(df, lr)), "df": df,
+                "reference": f"chi-square({df})"}
+    return {"statistic": float(lr), "p_value": _mixture_sf(lr, weights, special.chdtrc),
+            "df": df, "reference": _mixture_name(weights, "chi-square(j)")}
+
+
+#: A reduced chi-square whose two-sided p-value under the stated covariance falls below
+#: this is reported as a sign that the covariance is not right.
+CHI_SQUARE_ALARM = 0.01
+
+
+def chi_square_check(chi_square: float, dof: int) -> dict:
+    """Whether a chi-square is what the covariance it was computed with predicts.
+
+    Under a right covariance the minimised chi-square follows chi2 with ``dof`` degrees of
+    freedom (``scipy.stats.chi2``: ``scipy.special.chdtr`` and ``chdtrc``). Too large, the
+    covariance (or the model) leaves out error; too small, the covariance overstates it;
+    either way intervals that take it as known are wrong by about ``sqrt(reduced)``.
+
+    Parameters
+    ----------
+    chi_square : float
+    dof : int
+
+    Returns
+    -------
+    dict
+        ``reduced``, ``p_high`` (``P(chi2_dof >= chi_square)``), ``p_low``, ``tail``
+        (``"high"``, ``"low"`` or None when both exceed :data:`CHI_SQUARE_ALARM` / 2) and a
+        ``message`` (None when ``tail`` is).
+
+    Examples
+    --------
+    >>> chi_square_check(40.0, 40)["tail"] is None, chi_square_check(80.0, 40)["tail"]
+    (True, 'high')
+    """
+    dof = max(int(dof), 1)
+    high = float(special.chdtrc(dof, chi_square))
+    low = float(special.chdtr(dof, chi_square))
+    reduced = float(chi_square) / dof
+    tail = ("high" if high < CHI_SQUARE_ALARM / 2 else
+            "low" if low < CHI_SQUARE_ALARM / 2 else None)
+    message = None
+    if tail == "high":
+        message = (f"reduced chi-square {reduced:.3g} on {dof} degrees of freedom lies in "
+                   f"the upper tail (p = {high:.2g}): the covariance leaves out error, and "
+                   f"intervals that take it as known are too narrow by about "
+                   f"{np.sqrt(reduced):.2g}x; add a model error (--model-error) or scale by "
+                   "the reduced chi-square (--variance estimated)")
+    elif tail == "low":
+        message = (f"reduced chi-square {reduced:.3g} on {dof} degrees of freedom lies in "
+                   f"the lower tail (p = {low:.2g}): the covariance overstates the errors, "
+                   "and intervals that take it as known are too wide; check its units")
+    return {"reduced": reduced, "p_high": high, "p_low": low, "tail": tail,
+            "message": message}

@@ -128,7 +128,11 @@ def fit_from_dict(doc, file=None) -> FitResult:
                                    str(c.get("unit", "")), num("torque_space_value"),
                                    num("torque_space_stderr"), optional("profile_low"),
                                    optional("profile_high"),
-                                   at if at in ("lower", "upper") else None)
+                                   at if at in ("lower", "upper") else None,
+                                   optional("classical_stderr"), optional("robust_stderr"),
+                                   optional("quantile"),
+                                   c.get("profile_low_at_bound") is True,
+                                   c.get("profile_high_at_bound") is True)
     return FitResult(str(doc.get("hypothesis", "")), coefs,
                      tuple(PlateResult.from_dict(p) for p in doc["plates"]),
                      dict(doc.get("misfit") or {}), dict(doc.get("uncertainty") or {}),

@@ -440,8 +440,8 @@ def series_tables(result: SeriesResult) -> dict:
            "rms_velocity_mm_yr": list(fit.stage_rms_mm_yr),
            "variance_reduction": list(fit.stage_variance_reduction)}
     rank = {k: [r[k] for r in result.ranking] for k in
-            ("name", "cv_rms_mm_yr", "cv_stderr_mm_yr", "within_one_se", "rms_mm_yr", "k",
-             "aic", "bic")}
+            ("name", "cv_rms_mm_yr", "cv_stderr_mm_yr", "within_one_se", "recommended",
+             "rms_mm_yr", "k", "aic", "bic")}
     rank = {"rank": list(range(1, len(result.ranking) + 1)), **rank}
     return {"torques": tq, "predicted": pr, "misfit": mis, "rank": rank}
 

@@ -44,16 +44,20 @@ def _tables(run: dict) -> list:
                     "Euler vector."))
     rows = [[str(i + 1), r["name"], _fmt(r["cv_rms_mm_yr"]),
              _fmt(r.get("cv_stderr_mm_yr")), "yes" if r.get("within_one_se") else "no",
+             "yes" if r.get("recommended") else "",
              _fmt(r["rms_velocity_mm_yr"]), _fmt(100 * r["variance_reduction"]),
              str(r["free"]), f"{r['aic']:.1f}", f"{r['bic']:.1f}"]
             for i, r in enumerate(run["rank"])]
+    reason = run.get("rank_reason")
     out.append(("Hypotheses, best first (by cross-validation)",
                 ["rank", "hypothesis", "CV misfit mm/yr", "± se", "within 1 se of best",
-                 "RMS misfit mm/yr", "variance reduction %", "free", "AIC", "BIC"], rows,
+                 "recommended", "RMS misfit mm/yr", "variance reduction %", "free", "AIC",
+                 "BIC"], rows,
                 "CV: leave-one-plate-out cross-validation error, with its standard error "
-                "over plates; a hypothesis within one standard error of the best (paired over "
-                "plates) cannot be told apart from it by these data. AIC and BIC come from "
-                "the effective numbers of observations and parameters."))
+                "over plates; a hypothesis within one standard error of the best (the best "
+                "one's own standard error) cannot be told apart from it by cross-validation. "
+                "AIC and BIC come from the effective numbers of observations and parameters."
+                + (f" {reason[0].upper()}{reason[1:]}." if reason else "")))
     fits = list(run["fits"].items()) + list(run.get("other_fits", {}).items())
     for name, fit in fits:
         rows = []
@@ -75,11 +79,12 @@ def _tables(run: dict) -> list:
     if warnings:
         out.append(("Warnings", ["where", "warning"], warnings,
                     "Everything here is also in the fits' JSON (notes) or the world check."))
-    best = run["fits"][run["rank"][0]["name"]]
+    chosen = next((r for r in run["rank"] if r.get("recommended")), run["rank"][0])
+    best = run["fits"][chosen["name"]]
     rows = [[p.plate, f"{p.observed.lat:.2f}, {p.observed.lon:.2f}", _fmt(p.observed.rate),
              f"{p.predicted.lat:.2f}, {p.predicted.lon:.2f}", _fmt(p.predicted.rate),
              _fmt(p.pole_distance_deg), _fmt(p.rms_velocity_mm_yr)] for p in best.plates]
-    out.append((f"Per-plate fit of the best hypothesis ({best.hypothesis})",
+    out.append((f"Per-plate fit of the recommended hypothesis ({best.hypothesis})",
                 ["plate", "observed pole (lat, lon)", "rate deg/Myr", "predicted pole",
                  "rate deg/Myr", "pole distance deg", "RMS misfit mm/yr"], rows, None))
     return out
@@ -95,19 +100,23 @@ def _uncertainty_tables(fits) -> list:
             "95 % intervals. Resampled members are refitted by the velocity-space fit unless "
             "the JSON says otherwise; the profile likelihood holds where the misfit is not "
             "quadratic or a bound is near.")
-        header = ["term", "value", "± 1.96 std. error", "profile likelihood"] + [
+        header = ["term", "value", "standard error interval", "profile likelihood"] + [
             f"{m.replace('_', ' ')} ({u['members']})" for m, u in methods]
         rows = []
         for label, c in fit.coefficients.items():
             if not c.free:
                 continue
+            q = c.quantile or 1.96          # a fit written before the quantile was
+            bound = " (on its bound)" if c.profile_low_at_bound or c.profile_high_at_bound \
+                else ""
             row = [label, _fmt(c.value),
-                   f"{_fmt(c.value - 1.96 * c.stderr)} to {_fmt(c.value + 1.96 * c.stderr)}",
-                   f"{_fmt(c.profile_low)} to {_fmt(c.profile_high)}"
+                   f"{_fmt(c.value - q * c.stderr)} to {_fmt(c.value + q * c.stderr)}",
+                   f"{_fmt(c.profile_low)} to {_fmt(c.profile_high)}{bound}"
                    if c.profile_high is not None else "-"]
             for _, u in methods:
                 s = u["coefficients"].get(label, {})
-                row.append(f"{_fmt(s.get('p2_5'))} to {_fmt(s.get('p97_5'))}")
+                row.append(f"{_fmt(s.get('low', s.get('p2_5')))} to "
+                           f"{_fmt(s.get('high', s.get('p97_5')))}")
             rows.append(row)
         if rows:
             out.append((f"Uncertainty: {name}", header, rows, note))

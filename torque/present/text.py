@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["CAUTION_LINE", "pole", "check", "cooling", "torques", "fit", "p_value",
-           "rank"]
+           "profile_span", "standard_errors", "rank"]
 
 #: The caution every result printed on a terminal ends with.
 CAUTION_LINE = ("caution: model-dependent research estimates, not for hazard or engineering "
@@ -152,16 +152,15 @@ def fit(d: dict) -> str:
     from .sentences import chi_square_summary, fits_disagree, frame_summary
     lines = [f"hypothesis {d['hypothesis']!r}: velocity-space fit (preferred) and "
              "torque-space fit",
-             f"{'term':<16} {'value':>11} {'std. error':>10}  {'95 % profile interval':<23} "
+             f"{'term':<16} {'value':>11} {'std. error':>10}  {'95 % profile interval':<31} "
              f"{'torque space':>12}  {'unit':<8}"]
     for label, c in d["coefficients"].items():
         if c["free"]:
-            lo, hi = c.get("profile_low"), c.get("profile_high")
-            span = (f"{_num(lo)} to {_num(hi)}" if lo is not None or hi is not None else "")
-            lines.append(f"{label:<16} {c['value']:11.4e} {c['stderr']:10.2e}  {span:<23} "
+            span = profile_span(c)
+            lines.append(f"{label:<16} {c['value']:11.4e} {c['stderr']:10.2e}  {span:<31} "
                          f"{c['torque_space_value']:12.4e}  {c['unit']:<8}")
         else:
-            lines.append(f"{label:<16} {c['value']:11.4e} {'fixed':>10}  {'':<23} {'':>12}  "
+            lines.append(f"{label:<16} {c['value']:11.4e} {'fixed':>10}  {'':<31} {'':>12}  "
                          f"{c['unit']:<8}")
     m = d["misfit"]
     if m.get("misfit_measure"):
@@ -174,6 +173,11 @@ def fit(d: dict) -> str:
     lines.append(f"RMS velocity misfit {m['rms_velocity_mm_yr']:.3f} mm/yr, variance "
                  f"reduction {100 * m['variance_reduction']:.2f} %, AIC {m['aic']:.1f}, "
                  f"BIC {m['bic']:.1f}")
+    se_line = standard_errors(d)
+    if se_line:
+        lines.append(se_line)
+    if m.get("chi_square_warning"):
+        lines.append(f"warning: {m['chi_square_warning']}")
     for label, c in d["coefficients"].items():
         if c.get("at_bound"):
             lines.append(f"warning: {label} is at its {c['at_bound']} bound: its standard "
@@ -181,7 +185,8 @@ def fit(d: dict) -> str:
     if d.get("frame"):
         lines.append(frame_summary(d["frame"]))
     for method, u in (d.get("uncertainty") or {}).items():
-        spans = ", ".join(f"{label} {c['p2_5']:.4g} to {c['p97_5']:.4g}"
+        spans = ", ".join(f"{label} {c.get('low', c['p2_5']):.4g} to "
+                          f"{c.get('high', c['p97_5']):.4g}"
                           for label, c in u["coefficients"].items())
         lines.append(f"{method.replace('_', ' ')} ({u['members']} members, {u.get('fit', 'torque')}"
                      f"-space refits): 95 % intervals {spans}")
@@ -208,31 +213,37 @@ def p_value(p: float) -> str:
 
 
 def rank(rows, tests) -> str:
-    """The ranking table of ``torque rank`` and its comparisons of nested pairs.
+    """The ranking table of ``torque rank``, its recommendation and its comparisons of
+    nested pairs.
 
     Parameters
     ----------
-    rows : list of Row
+    rows : Ranking
+        Its ``rule``, ``reason`` and ``check`` (if any) are printed.
     tests : list of dict
 
     Returns
     -------
     str
     """
+    rule = getattr(rows, "rule", "cross-validation")
+    chi = any(r.cv_chi_square is not None for r in rows)
     wn = max(10, *(len(r.name) for r in rows))
-    lines = [f"{'rank':>4}  {'hypothesis':<{wn}} {'CV mm/yr':>9} {'± se':>6} {'rms mm/yr':>9} "
+    cv_head = (f"{'CV chi2':>9} {'± se':>6}" if chi else f"{'CV mm/yr':>9} {'± se':>6}")
+    lines = [f"{'rank':>4}  {'hypothesis':<{wn}} {cv_head} {'rms mm/yr':>9} "
              f"{'VR %':>7} {'k':>2} {'AIC':>10} {'BIC':>10}"]
     for i, r in enumerate(rows, 1):
-        mark = "" if i == 1 else ("  ~ best" if r.within_one_se else "")
-        lines.append(f"{i:4d}  {r.name:<{wn}} {r.cv_rms_mm_yr:9.3f} {r.cv_stderr_mm_yr:6.2f} "
+        mark = ("  <- recommended" if r.recommended else
+                "  ~ best" if rule == "cross-validation" and r.within_one_se else "")
+        cv = ((r.cv_chi_square, r.cv_chi_square_se) if chi else
+              (r.cv_rms_mm_yr, r.cv_stderr_mm_yr))
+        lines.append(f"{i:4d}  {r.name:<{wn}} {cv[0]:9.3f} {cv[1]:6.2f} "
                      f"{r.rms_velocity_mm_yr:9.3f} {100 * r.variance_reduction:7.2f} "
                      f"{r.free:2d} {r.aic:10.1f} {r.bic:10.1f}{mark}")
-    ties = [r for r in rows if r.within_one_se]
-    if len(ties) > 1:
-        simplest = min(ties, key=lambda r: r.free)
-        lines.append(f"cross-validation cannot tell apart: {', '.join(repr(r.name) for r in ties)}"
-                     f" (within one standard error of the best, '~ best'); the simplest is "
-                     f"{simplest.name!r}")
+    if getattr(rows, "reason", None):
+        lines.append(rows.reason)
+    if getattr(rows, "check", None):
+        lines.append(rows.check)
     for t in tests:
         pair = f"{t['smaller']!r} within {t['bigger']!r}"
         if t["test"] == "cross-validation":
@@ -246,17 +257,91 @@ def rank(rows, tests) -> str:
             stat = "chi2" if t["test"] == "likelihood-ratio" else "F"
             red = t.get("reduced_chi_square_bigger")
             doubt = (f" (assumes the covariance right, but the bigger's reduced chi-square is "
-                     f"{red:.3g}: prefer the F-test)" if red is not None and red > 2 else "")
+                     f"{red:.3g}: prefer the F-test, --variance estimated)"
+                     if red is not None and red > 2 and t["test"] == "likelihood-ratio"
+                     else "")
+            bound = " (on its bound: chi-bar-square mixture)" if t.get("weights") else ""
             lines.append(f"{name} {pair}: {stat} = {t['statistic']:.3g}, "
-                         f"{p_value(t['p_value'])}{doubt}")
-    lines.append("sorted by CV = leave-one-plate-out cross-validation error (lowest first), "
-                 "± its standard error over plates; AIC and BIC from the effective numbers of "
-                 "observations and parameters")
+                         f"{p_value(t['p_value'])}{bound}{doubt}")
+    order = {"cross-validation": "CV = leave-one-plate-out cross-validation error (lowest "
+                                 "first)", "bic": "BIC (lowest first)"}.get(
+        rule, "AIC (lowest first)")
+    lines.append(f"sorted by {order}; CV {'chi2 = the mean chi-square of a left-out plate' if chi else 'in mm/yr'}"
+                 ", ± its standard error over plates; AIC and BIC from the effective numbers "
+                 "of observations and parameters")
     if tests and tests[0]["test"] == "cross-validation":
         lines.append("no p-values: with the area misfit the residuals are neither independent "
                      "nor of equal variance; give the covariance (--misfit chi-square) for "
                      "likelihood-ratio and F-tests")
     return "\n".join(lines)
+
+
+def standard_errors(d: dict) -> str | None:
+    """One line on which standard errors the table shows and the other kind beside them.
+
+    Parameters
+    ----------
+    d : dict
+        :meth:`torque.results.FitResult.as_dict`.
+
+    Returns
+    -------
+    str or None
+        None for a fit written before both kinds were reported.
+    """
+    m = d["misfit"]
+    free = {l: c for l, c in d["coefficients"].items() if c["free"]}
+    if not free or m.get("standard_errors") is None:
+        return None
+    lead = m["standard_errors"]
+    qs = [c.get("quantile") for c in free.values()]
+    if any(q is None for q in qs):
+        return None
+    q = (f"± {qs[0]:.3g}" if max(qs) - min(qs) < 5e-4 * max(qs) else
+         "± " + ", ".join(f"{c['quantile']:.3g} ({l})" for l, c in free.items()))
+    how = ("the covariance taken as known, normal quantile" if m.get("variance") == "known"
+           else f"the variance estimated from the residuals, Student's t on {m.get('dof')} "
+                "degrees of freedom")
+    if lead == "robust":
+        how = ("cluster-robust (sandwich, a plate a cluster), Student's t with Bell and "
+               "McCaffrey's degrees of freedom")
+    other = "classical" if lead == "robust" else "robust"
+    beside = ", ".join(f"{l} {c.get(other + '_stderr'):.3g}" for l, c in free.items()
+                       if c.get(other + "_stderr") is not None)
+    return (f"standard errors: {lead} ({how}; 95 % = {q} x std. error)"
+            + (f"; {other} beside: {beside}" if beside else ""))
+
+
+def profile_span(c: dict) -> str:
+    """A coefficient's profile interval as printed: ``"low to high"``, an end that is the
+    coefficient's bound marked (``"0 to 0.031 (on its bound)"``: a one-sided interval),
+    an end that could not be found said so; empty where none was computed.
+
+    Parameters
+    ----------
+    c : dict
+        One coefficient of :meth:`torque.results.FitResult.as_dict`.
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> profile_span({"profile_low": 0.0, "profile_high": 0.0312,
+    ...               "profile_low_at_bound": True})
+    '0 to 0.0312 (on its bound)'
+    >>> profile_span({"profile_low": 0.1, "profile_high": None})
+    '0.1 to (not found)'
+    """
+    lo, hi = c.get("profile_low"), c.get("profile_high")
+    if lo is None and hi is None:
+        return ""
+    span = (f"{'(not found)' if lo is None else _num(lo)} to "
+            f"{'(not found)' if hi is None else _num(hi)}")
+    if c.get("profile_low_at_bound") or c.get("profile_high_at_bound"):
+        span += " (on its bound)"
+    return span
 
 
 def _num(x) -> str:

@@ -79,20 +79,26 @@ def fit(inputs, hypothesis, motions, options: FitOptions = FitOptions()) -> FitR
     options.require_sample_memory(pb.system)
     rep = analyse(pb.system, pb.omega, options.weighting, free_frame=options.free_frame,
                   obs_cov=cov.fit, mantle_rotation=options.mantle_rotation_rad_s,
-                  profile=options.profile)
+                  profile=options.profile, variance=options.variance,
+                  errors=options.errors)
     unc = {}
     o = options
+    # members refit what the fit fitted: with a free frame, the frame too, from the
+    # observations as given; and they are drawn from the covariance the fit used
+    free = bool(o.free_frame)
+    observed = rep.frame["observed_frame"] if free else rep.omega_obs
+    draw_cov = cov.fit if cov.fit is not None else cov.data
     if o.bootstrap:
-        unc["bootstrap"] = bootstrap(pb.system, rep.omega_obs, o.bootstrap, o.seed,
-                                     o.weighting, o.resample_fit, cov.fit)
+        unc["bootstrap"] = bootstrap(pb.system, observed, o.bootstrap, o.seed,
+                                     o.weighting, o.resample_fit, cov.fit, free)
     if o.monte_carlo:
         unc["monte_carlo_motions"] = monte_carlo_motions(
-            pb.system, rep.omega_obs, cov.data, o.monte_carlo, o.seed, o.weighting,
-            o.resample_fit, cov.fit)
+            pb.system, observed, draw_cov, o.monte_carlo, o.seed, o.weighting,
+            o.resample_fit, cov.fit, free)
     if o.physics_samples:
         unc["monte_carlo_physics"] = monte_carlo_physics(
-            pb.rebuild, pb.hypothesis.physics, pb.hypothesis.spread, rep.omega_obs,
-            o.physics_samples, o.seed, o.weighting, o.resample_fit, cov.fit)
+            pb.rebuild, pb.hypothesis.physics, pb.hypothesis.spread, observed,
+            o.physics_samples, o.seed, o.weighting, o.resample_fit, cov.fit, free)
     circular = bool(inputs.used_synthesised_ages)
     result = dataclasses.replace(rep, uncertainty=unc).result(
         pb.notes() + cov.notes + ([f"circular: {CIRCULAR}"] if circular else []),
@@ -250,8 +256,8 @@ def rank(inputs, hypotheses, motions, options: FitOptions = FitOptions(),
         With different names.
     motions : Motions or str or Path
     options : FitOptions
-        ``misfit``, ``covariance``, ``model_error_mm_yr``, ``weighting``, ``free_frame``
-        and ``resample_fit`` apply.
+        ``misfit``, ``covariance``, ``model_error_mm_yr``, ``weighting``, ``free_frame``,
+        ``resample_fit``, ``recommend`` and ``variance`` apply.
     allow_synthetic_ages : bool
         Rank even when the ages are synthesised from the motions (circular).
 
@@ -280,4 +286,5 @@ def rank(inputs, hypotheses, motions, options: FitOptions = FitOptions(),
     cov = covariances(options, motions, inputs.world, systems[0])
     return rank_systems(systems, motions.for_world(inputs.world), options.weighting,
                         free_frame=options.free_frame, fit=options.resample_fit,
-                        obs_cov=cov.fit)
+                        obs_cov=cov.fit, rule=options.recommend,
+                        variance=options.variance or "known")

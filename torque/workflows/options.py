@@ -9,11 +9,13 @@ from pathlib import Path
 import numpy as np
 from ..errors import InputError, require_memory
 
-__all__ = ["MISFITS", "RESAMPLE_FITS", "FitOptions"]
+__all__ = ["MISFITS", "RESAMPLE_FITS", "STANDARD_ERRORS", "FitOptions"]
 
 
 MISFITS = ("area", "chi-square")
 RESAMPLE_FITS = ("velocity", "torque")
+#: The standard errors a fit leads with.
+STANDARD_ERRORS = ("classical", "robust")
 
 
 # ----------------------------------------------------------------------------------------
@@ -52,6 +54,19 @@ class FitOptions:
         How resampled and cross-validation members are refitted.
     profile : bool
         Profile-likelihood intervals of the free coefficients.
+    variance : {"known", "estimated"}, optional
+        With the chi-square: take the covariance's scale as known (the default: intervals
+        unscaled, normal quantiles) or estimate it by the reduced chi-square (Student's t
+        and F quantiles). The area misfit's variance is always estimated.
+    standard_errors : {"classical", "robust"}, optional
+        Which standard errors a fit leads with, propagates into the poles and adjusts its
+        profile intervals to (both are reported): default classical with a covariance
+        (it describes every plate's errors), robust (cluster-robust, a plate a cluster)
+        for the area misfit, whose classical errors assume every plate's residuals of one
+        variance (the calibration in the README).
+    recommend : {"likelihood-ratio", "aic", "bic", "cross-validation"}, optional
+        ``rank``'s rule (default likelihood-ratio with a covariance, cross-validation
+        without; see :mod:`torque.inference.ranking`).
     """
 
     misfit: str = "area"
@@ -66,6 +81,9 @@ class FitOptions:
     physics_samples: int = 0
     resample_fit: str = "velocity"
     profile: bool = True
+    variance: str | None = None
+    standard_errors: str | None = None
+    recommend: str | None = None
 
     def __post_init__(self):
         from ..inference.system import WEIGHTINGS
@@ -74,6 +92,22 @@ class FitOptions:
                                      ("resample_fit", self.resample_fit, RESAMPLE_FITS)):
             if value not in allowed:
                 raise InputError(f"{name} must be one of {', '.join(allowed)}, got {value!r}")
+        from ..inference.covariance import VARIANCES
+        from ..inference.ranking import RULES
+        for name, value, allowed in (("variance", self.variance, VARIANCES),
+                                     ("standard_errors", self.standard_errors,
+                                      STANDARD_ERRORS),
+                                     ("recommend", self.recommend, RULES)):
+            if value is not None and value not in allowed:
+                raise InputError(f"{name} must be one of {', '.join(allowed)}, got {value!r}")
+        if self.variance == "known" and self.misfit != "chi-square":
+            raise InputError("only a chi-square's variance can be known: the area misfit's "
+                             "is estimated from the residuals",
+                             hint="add --misfit chi-square, or leave out --variance")
+        if self.recommend not in (None, "cross-validation") and self.misfit != "chi-square":
+            raise InputError(f"the {self.recommend} rule needs the likelihood, and so the "
+                             "observations' covariance",
+                             hint="add --misfit chi-square, or recommend by cross-validation")
         if self.model_error_mm_yr is not None:
             if not (np.isfinite(self.model_error_mm_yr) and self.model_error_mm_yr >= 0):
                 raise InputError(f"the model error must be a finite number of mm/yr, 0 or "
@@ -82,6 +116,11 @@ class FitOptions:
                 raise InputError("a model error (--model-error) is part of the chi-square "
                                  "misfit",
                                  hint="add --misfit chi-square, or leave out --model-error")
+        if self.free_frame and self.resample_fit == "torque" and (
+                self.bootstrap or self.monte_carlo or self.physics_samples):
+            raise InputError("torque-space refits cannot fit a free frame, and resampled "
+                             "members refit what the fit fitted",
+                             hint="leave out --resample-fit torque, or --free-frame")
         if self.free_frame and self.mantle_rotation is not None:
             raise InputError("the mantle's rotation is either fitted (free frame) or given, "
                              "not both", hint="leave out --free-frame or --mantle-rotation")
@@ -93,6 +132,14 @@ class FitOptions:
         for name in ("seed", "bootstrap", "monte_carlo", "physics_samples"):
             if int(getattr(self, name)) < 0:
                 raise InputError(f"{name} must be 0 or more, got {getattr(self, name)}")
+
+    @property
+    def errors(self) -> str:
+        """The standard errors a fit leads with: as asked, else classical with a
+        covariance and robust for the area misfit."""
+        if self.standard_errors is not None:
+            return self.standard_errors
+        return "classical" if self.misfit == "chi-square" else "robust"
 
     @property
     def mantle_rotation_rad_s(self) -> np.ndarray | None:

@@ -77,6 +77,12 @@ def run_series(path, executor, monte_carlo: int = 0, seed: int = 0, chunk: int =
         ranking[h]["within_one_se"] = within_one_se(
             ranking[h]["cv_rms_mm_yr"], best["cv_rms_mm_yr"], best["cv_stderr_mm_yr"])
     ranking = [ranking[h] for h in order]
+    # the recommendation by the series' one rule, cross-validation's one-standard-error
+    # rule (as rank's without a covariance; a series has no nested tests yet)
+    ties = [r for r in ranking if r["within_one_se"]] or ranking[:1]
+    pick = min(ties, key=lambda r: (r["k"], r["cv_rms_mm_yr"]))
+    for r in ranking:
+        r["recommended"] = r is pick
     mc = None
     if monte_carlo:
         stages = by_hyp[0]
