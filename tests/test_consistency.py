@@ -178,3 +178,24 @@ def test_a_known_covariance_is_not_rescaled(cli, tmp_path):
     # standard errors times the square root of the reduced chi-square
     half = (slab.profile_high - slab.profile_low) / 2
     assert half == pytest.approx(1.96 * slab.stderr, rel=0.05)
+
+
+@pytest.mark.parametrize("misfit", ["area", "chi-square"])
+def test_a_one_stage_series_recommends_what_rank_recommends(cli, tmp_path, misfit):
+    # one rule for one misfit: the series' recommendation (joint fits, their tests) is
+    # rank's on the same world, motions and hypotheses
+    hyps = [DEMO / "hypotheses" / f"{h}.toml" for h in
+            ("continental_drag", "ridge_slab_drag", "ridge_drag")]
+    series = tmp_path / "one.toml"
+    series.write_text(f'name = "one stage"\nhypothesis = "{hyps[0]}"\n'
+                      f'compare = ["{hyps[1]}", "{hyps[2]}"]\nmisfit = "{misfit}"\n'
+                      f'[[stage]]\ntime_ma = 0.0\nworld = "{DEMO}/world.toml"\n'
+                      f'motions = "{DEMO}/motions.csv"\n')
+    assert cli("stages", series, "-o", tmp_path / "out", "-q")[0] == 0
+    rec = json.loads((tmp_path / "out" / "series_fit.json").read_text())["recommendation"]
+    out = tmp_path / "rank.json"
+    assert cli("rank", DEMO / "world.toml", DEMO / "motions.csv", *hyps, "--misfit", misfit,
+               "--json", out)[0] == 0
+    ranked = json.loads(out.read_text())
+    assert rec["rule"] == ranked["rule"]
+    assert rec["recommended"] == ranked["recommended"]

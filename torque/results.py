@@ -457,13 +457,16 @@ class SeriesResult:
     ranking : list of dict
         One row per hypothesis (the series' and its ``compare`` ones), best first by
         leave-one-plate-out cross-validation: ``name``, ``rms_mm_yr``, ``cv_rms_mm_yr``,
-        ``cv_stderr_mm_yr``, ``within_one_se``, ``recommended`` (by the one-standard-error
-        rule), ``aic``, ``bic``, ``k``, ``n``, ``stage_rms_mm_yr``.
+        ``cv_stderr_mm_yr``, ``within_one_se``, ``recommended`` (see ``recommendation``),
+        ``aic``, ``bic``, ``k``, ``n``, ``stage_rms_mm_yr``.
     monte_carlo : dict or None
         ``draws`` (n, k) of the parameters, ``failed``, ``seed``, ``sd``, ``low``,
         ``high`` (2.5 and 97.5 percentiles).
     executor : str
         Where the tasks ran.
+    recommendation : dict
+        ``rule``, ``recommended``, ``reason`` and the nested ``tests``: the rule ``rank``
+        uses for the series' misfit (:func:`torque.workflows.series.recommend_series`).
     """
 
     series: object
@@ -472,6 +475,7 @@ class SeriesResult:
     ranking: list
     monte_carlo: dict | None
     executor: str
+    recommendation: dict = field(default_factory=dict)
 
     def __repr__(self) -> str:
         return (f"SeriesResult({self.hypothesis_name!r}, {len(self.stages)} stages, "

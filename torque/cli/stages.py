@@ -109,9 +109,8 @@ def run_stages(args) -> int:
     print("ranking (leave-one-plate-out CV over all stages, mm/yr): " + "; ".join(
         f"{r['name']} {r['cv_rms_mm_yr']:.3f} ± {r['cv_stderr_mm_yr']:.2g}"
         for r in result.ranking))
-    pick = next(r for r in result.ranking if r.get("recommended"))
-    print(f"recommended: {pick['name']!r} (rule: the simplest hypothesis whose "
-          "cross-validation error lies within one standard error of the best one's)")
+    if result.recommendation.get("reason"):
+        print(result.recommendation["reason"])
     print("caution: model-dependent research estimates, not for hazard or engineering use")
     print(f"wrote {outdir}")
     return EXIT_OK

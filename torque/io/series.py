@@ -483,6 +483,7 @@ def series_record(result: SeriesResult, manifest=None) -> dict:
            "fit": {"rss": fit.rss, "dof": fit.dof, "observations": fit.n_obs,
                    "evaluations": fit.info["evaluations"]},
            "ranking": result.ranking,
+           "recommendation": result.recommendation,
            "monte_carlo": None if mc is None else {"draws": mc["n"], "failed": mc["failed"],
                                                     "seed": mc["seed"]},
            "executor": result.executor,

@@ -77,12 +77,8 @@ def run_series(path, executor, monte_carlo: int = 0, seed: int = 0, chunk: int =
         ranking[h]["within_one_se"] = within_one_se(
             ranking[h]["cv_rms_mm_yr"], best["cv_rms_mm_yr"], best["cv_stderr_mm_yr"])
     ranking = [ranking[h] for h in order]
-    # the recommendation by the series' one rule, cross-validation's one-standard-error
-    # rule (as rank's without a covariance; a series has no nested tests yet)
-    ties = [r for r in ranking if r["within_one_se"]] or ranking[:1]
-    pick = min(ties, key=lambda r: (r["k"], r["cv_rms_mm_yr"]))
-    for r in ranking:
-        r["recommended"] = r is pick
+    recommendation = recommend_series(ranking, [by_hyp[h][0].system for h in range(H)],
+                                      fits[:H], names, series.misfit, series.per_stage)
     mc = None
     if monte_carlo:
         stages = by_hyp[0]
@@ -103,4 +99,67 @@ def run_series(path, executor, monte_carlo: int = 0, seed: int = 0, chunk: int =
                                                                            np.nan),
               "low": np.percentile(good, 2.5, axis=0) if len(good) else None,
               "high": np.percentile(good, 97.5, axis=0) if len(good) else None}
-    return SeriesResult(series, by_hyp[0], fits[0], ranking, mc, executor.describe())
+    return SeriesResult(series, by_hyp[0], fits[0], ranking, mc, executor.describe(),
+                        recommendation)
+
+
+def recommend_series(ranking, systems, fits, names, misfit, per_stage=()) -> dict:
+    """A series' recommendation by the rule ``rank`` uses for the same misfit: with the
+    chi-square, nested likelihood-ratio tests of the joint fits (the chi-bar-square mixture
+    where a left-out coefficient lies on its bound) and then AIC; with the area misfit,
+    the one-standard-error rule on cross-validation.
+
+    Parameters
+    ----------
+    ranking : list of dict
+        The series' ranking rows (``name``, ``k``, ``aic``, ``bic``, ``cv_rms_mm_yr``,
+        ``cv_stderr_mm_yr``, ``within_one_se``, ``rms_mm_yr``); each gets
+        ``recommended``.
+    systems : list of System
+        Each hypothesis' balance on the first stage (which terms, bounds and settings).
+    fits : list of JointFit
+        Each hypothesis' joint fit, in the order of ``names``.
+    names : list of str
+    misfit : {"area", "chi-square"}
+    per_stage : sequence of str
+
+    Returns
+    -------
+    dict
+        ``rule``, ``recommended``, ``reason`` and the nested ``tests``.
+    """
+    import types
+
+    from ..inference.ranking import _bound_weights, _nested, _recommend
+    from ..inference.statistics import likelihood_ratio_test
+    from ..results import RankRow
+    by_name = {n: (s, f) for n, s, f in zip(names, systems, fits)}
+    rows = [RankRow(r["name"], r["rms_mm_yr"], float("nan"), r["k"], r["aic"], r["aic"],
+                    r["bic"], r["cv_rms_mm_yr"], {}, cv_stderr_mm_yr=r["cv_stderr_mm_yr"],
+                    within_one_se=r["within_one_se"]) for r in ranking]
+    import dataclasses
+    named = [dataclasses.replace(s, name=n) for s, n in zip(systems, names)]
+    tests = []
+    if misfit == "chi-square":
+        for a, sa in zip(names, named):
+            for b, sb in zip(names, named):
+                if a == b or not _nested(sa, sb):
+                    continue
+                fa, fb = by_name[a][1], by_name[b][1]
+                # the joint covariance is by coefficient only when none is per stage;
+                # else the tested coefficients are taken as independent
+                cov = fb.cov if not per_stage else None
+                weights = _bound_weights(sa, sb, types.SimpleNamespace(
+                    cov=cov if cov is not None else
+                    np.full((sb.n_free, sb.n_free), np.nan)))
+                t = {"smaller": a, "bigger": b, "test": "likelihood-ratio",
+                     **likelihood_ratio_test(fa.rss, len(fa.params), fb.rss, len(fb.params),
+                                             weights)}
+                if weights is not None:
+                    t["weights"] = [float(w) for w in weights]
+                tests.append(t)
+    rule = "likelihood-ratio" if misfit == "chi-square" else "cross-validation"
+    pick, reason = _recommend(rule, rows, tests, named)
+    for r in ranking:
+        r["recommended"] = r["name"] == pick
+    return {"rule": rule, "recommended": pick, "reason": reason, "tests": tests}
