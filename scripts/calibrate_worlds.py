@@ -252,6 +252,43 @@ def table(results) -> str:
     return "\n".join(lines)
 
 
+def summary_table(results) -> str:
+    """The compact calibration table (markdown): one row per interval kind, one column per
+    world, misfit and frame, each cell the lowest and highest coverage over the
+    coefficients; then the recommendation's pick rates."""
+    kinds = {"se": "standard error (the fit's quantile)",
+             "robust": "cluster-robust standard error",
+             "profile": "profile likelihood",
+             "profile_robust": "profile, adjusted to the robust errors",
+             "bootstrap": "bootstrap over plates (expanded percentiles)",
+             "monte_carlo": "Monte Carlo over the covariance"}
+    heads = [f"{r['world']}, {'χ²' if r['misfit'] == 'chi-square' else 'area'}, "
+             f"{'free frame' if r['free_frame'] else 'mantle frame'}" for r in results]
+    lines = ["| 95 % interval | " + " | ".join(heads) + " |",
+             "|---|" + "---|" * len(results)]
+    for kind, name in kinds.items():
+        cells = []
+        for r in results:
+            c = r["coverage"].get(kind)
+            if kind == "profile_robust" and r["misfit"] == "chi-square":
+                c = None                     # the chi-square leads with classical errors
+            cells.append("" if not c else
+                         f"{100 * min(c.values()):.1f}-{100 * max(c.values()):.1f} %")
+        lines.append(f"| {name} | " + " | ".join(cells) + " |")
+    lines += ["", "| recommendation | " + " | ".join(heads) + " |",
+              "|---|" + "---|" * len(results)]
+    for key, name in (("keeps_suction", "keeps the 3-SE suction term"),
+                      ("adds_spurious", "adds the spurious term on its bound"),
+                      ("lr_rejects_truth", "likelihood-ratio test's size at the bound")):
+        lines.append(f"| {name} | " + " | ".join(
+            f"{100 * r['picks'][key]:.1f} %" if key in r.get("picks", {}) else "-"
+            for r in results) + " |")
+    lines.append("| theory: BIC keeps / AIC adds | " + " | ".join(
+        f"{100 * r['theory']['bic_keeps_3se']:.1f} / {100 * r['theory']['aic_adds_on_bound']:.1f} %"
+        if "theory" in r else "-" for r in results) + " |")
+    return "\n".join(lines)
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--world", default="published", choices=("published", "random30"))
@@ -261,7 +298,12 @@ def main():
     ap.add_argument("--free-frame", action="store_true")
     ap.add_argument("--misfit", default="chi-square", choices=("area", "chi-square"))
     ap.add_argument("--json", help="also write the result as JSON")
+    ap.add_argument("--summarise", nargs="+", metavar="JSON",
+                    help="print the compact table of results written with --json")
     args = ap.parse_args()
+    if args.summarise:
+        print(summary_table([json.loads(Path(f).read_text()) for f in args.summarise]))
+        return
     res = calibrate_world(args.world, args.realisations, args.members, args.seed,
                           args.free_frame, args.misfit)
     if args.json:

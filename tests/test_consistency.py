@@ -143,18 +143,26 @@ def test_the_former_fit_option_name_still_works(cli, tmp_path):
     assert a.read_text() == b.read_text()
 
 
-@pytest.mark.parametrize("misfit", ["area", "chi-square"])
-def test_a_one_stage_series_is_the_fit_of_its_world(cli, tmp_path, misfit):
-    series = tmp_path / "one.toml"
-    series.write_text(f'name = "one stage"\nhypothesis = "{DEMO}/hypotheses/'
-                      f'continental_drag.toml"\nmisfit = "{misfit}"\n[[stage]]\n'
+def _one_stage_series(cli, folder, misfit, hypotheses):
+    """Run a series of the demo's present day alone, the first hypothesis compared with
+    the others; its ``series_fit.json``."""
+    series = folder / "one.toml"
+    compare = ", ".join(f'"{h}"' for h in hypotheses[1:])
+    series.write_text(f'name = "one stage"\nhypothesis = "{hypotheses[0]}"\n'
+                      f'compare = [{compare}]\nmisfit = "{misfit}"\n[[stage]]\n'
                       f'time_ma = 0.0\nworld = "{DEMO}/world.toml"\n'
                       f'motions = "{DEMO}/motions.csv"\n')
-    assert cli("stages", series, "-o", tmp_path / "out", "-q")[0] == 0
+    assert cli("stages", series, "-o", folder / "out", "-q")[0] == 0
+    return json.loads((folder / "out" / "series_fit.json").read_text())
+
+
+@pytest.mark.parametrize("misfit", ["area", "chi-square"])
+def test_a_one_stage_series_is_the_fit_of_its_world(cli, tmp_path, misfit):
+    joint = _one_stage_series(cli, tmp_path, misfit,
+                              [DEMO / "hypotheses" / "continental_drag.toml"])["parameters"]
     fit = tmp_path / "fit.json"
     assert cli("fit", DEMO / "world.toml", DEMO / "hypotheses" / "continental_drag.toml",
                DEMO / "motions.csv", "--misfit", misfit, "--no-profile", "-o", fit)[0] == 0
-    joint = json.loads((tmp_path / "out" / "series_fit.json").read_text())["parameters"]
     single = read_fit(fit).coefficients
     for label, p in joint.items():
         assert p["value"] == pytest.approx(single[label].value, rel=1e-9), label
@@ -186,13 +194,7 @@ def test_a_one_stage_series_recommends_what_rank_recommends(cli, tmp_path, misfi
     # rank's on the same world, motions and hypotheses
     hyps = [DEMO / "hypotheses" / f"{h}.toml" for h in
             ("continental_drag", "ridge_slab_drag", "ridge_drag")]
-    series = tmp_path / "one.toml"
-    series.write_text(f'name = "one stage"\nhypothesis = "{hyps[0]}"\n'
-                      f'compare = ["{hyps[1]}", "{hyps[2]}"]\nmisfit = "{misfit}"\n'
-                      f'[[stage]]\ntime_ma = 0.0\nworld = "{DEMO}/world.toml"\n'
-                      f'motions = "{DEMO}/motions.csv"\n')
-    assert cli("stages", series, "-o", tmp_path / "out", "-q")[0] == 0
-    rec = json.loads((tmp_path / "out" / "series_fit.json").read_text())["recommendation"]
+    rec = _one_stage_series(cli, tmp_path, misfit, hyps)["recommendation"]
     out = tmp_path / "rank.json"
     assert cli("rank", DEMO / "world.toml", DEMO / "motions.csv", *hyps, "--misfit", misfit,
                "--json", out)[0] == 0
