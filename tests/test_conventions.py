@@ -279,3 +279,21 @@ def test_bell_mccaffrey_degrees_of_freedom_of_a_balanced_mean_are_clusters_less_
     w[:3] = 10.0                                   # one cluster weighs 100 times the others
     _, dof = cluster_robust_covariance(w, r, clusters=3)
     assert dof[0] < 5
+
+
+@pytest.mark.parametrize("argv, message", [
+    (("rank", "--recommend", "aic"), "the aic rule needs the likelihood"),
+    (("fit", "--variance", "known"), "only a chi-square's variance can be known"),
+    (("fit", "--free-frame", "--bootstrap", "5", "--resample-fit", "torque"),
+     "torque-space refits cannot fit a free frame"),
+])
+def test_options_that_contradict_each_other_are_refused(cli, tmp_path, argv, message):
+    # options that cannot go together: exit 2 with a message that says what to change
+    # (common practice, no source)
+    command, *rest = argv
+    hyp = DEMO / "hypotheses" / "ridge_drag.toml"
+    args = ((DEMO / "world.toml", DEMO / "motions.csv", hyp) if command == "rank" else
+            (DEMO / "world.toml", hyp, DEMO / "motions.csv", "-o", tmp_path / "f.json"))
+    code, _, err = cli(command, *args, *rest)
+    assert code == 2 and message in err and "Traceback" not in err
+    assert not (tmp_path / "f.json").exists()
