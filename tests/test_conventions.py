@@ -22,7 +22,7 @@ import torque
 from torque.euler import RAD_S_PER_DEG_MYR
 from torque.inference import statistics
 from torque.inference.covariance import cluster_robust_covariance
-from torque.inference.ranking import ALPHA, _nested, rank
+from torque.inference.ranking import ALPHA, nested, rank
 from torque.inference.solvers import fit_velocity, fit_velocity_many
 
 from .conftest import here
@@ -148,7 +148,7 @@ def _check_recommendation(rows, tests, systems, known=True):
         assert chosen[0].within_one_se
         assert chosen[0].free == min(r.free for r in rows if r.within_one_se)
     for r in rows:
-        if r.name != R and _nested(by[r.name], by[R]) and rows.rule == "likelihood-ratio":
+        if r.name != R and nested(by[r.name], by[R]) and rows.rule == "likelihood-ratio":
             assert "significantly better" in rows.reason or r.name in rows.reason
 
 

@@ -88,7 +88,7 @@ from .statistics import chi_bar_square_weights, f_test, likelihood_ratio_test
 from .system import System
 
 __all__ = ["RULES", "ALPHA", "Ranking", "cross_validation_errors", "cross_validation",
-           "within_one_se", "rank"]
+           "within_one_se", "rank", "recommend", "nested", "bound_weights"]
 
 
 class Ranking(list):
@@ -393,10 +393,10 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
     tests = []
     for a in systems:
         for b in systems:
-            if a is not b and _nested(a, b):
+            if a is not b and nested(a, b):
                 tests += _compare(a, by_name[a.name], b, by_name[b.name], errors, area)
     known = variance == "known"
-    name, reason = _recommend(rule, rows, tests, systems, known)
+    name, reason = recommend(rule, rows, tests, systems, known)
     check = _cv_check(rows, chi, name) if rule != "cross-validation" else None
     rows = [dataclasses.replace(r, recommended=r.name == name) for r in rows]
     key = {"cross-validation": lambda r: (np.isnan(r.cv_rms_mm_yr), r.cv_rms_mm_yr),
@@ -428,8 +428,27 @@ def _decisive(test, known):
     return test["test"] == ("likelihood-ratio" if known else "F")
 
 
-def _recommend(rule, rows, tests, systems, known=True):
-    """The recommended hypothesis and the sentence that says why (see the module notes)."""
+def recommend(rule, rows, tests, systems, known=True):
+    """The recommended hypothesis and the sentence that says why (see the module notes).
+
+    Parameters
+    ----------
+    rule : str
+        One of :data:`RULES`.
+    rows : sequence of RankRow
+    tests : list of dict
+        The nested pairs' tests (``smaller``, ``bigger``, ``test``, ``p_value``).
+    systems : sequence of System
+        Named as the rows.
+    known : bool
+        Whether the covariance is taken as known (the likelihood-ratio test decides) or
+        its scale estimated (the F-test decides).
+
+    Returns
+    -------
+    name : str or None
+    reason : str
+    """
     ok = [r for r in rows if np.isfinite(r.aic if rule != "cross-validation"
                                          else r.cv_rms_mm_yr)]
     if not ok:
@@ -455,7 +474,7 @@ def _recommend(rule, rows, tests, systems, known=True):
     beaten = {t["smaller"] for t in decisive if t["p_value"] < ALPHA}
     left = [r for r in ok if r.name not in beaten]
     plain = [r for r in left if not any(
-        o is not r and _nested(by_sys[o.name], by_sys[r.name]) for o in left)]
+        o is not r and nested(by_sys[o.name], by_sys[r.name]) for o in left)]
     pick = min(plain, key=lambda r: r.aic)
     name = "likelihood-ratio" if known else "F"
     why = [(f"recommended: {pick.name!r} (rule: nested {name} tests at {100 * ALPHA:g} %, "
@@ -520,7 +539,7 @@ def _compare(small, fitted_small, big, fitted_big, errors, area) -> list:
     if "chi_square" in m_small:
         k_s, k_b = m_small["effective_parameters"], m_big["effective_parameters"]
         n = m_big["effective_observations"]
-        weights = _bound_weights(small, big, fitted_big[1].preferred)
+        weights = bound_weights(small, big, fitted_big[1].preferred)
         out = [{**pair, "test": "likelihood-ratio",
                 **likelihood_ratio_test(m_small["chi_square"], k_s, m_big["chi_square"], k_b,
                                         weights),
@@ -539,9 +558,23 @@ def _compare(small, fitted_small, big, fitted_big, errors, area) -> list:
              "excess_se": float(d / d_se) if d_se > 0 else None}]
 
 
-def _bound_weights(small: System, big: System, fit):
+def bound_weights(small: System, big: System, fit):
     """The chi-bar-square weights of a nested pair, or None when no tested coefficient's
-    null value (0, the term left out) lies on one of its bounds."""
+    null value (0, the term left out) lies on one of its bounds.
+
+    Parameters
+    ----------
+    small, big : System
+        The nested hypothesis and the one that contains it.
+    fit : object
+        With ``cov``, the bigger fit's covariance of its free coefficients (in the order
+        of ``big.free``; NaN for independent coefficients).
+
+    Returns
+    -------
+    ndarray or None
+        See :func:`torque.inference.statistics.chi_bar_square_weights`.
+    """
     free = [i for i in np.flatnonzero(big.free) if big.labels[i] not in small.labels]
     if not free:
         return None
@@ -559,8 +592,17 @@ def _f(t):
             "reference": t["reference"]}
 
 
-def _nested(small: System, big: System) -> bool:
-    """Whether ``small``'s terms are a proper subset of ``big``'s, with the same settings."""
+def nested(small: System, big: System) -> bool:
+    """Whether ``small``'s terms are a proper subset of ``big``'s, with the same settings.
+
+    Parameters
+    ----------
+    small, big : System
+
+    Returns
+    -------
+    bool
+    """
     if len(small.labels) >= len(big.labels):
         return False
     idx = {l: i for i, l in enumerate(big.labels)}

@@ -130,7 +130,7 @@ def recommend_series(ranking, systems, fits, names, misfit, per_stage=()) -> dic
     """
     import types
 
-    from ..inference.ranking import _bound_weights, _nested, _recommend
+    from ..inference.ranking import bound_weights, nested, recommend
     from ..inference.statistics import likelihood_ratio_test
     from ..results import RankRow
     by_name = {n: (s, f) for n, s, f in zip(names, systems, fits)}
@@ -143,13 +143,13 @@ def recommend_series(ranking, systems, fits, names, misfit, per_stage=()) -> dic
     if misfit == "chi-square":
         for a, sa in zip(names, named):
             for b, sb in zip(names, named):
-                if a == b or not _nested(sa, sb):
+                if a == b or not nested(sa, sb):
                     continue
                 fa, fb = by_name[a][1], by_name[b][1]
                 # the joint covariance is by coefficient only when none is per stage;
                 # else the tested coefficients are taken as independent
                 cov = fb.cov if not per_stage else None
-                weights = _bound_weights(sa, sb, types.SimpleNamespace(
+                weights = bound_weights(sa, sb, types.SimpleNamespace(
                     cov=cov if cov is not None else
                     np.full((sb.n_free, sb.n_free), np.nan)))
                 t = {"smaller": a, "bigger": b, "test": "likelihood-ratio",
@@ -159,7 +159,7 @@ def recommend_series(ranking, systems, fits, names, misfit, per_stage=()) -> dic
                     t["weights"] = [float(w) for w in weights]
                 tests.append(t)
     rule = "likelihood-ratio" if misfit == "chi-square" else "cross-validation"
-    pick, reason = _recommend(rule, rows, tests, named)
+    pick, reason = recommend(rule, rows, tests, named)
     for r in ranking:
         r["recommended"] = r["name"] == pick
     return {"rule": rule, "recommended": pick, "reason": reason, "tests": tests}
