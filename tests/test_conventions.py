@@ -217,7 +217,8 @@ def test_batched_members_refit_the_frame_as_one_fit_does(demo):
 def test_the_monte_carlo_draws_from_the_covariance_the_fit_uses(tmp_path):
     # with a model error the chi-square fit's covariance is data + model error, and its
     # standard errors describe draws from that: the Monte Carlo spread matches them
-    # (a spread from the data covariance alone would be far narrower)
+    # (a spread from the data covariance alone would be far narrower; common practice,
+    # no source: a parametric bootstrap from the fitted model's own error distribution)
     from torque.workflows import FitOptions, fit
     inputs = torque.Inputs.load(DEMO / "world.toml")
     run = fit(inputs, DEMO / "hypotheses" / "continental_drag.toml", DEMO / "motions.csv",

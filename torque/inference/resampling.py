@@ -232,8 +232,9 @@ def monte_carlo_motions(system: System, omega_obs, cov, n: int, seed: int = 0,
     Returns
     -------
     dict
-        ``members``, ``failed``, ``method``, ``seed``, ``fit`` and, per free coefficient, ``mean``,
-        ``std``, ``p2_5``, ``median``, ``p97_5``.
+        ``members``, ``failed``, ``method``, ``seed``, ``fit``, ``interval_percentiles`` and,
+        per free coefficient, ``mean``, ``std``, ``p2_5``, ``median``, ``p97_5`` and the
+        95 % interval ``low``, ``high`` (the 2.5 and 97.5 percentiles).
     """
     if cov is None:
         raise InputError("a Monte Carlo over motions needs their covariance: add the cov_xx "
@@ -316,8 +317,9 @@ def monte_carlo_physics(build_system, physics, spread: dict, omega_obs, n: int,
     Returns
     -------
     dict
-        ``members``, ``failed``, ``method``, ``seed``, ``fit`` and, per free coefficient, ``mean``,
-        ``std``, ``p2_5``, ``median``, ``p97_5``.
+        ``members``, ``failed``, ``method``, ``seed``, ``fit``, ``interval_percentiles`` and,
+        per free coefficient, ``mean``, ``std``, ``p2_5``, ``median``, ``p97_5`` and the
+        95 % interval ``low``, ``high`` (the 2.5 and 97.5 percentiles).
     """
     if not spread:
         raise InputError("a Monte Carlo over physics needs a [spread] table in the hypothesis")
