@@ -157,7 +157,7 @@ def _run(main, outdir, echo) -> dict:
 #: What the demo writes where, for its closing lines.
 WHAT_IS_WHERE = (
     ("check.json", "world check"), ("cooling.csv", "cooling table"),
-    ("torques.csv", "torques (recommended hypothesis, fitted)"), ("fits/", "fits of every hypothesis"),
+    ("torques.csv", "torques (recommended, fitted)"), ("fits/", "fits of every hypothesis"),
     ("rank.csv", "ranking"), ("predicted.csv", "predicted Euler vectors"),
     ("field.nc", "velocity field"), ("boundary_motion.csv", "relative motion along boundaries"),
     ("maps/", "maps and charts"), ("report.html", "report (one file)"),
