@@ -27,26 +27,16 @@ from torque.inference import solvers  # noqa: E402
 from torque.cli import main  # noqa: E402
 
 MODEL = ROOT.parent / "shared" / "data" / "global-plates-2003"
-HYPOTHESES = {
-    "ridge_drag": [{"kind": "ridge", "coefficient": 1.0}, {"kind": "drag"}],
-    "ridge_slab_drag": [{"kind": "ridge", "coefficient": 1.0}, {"kind": "slab"},
-                        {"kind": "drag"}],
-    "ridge_slab_suction_drag": [{"kind": "ridge", "coefficient": 1.0}, {"kind": "slab"},
-                                {"kind": "suction"}, {"kind": "drag"}],
-    "ridge_slab_drag_transform": [{"kind": "ridge", "coefficient": 1.0}, {"kind": "slab"},
-                                  {"kind": "drag"}, {"kind": "transform"}],
-}
+#: The four hypotheses of the README's walkthrough, shipped with the published-model example.
+HYPOTHESES = ROOT / "examples" / "published-2003" / "hypotheses"
+NAMES = ("ridge_drag", "ridge_slab_drag", "ridge_slab_suction_drag",
+         "ridge_slab_drag_transform")
 
 
 def write_hypotheses(folder: Path) -> list:
-    """The four hypotheses as files in ``folder``; their paths."""
-    from torque.io import write_hypothesis
-    paths = []
-    for name, forces in HYPOTHESES.items():
-        p = folder / f"{name}.toml"
-        write_hypothesis(p, name.replace("_", ", "), forces)
-        paths.append(p)
-    return paths
+    """The four hypotheses' files (``folder`` is not needed: they are shipped); their
+    paths, in the order of :data:`NAMES`."""
+    return [HYPOTHESES / f"{name}.toml" for name in NAMES]
 
 
 def timed(argv, repeat):
