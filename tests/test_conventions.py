@@ -298,3 +298,82 @@ def test_options_that_contradict_each_other_are_refused(cli, tmp_path, argv, mes
     code, _, err = cli(command, *args, *rest)
     assert code == 2 and message in err and "Traceback" not in err
     assert not (tmp_path / "f.json").exists()
+
+
+# -- plausibility guards (torque.workflows.plausibility; ranges and sources there) ---------
+
+def _demo_copy(tmp_path, ages_factor=None):
+    """The demo world copied into ``tmp_path``, its age grid scaled by ``ages_factor``."""
+    import shutil
+    import xarray as xr
+    world = tmp_path / "demo"
+    shutil.copytree(DEMO, world)
+    if ages_factor is not None:
+        with xr.open_dataset(DEMO / "ages.nc") as d:
+            scaled = d.load()
+        scaled["age"] = scaled["age"] * ages_factor
+        (world / "ages.nc").unlink()
+        scaled.to_netcdf(world / "ages.nc")
+    return world
+
+
+def _motions_scaled(tmp_path, factor):
+    """The demo's motions with every rate multiplied by ``factor`` (a unit mistake)."""
+    import csv
+    rows = list(csv.DictReader(open(DEMO / "motions.csv")))
+    out = tmp_path / "motions_scaled.csv"
+    with open(out, "w", newline="") as fh:
+        w = csv.DictWriter(fh, fieldnames=list(rows[0]))
+        w.writeheader()
+        for r in rows:
+            r["rate"] = repr(float(r["rate"]) * factor)
+            w.writerow(r)
+    return out
+
+
+@pytest.mark.parametrize("factor, words", [
+    (RAD_S_PER_DEG_MYR, ["every plate moves below 0.01 mm/yr", "rad/s",
+                         "outside the plausible basal drag range"]),
+    (1e6, ["faster than any plate on Earth", "deg/yr"]),
+])
+def test_rates_in_the_wrong_unit_are_warned_of(cli, tmp_path, factor, words):
+    # rad/s written where deg/Myr are read: speeds below 0.01 mm/yr everywhere and a drag
+    # coefficient far outside 1e12-1e18 Pa s/m; deg/yr: speeds of 1e5 mm/yr
+    motions = _motions_scaled(tmp_path, factor)
+    code, _, err = cli("fit", DEMO / "world.toml", DEMO / "hypotheses" / "ridge_slab_drag.toml",
+                       motions, "--no-profile", "-o", tmp_path / "f.json")
+    assert code == 0
+    for w in words:
+        assert w in err, (w, err)
+    assert str(motions) in err
+    assert "warning" not in cli("fit", DEMO / "world.toml",
+                                DEMO / "hypotheses" / "ridge_slab_drag.toml",
+                                DEMO / "motions.csv", "--no-profile",
+                                "-o", tmp_path / "g.json")[2]
+
+
+@pytest.mark.parametrize("factor, code_want, words", [
+    # Myr divided by 1e6 once more: a warning; in years: refused by the reader (ages above
+    # 300 Myr), with the unit it probably was
+    (1e-6, 0, ["the oldest sea floor is", "Gyr"]),
+    (1e6, 2, ["ages must lie in 0-300 Myr", "in kyr or years"]),
+])
+def test_ages_in_the_wrong_unit_are_warned_of(cli, tmp_path, factor, code_want, words):
+    world = _demo_copy(tmp_path, factor)
+    code, _, err = cli("torques", world / "world.toml",
+                       DEMO / "hypotheses" / "ridge_slab_drag.toml", "--motions",
+                       DEMO / "motions.csv", "-o", tmp_path / "t.csv")
+    assert code == code_want
+    for w in words:
+        assert w in err, (w, err)
+    assert "ages.nc" in err and "Traceback" not in err
+
+
+def test_the_guards_ranges():
+    # each guard's threshold, from torque.workflows.plausibility (sources there)
+    from torque.workflows import plausibility as pl
+    assert pl.age_warnings(np.array([0.0, 450.0]), "a.nc")[0].startswith("a.nc: sea floor up")
+    assert pl.age_warnings(np.array([0.0, 180.0])) == []
+    w = np.array([[0.0, 0.0, 1.0]]) * RAD_S_PER_DEG_MYR          # 1 deg/Myr: 111 mm/yr
+    assert pl.motion_warnings(["A"], w, 6.371e6) == []
+    assert "faster than any plate" in pl.motion_warnings(["A"], 3 * w, 6.371e6)[0]

@@ -212,6 +212,8 @@ def run_fit(args) -> int:
     run = fit(data, args.hypothesis, motions, opts)
     if run.circular:
         print(f"warning: {CIRCULAR}", file=sys.stderr)
+    for w in run.warnings:
+        print(f"warning: {w}", file=sys.stderr)
     write_json(args.output, {**run.result.as_dict(), "run": manifest(args, data)})
     print(text.fit(run.result.as_dict()))
     print(f"wrote {args.output}")
@@ -298,6 +300,9 @@ def run_rank(args) -> int:
     rows, tests = rank(data, args.hypotheses, motions, opts, args.allow_synthetic_ages)
     if data.used_synthesised_ages:
         print(f"warning: {CIRCULAR}", file=sys.stderr)
+    from ..workflows import input_warnings
+    for w in input_warnings(data, motions):
+        print(f"warning: {w}", file=sys.stderr)
     print(text.rank(rows, tests))
     # both outputs or neither: the CSV goes into place only once the JSON has
     with ExitStack() as stack:

@@ -3,6 +3,8 @@
 
 from __future__ import annotations
 
+import sys
+
 import numpy as np
 
 from ..errors import InputError
@@ -114,10 +116,13 @@ def run_torques(args) -> int:
         The exit status (0).
     """
     from ..io import output_suffix, write_csv
-    from ..workflows import torque_table
+    from ..workflows import input_warnings, torque_table
 
     output_suffix(args.output, (".csv",))
-    table, pb = torque_table(inputs(args), args.hypothesis, args.motions, args.fit)
+    data = inputs(args)
+    table, pb = torque_table(data, args.hypothesis, args.motions, args.fit)
+    for w in input_warnings(data, pb.motions):
+        print(f"warning: {w}", file=sys.stderr)
     columns = table.columns()
     write_csv(args.output, columns)
     print(text.torques(table, pb.terms, args.fit))

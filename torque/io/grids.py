@@ -52,7 +52,9 @@ def read_ages(path) -> AgeGrid:
     finite = age[np.isfinite(age)]
     if finite.size and (finite.min() < 0 or finite.max() > MAX_AGE_MYR):
         raise InputError(f"ages must lie in 0-{MAX_AGE_MYR:g} Myr; found "
-                         f"{finite.min():g} to {finite.max():g}", file=path)
+                         f"{finite.min():g} to {finite.max():g}", file=path,
+                         hint="ages are read in Myr: were they written in kyr or years?"
+                         if finite.max() > MAX_AGE_MYR and finite.min() >= 0 else None)
     return AgeGrid(lon, lat, age, str(path))
 
 

@@ -24,6 +24,8 @@ series       :func:`run_series`: a stage series on an executor
 kinematics   :func:`check`, :func:`cooling`, :func:`change_frame`, :func:`velocity_field`,
              :func:`net_rotation_on`,
              :func:`boundary_motion`
+plausibility :func:`input_warnings`, :func:`coefficient_warnings`: sizes that say a unit
+             is wrong
 
 The names of the modules are importable from here, on first use (PEP 562).
 
@@ -61,6 +63,8 @@ _EXPORTS = {
     "predict_motions": "fitting",
     "rank": "fitting",
     "map_inputs": "figures",
+    "input_warnings": "plausibility",
+    "coefficient_warnings": "plausibility",
     "run_series": "series",
     "DEFAULT_COOLING_AGES": "kinematics",
     "MIN_RUN_KM": "kinematics",

@@ -36,6 +36,9 @@ class FitRun:
     covariances : Covariances
     circular : bool
         Whether sea-floor ages were synthesised from the fitted motions.
+    warnings : tuple of str
+        Plausibility guards (:mod:`torque.workflows.plausibility`): motions, ages or
+        fitted coefficients whose size says a unit is wrong.
     """
 
     result: object
@@ -43,6 +46,7 @@ class FitRun:
     report: object
     covariances: Covariances
     circular: bool = False
+    warnings: tuple = ()
 
     def __repr__(self) -> str:
         return f"FitRun({self.result.hypothesis!r}, {self.case.system.n_plates} plates)"
@@ -103,7 +107,10 @@ def fit(inputs, hypothesis, motions, options: FitOptions = FitOptions()) -> FitR
     result = dataclasses.replace(rep, uncertainty=unc).result(
         pb.notes() + cov.notes + ([f"circular: {CIRCULAR}"] if circular else []),
         observed_cov=cov.data, model_cov=cov.model)
-    return FitRun(result, pb, rep, cov, circular)
+    from .plausibility import coefficient_warnings, input_warnings
+    warnings = (input_warnings(inputs, pb.motions)
+                + coefficient_warnings(pb.system, rep.preferred.values, pb.hypothesis.source))
+    return FitRun(result, pb, rep, cov, circular, tuple(warnings))
 
 
 def fit_coefficients(system, fit, file=None) -> np.ndarray:
