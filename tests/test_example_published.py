@@ -54,3 +54,23 @@ def test_the_readme_quotes_what_the_example_prints(tmp_path):
 
 def test_without_the_model_the_example_says_so(tmp_path):
     assert _example().run(tmp_path / "absent", tmp_path / "out") is None
+
+
+@pytest.mark.skipif(not (MODEL / "world.toml").is_file(), reason="no published model here")
+def test_notes_are_summarised_and_each_message_is_said_once(cli, tmp_path):
+    # 52 plates' "half rate" notes make one line; --verbose shows every one; the JSON
+    # keeps them all; the circular-ages message comes once, as a warning on stderr
+    # (common practice, no source)
+    import json
+    argv = (MODEL / "world.toml", ROOT / "examples" / "published-2003" / "hypotheses" /
+            "ridge_slab_drag.toml", MODEL / "motions_G01_fixed.csv", "--free-frame",
+            "--no-profile", "-o", tmp_path / "f.json")
+    code, out, err = cli("fit", *argv)
+    assert code == 0
+    notes = [l for l in out.splitlines() if l.startswith("note:")]
+    assert len(notes) <= 6 and any("on 51 plates or terms" in n for n in notes)
+    assert "partly circular" not in out and err.count("partly circular") == 1
+    kept = json.loads((tmp_path / "f.json").read_text())["notes"]
+    assert sum("half rate" in n for n in kept) == 51
+    code, out, _ = cli("fit", *argv, "--verbose")
+    assert sum("half rate" in l for l in out.splitlines()) == 51

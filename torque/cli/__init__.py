@@ -34,6 +34,7 @@ def build_parser() -> Parser:
         "Plate torques and Euler-pole prediction on a sphere. Results are model-dependent "
         "research estimates, not inputs to hazard or engineering decisions."))
     parser.add_argument("-q", "--quiet", action="store_true", help=QUIET)
+    parser.add_argument("-v", "--verbose", action="store_true", help=VERBOSE)
     parser.add_argument("--version", action="version", version=f"torque {_version()}")
     sub = parser.add_subparsers(dest="command", required=True, parser_class=Parser)
     world.add_parser(sub)
@@ -46,6 +47,8 @@ def build_parser() -> Parser:
         # after the command too; SUPPRESS keeps a "torque -q fit" from being undone
         p.add_argument("-q", "--quiet", action="store_true", default=argparse.SUPPRESS,
                        help=QUIET)
+        p.add_argument("-v", "--verbose", action="store_true", default=argparse.SUPPRESS,
+                       help=VERBOSE)
     return parser
 
 
@@ -54,6 +57,8 @@ def _version() -> str:
     return __version__
 
 
+VERBOSE = ("every note on its own line (notes of one kind on many plates are otherwise "
+           "summarised in one line; a fit's JSON keeps them all)")
 QUIET = ("no progress bars (they show on stderr only when it is a terminal, for work that "
          "takes more than a moment)")
 

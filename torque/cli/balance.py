@@ -215,7 +215,7 @@ def run_fit(args) -> int:
     for w in run.warnings:
         print(f"warning: {w}", file=sys.stderr)
     write_json(args.output, {**run.result.as_dict(), "run": manifest(args, data)})
-    print(text.fit(run.result.as_dict()))
+    print(text.fit(run.result.as_dict(), args.verbose))
     print(f"wrote {args.output}")
     return EXIT_OK
 
@@ -267,8 +267,8 @@ def run_predict(args) -> int:
     write_motions(args.output, motions)
     print(f"predicted Euler vectors of {len(omega)} plates (mantle at rest); net rotation "
           f"{text.pole(net_rotation_on(world, omega))}")
-    for note in pb.notes():
-        print(f"note: {note}")
+    for line in text.note_lines(pb.notes(), args.verbose):
+        print(line)
     print(f"wrote {args.output}")
     return EXIT_OK
 

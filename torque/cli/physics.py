@@ -125,6 +125,6 @@ def run_torques(args) -> int:
         print(f"warning: {w}", file=sys.stderr)
     columns = table.columns()
     write_csv(args.output, columns)
-    print(text.torques(table, pb.terms, args.fit))
+    print(text.torques(table, pb.terms, args.fit, args.verbose))
     print(f"wrote {args.output} ({len(columns['plate'])} rows)")
     return EXIT_OK

@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["CAUTION_LINE", "pole", "check", "cooling", "torques", "fit", "p_value",
-           "profile_span", "standard_errors", "rank"]
+           "profile_span", "standard_errors", "note_lines", "rank"]
 
 #: The caution every result printed on a terminal ends with.
 CAUTION_LINE = ("caution: model-dependent research estimates, not for hazard or engineering "
@@ -99,7 +99,54 @@ def cooling(physics, depth_km, rows) -> str:
     return "\n".join(lines)
 
 
-def torques(table, terms, fit_path=None) -> str:
+#: Notes of one kind shown before a summary line stands for the rest.
+NOTES_SHOWN = 3
+
+
+def note_lines(notes, verbose: bool = False) -> list:
+    """Notes as printed: one line each with ``verbose``; otherwise notes of one kind (the
+    same words after a plate's or term's name, numbers aside) that come more than
+    :data:`NOTES_SHOWN` times make one line, with their count and the first few. Every
+    note stays in the outputs that keep them (a fit's JSON).
+
+    Parameters
+    ----------
+    notes : sequence of str
+    verbose : bool
+
+    Returns
+    -------
+    list of str
+        Each starting ``note: ``.
+
+    Examples
+    --------
+    >>> lines = note_lines([f"P{i}: half rate {i}.5 mm/yr" for i in range(5)] + ["slab: one"])
+    >>> len(lines), lines[0][:48], lines[1]
+    (2, 'note: half rate ... mm/yr on 5 plates or terms: ', 'note: slab: one')
+    """
+    import re
+    notes = list(dict.fromkeys(notes))             # each message once
+    if verbose:
+        return [f"note: {n}" for n in notes]
+    groups = {}
+    for n in notes:
+        head, sep, rest = n.partition(": ")
+        key = re.sub(r"[-+]?\d[\d.e+-]*", "#", rest) if sep and " " not in head else n
+        groups.setdefault(key, []).append(n)
+    out = []
+    for key, items in groups.items():
+        if len(items) <= NOTES_SHOWN:
+            out += [f"note: {n}" for n in items]
+            continue
+        shown = "; ".join(items[:NOTES_SHOWN])
+        out.append(f"note: {key.replace('#', '...')} on {len(items)} plates or terms: "
+                   f"{shown}; and {len(items) - NOTES_SHOWN} more (all with --verbose, and "
+                   "in a fit's JSON)")
+    return out
+
+
+def torques(table, terms, fit_path=None, verbose: bool = False) -> str:
     """The summary of ``torque torques``: how the coefficients were set, each plate's
     largest terms in 10^25 N m and its total, and the terms' notes.
 
@@ -109,6 +156,8 @@ def torques(table, terms, fit_path=None) -> str:
     terms : list of ForceTerm
     fit_path : str, optional
         The fit the coefficients came from.
+    verbose : bool
+        Every note on its own line (see :func:`note_lines`).
 
     Returns
     -------
@@ -132,18 +181,19 @@ def torques(table, terms, fit_path=None) -> str:
         big = ", ".join(f"{label} {mag:.3g}" for label, mag in terms_p) or "no torque"
         tail = f"  | {total[p]:.3g}" if table.complete else ""
         lines.append(f"{table.plates[p]:<{w}}  {big}{tail}")
-    for t in terms:
-        lines += [f"note: {note}" for note in t.notes]
+    lines += note_lines([note for t in terms for note in t.notes], verbose)
     return "\n".join(lines)
 
 
-def fit(d: dict) -> str:
+def fit(d: dict, verbose: bool = False) -> str:
     """The coefficient table and misfit of ``torque fit`` (from the fit's dict).
 
     Parameters
     ----------
     d : dict
         :meth:`torque.results.FitResult.as_dict`.
+    verbose : bool
+        Every note on its own line (see :func:`note_lines`).
 
     Returns
     -------
@@ -191,7 +241,9 @@ def fit(d: dict) -> str:
         lines.append(f"{method.replace('_', ' ')} ({u['members']} members, {u.get('fit', 'torque')}"
                      f"-space refits): 95 % intervals {spans}")
     lines += [f"warning: {w}" for w in fits_disagree(d)]
-    lines += [f"note: {note}" for note in d.get("notes", [])]
+    # the circular-ages note is the command's warning on stderr; the JSON keeps it
+    lines += note_lines([n for n in d.get("notes", []) if not n.startswith("circular:")],
+                        verbose)
     lines.append(CAUTION_LINE)
     return "\n".join(lines)
 
