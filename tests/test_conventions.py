@@ -377,3 +377,14 @@ def test_the_guards_ranges():
     w = np.array([[0.0, 0.0, 1.0]]) * RAD_S_PER_DEG_MYR          # 1 deg/Myr: 111 mm/yr
     assert pl.motion_warnings(["A"], w, 6.371e6) == []
     assert "faster than any plate" in pl.motion_warnings(["A"], 3 * w, 6.371e6)[0]
+
+
+def test_without_profiles_the_fit_prints_no_profile_column(cli, tmp_path):
+    # an empty column says nothing (common practice, no source)
+    hyp = DEMO / "hypotheses" / "ridge_drag.toml"
+    _, out, _ = cli("fit", DEMO / "world.toml", hyp, DEMO / "motions.csv", "--no-profile",
+                    "-o", tmp_path / "f.json")
+    assert "profile interval" not in out and "torque space" in out
+    _, out, _ = cli("fit", DEMO / "world.toml", hyp, DEMO / "motions.csv",
+                    "-o", tmp_path / "f.json")
+    assert "95 % profile interval" in out

@@ -197,3 +197,16 @@ def test_stages_command_writes_its_outputs(tmp_path, cli):
     report = (tmp_path / "out" / "report.md").read_text()
     assert "stage 2 (10 Ma)" in report and "Through time" in report
     assert "caution" in out.lower()
+
+
+def test_a_folder_holding_other_files_is_refused_unless_forced(cli, tmp_path):
+    # as torque demo: nothing of a researcher's is overwritten by surprise (common
+    # practice, no source)
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "notes.txt").write_text("mine")
+    code, _, err = cli("stages", small_series(tmp_path), "-o", out, "-q")
+    assert code == 2 and "holds other files" in err and "--force" in err
+    assert sorted(p.name for p in out.iterdir()) == ["notes.txt"]
+    assert cli("stages", small_series(tmp_path), "-o", out, "-q", "--force")[0] == 0
+    assert (out / "notes.txt").read_text() == "mine" and (out / "series_fit.json").is_file()

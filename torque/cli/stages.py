@@ -31,7 +31,11 @@ def add_parser(sub) -> None:
                        "Monte Carlo draws run as independent tasks: here, on a local pool "
                        "(--jobs) or on a Dask cluster (--scheduler), with the same numbers.")
     p.add_argument("series", help="stage series file (TOML)")
-    p.add_argument("-o", "--outdir", required=True, help="output folder (made if missing)")
+    p.add_argument("-o", "--outdir", required=True, help="output folder (made if missing; "
+                   "refused when it holds other files, unless --force)")
+    p.add_argument("--force", action="store_true",
+                   help="write into a folder that holds other files, overwriting this "
+                   "command's own output names there (nothing is deleted)")
     p.add_argument("--monte-carlo", type=count, default=0, metavar="N",
                    help="refit on N draws of every stage's motions from their covariance")
     p.add_argument("--seed", type=count, default=0, help="random seed (default 0)")
@@ -58,7 +62,7 @@ def run_stages(args) -> int:
     int
     """
     from ..io import write_csv, write_json
-    from ..io.files import check_output_path
+    from ..io.files import output_folder
     from ..io.manifest import run_manifest
     from ..io.series import series_record, series_tables
     from ..parallel import Executor
@@ -66,9 +70,8 @@ def run_stages(args) -> int:
     from ..present.timeplots import default_plates, speed_through_time, torque_through_time
     from ..workflows import run_series
     outdir = Path(args.outdir)
-    if outdir.exists() and not outdir.is_dir():
-        raise InputError("exists and is not a folder", file=outdir)
-    check_output_path(outdir / "report.html")
+    # checked before the work, made after it (nothing is written for a refused series)
+    output_folder(outdir, "stages", args.force, make=False)
     with Executor(args.jobs, args.scheduler, preload=("torque.io.series",)) as ex:
         result = run_series(args.series, ex, args.monte_carlo, args.seed)
     plates = args.plates.split(",") if args.plates else default_plates(result)
@@ -77,7 +80,7 @@ def run_stages(args) -> int:
     if unknown:
         raise InputError(f"--plates: no stage has plate(s) {', '.join(unknown)}")
     tables = series_tables(result)
-    outdir.mkdir(parents=True, exist_ok=True)
+    output_folder(outdir, "stages", True)
     series = result.series
     files = [args.series, series.hypothesis, *series.compare]
     for st in series.stages:

@@ -16,7 +16,7 @@ from pathlib import Path
 from .. import progress
 from ..errors import InputError
 from ..io import atomic_write, read_fit
-from ..io.files import check_output_path, read_json
+from ..io.files import output_folder, read_json
 from ..io.manifest import run_manifest
 from ..parallel import small_solves
 from ..present.report import write_html, write_markdown
@@ -56,7 +56,7 @@ def run(main, outdir, force: bool = False, echo=print) -> dict:
     dict
         ``outdir``, the ``best`` hypothesis' name and the run time in ``seconds``.
     """
-    outdir = _output_folder(outdir, force)
+    outdir = output_folder(outdir, "demo", force)
     # the demo's world is small: every matrix product and solve in it is, where BLAS threads
     # cost more CPU than they save (a second of the demo's 6 s on two cores)
     with small_solves():
@@ -162,22 +162,6 @@ WHAT_IS_WHERE = (
     ("field.nc", "velocity field"), ("boundary_motion.csv", "relative motion along boundaries"),
     ("maps/", "maps and charts"), ("report.html", "report (one file)"),
     ("report.md", "report summary"))
-
-
-def _output_folder(outdir, force: bool) -> Path:
-    """The demo's output folder, made; InputError if it is a file, lies under one, or
-    holds other files (unless ``force``)."""
-    outdir = Path(outdir)
-    if outdir.exists() and not outdir.is_dir():
-        raise InputError("exists and is not a folder", file=outdir)
-    check_output_path(outdir / "report.html")     # refuses a folder under a file
-    if outdir.is_dir() and any(outdir.iterdir()) and not force:
-        raise InputError("the folder holds other files; torque demo writes only into an empty "
-                         "folder", file=outdir,
-                         hint="choose a new folder, or pass --force to overwrite torque's own "
-                         "output names there (nothing is ever deleted)")
-    outdir.mkdir(parents=True, exist_ok=True)
-    return outdir
 
 
 def _summary(fit, row, truth) -> list:

@@ -22,7 +22,7 @@ from pathlib import Path
 from ..errors import InputError
 
 __all__ = ["check_input_file", "read_text", "read_csv_rows", "read_json",
-           "check_output_path", "atomic_write", "atomic_path", "read_toml",
+           "check_output_path", "output_folder", "atomic_write", "atomic_path", "read_toml",
            "output_suffix"]
 
 
@@ -118,6 +118,38 @@ def read_json(path):
                          file=path) from None
     except RecursionError:
         raise InputError("the JSON is nested too deeply to read", file=path) from None
+
+
+def output_folder(outdir, command: str, force: bool = False, make: bool = True) -> Path:
+    """An output folder for a command that writes many files, made; InputError when it is a
+    file, lies under one, or already holds files (unless ``force``: then the command's own
+    output names are overwritten, and nothing is ever deleted).
+
+    Parameters
+    ----------
+    outdir : str or Path
+    command : str
+        The command, named in the message.
+    force : bool
+    make : bool
+        Make the folder (False: only check, before a long computation).
+
+    Returns
+    -------
+    Path
+    """
+    outdir = Path(outdir)
+    if outdir.exists() and not outdir.is_dir():
+        raise InputError("exists and is not a folder", file=outdir)
+    check_output_path(outdir / "report.html")     # refuses a folder under a file
+    if outdir.is_dir() and any(outdir.iterdir()) and not force:
+        raise InputError(f"the folder holds other files; torque {command} writes only into an "
+                         "empty folder", file=outdir,
+                         hint="choose a new folder, or pass --force to overwrite torque's own "
+                         "output names there (nothing is ever deleted)")
+    if make:
+        outdir.mkdir(parents=True, exist_ok=True)
+    return outdir
 
 
 def check_output_path(path) -> Path:

@@ -200,18 +200,22 @@ def fit(d: dict, verbose: bool = False) -> str:
     str
     """
     from .sentences import chi_square_summary, fits_disagree, frame_summary
+    # the profile column only where intervals were computed (not with --no-profile)
+    profiled = any(profile_span(c) for c in d["coefficients"].values() if c["free"])
+    head = f"{'95 % profile interval':<31} " if profiled else ""
     lines = [f"hypothesis {d['hypothesis']!r}: velocity-space fit (preferred) and "
              "torque-space fit",
-             f"{'term':<16} {'value':>11} {'std. error':>10}  {'95 % profile interval':<31} "
-             f"{'torque space':>12}  {'unit':<8}"]
+             f"{'term':<16} {'value':>11} {'std. error':>10}  {head}"
+             f"{'torque space':>12}  {'unit'}"]
     for label, c in d["coefficients"].items():
         if c["free"]:
-            span = profile_span(c)
-            lines.append(f"{label:<16} {c['value']:11.4e} {c['stderr']:10.2e}  {span:<31} "
-                         f"{c['torque_space_value']:12.4e}  {c['unit']:<8}")
+            span = f"{profile_span(c):<31} " if profiled else ""
+            lines.append(f"{label:<16} {c['value']:11.4e} {c['stderr']:10.2e}  {span}"
+                         f"{c['torque_space_value']:12.4e}  {c['unit']}")
         else:
-            lines.append(f"{label:<16} {c['value']:11.4e} {'fixed':>10}  {'':<31} {'':>12}  "
-                         f"{c['unit']:<8}")
+            span = f"{'':<31} " if profiled else ""
+            lines.append(f"{label:<16} {c['value']:11.4e} {'fixed':>10}  {span}{'':>12}  "
+                         f"{c['unit']}")
     m = d["misfit"]
     if m.get("misfit_measure"):
         lines.append(f"minimised: {m['misfit_measure']}")
