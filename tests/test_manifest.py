@@ -47,3 +47,17 @@ def test_every_json_output_carries_its_manifest(cli, tmp_path):
                "--json", tmp_path / "r.json")[0] == 0
     _check(json.loads((tmp_path / "r.json").read_text())[KEY], ["rank"],
            ["ridge_drag.toml", "slab_drag.toml"])
+
+
+def test_the_distribution_has_a_name_of_its_own_and_the_manifest_its_version():
+    # "torque" on the package index is an unrelated project: ours installs as
+    # plate-torque-balance, and the manifest records this package's own version
+    # (common practice, no source)
+    import tomllib
+    from pathlib import Path
+
+    from torque._version import __version__
+    from torque.io.manifest import run_manifest
+    meta = tomllib.loads((Path(__file__).resolve().parents[1] / "pyproject.toml").read_text())
+    assert meta["project"]["name"] == "plate-torque-balance"
+    assert run_manifest([], [])["version"] == __version__

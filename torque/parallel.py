@@ -7,7 +7,7 @@ the order in which they finish, so the numbers do not depend on where they ran:
 * ``jobs = 1`` (default): in this process;
 * ``jobs = N``: a local process pool of N workers (:class:`concurrent.futures.ProcessPoolExecutor`);
 * ``scheduler = "tcp://host:port"``: a Dask cluster (``dask.distributed``, the optional
-  extra ``torque[cluster]``), or ``"local:N"`` for a :class:`distributed.LocalCluster` of N
+  extra ``plate-torque-balance[cluster]``), or ``"local:N"`` for a :class:`distributed.LocalCluster` of N
   worker processes on this machine.
 
 Every task runs with one BLAS thread, so a sum inside linear algebra is added in the same
@@ -148,7 +148,7 @@ class Executor:
                 from dask.distributed import Client, LocalCluster
             except ImportError:
                 raise InputError("a Dask scheduler needs dask.distributed", hint="pip "
-                                 "install 'torque[cluster]'") from None
+                                 "install the cluster extra: pip install -e '.[cluster]'") from None
             if self.scheduler.startswith("local:"):
                 n = int(self.scheduler.split(":", 1)[1] or 2)
                 self._cluster = LocalCluster(n_workers=n, threads_per_worker=1,

@@ -43,7 +43,7 @@ def add_parser(sub) -> None:
                    help="worker processes of a local pool (default 1: this process)")
     p.add_argument("--scheduler", metavar="ADDRESS",
                    help="a Dask scheduler (tcp://host:port), or local:N for a local Dask "
-                   "cluster of N workers; needs torque[cluster]")
+                   "cluster of N workers; needs the cluster extra (pip install -e '.[cluster]')")
     p.add_argument("--plates", metavar="A,B,...",
                    help="plates to chart against time (default: the series file's, else the "
                    "four largest)")

@@ -79,6 +79,13 @@ def _version(name):
         return None
 
 
+def _tool_version():
+    """This tool's version (its distribution is named ``plate-torque-balance``: the name
+    ``torque`` on the package index is another project's)."""
+    from .._version import __version__
+    return __version__
+
+
 def _versions() -> dict:
     return {name: _version(name) for name in PACKAGES}
 
@@ -138,7 +145,7 @@ def run_manifest(commands, inputs=(), seeds=None, started=None) -> dict:
     now = time.time()
     started = now if started is None else started
     return {
-        "tool": "torque", "version": _version("torque"), "commit": _commit(),
+        "tool": "torque", "version": _tool_version(), "commit": _commit(),
         "python": platform.python_version(), "platform": platform.platform(),
         "packages": _versions(),
         "commands": ["torque " + " ".join(map(str, c)) for c in commands],
