@@ -363,7 +363,7 @@ class FitResult:
         return [self.coefficients[x].value for x in labels]
 
     def as_dict(self) -> dict:
-        """The fit JSON (see the README): plain numbers, lists and dicts."""
+        """The fit JSON (see docs/outputs.md): plain numbers, lists and dicts."""
         out = {
             "hypothesis": self.hypothesis,
             "caution": CAUTION,

@@ -28,8 +28,8 @@ MISFIT = ("what the velocity-space fit minimises: the area-integrated velocity m
           "the observations' covariance (generalised least squares), from the motions' cov_* "
           "columns or --covariance, plus --model-error")
 COVARIANCE = ("a full covariance of the observed Euler vectors, correlations between plates "
-              "included (CSV plate_1,axis_1,plate_2,axis_2,cov in (deg/Myr)^2; see the "
-              "README): used instead of the motions' cov_* columns")
+              "included (CSV plate_1,axis_1,plate_2,axis_2,cov in (deg/Myr)^2; see "
+              "docs/outputs.md): used instead of the motions' cov_* columns")
 MODEL_ERROR = ("with --misfit chi-square: add a model error of this RMS velocity over each "
                "plate (mm/yr) to the observations' covariance, for what the physics leaves "
                "out (real misfits are mostly model error)")

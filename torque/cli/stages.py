@@ -21,9 +21,10 @@ def add_parser(sub) -> None:
     sub : argparse subparsers
     """
     p = sub.add_parser("stages", help="fit one hypothesis to plate configurations through time",
-                       description="Fit the hypothesis of a stage series file (TOML; see the "
-                       "README) to every stage at once, rank it against the series' other "
-                       "hypotheses by leave-one-plate-out cross-validation, and write into "
+                       description="Fit the hypothesis of a stage series file (TOML; see "
+                       "docs/time-series.md) to every stage at once, rank it against the "
+                       "series' other hypotheses by leave-one-plate-out cross-validation, and "
+                       "write into "
                        "OUTDIR the fitted coefficients (series_fit.json), every term's torque "
                        "per plate per stage (torques.csv), predicted and observed motions "
                        "(predicted.csv), the misfit per stage (misfit.csv), the ranking "

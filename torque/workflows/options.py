@@ -63,7 +63,7 @@ class FitOptions:
         profile intervals to (both are reported): default classical with a covariance
         (it describes every plate's errors), robust (cluster-robust, a plate a cluster)
         for the area misfit, whose classical errors assume every plate's residuals of one
-        variance (the calibration in the README).
+        variance (the calibration in docs/method.md).
     recommend : {"likelihood-ratio", "aic", "bic", "cross-validation"}, optional
         ``rank``'s rule (default likelihood-ratio with a covariance, cross-validation
         without; see :mod:`torque.inference.ranking`).
