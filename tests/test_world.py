@@ -85,3 +85,23 @@ def test_t_junctions_and_nearly_shared_vertices_still_give_boundaries():
     strict = world_from_rings({"Upper": [north], "Lower": [south]}, winding="strict",
                               vertex_tolerance_m=1e-3)
     assert any("shared with no other" in p.message for p in strict.problems)
+
+
+def test_plate_at_names_the_plate_that_locate_numbers():
+    # plate_at is locate by name, "" off every plate (its definition)
+    from .worlds import voronoi_world
+    w = voronoi_world(8, 2)
+    rng = np.random.default_rng(0)
+    lon, lat = rng.uniform(-180, 180, 50), rng.uniform(-80, 80, 50)
+    idx = w.locate(lon, lat)
+    names = w.plate_at(lon, lat)
+    assert all(n == (w.plate_names[i] if i >= 0 else "") for n, i in zip(names, idx))
+
+
+def test_a_fit_names_its_values():
+    from torque import inference
+    from .conftest import demo_system
+    system, obs, _ = demo_system()
+    fit = inference.fit_velocity(system, obs)
+    assert list(fit.named) == list(system.labels)
+    assert fit.named["slab"] == fit.values[system.labels.index("slab")]

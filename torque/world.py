@@ -401,6 +401,31 @@ class World:
         """
         return self.geometry.locator.locate_lonlat(lon_deg, lat_deg)
 
+    def plate_at(self, lon_deg, lat_deg) -> np.ndarray:
+        """The name of the plate holding each point (lon/lat in degrees): :meth:`locate`
+        as names.
+
+        Parameters
+        ----------
+        lon_deg, lat_deg : array_like, shape (N,)
+
+        Returns
+        -------
+        ndarray of str, shape (N,)
+            ``""`` where no plate holds the point.
+
+        Examples
+        --------
+        >>> import torque
+        >>> world = torque.Inputs.load("polygons_demo/world.toml").world
+        >>> names = world.plate_at([0.0, 120.0], [10.0, -40.0])
+        >>> [str(n) in world.plate_names for n in names]
+        [True, True]
+        """
+        idx = self.locate(np.atleast_1d(lon_deg), np.atleast_1d(lat_deg))
+        names = np.array(list(self.plate_names) + [""], dtype=object)
+        return names[np.where(idx >= 0, idx, len(self.plate_names))].astype(str)
+
     def locate_xyz(self, xyz) -> np.ndarray:
         """Plate index holding each unit vector ``(N, 3)``.
 

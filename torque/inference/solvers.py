@@ -174,6 +174,11 @@ class Fit:
     robust_dof: np.ndarray | None = None
 
     @property
+    def named(self) -> dict:
+        """``{label: value}`` of every coefficient (``values`` by name)."""
+        return {l: float(v) for l, v in zip(self.system.labels, self.values)}
+
+    @property
     def quantile(self) -> float:
         """The multiple of ``stderr`` a 95 % interval spans on each side: the normal
         quantile with a known variance, Student's t with ``dof`` degrees of freedom when it
