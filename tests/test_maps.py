@@ -192,3 +192,42 @@ def test_the_misfit_scale_is_clipped_and_says_so(demo_fit, tmp_path, figures):
 def torque_inputs():
     from torque.io import Inputs
     return Inputs.load(DEMO / "world.toml")
+
+
+def test_the_budget_chart_clips_its_axis_and_says_so(tmp_path):
+    # a plate with a near-zero driving torque has shares of tens: the axis stays symmetric
+    # and at most BUDGET_CLIP wide, the clipped ends carry their values, and the caption
+    # defines the driving torque (common practice, no source)
+    import matplotlib
+    matplotlib.use("Agg")
+    from matplotlib import pyplot as plt
+    from torque.present.maps import charts
+    from torque.results import Coefficient, FitResult, PlateResult, Pole
+
+    def plate(name, budget):
+        pole = Pole(0.0, 0.0, 1.0)
+        return PlateResult(name, pole, pole, 0.0, 1.0, 0.0, (0.0, 0.0, 0.0), budget,
+                           None, None, None)
+    fit = FitResult("h", {"ridge": Coefficient(1.0, 0.0, False, "dimensionless", 1.0, 0.0),
+                          "drag": Coefficient(1e15, 1e13, True, "Pa s/m", 1e15, 1e13)},
+                    (plate("A", {"ridge": 1.0, "drag": -1.0}),
+                     plate("B", {"ridge": 1.0, "drag": 25.0})))
+    seen = {}
+    real_save = charts._save
+
+    def keep(fig, path):
+        ax = fig.axes[0]
+        seen["xlim"] = ax.get_xlim()
+        seen["texts"] = [t.get_text() for t in ax.texts]
+        seen["caption"] = " ".join(t.get_text() for t in fig.texts)
+        return real_save(fig, path)
+    charts._save = keep
+    try:
+        charts.budget_chart(tmp_path / "b.png", fit)
+    finally:
+        charts._save = real_save
+        plt.close("all")
+    lo, hi = seen["xlim"]
+    assert lo == -hi and hi == charts.BUDGET_CLIP
+    assert "+26" in seen["texts"]
+    assert "driving torque of a plate is the sum" in seen["caption"]

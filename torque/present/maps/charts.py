@@ -13,6 +13,10 @@ from .style import DPI, _plt, caption, force_colours
 __all__ = ["budget_chart", "torque_chart", "torque_globe"]
 
 
+#: The widest share the budget chart's axis shows; longer bars are clipped and labelled.
+BUDGET_CLIP = 3.0
+
+
 def budget_chart(path, fit):
     """Per plate, each term's share of the driving torque (stacked bars).
 
@@ -39,12 +43,30 @@ def budget_chart(path, fit):
         left_pos += np.where(v >= 0, v, 0)
         left_neg += np.where(v < 0, v, 0)
     ax.axvline(0, color="k", lw=0.8)
+    # one symmetric axis, clipped: a plate whose driving torque nearly vanishes has shares
+    # of tens, which would flatten every other bar; clipped bars say their total
+    extent = np.maximum(left_pos, -left_neg)
+    lim = float(min(max(1.2, 1.05 * extent.max(initial=0.0)), BUDGET_CLIP))
+    ax.set_xlim(-lim, lim)
+    clipped = 0
+    for y, (pos, neg) in enumerate(zip(left_pos, left_neg)):
+        for end, side in ((pos, 1), (neg, -1)):
+            if abs(end) > lim:
+                clipped += 1
+                ax.text(side * lim * 0.98, y, f"{end:+.3g}", ha="right" if side > 0 else "left",
+                        va="center", fontsize=7, color="k",
+                        bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.8))
     ax.set_xlabel("share of the plate's driving torque (driving > 0, resisting < 0)")
     ax.set_title(f"force budget: {fit.hypothesis}")
     ax.legend(fontsize=8, loc="lower right")
     ax.invert_yaxis()
-    caption(fig, "Each term's torque at the fitted coefficients and observed motions, "
-            "projected on the plate's driving torque.")
+    caption(fig, "The driving torque of a plate is the sum of the motion-independent torques of "
+            "all terms (ridge push, slab pull, ...) at the fitted coefficients; each bar is a "
+            "term's torque at the observed motions, projected on it. Drag is taken at the observed "
+            "motions, so it counts as driving where a plate's observed motion has a component "
+            "against its driving torque: a plate the hypothesis does not balance there."
+            + (f" Axis clipped at ±{lim:.3g}: {clipped} bar end(s) beyond it are labelled with "
+               "their value." if clipped else ""))
     return _save(fig, path)
 
 
