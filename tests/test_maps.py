@@ -6,6 +6,7 @@ signatures (PNG, SVG/XML) for what was written.
 
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from torque.io import load_world
@@ -231,3 +232,26 @@ def test_the_budget_chart_clips_its_axis_and_says_so(tmp_path):
     assert lo == -hi and hi == charts.BUDGET_CLIP
     assert "+26" in seen["texts"]
     assert "driving torque of a plate is the sum" in seen["caption"]
+
+
+def test_teeth_follow_distance_not_digitisation():
+    # a line digitised every 0.1 degree or every 10 degrees gets the same teeth, one per
+    # spacing of arc (common practice, no source)
+    from torque.present.maps.layers import tooth_sites
+    for step in (0.1, 10.0):
+        lon = np.radians(np.arange(0.0, 90.0 + step / 2, step))
+        xyz = np.c_[np.cos(lon), np.sin(lon), np.zeros_like(lon)]
+        points, normals = tooth_sites(xyz, np.radians(7.0))
+        assert len(points) == 13                       # 90 / 7, from 3.5 degrees on
+        np.testing.assert_allclose(np.degrees(np.arctan2(points[:, 1], points[:, 0])),
+                                   3.5 + 7.0 * np.arange(13), atol=1e-9)
+        np.testing.assert_allclose(normals, np.tile([0, 0, 1.0], (13, 1)), atol=1e-12)
+
+
+def test_the_plates_map_caption_says_only_what_is_drawn(tmp_path, monkeypatch):
+    from torque.present.maps import world_maps
+    from .worlds import voronoi_world
+    said = []
+    monkeypatch.setattr(world_maps, "caption", lambda fig, text: said.append(text))
+    world_maps.plates_map(voronoi_world(6, 1), tmp_path / "p.png")
+    assert "hatched" not in said[0] and "teeth" not in said[0]

@@ -160,6 +160,54 @@ def _project_lines(projection, lines) -> list:
             if not g.is_empty]
 
 
+def tooth_sites(xyz, spacing_rad):
+    """Where a line's teeth stand: every ``spacing_rad`` of arc along the whole line (half a
+    spacing from its start), not once per digitised arc, so that a line digitised every few
+    kilometres does not merge its teeth into a band; a line shorter than one spacing gets
+    one tooth at its middle.
+
+    Parameters
+    ----------
+    xyz : ndarray, shape (n, 3)
+        The line's vertices (unit vectors).
+    spacing_rad : float
+
+    Returns
+    -------
+    points : ndarray, shape (N, 3)
+        Unit vectors on the line.
+    normals : ndarray, shape (N, 3)
+        The left-hand normal of the line there (:func:`torque.sphere.arc_pole`).
+
+    Examples
+    --------
+    A quarter of the equator digitised every degree, teeth every 30 degrees:
+
+    >>> lon = np.radians(np.arange(0, 91))
+    >>> xyz = np.c_[np.cos(lon), np.sin(lon), np.zeros_like(lon)]
+    >>> p, n = tooth_sites(xyz, np.radians(30))
+    >>> np.round(np.degrees(np.arctan2(p[:, 1], p[:, 0])), 6).tolist()
+    [15.0, 45.0, 75.0]
+    """
+    a, c = xyz[:-1], xyz[1:]
+    n, theta = sphere.arc_pole(a, c)
+    s = np.r_[0.0, np.cumsum(theta)]
+    total = s[-1]
+    if not total > 0:
+        return np.empty((0, 3)), np.empty((0, 3))
+    at = np.arange(spacing_rad / 2, total, spacing_rad) if total > spacing_rad else \
+        np.array([total / 2])
+    k = np.clip(np.searchsorted(s, at, side="right") - 1, 0, len(theta) - 1)
+    th = theta[k]
+    f = np.where(th > 0, (at - s[k]) / np.where(th > 0, th, 1.0), 0.0)
+    # along the great-circle arc k, a fraction f of the way (slerp)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        wa = np.where(th > 0, np.sin((1 - f) * th) / np.sin(th), 1.0)
+        wc = np.where(th > 0, np.sin(f * th) / np.sin(th), 0.0)
+    points = sphere.normalize(wa[:, None] * a[k] + wc[:, None] * c[k])
+    return points, n[k]
+
+
 def _teeth(ax, world, lines, spacing_km, colour):
     """Triangles along subduction lines, pointing into the overriding plate: one
     collection, projected once."""
@@ -169,14 +217,16 @@ def _teeth(ax, world, lines, spacing_km, colour):
     h, w = 260e3 / R, 150e3 / R
     triangles = []
     for b in lines:
-        pa, pb, _ = sphere.densify_arcs(b.xyz[:-1], b.xyz[1:], spacing_km * 1e3 / R)
-        n, _ = sphere.arc_pole(pa, pb)
-        mid = sphere.normalize(pa + pb)
+        mid, n = tooth_sites(b.xyz, spacing_km * 1e3 / R)
+        if not len(mid):
+            continue
         t = np.cross(n, mid)
         side = 1.0 if b.subducting == b.right else -1.0      # overriding plate's side of n
         apex = sphere.normalize(mid + side * h * n)
         triangles.append(np.stack([sphere.normalize(mid - w * t), apex,
                                    sphere.normalize(mid + w * t)], axis=1))   # (N, 3, 3)
+    if not triangles:
+        return
     lo, la = sphere.xyz_to_lonlat(np.concatenate(triangles))                 # (N, 3)
     xy = ax.projection.transform_points(ccrs.PlateCarree(), lo.ravel(), la.ravel())
     xy = xy[:, :2].reshape(*lo.shape, 2)

@@ -53,9 +53,15 @@ def plates_map(world, path, continents=None):
     fig, ax = _axes(f"{world.name}: plates and boundaries", len(world.plates))
     draw_plates(ax, world, continents)
     _legend(ax)
-    caption(fig, "Plates (fills tell neighbours apart), continents hatched, boundaries by "
-            "kind with teeth on the overriding side of subduction zones. Geographic "
-            "coordinates, Equal Earth projection.")
+    # the caption says what is drawn: continents and teeth only where there are some
+    has_continents = continents is not None
+    has_trenches = any(b.kind == "subduction" for b in world.boundaries)
+    caption(fig, "Plates (fills tell neighbours apart)"
+            + (", continents hatched" if has_continents else "")
+            + ", boundaries by kind"
+            + (" with teeth on the overriding side of subduction zones" if has_trenches
+               else "")
+            + ". Geographic coordinates, Equal Earth projection.")
     return _save(fig, path)
 
 
@@ -191,11 +197,13 @@ def poles_map(world, path, fit):
         ax.plot([getattr(p, which).lon for p in plates],
                 [getattr(p, which).lat for p in plates],
                 ls="", ms=6, transform=ccrs.PlateCarree(), zorder=6, **marker)
+    drawn = {}
     for key, which, colour, style in styles:
         rings = [np.column_stack(_ellipse_lonlat(getattr(p, which).lat, getattr(p, which).lon,
                                                  e["major_deg"], e["minor_deg"],
                                                  e["azimuth_deg"]))
                  for p in plates for e in [getattr(p, key) or {}] if e.get("major_deg")]
+        drawn[which] = bool(rings)
         if rings:
             ax.add_collection(LineCollection(_project_lines(ax.projection, rings),
                                              colors=colour, linewidths=1.4,
@@ -210,13 +218,19 @@ def poles_map(world, path, fit):
         _pole_zoom(fig.add_subplot(grid[1 + i // ncol, i % ncol]), p, styles)
     what = ("prediction: coefficients and observations" if predicted_key == "prediction_ellipse"
             else "coefficients")
-    ax.legend(handles=[
-        Line2D([], [], marker="o", ls="", mfc="white", mec=OBSERVED_COLOUR,
-               label="observed pole"),
-        Line2D([], [], color=OBSERVED_COLOUR, ls="--", label="its 95 % ellipse (covariance)"),
-        Line2D([], [], marker="^", ls="", color=PREDICTED_COLOUR, label="predicted pole"),
-        Line2D([], [], color=PREDICTED_COLOUR, label=f"its 95 % ellipse ({what})")],
-        loc="upper center", bbox_to_anchor=(0.5, -0.01), ncol=4, fontsize=7, frameon=False)
+    # the legend lists only what is drawn (no ellipse without a covariance)
+    handles = [Line2D([], [], marker="o", ls="", mfc="white", mec=OBSERVED_COLOUR,
+                      label="observed pole")]
+    if drawn.get("observed"):
+        handles.append(Line2D([], [], color=OBSERVED_COLOUR, ls="--",
+                              label="its 95 % ellipse (covariance)"))
+    handles.append(Line2D([], [], marker="^", ls="", color=PREDICTED_COLOUR,
+                          label="predicted pole"))
+    if drawn.get("predicted"):
+        handles.append(Line2D([], [], color=PREDICTED_COLOUR,
+                              label=f"its 95 % ellipse ({what})"))
+    ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.01),
+              ncol=len(handles), fontsize=7, frameon=False)
     caption(fig, "Observed and predicted Euler poles in the frame where the mantle is at "
             "rest; below, each plate's poles zoomed (north up; corner: the box's half-width "
             "in degrees).")
