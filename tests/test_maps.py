@@ -255,3 +255,24 @@ def test_the_plates_map_caption_says_only_what_is_drawn(tmp_path, monkeypatch):
     monkeypatch.setattr(world_maps, "caption", lambda fig, text: said.append(text))
     world_maps.plates_map(voronoi_world(6, 1), tmp_path / "p.png")
     assert "hatched" not in said[0] and "teeth" not in said[0]
+
+
+def test_the_poles_map_zooms_on_the_worst_fitted_plates_only(tmp_path, monkeypatch):
+    # a 52-plate model's 52 zooms filled two thirds of the figure: at most MAX_ZOOMS, the
+    # plates whose poles lie farthest apart, and the caption says so (common practice,
+    # no source)
+    from torque.present.maps import world_maps
+    from torque.results import FitResult, PlateResult, Pole
+    from .worlds import voronoi_world
+    world = voronoi_world(20, 4)
+    plates = tuple(PlateResult(n, Pole(10.0, 20.0 + i, 1.0), Pole(12.0, 25.0 + i, 1.0),
+                               float(i), 1.0, 0.0, (0.0, 0.0, 0.0), {}, None, None, None)
+                   for i, n in enumerate(world.plate_names))
+    said = []
+    monkeypatch.setattr(world_maps, "caption", lambda fig, text: said.append(
+        (text, [a.get_title() for a in fig.axes[1:]])))
+    world_maps.poles_map(world, tmp_path / "p.png", FitResult("h", {}, plates))
+    text, titles = said[0]
+    assert len(titles) == world_maps.MAX_ZOOMS
+    assert set(titles) == {p.plate for p in plates[-world_maps.MAX_ZOOMS:]}
+    assert f"{world_maps.MAX_ZOOMS} of 20 plates" in text

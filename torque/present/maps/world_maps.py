@@ -31,7 +31,10 @@ from .style import (
     place_labels,
 )
 
-__all__ = ["plates_map", "velocity_map", "poles_map", "misfit_map"]
+__all__ = ["MAX_ZOOMS", "plates_map", "velocity_map", "poles_map", "misfit_map"]
+
+#: The most plates the poles map zooms on (a world of more: the worst-fitted).
+MAX_ZOOMS = 14
 
 
 # ----------------------------------------------------------------------------------------
@@ -152,8 +155,9 @@ def _ellipse_lonlat(lat, lon, major_deg, minor_deg, azimuth_deg, n=72):
 def poles_map(world, path, fit):
     """Observed and predicted Euler poles with their 95 % ellipses, on the globe and zoomed.
 
-    The top panel shows every pole on the globe; below it, one small panel per plate,
-    centred between its two poles in local azimuthal coordinates (degrees of arc east and
+    The top panel shows every pole on the globe; below it, one small panel per plate (at
+    most :data:`MAX_ZOOMS`: for more plates, those whose poles lie farthest apart, which the
+    caption names), centred between its two poles in local azimuthal coordinates (degrees of arc east and
     north), shows both ellipses at a scale where they are visible however small. The
     predicted pole's ellipse is the prediction ellipse (coefficients and observations'
     covariance together: where the observed pole should lie if the model is right) where
@@ -174,10 +178,13 @@ def poles_map(world, path, fit):
     from matplotlib.lines import Line2D
     plt = _plt()
     plates = list(fit.plates)
+    # the zooms: every plate of a small world, else the worst-fitted (poles farthest apart)
+    zoomed = (plates if len(plates) <= MAX_ZOOMS else
+              sorted(plates, key=lambda p: -(p.pole_distance_deg or 0.0))[:MAX_ZOOMS])
     predicted_key = ("prediction_ellipse" if any(p.prediction_ellipse for p in plates)
                      else "pole_ellipse")
-    ncol = min(7, max(len(plates), 1))
-    nrow = -(-len(plates) // ncol)
+    ncol = min(7, max(len(zoomed), 1))
+    nrow = -(-len(zoomed) // ncol)
     width, height = figure_size(len(plates))
     fig = plt.figure(figsize=(width, height + 1.6 * nrow), dpi=DPI)
     grid = fig.add_gridspec(1 + nrow, ncol, height_ratios=[6] + [1.6] * nrow, hspace=0.3,
@@ -214,7 +221,7 @@ def poles_map(world, path, fit):
     place_labels(ax, [p.predicted.lon for p in plates],
                  [p.predicted.lat for p in plates], [p.plate for p in plates],
                  label_size(len(plates)) - 1, obstacles=markers)
-    for i, p in enumerate(plates):
+    for i, p in enumerate(zoomed):
         _pole_zoom(fig.add_subplot(grid[1 + i // ncol, i % ncol]), p, styles)
     what = ("prediction: coefficients and observations" if predicted_key == "prediction_ellipse"
             else "coefficients")
@@ -231,9 +238,12 @@ def poles_map(world, path, fit):
                               label=f"its 95 % ellipse ({what})"))
     ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.01),
               ncol=len(handles), fontsize=7, frameon=False)
+    which = ("each plate's poles" if len(zoomed) == len(plates) else
+             f"the poles of the {len(zoomed)} of {len(plates)} plates whose poles lie "
+             "farthest apart")
     caption(fig, "Observed and predicted Euler poles in the frame where the mantle is at "
-            "rest; below, each plate's poles zoomed (north up; corner: the box's half-width "
-            "in degrees).")
+            f"rest; below, {which} zoomed (north up; corner: the box's half-width in "
+            "degrees).")
     return _save(fig, path)
 
 
