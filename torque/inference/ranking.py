@@ -75,7 +75,6 @@ from ..errors import InputError, TorqueError
 from ..results import RankRow
 from ..tabular import html_table
 from .analysis import analyse
-from ..euler import M_S_TO_MM_YR
 from .covariance import covariance_blocks, jittered_cholesky
 from .solvers import (
     fit_torque,
@@ -84,7 +83,12 @@ from .solvers import (
     on_one_blas_thread,
     predict,
 )
-from .statistics import chi_bar_square_weights, f_test, likelihood_ratio_test
+from .statistics import (
+    chi_bar_square_weights,
+    f_test,
+    likelihood_ratio_test,
+    velocity_misfit,
+)
 from .system import System
 
 __all__ = ["RULES", "ALPHA", "Ranking", "cross_validation_errors", "cross_validation",
@@ -149,9 +153,12 @@ class Ranking(list):
 
 
 def _left_out_residuals(system: System, omega_obs, weighting="velocity",
-                        fit: str = "velocity", obs_cov=None, free_frame: bool = False):
+                        fit: str = "velocity", obs_cov=None, free_frame: bool = False,
+                        full=None):
     """Each plate's residual ``w_pred + frame - w_obs`` (P, 3) when left out of the fit,
-    rad/s; NaN everywhere if a refit fails (see :func:`cross_validation_errors`)."""
+    rad/s; NaN everywhere if a refit fails (see :func:`cross_validation_errors`). ``full``
+    is the velocity-space fit to all plates with the same frame and covariance, if already
+    made (the refits start from it)."""
     P = system.n_plates
     omega_obs = np.asarray(omega_obs, float)
     keeps = [np.r_[0:p, p + 1:P] for p in range(P)]
@@ -159,19 +166,16 @@ def _left_out_residuals(system: System, omega_obs, weighting="velocity",
     if free_frame and fit != "velocity":
         raise ValueError("cross-validation with a free frame refits it: fit='velocity'")
     try:
-        full = None
-        if free_frame:
-            full = fit_velocity(system, omega_obs, None, True, obs_cov=obs_cov)
-        mantle = omega_obs if full is None else omega_obs - full.frame_rotation
+        if full is None and (free_frame or fit == "velocity"):
+            full = fit_velocity(system, omega_obs, fit_torque(system, omega_obs, weighting),
+                                free_frame, obs_cov=obs_cov)
+        mantle = omega_obs - full.frame_rotation if free_frame else omega_obs
         # the torque-space refits, which also refuse what the data cannot separate
         values = np.array([fit_torque(system, mantle, weighting, plates=k).values
                            for k in keeps])
         frames = np.zeros((P, 3))
         if fit == "velocity":
-            start = full or fit_velocity(system, omega_obs,
-                                         fit_torque(system, omega_obs, weighting),
-                                         obs_cov=obs_cov)
-            got = fit_velocity_many(system, omega_obs, start, plates=keeps,
+            got = fit_velocity_many(system, omega_obs, full, plates=keeps,
                                     obs_cov=obs_cov, free_frame=free_frame)
             values, frames = got if free_frame else (got, frames)
             if np.isnan(values).any():
@@ -353,7 +357,9 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
             b.set_postfix_str(s.name, refresh=False)
             rep = analyse(s, omega_obs, weighting, free_frame=free_frame, obs_cov=obs_cov)
             observed = rep.frame["observed_frame"] if free_frame else rep.omega_obs
-            dw = _left_out_residuals(s, observed, weighting, fit, obs_cov, free_frame)
+            # the refits start from the report's own fit to all plates (not made again)
+            dw = _left_out_residuals(s, observed, weighting, fit, obs_cov, free_frame,
+                                     rep.preferred)
             errors[s.name] = _scores(s, dw, None)
             if chi:
                 chis[s.name] = _scores(s, dw, obs_cov)
@@ -408,8 +414,7 @@ def rank(systems, omega_obs, weighting="velocity", free_frame: bool = False,
 def _scores(system, dw, obs_cov):
     """Left-out scores of residuals ``dw``: squared RMS velocities, or chi-squares."""
     if obs_cov is None:
-        per = np.einsum("pi,pij,pj->p", dw, system.D, dw)
-        return (system.radius_m * M_S_TO_MM_YR) ** 2 * per / system.area
+        return velocity_misfit(system, dw, np.zeros_like(dw))[0] ** 2
     z = np.linalg.solve(jittered_cholesky(covariance_blocks(obs_cov)), dw[..., None])[..., 0]
     return np.einsum("pi,pi->p", z, z)
 
